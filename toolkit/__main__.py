@@ -1,0 +1,5 @@
+"""``python -m toolkit`` runs the command line."""
+
+from toolkit.cli import console
+
+console()

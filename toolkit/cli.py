@@ -1,0 +1,108 @@
+"""The ``counterpoise`` command line: a thin layer over the library.
+
+``main(argv) -> int`` parses the arguments, runs one subcommand and returns the exit status:
+0 done; 1 done and the rotor is out of tolerance (where the command checks one); 2 bad input or an
+infeasible request, with one line on stderr. Tests call ``main`` directly.
+
+Each subcommand lives in a module of ``toolkit.commands`` that defines ``configure(parser)`` (adds the
+options and sets ``run``) and imports nothing heavy at module level: numpy and pint are imported by the
+commands that compute, openpyxl and reportlab by the exporters, so ``--help`` stays fast.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import os
+import sys
+
+from toolkit.errors import CounterpoiseError
+
+#: Subcommands in the order ``--help`` lists them: name, module, one-line help.
+COMMANDS: tuple[tuple[str, str, str], ...] = (
+    ("demo", "toolkit.commands.workorders", "run the whole chain on the built-in invented demo rotor and "
+                                            "write its work order"),
+    ("order", "toolkit.commands.workorders", "turn a job file into work-order files (.xlsx, .pdf)"),
+    ("batch", "toolkit.commands.workorders", "turn a planner sheet (.xlsx or .csv) into work orders for "
+                                             "every rotor"),
+    ("grades", "toolkit.commands.tolerances", "list the balance quality grades (ISO 21940-11)"),
+    ("tolerance", "toolkit.commands.tolerances", "permissible residual unbalance for the rotor and for "
+                                                 "each plane"),
+    ("verify", "toolkit.commands.tolerances", "residual unbalance from a test mass set at several angles"),
+    ("solve", "toolkit.commands.corrections", "corrections from trial-mass runs (influence coefficients)"),
+    ("split", "toolkit.commands.corrections", "split one correction onto fixed positions"),
+    ("drill", "toolkit.commands.fabrication", "holes that remove a given unbalance"),
+    ("plate", "toolkit.commands.fabrication", "a weld-on plate that adds a given unbalance"),
+    ("washers", "toolkit.commands.fabrication", "a stack of standard washers that adds a given unbalance"),
+    ("materials", "toolkit.commands.fabrication", "list materials with densities and sources"),
+)
+
+
+class _Parser(argparse.ArgumentParser):
+    """An argument parser whose errors are one line on stderr and exit status 2."""
+
+    def error(self, message: str):  # noqa: D401 - argparse API
+        self.exit(2, f"{self.prog}: error: {message}\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    from toolkit import __version__
+
+    parser = _Parser(
+        prog="counterpoise",
+        description="Rotor balancing for the shop floor: tolerances, corrections, drilling, plates, "
+                    "washers and work orders. Quantities take units (\"412 kg\"); vectors are "
+                    "AMOUNT@ANGLE (\"38 g@210\").",
+        epilog="Exit status: 0 done; 1 done but out of tolerance; 2 bad input or infeasible request.",
+    )
+    parser.add_argument("--version", action="version", version=f"counterpoise {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    sub.required = True
+    modules: dict[str, object] = {}
+    for name, module_name, help_text in COMMANDS:
+        module = modules.get(module_name) or importlib.import_module(module_name)
+        modules[module_name] = module
+        configure = getattr(module, "configure_" + name, None)
+        if configure is None:  # a subcommand whose module does not provide it yet
+            continue
+        command = sub.add_parser(name, help=help_text, description=help_text[:1].upper() + help_text[1:] + ".")
+        configure(command)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run the command line with ``argv`` (default ``sys.argv[1:]``); return the exit status."""
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # --help, --version, or a usage error already printed
+        return int(exc.code or 0) if not isinstance(exc.code, str) else 2
+    try:
+        return int(args.run(args) or 0)
+    except CounterpoiseError as exc:
+        print(f"counterpoise {args.command}: error: {_one_line(exc)}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print(f"counterpoise {args.command}: interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return 0
+    except Exception as exc:  # a bug: still one line, never a traceback, unless asked for
+        if os.environ.get("COUNTERPOISE_DEBUG"):
+            raise
+        print(f"counterpoise {args.command}: internal error ({type(exc).__name__}: {_one_line(exc)}); "
+              "set COUNTERPOISE_DEBUG=1 for details and please report it", file=sys.stderr)
+        return 3
+
+
+def _one_line(exc: BaseException) -> str:
+    return " ".join(str(exc).split()) or type(exc).__name__
+
+
+def console() -> None:
+    """Entry point of the ``counterpoise`` script."""
+    sys.exit(main())
+
+
+if __name__ == "__main__":  # pragma: no cover
+    console()

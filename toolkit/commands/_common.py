@@ -1,0 +1,49 @@
+"""Helpers shared by the subcommands: common options and output.
+
+The library never prints; the commands print exactly one JSON object with ``--json``, or text otherwise.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+
+__all__ = ["add_json", "add_units", "add_force", "emit", "print_text"]
+
+
+def add_json(parser) -> None:
+    parser.add_argument("--json", action="store_true", help="print one JSON object on stdout instead of text")
+
+
+def add_units(parser) -> None:
+    parser.add_argument("--units", default="metric", metavar="SYSTEM",
+                        help="units of the printed results: metric (g·mm, g, mm, kg) or imperial "
+                             "(oz·in, oz, in, lb); default metric")
+
+
+def add_force(parser) -> None:
+    parser.add_argument("--force", action="store_true", help="overwrite output files that already exist")
+
+
+def _clean(value):
+    """Make a result JSON-safe: finite floats only (NaN/inf become null), tuples as lists."""
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {str(k): _clean(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_clean(v) for v in value]
+    return value
+
+
+def emit(as_json: bool, data: dict, text: str | None = None) -> None:
+    """Print ``data`` as one JSON object (``as_json``) or ``text`` (or a plain rendering of ``data``)."""
+    if as_json:
+        sys.stdout.write(json.dumps(_clean(data), indent=2, ensure_ascii=False) + "\n")
+    else:
+        print_text(text if text is not None else "\n".join(f"{k}: {v}" for k, v in data.items()))
+
+
+def print_text(text: str) -> None:
+    sys.stdout.write(text.rstrip("\n") + "\n")

@@ -1,0 +1,1 @@
+"""Subcommands solve, split."""

@@ -1,0 +1,1 @@
+"""Subcommands drill, plate, washers, materials."""

@@ -1,0 +1,1 @@
+"""Subcommands grades, tolerance, verify."""

@@ -1,0 +1,1 @@
+"""Subcommands demo, order, batch."""

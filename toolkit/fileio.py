@@ -1,0 +1,125 @@
+"""Safe output files: atomic writes, no silent overwrite, file names that stay inside their folder.
+
+Every file Counterpoise writes goes through :func:`write_atomic`: the content is written to a temporary file
+in the target folder, flushed to disk and renamed into place, so an interrupted write leaves the old file or
+none, never half a file. An existing file is replaced only with ``force=True``.
+"""
+
+from __future__ import annotations
+
+import errno
+import os
+import re
+import tempfile
+import unicodedata
+from pathlib import Path
+from typing import Callable, BinaryIO
+
+from toolkit.errors import OutputError
+
+__all__ = ["write_atomic", "check_writable", "safe_filename"]
+
+_REASONS = {
+    errno.ENOSPC: "the disk is full",
+    errno.EDQUOT: "the disk quota is exceeded",
+    errno.EROFS: "the file system is read-only",
+    errno.EACCES: "permission denied",
+    errno.EPERM: "permission denied",
+    errno.ENOENT: "the folder does not exist",
+    errno.ENOTDIR: "a part of the path is not a folder",
+}
+
+
+def _reason(exc: OSError) -> str:
+    return _REASONS.get(exc.errno, exc.strerror or str(exc))
+
+
+def check_writable(path: str | Path, force: bool = False) -> Path:
+    """Raise :class:`OutputError` if ``path`` exists and ``force`` is false, or if its folder cannot take a
+    new file. Returns the path."""
+    path = Path(path)
+    if path.exists() and not force:
+        raise OutputError(f"{path} already exists; give --force to overwrite it")
+    if path.is_dir():
+        raise OutputError(f"{path} is a folder, not a file")
+    return path
+
+
+def write_atomic(path: str | Path, data: bytes | str | Callable[[BinaryIO], None], *,
+                 force: bool = False) -> Path:
+    """Write ``data`` (bytes, text, or a function that writes to a binary file object) to ``path``
+    atomically.
+
+    The folder is created if missing. With ``force=False`` an existing file is never replaced (checked
+    again just before the rename). Any OS error becomes an :class:`OutputError` with a one-line reason, and
+    the temporary file is removed.
+    """
+    path = check_writable(path, force)
+    folder = path.parent if str(path.parent) else Path(".")
+    tmp_name = None
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        fd, tmp_name = tempfile.mkstemp(dir=folder, prefix=f".{path.name}.", suffix=".tmp")
+        with os.fdopen(fd, "wb") as handle:
+            if callable(data):
+                data(handle)
+            else:
+                handle.write(data.encode("utf-8") if isinstance(data, str) else data)
+            handle.flush()
+            os.fsync(handle.fileno())
+        if force:
+            os.replace(tmp_name, path)
+        else:
+            # link fails if the name appeared meanwhile: never overwrite without --force
+            try:
+                os.link(tmp_name, path)
+            except FileExistsError:
+                raise OutputError(f"{path} already exists; give --force to overwrite it") from None
+            except OSError:
+                if path.exists():
+                    raise OutputError(f"{path} already exists; give --force to overwrite it") from None
+                os.replace(tmp_name, path)
+            else:
+                os.unlink(tmp_name)
+        tmp_name = None
+        os.chmod(path, 0o644 & ~_umask())
+    except OutputError:
+        raise
+    except OSError as exc:
+        raise OutputError(f"cannot write {path}: {_reason(exc)}") from None
+    finally:
+        if tmp_name is not None:
+            try:
+                os.unlink(tmp_name)
+            except OSError:
+                pass
+    return path
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
+_UNSAFE = re.compile(r"[^A-Za-z0-9._-]+")
+
+
+def safe_filename(text: str, default: str = "order", max_length: int = 80) -> str:
+    """A file name made from user text (an order number) that cannot leave its folder.
+
+    Letters are folded to ASCII, anything but letters, digits, ``.``, ``_`` and ``-`` becomes ``_``, leading
+    dots are removed (no hidden files, no ``..``), and the result is cut to ``max_length``.
+
+    >>> safe_filename("WO 2026/117"), safe_filename("../../etc/passwd"), safe_filename("..")
+    ('WO_2026_117', 'etc_passwd', 'order')
+    """
+    folded = unicodedata.normalize("NFKD", str(text)).encode("ascii", "ignore").decode("ascii")
+    name = _UNSAFE.sub("_", folded).strip("._-")
+    name = re.sub(r"\.{2,}", ".", name)[:max_length].strip("._-")
+    if not name or name.upper() in _RESERVED:
+        return default
+    return name
+
+
+_RESERVED = {"CON", "PRN", "AUX", "NUL", *(f"COM{i}" for i in range(1, 10)), *(f"LPT{i}" for i in range(1, 10))}

@@ -1,0 +1,324 @@
+"""Units: the one pint registry of the package, parsing, dimension checks and output systems.
+
+Everything that crosses the public boundary of Counterpoise is a pint quantity or a string such as
+``"412 kg"``, ``"1480 rpm"``, ``"3.5 oz*in"``, ``"6350 g*mm"``. A bare number where a unit matters is refused
+with a message that names the kind of unit expected. Inside the numeric kernels the code works on plain
+floats (or numpy arrays) in fixed units; :func:`magnitude` converts once at the boundary.
+
+The registry is built once, lazily, with pint's disk cache in a folder of its own for each Python
+environment (so two virtual environments with different pint versions never share a cache). If the cache
+folder cannot be created, is unwritable, or holds something pint cannot read, the registry is built without
+a cache: slower to start, never broken.
+
+Speeds: shops write ``rpm`` or ``r/min``. pint treats ``Hz`` as 1/s, so ``50 Hz`` converted naively to rpm
+would give 477 rpm instead of 3000 rpm. :func:`speed_rpm` reads a speed without an angle unit (``Hz``,
+``1/s``, ``1/min``) as revolutions per that time, which is what a shop means.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import os
+import re
+import sys
+from dataclasses import dataclass
+from pathlib import Path
+
+from toolkit.errors import BadInput
+
+__all__ = [
+    "registry",
+    "Q_",
+    "quantity",
+    "magnitude",
+    "speed_rpm",
+    "KINDS",
+    "UnitSystem",
+    "METRIC",
+    "IMPERIAL",
+    "unit_system",
+    "format_number",
+    "format_quantity",
+    "cache_folder",
+]
+
+_REGISTRY = None
+
+
+def cache_folder() -> Path:
+    """The per-environment folder for pint's registry cache.
+
+    ``COUNTERPOISE_CACHE_DIR`` overrides the base folder; otherwise ``$XDG_CACHE_HOME/counterpoise`` or
+    ``~/.cache/counterpoise``. The last part is a hash of the interpreter prefix and the pint version, so
+    each environment has its own cache.
+    """
+    import pint
+
+    base = os.environ.get("COUNTERPOISE_CACHE_DIR")
+    if not base:
+        xdg = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+        base = os.path.join(xdg, "counterpoise")
+    tag = f"{sys.prefix}|{sys.version_info[:2]}|{pint.__version__}"
+    return Path(base) / ("pint-" + hashlib.sha256(tag.encode()).hexdigest()[:16])
+
+
+def _build_registry():
+    import pint
+
+    if os.environ.get("COUNTERPOISE_NO_CACHE"):
+        return pint.UnitRegistry()
+    try:
+        folder = cache_folder()
+        folder.mkdir(parents=True, exist_ok=True)
+        if not os.access(folder, os.W_OK | os.X_OK):
+            raise PermissionError(folder)
+        return pint.UnitRegistry(cache_folder=folder)
+    except Exception:  # a broken, unwritable or stale cache must never stop a command
+        return pint.UnitRegistry()
+
+
+def registry():
+    """The package's one pint ``UnitRegistry`` (built on first use)."""
+    global _REGISTRY
+    if _REGISTRY is None:
+        _REGISTRY = _build_registry()
+    return _REGISTRY
+
+
+def Q_(value, unit):  # noqa: N802 - pint's own idiom
+    """Build a quantity from a magnitude and a unit string, without parsing a whole expression."""
+    return registry().Quantity(value, unit)
+
+
+@dataclass(frozen=True)
+class Kind:
+    """A kind of quantity: its pint dimensionality, the unit the kernels use, and an example for
+    messages."""
+
+    name: str
+    dimensionality: str
+    kernel_unit: str
+    example: str
+
+
+#: The kinds of quantity the toolkit accepts, by name. ``kernel_unit`` is the unit in which the numeric
+#: kernels work for that kind.
+KINDS: dict[str, Kind] = {
+    k.name: k
+    for k in (
+        Kind("mass", "[mass]", "kg", "412 kg"),
+        Kind("length", "[length]", "mm", "150 mm"),
+        Kind("speed", "1/[time]", "rpm", "1480 rpm"),
+        Kind("unbalance", "[mass]*[length]", "g*mm", "2400 g*mm"),
+        Kind("density", "[mass]/[length]**3", "kg/m**3", "7850 kg/m^3"),
+        Kind("vibration velocity", "[length]/[time]", "mm/s", "4.2 mm/s"),
+        Kind("displacement", "[length]", "um", "12 um"),
+        Kind("acceleration", "[length]/[time]**2", "m/s**2", "3 m/s^2"),
+        Kind("grade", "[length]/[time]", "mm/s", "6.3 mm/s"),
+        Kind("specific unbalance", "[length]", "um", "20 um"),
+        Kind("force", "[force]", "N", "500 N"),
+    )
+}
+
+_REPLACEMENTS = (
+    (re.compile(r"(?<![A-Za-z])r\s*/\s*min\b"), "rpm"),
+    (re.compile(r"(?<![A-Za-z])r\s*/\s*s\b"), "rps"),
+    (re.compile(r"[·⋅×]"), "*"),
+    (re.compile("µ|μ"), "u"),
+    (re.compile(r"\bkg\s*/\s*m3\b"), "kg/m**3"),
+)
+
+
+def _normalise(text: str) -> str:
+    for pattern, repl in _REPLACEMENTS:
+        text = pattern.sub(repl, text)
+    return text
+
+
+def _is_bare_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
+
+
+def _kind(kind: str | Kind) -> Kind:
+    if isinstance(kind, Kind):
+        return kind
+    try:
+        return KINDS[kind]
+    except KeyError:
+        raise ValueError(f"unknown quantity kind {kind!r}; known: {', '.join(KINDS)}") from None
+
+
+def _check_finite(mag, name: str, shown) -> None:
+    try:
+        finite = math.isfinite(mag)
+    except TypeError:  # an array
+        import numpy as np
+
+        finite = bool(np.all(np.isfinite(mag)))
+    if not finite:
+        raise BadInput(f"{name}: {shown!r} is not a finite number")
+
+
+def quantity(value, kind: str | Kind, name: str = "value", *, positive: bool = False,
+             nonnegative: bool = False):
+    """Return ``value`` as a pint quantity of the given kind, or raise :class:`BadInput`.
+
+    ``value`` is a pint quantity or a string with its unit (``"412 kg"``). A bare number, a number given as a
+    string without unit, NaN, infinity, a wrong dimension or an unknown unit is refused with a message that
+    names ``name``, shows the value and gives an example of what is allowed.
+
+    >>> quantity("412 kg", "mass", "--mass")
+    <Quantity(412, 'kilogram')>
+    >>> quantity(412, "mass", "--mass")
+    Traceback (most recent call last):
+    ...
+    toolkit.errors.BadInput: --mass: 412 has no unit; give a mass with its unit, e.g. '412 kg'
+    """
+    k = _kind(kind)
+    ureg = registry()
+    if isinstance(value, ureg.Quantity):
+        q = value
+    elif isinstance(value, bool) or isinstance(value, (int, float)):
+        raise BadInput(f"{name}: {value!r} has no unit; give a {k.name} with its unit, e.g. '{k.example}'")
+    elif isinstance(value, str):
+        text = value.strip()
+        if not text:
+            raise BadInput(f"{name}: empty; give a {k.name} with its unit, e.g. '{k.example}'")
+        if len(text) > 200:
+            raise BadInput(f"{name}: value too long ({len(text)} characters); give a {k.name} such as "
+                           f"'{k.example}'")
+        if _is_bare_number(text):
+            raise BadInput(f"{name}: {text!r} has no unit; give a {k.name} with its unit, e.g. '{k.example}'")
+        try:
+            q = ureg.Quantity(_normalise(text))
+        except Exception:
+            raise BadInput(f"{name}: cannot read {text!r} as a {k.name}; write a number and a unit, "
+                           f"e.g. '{k.example}'") from None
+        if not isinstance(q, ureg.Quantity):
+            raise BadInput(f"{name}: {text!r} has no unit; give a {k.name} with its unit, e.g. '{k.example}'")
+    elif hasattr(value, "magnitude") and hasattr(value, "units"):
+        # a quantity from another registry: rebuild it in ours from its unit text
+        try:
+            q = ureg.Quantity(value.magnitude, str(value.units))
+        except Exception:
+            raise BadInput(f"{name}: unit {value.units!s} is not known; give a {k.name} such as "
+                           f"'{k.example}'") from None
+    else:
+        raise BadInput(f"{name}: {value!r} is not a quantity; give a {k.name} with its unit, "
+                       f"e.g. '{k.example}'")
+    try:
+        ok = q.check(k.dimensionality)
+    except Exception:
+        ok = False
+    if not ok:
+        shown = value if isinstance(value, str) else f"{q:~P}"
+        raise BadInput(f"{name}: {shown!r} is not a {k.name} ({q.dimensionality} given); give e.g. "
+                       f"'{k.example}'")
+    shown = value if isinstance(value, str) else q
+    _check_finite(q.magnitude, name, shown)
+    if positive or nonnegative:
+        import numpy as np
+
+        mag = np.asarray(q.magnitude)
+        if positive and np.any(mag <= 0):
+            raise BadInput(f"{name}: {shown!s} must be greater than zero")
+        if nonnegative and np.any(mag < 0):
+            raise BadInput(f"{name}: {shown!s} must not be negative")
+    return q
+
+
+def magnitude(value, kind: str | Kind, unit: str | None = None, name: str = "value", *,
+              positive: bool = False, nonnegative: bool = False):
+    """The magnitude of ``value`` in ``unit`` (default: the kind's kernel unit), after the checks of
+    :func:`quantity`. Works on scalar and array quantities alike.
+
+    >>> magnitude("3.5 oz*in", "unbalance", "g*mm")
+    2520.27260...
+    """
+    k = _kind(kind)
+    if k.name == "speed":
+        rpm = speed_rpm(value, name, positive=positive)
+        return rpm if unit in (None, "rpm") else Q_(rpm, "rpm").m_as(unit)
+    q = quantity(value, k, name, positive=positive, nonnegative=nonnegative)
+    return q.m_as(unit or k.kernel_unit)
+
+
+def speed_rpm(value, name: str = "speed", *, positive: bool = True):
+    """A rotational speed in revolutions per minute.
+
+    Units with an angle (``rpm``, ``rad/s``, ``deg/s``) are converted exactly; units of plain frequency
+    (``Hz``, ``1/s``, ``1/min``) are read as revolutions per second or per minute, as shops mean them.
+
+    >>> speed_rpm("1480 rpm"), speed_rpm("50 Hz"), round(speed_rpm("314.159 rad/s"), 1)
+    (1480.0, 3000.0, 3000.0)
+    """
+    q = quantity(value, "speed", name, positive=positive)
+    ureg = registry()
+    _factor, root = ureg.get_root_units(q.units)
+    if "radian" in root._units:
+        return q.m_as("rpm") * 1.0
+    return q.m_as("1/min") * 1.0
+
+
+@dataclass(frozen=True)
+class UnitSystem:
+    """The units in which results are shown."""
+
+    name: str
+    unbalance: str
+    mass: str
+    length: str
+    rotor_mass: str
+    density: str
+
+    def symbol(self, unit: str) -> str:
+        """The printed symbol of a unit string (``g*mm`` -> ``g·mm``)."""
+        return unit.replace("*", "·").replace("**3", "³").replace("um", "µm")
+
+
+METRIC = UnitSystem("metric", "g*mm", "g", "mm", "kg", "kg/m**3")
+IMPERIAL = UnitSystem("imperial", "oz*in", "oz", "in", "lb", "lb/in**3")
+
+
+def unit_system(name: str) -> UnitSystem:
+    """``"metric"`` or ``"imperial"``; anything else is refused.
+
+    >>> unit_system("imperial").unbalance
+    'oz*in'
+    """
+    text = str(name).strip().lower()
+    for system in (METRIC, IMPERIAL):
+        if text == system.name:
+            return system
+    raise BadInput(f"--units: {name!r} is not a unit system; use 'metric' or 'imperial'")
+
+
+def format_number(x: float, sig: int = 4) -> str:
+    """A number with ``sig`` significant figures in plain notation (no exponent for shop-sized values).
+
+    >>> format_number(2005.35), format_number(0.0201234), format_number(38.0), format_number(0)
+    ('2005', '0.02012', '38.00', '0')
+    """
+    if x == 0 or not math.isfinite(x):
+        return "0" if x == 0 else str(x)
+    exponent = math.floor(math.log10(abs(x)))
+    if exponent >= 7 or exponent <= -6:
+        return f"{x:.{sig - 1}e}"
+    decimals = max(0, sig - 1 - exponent)
+    return f"{x:.{decimals}f}"
+
+
+def format_quantity(value, unit: str, sig: int = 4) -> str:
+    """A quantity (or a magnitude already in ``unit``) printed with its unit symbol.
+
+    >>> format_quantity(Q_(1, "oz*in"), "g*mm")
+    '720.1 g·mm'
+    """
+    ureg = registry()
+    mag = value.m_as(unit) if isinstance(value, ureg.Quantity) else float(value)
+    return f"{format_number(mag, sig)} {METRIC.symbol(unit)}"
