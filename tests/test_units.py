@@ -1,0 +1,158 @@
+"""Units: parsing, dimension checks, the speed reading, output systems and the registry cache."""
+
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from hypothesis import given, strategies as st
+
+from toolkit import BadInput
+from toolkit import units
+from toolkit.units import Q_, magnitude, quantity, speed_rpm
+
+
+# Conversion factors from the definitions of the international inch and avoirdupois ounce and pound.
+def test_ounce_inch_in_gram_millimetre():
+    # 1 oz = 28.349523125 g, 1 in = 25.4 mm (international definitions, 1959) -> 720.0779 g*mm
+    assert magnitude("1 oz*in", "unbalance", "g*mm") == pytest.approx(720.0779, rel=1e-6)
+
+
+def test_pound_in_kilogram():
+    # 1 lb = 0.45359237 kg exactly (international yard and pound agreement, 1959)
+    assert magnitude("1 lb", "mass", "kg") == pytest.approx(0.45359237, rel=1e-12)
+
+
+@pytest.mark.parametrize("text, kind, unit, expected", [
+    ("412 kg", "mass", "kg", 412.0),
+    ("1480 rpm", "speed", None, 1480.0),
+    ("3.5 oz*in", "unbalance", "g*mm", 3.5 * 720.077887375),
+    ("6350 g*mm", "unbalance", "g*mm", 6350.0),
+    ("6350 g·mm", "unbalance", "g*mm", 6350.0),
+    ("12 µm", "displacement", "um", 12.0),
+    ("7850 kg/m^3", "density", "kg/m**3", 7850.0),
+    ("7850 kg/m3", "density", "kg/m**3", 7850.0),
+])
+def test_parse_accepted_forms(text, kind, unit, expected):
+    assert magnitude(text, kind, unit) == pytest.approx(expected, rel=1e-12)
+
+
+@pytest.mark.parametrize("text, expected", [
+    ("1480 rpm", 1480.0),
+    ("1480 r/min", 1480.0),
+    ("50 Hz", 3000.0),      # a shop's 50 Hz is 50 revolutions per second
+    ("50 1/s", 3000.0),
+    ("25 r/s", 1500.0),
+    ("314.1592653589793 rad/s", 3000.0),
+])
+def test_speed_reads_frequency_as_revolutions(text, expected):
+    assert speed_rpm(text) == pytest.approx(expected, rel=1e-12)
+
+
+@pytest.mark.parametrize("value, message", [
+    (412, r"--mass: 412 has no unit; give a mass with its unit, e\.g\. '412 kg'"),
+    ("412", r"--mass: '412' has no unit; give a mass"),
+    ("", r"--mass: empty; give a mass"),
+    ("412 furlongs", r"--mass: '412 furlongs' is not a mass"),
+    ("412 m", r"--mass: '412 m' is not a mass"),
+    ("412 kgg", r"--mass: cannot read '412 kgg' as a mass"),
+    ("nan kg", r"--mass: 'nan kg' is not a finite number"),
+    ("inf kg", r"--mass: 'inf kg' is not a finite number"),
+    ("-5 kg", r"--mass: -5 kg must be greater than zero"),
+    ("0 kg", r"--mass: 0 kg must be greater than zero"),
+    ("x" * 300, r"--mass: value too long"),
+    (None, r"--mass: None is not a quantity"),
+])
+def test_refusals_name_the_option_and_what_to_give(value, message):
+    with pytest.raises(BadInput, match=message):
+        quantity(value, "mass", "--mass", positive=True)
+
+
+def test_quantity_objects_pass_through_and_keep_units():
+    q = Q_(3.5, "lb")
+    assert quantity(q, "mass", "m") is q
+
+
+@given(st.floats(min_value=1e-3, max_value=1e6, allow_nan=False))
+def test_unit_invariance_of_parsing(x):
+    # the same unbalance in oz*in and g*mm gives the same magnitude (1 oz*in = 720.077887375 g*mm)
+    a = magnitude(f"{x} oz*in", "unbalance", "g*mm")
+    b = magnitude(f"{x * 720.077887375} g*mm", "unbalance", "g*mm")
+    assert a == pytest.approx(b, rel=1e-12)
+
+
+def test_arrays_convert_once():
+    import numpy as np
+
+    masses = Q_(np.array([1.0, 2.0, 3.0]), "lb")
+    assert magnitude(masses, "mass", "kg") == pytest.approx([0.45359237, 0.90718474, 1.36077711])
+    with pytest.raises(BadInput, match="must be greater than zero"):
+        magnitude(Q_(np.array([1.0, -2.0]), "kg"), "mass", "kg", positive=True)
+    with pytest.raises(BadInput, match="not a finite number"):
+        magnitude(Q_(np.array([1.0, np.nan]), "kg"), "mass", "kg")
+
+
+def test_unit_system_names():
+    assert units.unit_system("Metric") is units.METRIC
+    with pytest.raises(BadInput, match="--units: 'si' is not a unit system; use 'metric' or 'imperial'"):
+        units.unit_system("si")
+
+
+def test_one_registry_in_the_whole_package():
+    # STYLE.md: no UnitRegistry( anywhere but toolkit/units.py
+    import toolkit
+
+    root = Path(toolkit.__file__).parent
+    offenders = [p for p in root.rglob("*.py")
+                 if p.name != "units.py" and "UnitRegistry(" in p.read_text(encoding="utf-8")]
+    assert offenders == []
+
+
+def _run_python(code, env):
+    full = dict(os.environ, **env)
+    return subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=full, timeout=120)
+
+
+CODE = "from toolkit.units import magnitude; print(magnitude('1 oz*in', 'unbalance', 'g*mm'))"
+
+
+def test_cache_folder_is_per_environment(tmp_path):
+    out = _run_python("from toolkit.units import cache_folder; print(cache_folder())",
+                      {"COUNTERPOISE_CACHE_DIR": str(tmp_path)})
+    folder = Path(out.stdout.strip())
+    assert folder.parent == tmp_path and folder.name.startswith("pint-")
+
+
+@pytest.mark.parametrize("breakage", ["garbage", "unwritable", "file-in-the-way"])
+def test_broken_cache_still_works(tmp_path, breakage):
+    base = tmp_path / "cache"
+    # first run fills the cache
+    assert _run_python(CODE, {"COUNTERPOISE_CACHE_DIR": str(base)}).returncode == 0
+    folder = next(base.iterdir())
+    if breakage == "garbage":
+        for path in folder.rglob("*"):
+            if path.is_file():
+                path.write_bytes(b"\x00not a pickle\xff" * 10)
+    elif breakage == "unwritable":
+        os.chmod(folder, 0o500)
+    else:
+        import shutil
+
+        shutil.rmtree(folder)
+        folder.write_text("a file where the cache folder should be")
+    try:
+        out = _run_python(CODE, {"COUNTERPOISE_CACHE_DIR": str(base)})
+    finally:
+        if folder.is_dir():
+            os.chmod(folder, 0o700)
+    assert out.returncode == 0, out.stderr
+    assert float(out.stdout) == pytest.approx(720.0779, rel=1e-6)
+
+
+def test_format_number_keeps_significant_figures():
+    assert units.format_number(2005.35) == "2005"
+    assert units.format_number(15.9155) == "15.92"
+    assert units.format_number(-0.5) == "-0.5000"
+    assert units.format_number(float("nan")) == "nan"
+    assert units.format_number(2.5e9) == "2.500e+09"
