@@ -1,0 +1,861 @@
+"""Corrections from trial-mass runs: influence-coefficient solvers.
+
+Sources (DOMAIN.md section 2):
+
+* one plane, one trial run: influence coefficient α = (OT − O)/T, correction W = −O/α (add W); with the
+  trial left on, add W − T. The standard trial-mass procedure credited to Thearle, Trans. ASME 1934
+  (citation details from memory) [S, M].
+* any sequence of runs, any number of planes and sensors: the readings of run k are V_k = O + A·U_k with U_k
+  the trial masses on the rotor during that run, which is linear in [O A]; solved by least squares
+  (X. Yu, Int. J. Rotating Machinery 10:85–90, 2004, general formulation) [S; algebra D].
+* correction for many sensors and speeds: minimise ‖w ∘ (O + A·W)‖ with per-point weights w (Goodman,
+  ASME J. Eng. Ind. 86:273–277, 1964) [S], solved with numpy's SVD-based ``lstsq`` (never the normal
+  equations); a min-max option minimises the largest weighted residual (Lawson's iteratively reweighted
+  least squares, D); per-plane mass limits add the penalty λ‖S⁻¹W‖ with the smallest λ that keeps every
+  plane within its limit (D).
+* amplitude only, original plus three or more trial positions: A_k² − A0² = p + 2c cos θ_k + 2s sin θ_k,
+  correction m_t·A0/√p at 180° + atan2(s, c), consistency κ = √(c² + s²)/(A0 √p) [D; graphical form in
+  McMillan, *Rotating Machinery: Practical Solutions to Unbalance and Misalignment*, ch. 6].
+* trial-mass size: centrifugal force of the trial about 10 % of the static load on the nearer bearing
+  [CP, M]; the fraction is a parameter.
+
+**Angle senses.** Weight angles are measured with or against the direction of rotation; the instrument
+reports phase as lag or lead. Phase lag grows in the same sense as angles measured against rotation, so
+(against, lag) and (with, lead) agree; for the other two pairs the readings are conjugated before solving,
+otherwise the right mass lands at the mirror-image angle [D]. Both senses are always declared, never
+assumed: :func:`conjugate_needed`.
+
+Units: trial and correction masses in grams at the plane's correction radius; readings in one kind
+(mm/s, µm or m/s²); influence coefficients in reading unit per gram.
+
+Safety: trial masses spin with the rotor. Secure them, keep guards closed and people clear of the plane
+of rotation, and follow the rotor maker's instructions, local codes and licensed practice
+(:data:`CAUTIONS`).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from toolkit.errors import BadInput
+from toolkit.vectors import parse_angle, parse_reading, polar, to_complex
+
+__all__ = [
+    "CAUTIONS", "Settings", "Run", "RunSet", "Correction", "Solution", "AmplitudeSolution",
+    "TrialSuggestion", "conjugate_needed", "runs_from_dict", "load_runs", "solve_runs", "solve_one_plane",
+    "fit_influence", "correct", "four_run", "suggest_trial_mass", "METHODS",
+]
+
+#: Cautions every output of this module carries (DOMAIN.md section 4).
+CAUTIONS = (
+    "Secure trial and correction masses before every run; a loose mass leaves the rotor at speed.",
+    "Keep guards closed and people clear of the plane of rotation during runs.",
+    "Follow the rotor maker's instructions, local codes and licensed practice; these figures do not "
+    "replace them.",
+)
+
+_WEIGHT_SENSES = {"with": "with rotation", "with rotation": "with rotation",
+                  "against": "against rotation", "against rotation": "against rotation"}
+_PHASE_SENSES = {"lag": "lag", "phase lag": "lag", "lead": "lead", "phase lead": "lead"}
+
+
+def _weight_sense(value, name: str = "weight_angles") -> str:
+    key = " ".join(str(value).strip().lower().split())
+    if key not in _WEIGHT_SENSES:
+        raise BadInput(f"{name}: {value!r} is not an angle sense; use 'with rotation' or 'against rotation'")
+    return _WEIGHT_SENSES[key]
+
+
+def _phase_sense(value, name: str = "phase") -> str:
+    key = " ".join(str(value).strip().lower().split())
+    if key not in _PHASE_SENSES:
+        raise BadInput(f"{name}: {value!r} is not a phase sense; use 'lag' or 'lead'")
+    return _PHASE_SENSES[key]
+
+
+def conjugate_needed(weight_angles: str, phase: str) -> bool:
+    """Whether readings must be conjugated before solving [D, DOMAIN.md section 2].
+
+    Phase lag grows in the same sense as angles measured against rotation.
+
+    >>> conjugate_needed("against rotation", "lag"), conjugate_needed("with rotation", "lag")
+    (False, True)
+    >>> conjugate_needed("with rotation", "lead"), conjugate_needed("against", "lead")
+    (False, True)
+    """
+    return (_weight_sense(weight_angles) == "with rotation") == (_phase_sense(phase) == "lag")
+
+
+@dataclass(frozen=True)
+class Settings:
+    """Thresholds for the warnings, each overridable, with where its default comes from.
+
+    trial_change_pct, trial_change_deg: a trial run should change the reading by at least this much in
+    amplitude or phase at one sensor or more (about 30 % or 30°) [CP, DOMAIN.md section 2].
+    max_condition: condition number of the weighted coefficient matrix above which the planes are said to
+    fight (chosen here, no source). max_effort: ratio of the sum of the planes' separate effects to their
+    net effect above which the corrections are said to be much larger than what they achieve (chosen here,
+    no source). max_misfit_pct: rms misfit of the linear model as a percentage of the rms reading above
+    which the readings are called inconsistent with a linear rotor (chosen here, no source).
+    """
+
+    trial_change_pct: float = 30.0
+    trial_change_deg: float = 30.0
+    max_condition: float = 10.0
+    max_effort: float = 3.0
+    max_misfit_pct: float = 10.0
+
+    SOURCES = {"trial_change_pct": "common practice [CP]", "trial_change_deg": "common practice [CP]",
+               "max_condition": "chosen here, no source", "max_effort": "chosen here, no source",
+               "max_misfit_pct": "chosen here, no source"}
+
+    def __post_init__(self):
+        for name in ("trial_change_pct", "trial_change_deg", "max_condition", "max_effort", "max_misfit_pct"):
+            value = getattr(self, name)
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) \
+                    or value <= 0:
+                raise BadInput(f"{name}: {value!r} must be a number greater than zero")
+
+    def to_dict(self) -> dict:
+        defaults = Settings.__dataclass_fields__
+        return {name: {"value": getattr(self, name),
+                       "source": self.SOURCES[name] if getattr(self, name) == defaults[name].default
+                       else "given by the user"}
+                for name in self.SOURCES}
+
+
+@dataclass(frozen=True)
+class Run:
+    """One run: its name, the trial masses on the rotor during it (plane → complex grams, in the weight
+    angle sense) and one reading per sensor (complex, in the reading unit, as the instrument wrote it)."""
+
+    name: str
+    trials: tuple[tuple[str, complex], ...]
+    readings: tuple[complex, ...]
+
+
+@dataclass(frozen=True)
+class RunSet:
+    """A validated set of runs with everything needed to solve it (see :func:`runs_from_dict`)."""
+
+    origin: str
+    sensors: tuple[str, ...]
+    planes: tuple[str, ...]
+    weight_angles: str
+    phase: str
+    reading_kind: str
+    reading_unit: str
+    runs: tuple[Run, ...]
+    weights: tuple[float, ...]
+    radius_mm: tuple[tuple[str, float], ...] = ()
+    limits_g: tuple[tuple[str, float], ...] = ()
+    actions: tuple[tuple[str, str], ...] = ()
+    trials_left_on: bool = False
+    method: str = "least squares"
+    speed_rpm: float | None = None
+
+    def trial_matrix(self) -> np.ndarray:
+        """U: one row per run, one column per plane, complex grams."""
+        u = np.zeros((len(self.runs), len(self.planes)), dtype=complex)
+        for k, run in enumerate(self.runs):
+            for plane, z in run.trials:
+                u[k, self.planes.index(plane)] = z
+        return u
+
+    def reading_matrix(self) -> np.ndarray:
+        """V: one row per run, one column per sensor, in the weight-angle frame (conjugated if needed)."""
+        v = np.array([run.readings for run in self.runs], dtype=complex)
+        return np.conj(v) if conjugate_needed(self.weight_angles, self.phase) else v
+
+
+METHODS = ("least squares", "min-max")
+
+
+@dataclass(frozen=True)
+class Correction:
+    """One plane's correction: ``mass`` (pint Quantity, grams) at ``angle_deg`` in the weight-angle sense,
+    to ``action`` ("add" or "remove"); ``unbalance_g_mm`` when the plane's radius is known."""
+
+    plane: str
+    mass: object
+    angle_deg: float
+    action: str
+    unbalance_g_mm: float | None = None
+
+    def to_dict(self) -> dict:
+        d = {"plane": self.plane, "mass_g": float(self.mass.m_as("g")), "angle_deg": self.angle_deg,
+             "action": self.action}
+        if self.unbalance_g_mm is not None:
+            d["unbalance_g_mm"] = self.unbalance_g_mm
+        return d
+
+
+@dataclass(frozen=True)
+class Solution:
+    """Corrections from a set of runs, with the coefficients, the predicted residual and warnings.
+
+    ``influence[i][j]`` is the effect of 1 g at 0° in plane j on sensor i (reading unit per gram, in the
+    weight-angle frame); ``original`` the rotor's own readings as fitted (same frame);
+    ``predicted_residual`` one record per sensor after the corrections, in the instrument's own phase sense.
+    """
+
+    runset: RunSet
+    corrections: tuple[Correction, ...]
+    total_correction_g: tuple[complex, ...]
+    influence: tuple[tuple[complex, ...], ...]
+    original: tuple[complex, ...]
+    condition_number: float
+    predicted_residual: tuple[dict, ...]
+    warnings: tuple[str, ...]
+    method: str
+    settings: Settings
+    penalty: float = 0.0
+    fit_misfit_pct: float | None = None
+    source: str = ("influence-coefficient method: trial-mass procedure (Thearle 1934), general least-squares "
+                   "formulation of [O A] (Yu 2004), weighted least squares (Goodman 1964)")
+    cautions: tuple[str, ...] = CAUTIONS
+
+    def to_dict(self) -> dict:
+        rs = self.runset
+        unit = f"{rs.reading_unit} per g"
+        return {
+            "corrections": [c.to_dict() for c in self.corrections],
+            "influence": [{"sensor": rs.sensors[i], "plane": rs.planes[j], "amount": polar(z)[0],
+                           "angle_deg": polar(z)[1], "unit": unit}
+                          for i, row in enumerate(self.influence) for j, z in enumerate(row)],
+            "condition_number": self.condition_number,
+            "predicted_residual": list(self.predicted_residual),
+            "warnings": list(self.warnings),
+            "method": self.method,
+            "penalty": self.penalty,
+            "fit_misfit_pct": self.fit_misfit_pct,
+            "weight_angles": rs.weight_angles,
+            "phase": rs.phase,
+            "readings_conjugated": conjugate_needed(rs.weight_angles, rs.phase),
+            "trials_left_on": rs.trials_left_on,
+            "reading_unit": rs.reading_unit,
+            "settings": self.settings.to_dict(),
+            "source": self.source,
+            "cautions": list(self.cautions),
+            "inputs": {"origin": rs.origin, "sensors": list(rs.sensors), "planes": list(rs.planes),
+                       "runs": [r.name for r in rs.runs], "weights": list(rs.weights),
+                       "speed_rpm": rs.speed_rpm},
+        }
+
+
+# --------------------------------------------------------------------------------------------- parsing
+
+def _field(origin: str, where: str, name: str) -> str:
+    return f"{origin}: {where}{name}" if where else f"{origin}: {name}"
+
+
+def _names(data: dict, key: str, origin: str) -> tuple[str, ...]:
+    value = data.get(key)
+    if value is None:
+        raise BadInput(f"{origin}: {key}: missing; give a list of names, e.g. {key} = [\"A\", \"B\"]")
+    if not isinstance(value, list) or not value or not all(isinstance(v, str) and v.strip() for v in value):
+        raise BadInput(f"{origin}: {key}: {value!r} must be a non-empty list of names")
+    names = tuple(v.strip() for v in value)
+    if len(set(names)) != len(names):
+        raise BadInput(f"{origin}: {key}: {value!r} names one twice")
+    return names
+
+
+def _per_plane(data: dict, key: str, planes, origin: str, kind: str, unit: str):
+    value = data.get(key)
+    if value is None:
+        return ()
+    if not isinstance(value, dict):
+        raise BadInput(f"{origin}: {key}: {value!r} must be a table by plane, e.g. {{ {planes[0]} = ... }}")
+    from toolkit.units import magnitude
+
+    out = []
+    for plane, v in value.items():
+        if plane not in planes:
+            raise BadInput(f"{origin}: {key}: unknown plane {plane!r}; planes are {', '.join(planes)}")
+        out.append((plane, float(magnitude(v, kind, unit, name=f"{origin}: {key}.{plane}", positive=True))))
+    return tuple(out)
+
+
+def _trial_mass(value, plane: str, radius: dict, name: str) -> complex:
+    """A trial vector in grams: a mass ``"20 g@0"`` or an unbalance ``"3000 g*mm@0"`` (needs the radius)."""
+    text = value if isinstance(value, str) else None
+    if text is None:
+        raise BadInput(f"{name}: {value!r} is not a vector; write AMOUNT@ANGLE, e.g. '20 g@0'")
+    amount_part = text.split("@")[0]
+    if "*" in amount_part or "·" in amount_part:
+        if plane not in radius:
+            raise BadInput(f"{name}: {text!r} is an unbalance; give the plane's radius to turn it into a mass")
+        return to_complex(text, "unbalance", name) / radius[plane]
+    return to_complex(text, "mass", name) * 1000.0  # kernel kg -> g
+
+
+def runs_from_dict(data: dict, origin: str) -> RunSet:
+    """Validate a runs description (the parsed runs file, or a table inside a job file) into a
+    :class:`RunSet`. Every error names ``origin``, the run and the field.
+
+    Keys: ``sensors`` and ``planes`` (lists of names); ``weight_angles`` ("with rotation" or "against
+    rotation") and ``phase`` ("lag" or "lead"), both required; ``run``, a list of tables each with
+    ``name``, ``trial`` (plane → mass vector on the rotor during the run; empty or absent for the original
+    run) and ``readings`` (one vector per sensor, in order). Optional: ``radius`` and ``limits`` (plane →
+    length / mass), ``weights`` (one number per sensor, default 1), ``action`` ("add", "remove", or plane →
+    either), ``trials_left_on`` (the trials of the last run stay on the rotor), ``method`` ("least squares"
+    or "min-max"), ``speed``.
+
+    >>> rs = runs_from_dict({"sensors": ["brg"], "planes": ["p"], "weight_angles": "against rotation",
+    ...     "phase": "lag", "run": [{"name": "original", "readings": ["4.2 mm/s@285"]},
+    ...     {"name": "trial", "trial": {"p": "10 g@0"}, "readings": ["6.1237 mm/s@251.49"]}]}, "invented")
+    >>> rs.reading_unit, len(rs.runs)
+    ('mm/s', 2)
+    """
+    if not isinstance(data, dict):
+        raise BadInput(f"{origin}: expected a table of runs, got {type(data).__name__}")
+    sensors = _names(data, "sensors", origin)
+    planes = _names(data, "planes", origin)
+    for key in ("weight_angles", "phase"):
+        if key not in data:
+            example = "'with rotation' or 'against rotation'" if key == "weight_angles" else "'lag' or 'lead'"
+            raise BadInput(f"{origin}: {key}: missing; the sense must be declared, never assumed: give {example}")
+    weight_angles = _weight_sense(data["weight_angles"], f"{origin}: weight_angles")
+    phase = _phase_sense(data["phase"], f"{origin}: phase")
+    radius = _per_plane(data, "radius", planes, origin, "length", "mm")
+    limits = _per_plane(data, "limits", planes, origin, "mass", "g")
+    radius_map = dict(radius)
+
+    weights = data.get("weights", [1.0] * len(sensors))
+    if not isinstance(weights, list) or len(weights) != len(sensors) or not all(
+            isinstance(w, (int, float)) and not isinstance(w, bool) and math.isfinite(w) and w > 0
+            for w in weights):
+        raise BadInput(f"{origin}: weights: {weights!r} must be {len(sensors)} numbers greater than zero, "
+                       f"one per sensor")
+
+    action = data.get("action", "add")
+    actions = {}
+    if isinstance(action, str):
+        actions = {p: action for p in planes}
+    elif isinstance(action, dict):
+        actions = {p: "add" for p in planes}
+        for p, a in action.items():
+            if p not in planes:
+                raise BadInput(f"{origin}: action: unknown plane {p!r}; planes are {', '.join(planes)}")
+            actions[p] = a
+    else:
+        raise BadInput(f"{origin}: action: {action!r} must be 'add', 'remove' or a table by plane")
+    for p, a in actions.items():
+        if a not in ("add", "remove"):
+            raise BadInput(f"{origin}: action.{p}: {a!r} is not allowed; use 'add' or 'remove'")
+
+    left_on = data.get("trials_left_on", False)
+    if not isinstance(left_on, bool):
+        raise BadInput(f"{origin}: trials_left_on: {left_on!r} must be true or false")
+    method = data.get("method", "least squares")
+    if method not in METHODS:
+        raise BadInput(f"{origin}: method: {method!r} is not known; use {' or '.join(map(repr, METHODS))}")
+    speed = None
+    if data.get("speed") is not None:
+        from toolkit.units import speed_rpm
+
+        speed = speed_rpm(data["speed"], f"{origin}: speed")
+
+    raw_runs = data.get("run")
+    if raw_runs is None:
+        raise BadInput(f"{origin}: run: missing; add [[run]] tables, the first usually the original run")
+    if not isinstance(raw_runs, list) or not all(isinstance(r, dict) for r in raw_runs):
+        raise BadInput(f"{origin}: run: must be an array of tables ([[run]])")
+    runs: list[Run] = []
+    kind = unit = None
+    seen = set()
+    for k, raw in enumerate(raw_runs, start=1):
+        label = f"run {k}"
+        name = raw.get("name")
+        if not isinstance(name, str) or not name.strip():
+            raise BadInput(f"{origin}: {label}: name: missing; give each run a name")
+        name = name.strip()
+        label = f"run {name!r}"
+        if name in seen:
+            raise BadInput(f"{origin}: {label}: name: used twice")
+        seen.add(name)
+        unknown = set(raw) - {"name", "trial", "readings", "note"}
+        if unknown:
+            raise BadInput(f"{origin}: {label}: unknown field(s) {', '.join(sorted(unknown))}; "
+                           f"allowed: name, trial, readings, note")
+        trial = raw.get("trial", {}) or {}
+        if not isinstance(trial, dict):
+            raise BadInput(f"{origin}: {label}: trial: {trial!r} must be a table by plane, e.g. "
+                           f"{{ {planes[0]} = \"20 g@0\" }}")
+        trials = []
+        for plane, vec in trial.items():
+            if plane not in planes:
+                raise BadInput(f"{origin}: {label}: trial: unknown plane {plane!r}; planes are "
+                               f"{', '.join(planes)}")
+            trials.append((plane, _trial_mass(vec, plane, radius_map, f"{origin}: {label}: trial.{plane}")))
+        readings = raw.get("readings")
+        if not isinstance(readings, list):
+            raise BadInput(f"{origin}: {label}: readings: missing; give one vector per sensor "
+                           f"({', '.join(sensors)})")
+        if len(readings) != len(sensors):
+            raise BadInput(f"{origin}: {label}: readings: {len(readings)} given for {len(sensors)} sensors "
+                           f"({', '.join(sensors)})")
+        values = []
+        for i, text in enumerate(readings):
+            z, rk, ru = parse_reading(text, f"{origin}: {label}: readings[{i + 1}]")
+            if kind is None:
+                kind, unit = rk, ru
+            elif rk != kind:
+                raise BadInput(f"{origin}: {label}: readings[{i + 1}]: {text!r} is a {rk}; the runs use "
+                               f"{kind} ({unit}): give every reading in one kind")
+            values.append(z)
+        runs.append(Run(name, tuple(trials), tuple(values)))
+    return RunSet(origin=origin, sensors=sensors, planes=planes, weight_angles=weight_angles, phase=phase,
+                  reading_kind=kind, reading_unit=unit, runs=tuple(runs), weights=tuple(map(float, weights)),
+                  radius_mm=radius, limits_g=limits, actions=tuple(actions.items()), trials_left_on=left_on,
+                  method=method, speed_rpm=speed)
+
+
+def load_runs(path) -> RunSet:
+    """Read a runs file (TOML) into a :class:`RunSet`; errors name the file, the run and the field, and
+    malformed TOML names the line and column."""
+    import tomllib
+    from pathlib import Path
+
+    p = Path(path)
+    try:
+        text = p.read_bytes().decode("utf-8")
+    except FileNotFoundError:
+        raise BadInput(f"{p}: no such file") from None
+    except IsADirectoryError:
+        raise BadInput(f"{p}: is a folder, not a runs file") from None
+    except UnicodeDecodeError:
+        raise BadInput(f"{p}: not UTF-8 text; save the runs file as UTF-8") from None
+    except OSError as exc:
+        raise BadInput(f"{p}: cannot read ({exc.strerror})") from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise BadInput(f"{p}: not valid TOML: {exc}") from None
+    return runs_from_dict(data, str(p))
+
+
+# --------------------------------------------------------------------------------------------- kernels
+
+def fit_influence(u: np.ndarray, v: np.ndarray):
+    """Least-squares fit of V = 1·Oᵀ + U·Aᵀ: returns (O, A, misfit) for trial matrix ``u`` (runs × planes)
+    and readings ``v`` (runs × sensors), complex; ``misfit`` is the fit residual (runs × sensors).
+
+    Source: general formulation of [O A] (Yu 2004) [S]; solved by ``numpy.linalg.lstsq`` (SVD) [D].
+    Raises :class:`BadInput` when the runs cannot determine every coefficient.
+
+    >>> o, a, _ = fit_influence(np.array([[0], [10]]), np.array([[1 + 1j], [3 + 1j]]))
+    >>> bool(abs(o[0] - (1 + 1j)) < 1e-12), bool(abs(a[0, 0] - 0.2) < 1e-12)
+    (True, True)
+    """
+    runs, planes = u.shape
+    x = np.hstack([np.ones((runs, 1), dtype=complex), u.astype(complex)])
+    if runs < planes + 1:
+        raise BadInput(f"run: {runs} runs for {planes} plane(s); need at least {planes + 1} (the original "
+                       f"run and one trial run per plane)")
+    if np.linalg.matrix_rank(x, tol=1e-9 * max(1.0, np.abs(x).max())) < planes + 1:
+        raise BadInput("run: the trials do not tell the planes apart (the same trial pattern twice, or a "
+                       "plane never changed); give each plane a trial run of its own")
+    b, *_ = np.linalg.lstsq(x, v, rcond=None)
+    misfit = v - x @ b
+    return b[0], b[1:].T, misfit
+
+
+def _weighted_lsq(o, a, w, rows=None):
+    """min ‖w∘(o + a·x)‖ (+ extra rows) by SVD-based lstsq."""
+    aw = a * w[:, None]
+    ow = -o * w
+    if rows is not None:
+        aw = np.vstack([aw, rows])
+        ow = np.concatenate([ow, np.zeros(rows.shape[0], dtype=complex)])
+    x, *_ = np.linalg.lstsq(aw, ow, rcond=None)
+    return x
+
+
+def _minmax(o, a, w, iterations: int = 5000):
+    """min over x of max_i |w_i (o + a x)_i| by Lawson's iteratively reweighted least squares [D]."""
+    x = _weighted_lsq(o, a, w)
+    r = np.abs(w * (o + a @ x))
+    scale = max(float(np.abs(w * o).max()), 1e-300)
+    if r.max() <= 1e-12 * scale:
+        return x
+    u = np.full(len(o), 1.0 / len(o))
+    best_x, best = x, r.max()
+    for _ in range(iterations):
+        x = _weighted_lsq(o, a, w * np.sqrt(u))
+        r = np.abs(w * (o + a @ x))
+        if r.max() < best:
+            best_x, best = x, r.max()
+        new = u * r
+        total = new.sum()
+        if total <= 0:
+            break
+        new /= total
+        if np.abs(new - u).max() < 1e-13:
+            break
+        u = new
+    return best_x
+
+
+def correct(o: np.ndarray, a: np.ndarray, w: np.ndarray, method: str = "least squares",
+            limits: np.ndarray | None = None):
+    """The correction x (complex grams per plane, add) minimising the weighted residual o + a·x.
+
+    ``method`` "least squares" (Goodman 1964, SVD solver) or "min-max" (largest weighted residual, Lawson's
+    algorithm). ``limits`` (grams per plane, ``inf`` for none) adds the penalty λ‖S⁻¹x‖ with the smallest λ
+    that keeps every plane within its limit, found by bisection [D]. Returns (x, λ).
+
+    >>> x, lam = correct(np.array([4.2j]), np.array([[0.35 + 0j]]), np.array([1.0])); complex(x[0]), lam
+    (-12j, 0.0)
+    """
+    if method not in METHODS:
+        raise BadInput(f"method: {method!r} is not known; use {' or '.join(map(repr, METHODS))}")
+    x = _minmax(o, a, w) if method == "min-max" else _weighted_lsq(o, a, w)
+    if limits is None or np.all(np.abs(x) <= limits * (1 + 1e-9)):
+        return x, 0.0
+    if method != "least squares":
+        raise BadInput("limits: per-plane mass limits work with the least-squares method only")
+    s_inv = np.diag(1.0 / limits).astype(complex)
+    scale = float(np.linalg.norm(a * w[:, None], 2))
+    lo, hi = 0.0, scale
+    while True:
+        xh = _weighted_lsq(o, a, w, hi * s_inv)
+        if np.all(np.abs(xh) <= limits * (1 + 1e-9)):
+            break
+        hi *= 4.0
+        if hi > scale * 1e12:
+            break
+    for _ in range(100):
+        mid = 0.5 * (lo + hi)
+        xm = _weighted_lsq(o, a, w, mid * s_inv)
+        if np.all(np.abs(xm) <= limits * (1 + 1e-9)):
+            hi = mid
+        else:
+            lo = mid
+        if hi - lo <= 1e-12 * hi:
+            break
+    return _weighted_lsq(o, a, w, hi * s_inv), hi
+
+
+# --------------------------------------------------------------------------------------------- solving
+
+def _phase_diff(a: complex, b: complex) -> float:
+    if a == 0 or b == 0:
+        return 180.0
+    d = abs(math.degrees(np.angle(b / a)))
+    return d
+
+
+def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings | None = None,
+               limits=None) -> Solution:
+    """Corrections for the rotor described by ``runset``.
+
+    Fits [O A] to all runs by least squares (:func:`fit_influence`), then the correction minimising the
+    weighted residual (:func:`correct`). The corrections are the total masses to add (or remove at the
+    opposite angle) per plane, less the trials left on the rotor when ``trials_left_on`` is set.
+    ``method`` and ``limits`` (plane → mass, e.g. ``{"near": "60 g"}``) override the runset's.
+
+    Warnings: trial effect too small, a trial that changed nothing (refused), ill-conditioned planes,
+    corrections much larger than their net effect, readings inconsistent with a linear model, and the
+    predicted residual at every sensor.
+
+    >>> rs = runs_from_dict({"sensors": ["brg"], "planes": ["p"], "weight_angles": "against rotation",
+    ...     "phase": "lag", "run": [{"name": "original", "readings": ["4.2 mm/s@285"]},
+    ...     {"name": "trial", "trial": {"p": "10 g@0"}, "readings": ["6.1237 mm/s@251.49"]}]}, "invented")
+    >>> c = solve_runs(rs).corrections[0]; f"{c.action} {c.mass.m_as('g'):.2f} g@{c.angle_deg:.1f}"
+    'add 12.00 g@255.0'
+    """
+    from toolkit.units import Q_, magnitude
+
+    settings = settings or Settings()
+    method = method or runset.method
+    if method not in METHODS:
+        raise BadInput(f"method: {method!r} is not known; use {' or '.join(map(repr, METHODS))}")
+    u = runset.trial_matrix()
+    v = runset.reading_matrix()
+    origin = runset.origin
+    warnings: list[str] = []
+
+    # every trial run must change something; small changes are warned
+    base_index = next((k for k, r in enumerate(runset.runs) if not r.trials), None)
+    for k, run in enumerate(runset.runs):
+        if not run.trials:
+            continue
+        prev = base_index if base_index is not None else None
+        # compare with the closest earlier run whose trials differ (trial left on: run 3 against run 2)
+        for j in range(k - 1, -1, -1):
+            if not np.allclose(u[j], u[k]):
+                prev = j
+                break
+        if prev is None:
+            continue
+        ref, now = v[prev], v[k]
+        scale = max(float(np.abs(ref).max()), float(np.abs(now).max()), 1e-300)
+        if np.abs(now - ref).max() <= 1e-9 * scale:
+            raise BadInput(f"{origin}: run {run.name!r}: readings: identical to run "
+                           f"{runset.runs[prev].name!r}; the trial changed nothing (check it was fitted, "
+                           f"or use a larger trial)")
+        enough = False
+        for i in range(len(runset.sensors)):
+            amp_change = abs(abs(now[i]) - abs(ref[i])) / abs(ref[i]) * 100 if abs(ref[i]) > 0 else math.inf
+            if amp_change >= settings.trial_change_pct or _phase_diff(ref[i], now[i]) >= settings.trial_change_deg:
+                enough = True
+        if not enough:
+            warnings.append(f"trial effect too small in run {run.name!r}: no sensor changed by "
+                            f"{settings.trial_change_pct:g} % in amplitude or {settings.trial_change_deg:g}° in "
+                            f"phase against run {runset.runs[prev].name!r} (thresholds: "
+                            f"{settings.to_dict()['trial_change_pct']['source']}); "
+                            f"the coefficients may be dominated by reading errors: use a larger trial")
+
+    try:
+        o, a, misfit = fit_influence(u, v)
+    except BadInput as exc:
+        unused = [p for j, p in enumerate(runset.planes) if not np.any(u[:, j])]
+        if unused:
+            raise BadInput(f"{origin}: run: no run has a trial in plane {unused[0]!r}; add a trial run for "
+                           f"it") from None
+        raise BadInput(f"{origin}: {exc}") from None
+
+    misfit_pct = None
+    if len(runset.runs) > len(runset.planes) + 1:
+        rms_v = float(np.sqrt(np.mean(np.abs(v) ** 2)))
+        misfit_pct = float(np.sqrt(np.mean(np.abs(misfit) ** 2)) / rms_v * 100) if rms_v > 0 else 0.0
+        if misfit_pct > settings.max_misfit_pct:
+            worst = int(np.argmax(np.sqrt(np.mean(np.abs(misfit) ** 2, axis=1))))
+            warnings.append(f"readings inconsistent with a linear model: the runs disagree by {misfit_pct:.1f} % "
+                            f"rms (limit {settings.max_misfit_pct:g} %, chosen here); worst run "
+                            f"{runset.runs[worst].name!r}: check the readings, the trial masses and their angles")
+
+    w = np.array(runset.weights)
+    limit_map = dict(runset.limits_g)
+    if limits is not None:
+        if not isinstance(limits, dict):
+            raise BadInput(f"limits: {limits!r} must be a table by plane, e.g. {{'near': '60 g'}}")
+        for p, value in limits.items():
+            if p not in runset.planes:
+                raise BadInput(f"limits: unknown plane {p!r}; planes are {', '.join(runset.planes)}")
+            limit_map[p] = magnitude(value, "mass", "g", name=f"limits.{p}", positive=True)
+    lim = None
+    if limit_map:
+        lim = np.array([limit_map.get(p, np.inf) for p in runset.planes], dtype=float)
+    x, penalty = correct(o, a, w, method, lim)
+    if penalty > 0:
+        capped = [p for j, p in enumerate(runset.planes) if abs(abs(x[j]) - lim[j]) <= 1e-6 * lim[j]]
+        warnings.append(f"corrections held within the plane mass limits ({', '.join(capped) or 'all planes'} "
+                        f"at its limit; penalty {penalty:.3g}): the predicted residual is larger than without "
+                        f"limits")
+
+    aw = a * w[:, None]
+    sv = np.linalg.svd(aw, compute_uv=False)
+    cond = float(sv[0] / sv[-1]) if sv[-1] > 0 else math.inf
+    if len(runset.planes) > 1 and cond > settings.max_condition:
+        warnings.append(f"ill-conditioned planes: condition number {cond:.3g} (limit {settings.max_condition:g}, "
+                        f"chosen here): the planes fight each other and small reading errors move the "
+                        f"corrections a lot; move the planes apart, add sensors or speeds, or set plane limits")
+    if len(runset.planes) > 1:
+        effects = np.abs(a * x[None, :]).sum(axis=1)
+        net = np.abs(a @ x)
+        ratio = float((effects / np.maximum(net, 1e-300)).max()) if np.any(effects > 0) else 1.0
+        if ratio > settings.max_effort:
+            warnings.append(f"corrections much larger than their net effect: the planes' separate effects add "
+                            f"up to {ratio:.3g} times their net effect at one sensor (limit "
+                            f"{settings.max_effort:g}, chosen here)")
+
+    conj = conjugate_needed(runset.weight_angles, runset.phase)
+    residual = o + a @ x
+    records = []
+    for i, s in enumerate(runset.sensors):
+        z = np.conj(residual[i]) if conj else residual[i]
+        before = np.conj(o[i]) if conj else o[i]
+        amt, ang = polar(complex(z))
+        records.append({"sensor": s, "amount": amt, "angle_deg": ang, "unit": runset.reading_unit,
+                        "original_amount": polar(complex(before))[0]})
+    worst = max(records, key=lambda r: r["amount"])
+    warnings.append(f"predicted residual after the corrections: {worst['amount']:.3g} {runset.reading_unit} at "
+                    f"{worst['sensor']!r} (largest of {len(records)} point(s)); confirm with a check run")
+
+    left = np.zeros(len(runset.planes), dtype=complex)
+    if runset.trials_left_on:
+        left = u[-1]
+    actions = dict(runset.actions) or {p: "add" for p in runset.planes}
+    radius = dict(runset.radius_mm)
+    corrections = []
+    for j, plane in enumerate(runset.planes):
+        net = x[j] - left[j]
+        mass, angle = polar(complex(net))
+        action = actions.get(plane, "add")
+        if action == "remove":
+            angle = parse_angle(angle + 180.0)
+        corrections.append(Correction(plane, Q_(mass, "g"), angle, action,
+                                      mass * radius[plane] if plane in radius else None))
+    return Solution(runset=runset, corrections=tuple(corrections), total_correction_g=tuple(map(complex, x)),
+                    influence=tuple(tuple(map(complex, row)) for row in a), original=tuple(map(complex, o)),
+                    condition_number=cond, predicted_residual=tuple(records), warnings=tuple(warnings),
+                    method=method, settings=settings, penalty=float(penalty), fit_misfit_pct=misfit_pct)
+
+
+def solve_one_plane(original, trial, with_trial, *, keep_trial: bool = False, radius=None,
+                    weight_angles: str = "against rotation", phase: str = "lag",
+                    settings: Settings | None = None) -> Solution:
+    """One plane, one sensor, one trial run: W = −O/α with α = (OT − O)/T; trial left on: add W − T.
+
+    Source: trial-mass procedure (Thearle 1934) [S, M for the citation]. Parameters: original and
+    with_trial readings such as ``"4.20 mm/s@285"``; trial a mass vector ``"10 g@0"`` (or an unbalance
+    ``"1500 g*mm@0"`` with ``radius``) [mass]; radius [length], optional, to report the unbalance; the
+    two senses (defaults: weight angles against rotation, phase lag, which agree).
+
+    >>> s = solve_one_plane("4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49", keep_trial=True)
+    >>> c = s.corrections[0]; f"{c.action} {c.mass.m_as('g'):.3f} g@{c.angle_deg:.2f}"
+    'add 17.496 g@221.49'
+    """
+    data = {"sensors": ["sensor"], "planes": ["plane"], "weight_angles": weight_angles, "phase": phase,
+            "trials_left_on": bool(keep_trial),
+            "run": [{"name": "original", "readings": [original]},
+                    {"name": "with trial", "trial": {"plane": trial}, "readings": [with_trial]}]}
+    if radius is not None:
+        data["radius"] = {"plane": radius}
+    return solve_runs(runs_from_dict(data, "solve"), settings=settings)
+
+
+# --------------------------------------------------------------------------------------------- amplitude
+
+@dataclass(frozen=True)
+class AmplitudeSolution:
+    """Four-run (amplitude-only) result: correction to add, consistency index and warnings."""
+
+    mass: object
+    angle_deg: float
+    consistency: float
+    original_amplitude: float
+    trial_mass: object
+    trial_angles_deg: tuple[float, ...]
+    amplitudes: tuple[float, ...]
+    warnings: tuple[str, ...]
+    action: str = "add"
+    source: str = ("amplitude-only method, A_k^2 - A0^2 = p + 2c cos(t_k) + 2s sin(t_k) (DOMAIN.md section 2) "
+                   "[D]; graphical form in McMillan, Rotating Machinery, ch. 6")
+    cautions: tuple[str, ...] = CAUTIONS
+
+    def to_dict(self) -> dict:
+        return {"corrections": [{"plane": "plane", "mass_g": float(self.mass.m_as("g")),
+                                 "angle_deg": self.angle_deg, "action": self.action}],
+                "consistency": self.consistency, "original_amplitude": self.original_amplitude,
+                "trial_mass_g": float(self.trial_mass.m_as("g")),
+                "trial_angles_deg": list(self.trial_angles_deg), "amplitudes": list(self.amplitudes),
+                "warnings": list(self.warnings), "source": self.source, "cautions": list(self.cautions)}
+
+
+def four_run(original, trial_mass, runs, *, consistency_band: tuple[float, float] = (0.8, 1.25)
+             ) -> AmplitudeSolution:
+    """Correction from amplitudes only: the original run and one trial mass at three or more angles.
+
+    Source: A_k² − A0² = p + 2c cos θ_k + 2s sin θ_k, linear in (p, c, s), least squares over the runs;
+    correction m_t·A0/√p at 180° + atan2(s, c) in the trial positions' frame; consistency
+    κ = √(c² + s²)/(A0 √p), near 1 for a linear rotor [D; graphical form McMillan ch. 6]. The band for κ
+    (default 0.8–1.25) is chosen here, no source.
+
+    Parameters: original, an amplitude with unit (``"6.0 mm/s"``); trial_mass [mass]; runs, a list of
+    ``(angle_deg, amplitude)`` with amplitudes in the same kind as ``original``.
+
+    >>> s = four_run("6.0 mm/s", "40 g", [(0, "4.2496 mm/s"), (120, "6.2910 mm/s"), (240, "9.9179 mm/s")])
+    >>> f"add {s.mass.m_as('g'):.2f} g@{s.angle_deg:.2f}, consistency {s.consistency:.3f}"
+    'add 60.00 g@45.00, consistency 1.000'
+    """
+    from toolkit.units import Q_, magnitude, quantity
+
+    kind = None
+    for k in ("vibration velocity", "displacement", "acceleration"):
+        try:
+            quantity(original, k, "original")
+            kind = k
+            break
+        except BadInput as exc:
+            if "has no unit" in str(exc) or "cannot read" in str(exc) or "empty" in str(exc):
+                raise
+    if kind is None:
+        raise BadInput(f"original: {original!r} is not a vibration amplitude; give e.g. '6.0 mm/s' or '12 um'")
+    a0 = magnitude(original, kind, name="original", positive=True)
+    mt = magnitude(trial_mass, "mass", "g", name="trial_mass", positive=True)
+    if not isinstance(runs, (list, tuple)) or len(runs) < 3:
+        raise BadInput("runs: give the trial at three or more angles, as (angle_deg, amplitude) pairs")
+    angles, amps = [], []
+    for i, item in enumerate(runs, start=1):
+        if not isinstance(item, (list, tuple)) or len(item) != 2:
+            raise BadInput(f"runs[{i}]: {item!r} must be a pair (angle_deg, amplitude)")
+        angles.append(parse_angle(item[0], f"runs[{i}] angle"))
+        amps.append(magnitude(item[1], kind, name=f"runs[{i}] amplitude", nonnegative=True))
+    th = np.radians(angles)
+    m = np.column_stack([np.ones_like(th), 2 * np.cos(th), 2 * np.sin(th)])
+    if np.linalg.matrix_rank(m) < 3:
+        raise BadInput("runs: the trial angles must include at least three different positions")
+    rhs = np.array(amps) ** 2 - a0 ** 2
+    (p, c, s), *_ = np.linalg.lstsq(m, rhs, rcond=None)
+    if p <= 0:
+        raise BadInput("runs: the amplitudes do not fit a linear rotor (trial effect p <= 0); check the readings")
+    mass = mt * a0 / math.sqrt(p)
+    angle = parse_angle(180.0 + math.degrees(math.atan2(s, c)))
+    kappa = math.hypot(c, s) / (a0 * math.sqrt(p))
+    warnings = []
+    lo, hi = consistency_band
+    if not lo <= kappa <= hi:
+        warnings.append(f"consistency index {kappa:.3f} outside {lo:g}–{hi:g} (band chosen here): the readings "
+                        f"do not fit a linear rotor well; repeat the runs or use a larger trial")
+    if math.sqrt(p) < 0.3 * a0:
+        warnings.append(f"trial effect too small: {math.sqrt(p):.3g} against an original {a0:.3g} (30 %, common "
+                        f"practice [CP]); use a larger trial")
+    return AmplitudeSolution(Q_(mass, "g"), angle, kappa, a0, Q_(mt, "g"), tuple(angles), tuple(amps),
+                             tuple(warnings))
+
+
+# --------------------------------------------------------------------------------------------- trial size
+
+@dataclass(frozen=True)
+class TrialSuggestion:
+    """A suggested trial mass and the rule behind it."""
+
+    mass: object
+    fraction: float
+    bearing_mass_kg: float
+    radius_mm: float
+    speed_rpm: float
+    rule: str
+    mark: str
+    cautions: tuple[str, ...] = CAUTIONS
+
+    def to_dict(self) -> dict:
+        return {"trial_mass_g": float(self.mass.m_as("g")), "fraction": self.fraction,
+                "fraction_source": self.mark, "bearing_mass_kg": self.bearing_mass_kg,
+                "radius_mm": self.radius_mm, "speed_rpm": self.speed_rpm, "rule": self.rule,
+                "cautions": list(self.cautions)}
+
+
+def suggest_trial_mass(bearing_mass, radius, speed, fraction: float | None = None) -> TrialSuggestion:
+    """A trial mass whose centrifugal force is ``fraction`` of the static load on the nearer bearing.
+
+    Source: common shop practice, fraction about 10 % [CP, M] (DOMAIN.md section 2):
+    m_t = fraction · M_bearing · g / (r · Ω²), about 8.95·10⁷ · M [kg] / (r [mm] · n² [r/min]) grams at 10 %.
+    Parameters: bearing_mass [mass] carried by the nearer bearing; radius [length] of the trial; speed
+    [1/time] of the trial run; fraction, default 0.10, overridable (0 < fraction ≤ 0.5).
+
+    >>> s = suggest_trial_mass("200 kg", "150 mm", "1480 rpm"); f"{s.mass.m_as('g'):.1f} g ({s.mark})"
+    '54.4 g (common practice [CP, M], default 0.1)'
+    """
+    from toolkit.units import Q_, magnitude, speed_rpm
+
+    m = magnitude(bearing_mass, "mass", "kg", name="bearing_mass", positive=True)
+    r = magnitude(radius, "length", "m", name="radius", positive=True)
+    n = speed_rpm(speed, "speed")
+    if fraction is None:
+        used, mark = 0.10, "common practice [CP, M], default 0.1"
+    else:
+        if isinstance(fraction, bool) or not isinstance(fraction, (int, float)) or not 0 < fraction <= 0.5:
+            raise BadInput(f"fraction: {fraction!r} must be a number above 0 and at most 0.5")
+        used, mark = float(fraction), "given by the user"
+    omega = n * 2 * math.pi / 60
+    grams = used * m * 9.80665 / (r * omega ** 2) * 1000
+    return TrialSuggestion(Q_(grams, "g"), used, m, r * 1000, n,
+                           "centrifugal force of the trial = fraction x static load on the nearer bearing", mark)
