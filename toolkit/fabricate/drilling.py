@@ -1,0 +1,632 @@
+"""Drilled holes that remove a required unbalance: geometry, depth for a target, drill choice and limits.
+
+Sources (DOMAIN.md section 3): the drill point is a cone of included angle θ (118° general twist drills,
+135° for hard material, 180° a flat-bottom tool), height h = (d/2)/tan(θ/2) [S: drill makers' technical
+data; D]; a cone's centroid lies h/4 from its base [S: solid geometry]. Depth is to the shoulder (end of
+the full diameter) from first contact; the tip lies h deeper [CP].
+
+Axial hole (in a face, parallel to the axis, centred on pitch radius R_c): V = π r² (L + h/3), U = ρ V R_c
+exactly [D]. Radial hole (into a cylinder of radius R, hole axis through the rotor axis, y_s = R − L):
+first moment S = (π r²/2)(R² − y_s²) − π r⁴/8 + (π r² h/3)(y_s − h/4), U = ρ S [D, checked by numerical
+integration in the tests]. The removed volume of a radial hole is integrated numerically
+(Gauss–Legendre over the hole's cross-section, exact to rounding).
+
+Limits are common practice [CP] and every one can be overridden (:class:`Limits`); results list the values
+used. Removal is at the heavy spot: a correction written "add U at θ" is drilled at θ + 180°.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, asdict, replace
+
+import numpy as np
+
+from toolkit.errors import BadInput, Infeasible
+from toolkit.fabricate import stock as _stock
+from toolkit.fabricate.materials import resolve_density
+from toolkit.units import magnitude
+from toolkit.vectors import parse_angle
+
+__all__ = ["Limits", "Hole", "DrillResult", "point_height", "axial_hole", "radial_hole", "solve_bracketed",
+           "correction_g_mm", "drill_correction", "CAUTIONS", "ORIENTATIONS"]
+
+ORIENTATIONS = ("axial", "radial")
+
+#: Short cautions printed with every drilling result (DOMAIN.md section 4).
+CAUTIONS = (
+    "Lock the rotor and isolate its drive (lock-out/tag-out, OSHA 29 CFR 1910.147) before drilling.",
+    "Clamp the work; no gloves near a turning spindle.",
+    "Holes are stress raisers: keep them out of highly stressed zones, at least 1 d from edges and with the "
+    "wall under the tip shown here; the rotor maker's drawing and instructions take precedence.",
+    "Re-check the balance after drilling; follow the rotor maker, local codes and licensed practice.",
+)
+
+
+@dataclass(frozen=True)
+class Limits:
+    """Drilling rules of thumb, all common practice [CP] and all overridable.
+
+    warn_depth_ratio: warn when the tip depth exceeds this many diameters (3).
+    max_depth_ratio: refuse beyond this many diameters (5).
+    max_depth_mm: an absolute cap on the tip depth (none).
+    min_wall_mm, min_wall_ratio: wall left under the tip at least max(min_wall_mm, ratio·d) (2 mm, 0.5).
+    spacing_ratio: hole centres at least this many diameters apart (2).
+    depth_step_mm: depths are rounded to this step (0.1 mm, a machine's depth-stop resolution).
+    preferred_depth_ratio: when choosing a drill, prefer one whose tip depth stays within this many
+      diameters (2; our choice, a balance between few holes and fine control).
+    max_holes: most holes in one pattern (7).
+    """
+
+    warn_depth_ratio: float = 3.0
+    max_depth_ratio: float = 5.0
+    max_depth_mm: float | None = None
+    min_wall_mm: float = 2.0
+    min_wall_ratio: float = 0.5
+    spacing_ratio: float = 2.0
+    depth_step_mm: float = 0.1
+    preferred_depth_ratio: float = 2.0
+    max_holes: int = 7
+
+    def __post_init__(self):
+        for name in ("warn_depth_ratio", "max_depth_ratio", "spacing_ratio", "depth_step_mm",
+                     "preferred_depth_ratio"):
+            v = getattr(self, name)
+            if not (isinstance(v, (int, float)) and math.isfinite(v) and v > 0):
+                raise BadInput(f"limit {name}: {v!r} must be a number greater than zero")
+        for name in ("min_wall_mm", "min_wall_ratio"):
+            v = getattr(self, name)
+            if not (isinstance(v, (int, float)) and math.isfinite(v) and v >= 0):
+                raise BadInput(f"limit {name}: {v!r} must be a number, zero or more")
+        if self.max_depth_mm is not None and not (math.isfinite(self.max_depth_mm) and self.max_depth_mm > 0):
+            raise BadInput(f"--max-depth: {self.max_depth_mm!r} must be greater than zero")
+        if not (isinstance(self.max_holes, int) and 1 <= self.max_holes <= 36):
+            raise BadInput(f"limit max_holes: {self.max_holes!r} must be a whole number from 1 to 36")
+
+    def tip_limit_mm(self, d: float) -> float:
+        """Deepest allowed tip for drill diameter d [mm] (refusal limit)."""
+        lim = self.max_depth_ratio * d
+        return min(lim, self.max_depth_mm) if self.max_depth_mm is not None else lim
+
+    def to_dict(self) -> dict:
+        out = asdict(self)
+        out["mark"] = "common practice [CP], overridable"
+        return out
+
+
+def point_height(diameter, point_angle_deg: float = 118.0):
+    """Height of the drill point cone, h = (d/2)/tan(θ/2) (drill makers' data [S]; D).
+
+    diameter : Quantity [length]; point_angle_deg : included angle [deg], 60 to 180 (180 = flat bottom).
+
+    >>> round(point_height("10 mm").m_as("mm"), 5), point_height("10 mm", 180).m_as("mm")
+    (3.0043, 0.0)
+    """
+    from toolkit.units import Q_
+
+    d = magnitude(diameter, "length", "mm", "diameter", positive=True)
+    return Q_(_h(d, _angle(point_angle_deg)), "mm")
+
+
+def _angle(point_angle_deg) -> float:
+    if isinstance(point_angle_deg, bool) or not isinstance(point_angle_deg, (int, float)):
+        raise BadInput(f"--point-angle: {point_angle_deg!r} is not an angle in degrees; e.g. 118")
+    a = float(point_angle_deg)
+    if not (math.isfinite(a) and 60.0 <= a <= 180.0):
+        raise BadInput(f"--point-angle: {point_angle_deg!r} is outside 60 to 180 degrees (118 general, "
+                       "135 hard material, 180 flat bottom)")
+    return a
+
+
+def _h(d: float, angle: float) -> float:
+    return 0.0 if angle >= 180.0 else (d / 2.0) / math.tan(math.radians(angle) / 2.0)
+
+
+# -- kernels (mm, g/mm³) --------------------------------------------------------------------------------
+
+def _axial_volume(r: float, L: float, h: float) -> float:
+    return math.pi * r * r * (L + h / 3.0)
+
+
+def _radial_moment(R: float, r: float, L: float, h: float) -> float:
+    ys = R - L
+    return (math.pi * r * r / 2.0) * (R * R - ys * ys) - math.pi * r ** 4 / 8.0 \
+        + (math.pi * r * r * h / 3.0) * (ys - h / 4.0)
+
+
+_GL_X, _GL_W = np.polynomial.legendre.leggauss(64)
+
+
+def _radial_volume(R: float, r: float, L: float, h: float) -> float:
+    # cylinder part: ∫ over the hole's cross-section of (surface height − y_s); x = r sin t makes it smooth
+    t = _GL_X * (math.pi / 2.0)
+    w = _GL_W * (math.pi / 2.0)
+    x = r * np.sin(t)
+    chord = 2.0 * r * np.cos(t) * r * np.cos(t)
+    cyl = float(np.sum(w * chord * (np.sqrt(R * R - x * x) - (R - L))))
+    return cyl + math.pi * r * r * h / 3.0
+
+
+def _radial_min_depth(R: float, r: float) -> float:
+    """Shoulder depth at which the full diameter first lies wholly below the surface."""
+    return R - math.sqrt(R * R - r * r)
+
+
+def solve_bracketed(f, lo: float, hi: float, tol: float = 1e-10, max_iter: int = 200) -> float:
+    """Root of a continuous ``f`` on [lo, hi] where f(lo) and f(hi) differ in sign (Illinois regula falsi,
+    falling back to bisection; D). Raises ValueError if the root is not bracketed.
+
+    >>> round(solve_bracketed(lambda x: x * x - 2.0, 0.0, 2.0), 9)
+    1.414213562
+    """
+    flo, fhi = f(lo), f(hi)
+    if flo == 0:
+        return lo
+    if fhi == 0:
+        return hi
+    if (flo > 0) == (fhi > 0):
+        raise ValueError("root not bracketed")
+    side = 0
+    for _ in range(max_iter):
+        x = (lo * fhi - hi * flo) / (fhi - flo)
+        if not lo < x < hi:
+            x = 0.5 * (lo + hi)
+        fx = f(x)
+        if fx == 0 or (hi - lo) < tol * max(1.0, abs(x)):
+            return x
+        if (fx > 0) == (fhi > 0):
+            hi, fhi = x, fx
+            if side == 1:
+                flo *= 0.5
+            side = 1
+        else:
+            lo, flo = x, fx
+            if side == -1:
+                fhi *= 0.5
+            side = -1
+    return 0.5 * (lo + hi)
+
+
+@dataclass(frozen=True)
+class HoleGeometry:
+    """One hole: diameter, shoulder and tip depth [mm], volume [mm³], mass [g], unbalance [g·mm], and the
+    radius of its centroid [mm]."""
+
+    orientation: str
+    diameter_mm: float
+    depth_mm: float
+    tip_depth_mm: float
+    volume_mm3: float
+    mass_g: float
+    unbalance_g_mm: float
+    centroid_radius_mm: float
+
+
+def _geometry(orientation: str, d: float, L: float, radius: float, rho: float, angle: float) -> HoleGeometry:
+    r, h = d / 2.0, _h(d, angle)
+    if orientation == "axial":
+        V = _axial_volume(r, L, h)
+        U = rho * V * radius
+        rc = radius
+    else:
+        V = _radial_volume(radius, r, L, h)
+        U = rho * _radial_moment(radius, r, L, h)
+        rc = U / (rho * V)
+    return HoleGeometry(orientation, d, L, L + h, V, rho * V, U, rc)
+
+
+def _check_geometry(orientation: str, d: float, L: float, radius: float, angle: float) -> None:
+    if L < 0:
+        raise BadInput(f"depth: {L} mm must not be negative")
+    if orientation == "radial":
+        if d >= 2 * radius:
+            raise BadInput(f"diameter: {d} mm is not smaller than the cylinder's diameter {2 * radius} mm")
+        lmin = _radial_min_depth(radius, d / 2)
+        if L < lmin - 1e-9:
+            raise BadInput(f"depth: {L:.3f} mm is shallower than {lmin:.3f} mm, where the full diameter of a "
+                           f"{d} mm hole first lies below a {radius} mm radius surface; the formula needs at "
+                           "least that")
+        if radius - L - _h(d, angle) < 0:
+            raise BadInput(f"depth: the tip at {L + _h(d, angle):.2f} mm passes the rotor axis "
+                           f"(radius {radius} mm)")
+
+
+def axial_hole(diameter, depth, pitch_radius, density, point_angle_deg: float = 118.0) -> HoleGeometry:
+    """Axial hole in a face: V = π r² (L + h/3), U = ρ V R_c (D; DOMAIN.md 3).
+
+    diameter, depth (to the shoulder), pitch_radius : Quantity [length]; density : Quantity [mass/length³].
+
+    >>> g = axial_hole("10 mm", "10 mm", "100 mm", "7850 kg/m^3"); round(g.unbalance_g_mm, 2), round(g.mass_g, 4)
+    (678.28, 6.7828)
+    """
+    d = magnitude(diameter, "length", "mm", "diameter", positive=True)
+    L = magnitude(depth, "length", "mm", "depth", nonnegative=True)
+    R = magnitude(pitch_radius, "length", "mm", "radius", positive=True)
+    rho = resolve_density(density=density).g_mm3
+    a = _angle(point_angle_deg)
+    _check_geometry("axial", d, L, R, a)
+    return _geometry("axial", d, L, R, rho, a)
+
+
+def radial_hole(diameter, depth, surface_radius, density, point_angle_deg: float = 118.0) -> HoleGeometry:
+    """Radial hole into a cylinder, exact first moment (D; DOMAIN.md 3):
+    S = (π r²/2)(R² − y_s²) − π r⁴/8 + (π r² h/3)(y_s − h/4), y_s = R − L, U = ρ S.
+
+    Valid for shoulder depth L ≥ R − √(R² − r²) (full diameter below the surface) and a tip short of the
+    axis; outside that BadInput is raised.
+
+    >>> g = radial_hole("10 mm", "10 mm", "100 mm", "7850 kg/m^3"); round(g.unbalance_g_mm, 2)
+    638.89
+    """
+    d = magnitude(diameter, "length", "mm", "diameter", positive=True)
+    L = magnitude(depth, "length", "mm", "depth", nonnegative=True)
+    R = magnitude(surface_radius, "length", "mm", "radius", positive=True)
+    rho = resolve_density(density=density).g_mm3
+    a = _angle(point_angle_deg)
+    _check_geometry("radial", d, L, R, a)
+    return _geometry("radial", d, L, R, rho, a)
+
+
+def correction_g_mm(amount, radius=None, name: str = "--unbalance") -> float:
+    """A correction as unbalance [g·mm]: an unbalance (``"2400 g*mm"``, ``"3.3 oz*in"``) or a mass with its
+    radius (``"38 g"`` at ``"620 mm"``).
+
+    >>> correction_g_mm("38 g", "620 mm"), round(correction_g_mm("1 oz*in"), 3)
+    (23560.0, 720.078)
+    """
+    from toolkit.units import quantity
+
+    if isinstance(amount, str) and amount.strip():
+        try:
+            q = quantity(amount, "unbalance", name, positive=True)
+        except BadInput:
+            q = None
+    else:
+        q = None
+    if q is None and not isinstance(amount, str):
+        try:
+            q = quantity(amount, "unbalance", name, positive=True)
+        except BadInput:
+            q = None
+    if q is not None:
+        return float(q.m_as("g*mm"))
+    try:
+        m = magnitude(amount, "mass", "g", name, positive=True)
+    except BadInput:
+        raise BadInput(f"{name}: {amount!r} is neither an unbalance (e.g. '2400 g*mm', '3.3 oz*in') nor a "
+                       "mass with --radius (e.g. '38 g')") from None
+    if radius is None:
+        raise BadInput(f"{name}: {amount!s} is a mass; give its radius too (--radius, e.g. '620 mm') or give "
+                       "an unbalance such as '2400 g*mm'")
+    return float(m * magnitude(radius, "length", "mm", "--radius", positive=True))
+
+
+# -- design ----------------------------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Hole:
+    """One hole to drill: its angle on the rotor [deg], offset from the pattern centre [deg], shoulder and
+    tip depth [mm], removed mass [g] and removed unbalance [g·mm]."""
+
+    angle_deg: float
+    offset_deg: float
+    diameter_mm: float
+    depth_mm: float
+    tip_depth_mm: float
+    mass_g: float
+    unbalance_g_mm: float
+
+    def to_dict(self) -> dict:
+        return asdict(self)
+
+
+@dataclass(frozen=True)
+class DrillResult:
+    """Holes that remove a required unbalance, with what they achieve after depth rounding.
+
+    ``requested_g_mm`` at ``remove_angle_deg`` is the unbalance to remove (the heavy spot);
+    ``achieved_g_mm`` at ``achieved_angle_deg`` is the vector sum the rounded holes remove.
+    """
+
+    orientation: str
+    radius_mm: float
+    drill: str
+    diameter_mm: float
+    point_angle_deg: float
+    holes: tuple[Hole, ...]
+    requested_g_mm: float
+    remove_angle_deg: float
+    given_action: str
+    given_angle_deg: float
+    achieved_g_mm: float
+    achieved_angle_deg: float
+    error_g_mm: float
+    density_kg_m3: float
+    material: str | None
+    density_source: str
+    limits: Limits
+    pitch_deg: float | None
+    fixed_positions: tuple[float, ...] | None
+    warnings: tuple[str, ...] = ()
+    method: str = "exact hole geometry (DOMAIN.md section 3: axial V = π r² (L + h/3); radial first moment)"
+    cautions: tuple[str, ...] = CAUTIONS
+
+    @property
+    def depth_mm(self) -> float:
+        return max(h.depth_mm for h in self.holes)
+
+    @property
+    def tip_depth_mm(self) -> float:
+        return max(h.tip_depth_mm for h in self.holes)
+
+    @property
+    def removed_mass_g(self) -> float:
+        return sum(h.mass_g for h in self.holes)
+
+    def placement(self) -> str:
+        """Where to drill, in words, including the add/remove conversion."""
+        if self.given_action == "add":
+            return (f"correction given as add {self.requested_g_mm:.4g} g·mm at {self.given_angle_deg:g}°: "
+                    f"remove it at the heavy spot, {self.remove_angle_deg:g}° (= {self.given_angle_deg:g}° + 180°)")
+        return f"remove {self.requested_g_mm:.4g} g·mm at the heavy spot, {self.remove_angle_deg:g}°"
+
+    def to_dict(self) -> dict:
+        return {
+            "orientation": self.orientation, "radius_mm": self.radius_mm, "drill": self.drill,
+            "holes": len(self.holes), "hole_list": [h.to_dict() for h in self.holes],
+            "diameter_mm": self.diameter_mm, "depth_mm": self.depth_mm, "tip_depth_mm": self.tip_depth_mm,
+            "point_angle_deg": self.point_angle_deg, "removed_mass_g": self.removed_mass_g,
+            "requested_g_mm": self.requested_g_mm, "remove_angle_deg": self.remove_angle_deg,
+            "given_action": self.given_action, "given_angle_deg": self.given_angle_deg,
+            "placement": self.placement(),
+            "achieved_g_mm": self.achieved_g_mm, "achieved_angle_deg": self.achieved_angle_deg,
+            "error_g_mm": self.error_g_mm,
+            "angle_offsets_deg": [h.offset_deg for h in self.holes],
+            "pitch_deg": self.pitch_deg,
+            "fixed_positions_deg": list(self.fixed_positions) if self.fixed_positions else None,
+            "density_kg_m3": self.density_kg_m3, "material": self.material,
+            "density_source": self.density_source, "limits_used": self.limits.to_dict(),
+            "warnings": list(self.warnings), "method": self.method, "cautions": list(self.cautions),
+        }
+
+
+def _norm(a: float) -> float:
+    a = math.fmod(a, 360.0)
+    a = a + 360.0 if a < 0 else a
+    a = 0.0 if a >= 360.0 - 1e-12 else a
+    return round(a, 9) + 0.0
+
+
+def _depth_for(orientation: str, U1: float, d: float, R: float, rho: float, angle: float,
+               top: float) -> float | None:
+    """Exact shoulder depth L for one hole removing U1, or None when out of [minimum, top]."""
+    r, h = d / 2.0, _h(d, angle)
+    if orientation == "axial":
+        L = U1 / (rho * math.pi * r * r * R) - h / 3.0
+        return L if 0.0 <= L <= top + 1e-12 else None
+    lo = _radial_min_depth(R, r)
+    hi = min(top, R - h)
+    if hi <= lo:
+        return None
+    f = lambda L: rho * _radial_moment(R, r, L, h) - U1  # noqa: E731
+    if f(lo) > 0 or f(hi) < 0:
+        return None
+    return solve_bracketed(f, lo, hi, 1e-12)
+
+
+def _round_depth(L: float, step: float, orientation: str, d: float, R: float) -> float:
+    Lr = round(L / step) * step
+    if orientation == "radial":
+        lmin = _radial_min_depth(R, d / 2)
+        while Lr < lmin:
+            Lr += step
+    return max(Lr, 0.0)
+
+
+def _pitch_deg(d: float, R: float, limits: Limits) -> float | None:
+    s = limits.spacing_ratio * d
+    if s >= 2 * R:
+        return None
+    p = math.degrees(2 * math.asin(s / (2 * R)))
+    return math.ceil(p * 2 - 1e-9) / 2.0  # marked out to the next half degree
+
+
+def _top(d: float, angle: float, limits: Limits, wall: float | None, ratio: float) -> float:
+    """Deepest shoulder depth allowed for drill d by the tip ratio, absolute cap and wall."""
+    h = _h(d, angle)
+    tip = min(ratio * d, limits.tip_limit_mm(d))
+    if wall is not None:
+        tip = min(tip, wall - max(limits.min_wall_mm, limits.min_wall_ratio * d))
+    return tip - h
+
+
+def _design(orientation, U, d, R, rho, angle, limits, wall, ratio, fixed, remove_angle):
+    """(per-hole depths, angles, offsets, pitch) for drill d, or None if not possible within ``ratio``."""
+    top = _top(d, angle, limits, wall, ratio)
+    if top < 0:
+        return None
+    if fixed:
+        parts = _split_fixed(U, remove_angle, fixed)
+        depths = []
+        for ang, u in parts:
+            L = _depth_for(orientation, u, d, R, rho, angle, top)
+            if L is None:
+                return None
+            depths.append((ang, _offset(ang, remove_angle), L))
+        return depths, None
+    pitch = _pitch_deg(d, R, limits)
+    for n in range(1, limits.max_holes + 1):
+        if n > 1:
+            if pitch is None or (n - 1) * pitch > 180.0:
+                return None
+            factor = math.sin(math.radians(n * pitch / 2)) / math.sin(math.radians(pitch / 2))
+        else:
+            factor = 1.0
+        L = _depth_for(orientation, U / factor, d, R, rho, angle, top)
+        if L is not None:
+            offs = [(k - (n - 1) / 2.0) * (pitch or 0.0) for k in range(n)]
+            return [(_norm(remove_angle + o), o, L) for o in offs], (pitch if n > 1 else None)
+    return None
+
+
+def _offset(angle: float, centre: float) -> float:
+    return (angle - centre + 180.0) % 360.0 - 180.0
+
+
+def _split_fixed(U: float, theta: float, positions: tuple[float, ...]) -> list[tuple[float, float]]:
+    """Split U at theta onto the two neighbouring fixed positions (law of sines; DOMAIN.md 2, D)."""
+    pos = sorted(set(_norm(p) for p in positions))
+    for p in pos:
+        if abs(_offset(p, theta)) < 1e-9:
+            return [(p, U)]
+    if len(pos) < 2:
+        raise Infeasible(f"fixed positions: one position ({pos[0]:g}°) cannot take a correction at "
+                         f"{theta:g}°; give two or more positions around it")
+    below = max(pos, key=lambda p: -((theta - p) % 360.0))
+    above = min(pos, key=lambda p: (p - theta) % 360.0)
+    span = (above - below) % 360.0
+    if span >= 180.0:
+        raise Infeasible(f"fixed positions: the neighbours of {theta:g}° ({below:g}° and {above:g}°) are "
+                         f"{span:g}° apart; a split needs them less than 180° apart")
+    a = math.radians((theta - below) % 360.0)
+    b = math.radians((above - theta) % 360.0)
+    s = math.sin(math.radians(span))
+    return [(below, U * math.sin(b) / s), (above, U * math.sin(a) / s)]
+
+
+def drill_correction(correction, *, radius, orientation: str = "axial", angle_deg=0.0, action: str = "remove",
+                     material=None, density=None, diameter=None, drills="metric", point_angle_deg: float = 118.0,
+                     limits: Limits | None = None, wall=None, fixed_positions=None,
+                     materials_table: str = "materials") -> DrillResult:
+    """Holes that remove a required unbalance, drilled with the shop's drills, depths rounded to the step.
+
+    correction : Quantity [mass·length] (``"2400 g*mm"``) or [mass] with ``radius`` (``"38 g"``).
+    radius : Quantity [length], the pitch radius (axial holes) or the surface radius (radial holes).
+    orientation : ``"axial"`` or ``"radial"``. angle_deg : angle of the correction [deg]; ``action``
+    ``"remove"`` (heavy spot, drilled there) or ``"add"`` (drilled at angle + 180°).
+    material / density : rotor material name or density. diameter : a drill to use (else chosen from
+    ``drills``: ``"metric"``, ``"inch"`` or a shop CSV path). wall : Quantity [length], material thickness
+    along the hole from first contact (for the wall under the tip). fixed_positions : angles [deg] of a
+    drilled pattern to split onto. limits : :class:`Limits` (common practice, overridable).
+
+    Drill choice: the smallest drill of the set whose holes stay within the preferred depth ratio, with as
+    few holes as possible; failing that, within the refusal limit (with a warning beyond 3·d).
+
+    >>> r = drill_correction("2400 g*mm", radius="150 mm", orientation="axial", diameter="10 mm",
+    ...                      material="steel")
+    >>> len(r.holes), round(r.depth_mm, 1), round(r.achieved_g_mm, 1)
+    (1, 24.9, 2395.4)
+    """
+    if orientation not in ORIENTATIONS:
+        raise BadInput(f"orientation: {orientation!r} is not allowed; use 'axial' or 'radial'")
+    if action not in ("add", "remove"):
+        raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
+    limits = limits or Limits()
+    R = float(magnitude(radius, "length", "mm", "--radius", positive=True))
+    U = correction_g_mm(correction, radius)
+    dens = resolve_density(material, density, materials_table)
+    rho = dens.g_mm3
+    angle = _angle(point_angle_deg)
+    given = parse_angle(angle_deg, "angle")
+    remove_angle = _norm(given + 180.0) if action == "add" else given
+    wall_mm = None if wall is None else magnitude(wall, "length", "mm", "--wall", positive=True)
+    fixed = None
+    if fixed_positions:
+        fixed = tuple(parse_angle(p, "fixed position") for p in fixed_positions)
+    if diameter is not None:
+        d = magnitude(diameter, "length", "mm", "--diameter", positive=True)
+        if orientation == "radial" and d >= R:
+            raise BadInput(f"--diameter: {d:g} mm is too large for a {R:g} mm radius")
+        candidates = [_stock.Drill(f"{d:g} mm", d, "given")]
+    else:
+        candidates = [c for c in _stock.drills(drills) if orientation == "axial" or c.diameter_mm < R]
+    chosen = None
+    for ratio in (limits.preferred_depth_ratio, limits.max_depth_ratio):
+        if diameter is not None:
+            ratio = limits.max_depth_ratio
+        for c in candidates:
+            got = _design(orientation, U, c.diameter_mm, R, rho, angle, limits, wall_mm, ratio, fixed,
+                          remove_angle)
+            # fewest holes first, then the smallest drill (finer control of the removed amount)
+            if got is not None and (chosen is None or len(got[0]) < len(chosen[1][0])):
+                chosen = (c, got)
+                if len(got[0]) == 1:
+                    break
+        if chosen:
+            break
+    if chosen is None:
+        raise Infeasible(_nearest(orientation, U, R, rho, angle, limits, wall_mm, candidates, fixed))
+    drill, (plan, pitch) = chosen
+    d = drill.diameter_mm
+    holes = []
+    total = 0j
+    warnings = []
+    for ang, off, L in plan:
+        Lr = _round_depth(L, limits.depth_step_mm, orientation, d, R)
+        g = _geometry(orientation, d, Lr, R, rho, angle)
+        if g.tip_depth_mm > limits.tip_limit_mm(d) + 1e-9:
+            Lr -= limits.depth_step_mm
+            g = _geometry(orientation, d, Lr, R, rho, angle)
+        holes.append(Hole(ang, round(off, 6) + 0.0, d, Lr, g.tip_depth_mm, g.mass_g, g.unbalance_g_mm))
+        total += g.unbalance_g_mm * complex(math.cos(math.radians(ang)), math.sin(math.radians(ang)))
+    tip = max(h.tip_depth_mm for h in holes)
+    if tip > limits.warn_depth_ratio * d:
+        warnings.append(f"tip depth {tip:.1f} mm is beyond {limits.warn_depth_ratio:g}·d "
+                        f"({limits.warn_depth_ratio * d:.1f} mm): drill in pecks and check for drift [CP]")
+    if wall_mm is not None:
+        warnings.append(f"wall left under the tip: {wall_mm - tip:.1f} mm "
+                        f"(at least {max(limits.min_wall_mm, limits.min_wall_ratio * d):.1f} mm required) [CP]")
+    if fixed and len(holes) == 2:
+        gap = abs(_offset(holes[0].angle_deg, holes[1].angle_deg))
+        chord = 2 * R * math.sin(math.radians(gap) / 2)
+        if chord < limits.spacing_ratio * d:
+            warnings.append(f"fixed positions {holes[0].angle_deg:g}° and {holes[1].angle_deg:g}° are "
+                            f"{chord:.1f} mm apart, under {limits.spacing_ratio:g}·d [CP]")
+    if orientation == "axial" and pitch is not None:
+        warnings.append(f"holes at pitch {pitch:g}° on {R:g} mm: centres {2 * R * math.sin(math.radians(pitch) / 2):.1f} "
+                        f"mm apart (at least {limits.spacing_ratio:g}·d = {limits.spacing_ratio * d:.1f} mm) [CP]")
+    achieved = abs(total)
+    ach_angle = _norm(math.degrees(math.atan2(total.imag, total.real))) if achieved > 0 else remove_angle
+    want = U * complex(math.cos(math.radians(remove_angle)), math.sin(math.radians(remove_angle)))
+    return DrillResult(orientation, R, drill.size, d, angle, tuple(holes), U, remove_angle, action, given,
+                       achieved, ach_angle, abs(total - want), dens.kg_m3,
+                       dens.material.name if dens.material else None, dens.source, limits, pitch, fixed,
+                       tuple(warnings))
+
+
+def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed) -> str:
+    """The reason a request cannot be drilled and the nearest feasible alternative."""
+    big = candidates[-1].diameter_mm
+    small = candidates[0].diameter_mm
+    top_big = _top(big, angle, limits, wall, limits.max_depth_ratio)
+    reason = ""
+    if top_big < 0:
+        return (f"no room for a {big:g} mm hole: the wall and depth limits leave no depth for its point; "
+                "give a thicker --wall, a flat-bottom tool (--point-angle 180) or another method (plate, washers)")
+    # largest removal per hole at the refusal limit
+    if orientation == "axial":
+        one = rho * _axial_volume(big / 2, top_big, _h(big, angle)) * R
+    else:
+        one = rho * _radial_moment(R, big / 2, min(top_big, R - _h(big, angle)), _h(big, angle))
+    pitch = _pitch_deg(big, R, limits)
+    n = limits.max_holes
+    if pitch is not None and not fixed:
+        n = max(1, min(n, int(180.0 // pitch) + 1))
+        most = one * math.sin(math.radians(n * pitch / 2)) / math.sin(math.radians(pitch / 2))
+    else:
+        most = one * (1 if not fixed else 2)
+    if U > most:
+        reason = (f"{U:.4g} g·mm is more than {n if not fixed else 'the'} {big:g} mm holes can remove within "
+                  f"the limits (at most about {most:.4g} g·mm at {limits.max_depth_ratio:g}·d); nearest: remove "
+                  f"{most:.4g} g·mm here and the rest in another plane or by another method, or raise "
+                  "--max-depth-ratio if the rotor maker allows")
+    else:
+        h = _h(small, angle)
+        if orientation == "axial":
+            least = rho * _axial_volume(small / 2, 0.0, h) * R
+        else:
+            least = rho * _radial_moment(R, small / 2, _radial_min_depth(R, small / 2), h)
+        reason = (f"{U:.4g} g·mm is less than the smallest {small:g} mm drill removes with its point alone "
+                  f"({least:.4g} g·mm at {R:g} mm); nearest: drill at a smaller radius, use a smaller drill, "
+                  "or leave it if within tolerance")
+    return reason

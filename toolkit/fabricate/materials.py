@@ -1,0 +1,143 @@
+"""Materials of rotors and correction masses: density, weldability, notes and the source of each row.
+
+The table is ``tables/materials.csv`` (columns ``name, aliases, density_kg_m3, weldable, notes, source``)
+or a shop's own CSV with the same columns. Names and aliases (grade designations such as ``S355``,
+``1.4301``, ``6061``) are matched without regard to case, spaces or hyphens.
+
+Densities follow DOMAIN.md section 3 (EN 1993-1-1 3.2.6 for steels, EN 10088-1 for stainless, the CRC
+Handbook for the elements); cast-iron densities vary between heats and are marked from memory. Weldability
+is common practice, not a normative statement: the welding procedure and the rotor maker decide.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+
+from toolkit import catalog
+from toolkit.errors import BadInput, Infeasible
+from toolkit.units import magnitude
+
+__all__ = ["Material", "MATERIAL_SCHEMA", "materials", "find", "resolve_density", "require_weldable"]
+
+MATERIAL_SCHEMA = {
+    "name": catalog.text,
+    "aliases": catalog.aliases,
+    "density_kg_m3": catalog.number,
+    "weldable": catalog.boolean,
+    "notes": lambda cell: cell.strip(),
+}
+
+
+@dataclass(frozen=True)
+class Material:
+    """A material row: name, aliases, density [kg/m³], weldable, notes, source."""
+
+    name: str
+    density_kg_m3: float
+    weldable: bool
+    source: str
+    aliases: tuple[str, ...] = ()
+    notes: str = ""
+
+    def to_dict(self) -> dict:
+        return {"name": self.name, "aliases": list(self.aliases), "density_kg_m3": self.density_kg_m3,
+                "weldable": self.weldable, "notes": self.notes, "source": self.source}
+
+
+def _key(name: str) -> str:
+    return re.sub(r"[\s_\-]+", "", str(name).lower())
+
+
+def materials(table: str = "materials") -> tuple[Material, ...]:
+    """All materials of the table (built-in ``"materials"`` or the path of a shop's CSV).
+
+    >>> [m.name for m in materials()][:2]
+    ['carbon steel', 'low-alloy steel']
+    """
+    rows = catalog.load(table, MATERIAL_SCHEMA)
+    out = tuple(Material(r["name"], r["density_kg_m3"], r["weldable"], r["source"], r["aliases"], r["notes"])
+                for r in rows)
+    seen: dict[str, str] = {}
+    for m in out:
+        for label in (m.name, *m.aliases):
+            k = _key(label)
+            if k in seen and seen[k] != m.name:
+                raise BadInput(f"{table}: name or alias {label!r} is used by both {seen[k]!r} and {m.name!r}")
+            seen[k] = m.name
+    return out
+
+
+def find(name: str, table: str = "materials") -> Material:
+    """The material called ``name`` or carrying it as an alias.
+
+    >>> find("S355").name, find("1.4301").density_kg_m3
+    ('carbon steel', 7900.0)
+    >>> find("unobtainium")
+    Traceback (most recent call last):
+    ...
+    toolkit.errors.BadInput: --material: 'unobtainium' is not in the materials table; known: carbon steel, ...
+    """
+    if not isinstance(name, str) or not name.strip():
+        raise BadInput(f"--material: {name!r} is not a material name; e.g. 'steel' or 'S355'")
+    wanted = _key(name)
+    table_rows = materials(table)
+    for m in table_rows:
+        if wanted == _key(m.name) or any(wanted == _key(a) for a in m.aliases):
+            return m
+    raise BadInput(f"--material: {name!r} is not in the materials table; known: "
+                   f"{', '.join(m.name for m in table_rows)} (or give --density)")
+
+
+@dataclass(frozen=True)
+class Density:
+    """The density used for a calculation [kg/m³], the material it belongs to (if named) and its source."""
+
+    kg_m3: float
+    material: Material | None
+    source: str = field(default="")
+
+    @property
+    def g_mm3(self) -> float:
+        return self.kg_m3 * 1e-6
+
+    def to_dict(self) -> dict:
+        return {"density_kg_m3": self.kg_m3, "material": self.material.name if self.material else None,
+                "density_source": self.source}
+
+
+def resolve_density(material=None, density=None, table: str = "materials") -> Density:
+    """The density to use: an explicit ``density`` (quantity or ``"7850 kg/m^3"``) wins over the table value
+    of ``material``; one of the two is required.
+
+    >>> resolve_density("steel").kg_m3, resolve_density(density="0.284 lb/in^3").kg_m3
+    (7850.0, 7861.0...)
+    >>> resolve_density()
+    Traceback (most recent call last):
+    ...
+    toolkit.errors.BadInput: --material/--density: give a material name (e.g. 'steel') or a density ...
+    """
+    mat = find(material, table) if material is not None else None
+    if density is not None:
+        rho = magnitude(density, "density", "kg/m**3", "--density", positive=True)
+        if not 100 <= rho <= 25000:
+            raise BadInput(f"--density: {density!s} is outside 100 to 25000 kg/m³; check the unit")
+        return Density(rho, mat, "given")
+    if mat is None:
+        raise BadInput("--material/--density: give a material name (e.g. 'steel') or a density "
+                       "(e.g. '7850 kg/m^3')")
+    return Density(mat.density_kg_m3, mat, mat.source)
+
+
+def require_weldable(density: Density) -> None:
+    """Refuse weld-on corrections on a material marked not weldable, suggesting another method.
+
+    >>> require_weldable(resolve_density("grey cast iron"))
+    Traceback (most recent call last):
+    ...
+    toolkit.errors.Infeasible: grey cast iron is marked not weldable (...); use drilled holes (drill) or bolt-on washers (washers) instead
+    """
+    m = density.material
+    if m is not None and not m.weldable:
+        raise Infeasible(f"{m.name} is marked not weldable ({m.notes or 'materials table'}); use drilled "
+                         "holes (drill) or bolt-on washers (washers) instead")
