@@ -1,0 +1,747 @@
+"""Job files: one rotor's balancing job as a TOML file of our own design, read and validated.
+
+A job file has these tables (``examples/job-*.toml`` are complete, invented examples):
+
+``[order]``
+    ``number`` (required), ``rotor`` (required: what the rotor is), ``customer``, ``drawing``, ``serial``,
+    ``date``, ``notes``. Free text; it is printed, never evaluated.
+``[rotor]``
+    ``mass`` (required, e.g. ``"412 kg"``), ``service_speed`` (required: the maximum service speed),
+    ``balancing_speed`` (default: the service speed), ``grade`` (``"G 6.3"`` or ``"6.3 mm/s"``; default
+    ``G 6.3``), ``material`` (default ``"carbon steel"``), ``criterion`` (``"iso"``, default, or
+    ``"api"``/``"mil"`` where the tolerance module offers them).
+``[geometry]``
+    ``bearing_span`` and ``centre_of_mass`` (measured from bearing A towards bearing B), both required;
+    ``static_share`` (optional, a fraction, for narrow rotors; passed to the tolerance module).
+``[[plane]]`` (one or two)
+    ``name``, ``position`` (from bearing A towards B; may lie outside the span), ``radius`` (correction
+    radius), ``surface`` (``outer``, ``inner`` or ``face``), ``methods`` (a list in order of preference,
+    from ``drill``, ``plate``, ``washers``), optional ``fixed_positions`` (angles in degrees where the mass
+    must go, such as blades or tapped holes), ``max_depth`` (a length: deepest hole allowed),
+    ``max_length`` (a length: longest plate that fits), ``material`` (default: the rotor's).
+``[angles]``
+    ``reference`` (what marks 0°, e.g. ``"keyway"``; required), ``sense`` (how angles on the rotor are
+    counted: ``"against rotation"`` or ``"with rotation"``; required), ``readings`` (for trial runs: the
+    sense of the instrument's phase angles, same words; default: the same as ``sense``).
+``[measurement]``
+    ``kind`` = ``"machine"``: per-plane values read from a balancing machine in ``[measurement.readings]``,
+    ``PLANE = "AMOUNT@ANGLE"`` with the amount as an unbalance (``"1820 g*mm@40"``) or as a mass at the
+    correction radius (``"5.9 g@40"``); ``shows`` says what the machine's angle is: ``"heavy spot"``
+    (default) or ``"add"`` (where mass is to be added). ``kind`` = ``"runs"``: trial-mass runs in
+    ``[[measurement.run]]`` tables, in the same form as the ``solve`` runs file. ``kind`` =
+    ``"coefficients"``: ``coefficients`` (a path, relative to the job file, to stored influence
+    coefficients) and one original run in ``[measurement.original]``.
+``[shop]``
+    ``units`` (``metric``/``imperial``), ``drills`` and ``plate_stock`` (``"builtin"`` or a path to a shop's
+    own table), ``angle_step`` (marking resolution, default 1°) and ``mass_step`` (weighing resolution,
+    default 0.1 g); both defaults are common practice and printed as used.
+
+Validation collects every problem before it stops; each names the file, the line, the key, the value
+given and what is allowed. ``tomllib`` gives no line numbers, so :func:`key_lines` finds them in the text.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from types import MappingProxyType
+from typing import Any, Mapping
+
+from toolkit.errors import BadInput
+
+__all__ = [
+    "Job", "PlaneSpec", "Measurement", "ShopSettings", "JobError",
+    "load_job", "parse_job", "key_lines",
+    "METHODS", "SURFACES", "SENSES", "DEFAULTS",
+]
+
+#: Correction methods a plane may allow, in the words used in job files.
+METHODS = ("drill", "plate", "washers")
+#: Surface kinds of a correction plane.
+SURFACES = ("outer", "inner", "face")
+#: Angle senses.
+SENSES = ("against rotation", "with rotation")
+#: Kinds of measurement.
+KINDS = ("machine", "runs", "coefficients")
+#: What a balancing machine's angle shows.
+SHOWS = ("heavy spot", "add")
+
+#: Defaults applied when the job file is silent: value, mark (DOMAIN.md marks) and why.
+DEFAULTS: Mapping[str, tuple[str, str, str]] = MappingProxyType({
+    "rotor.grade": ("G 6.3", "CP", "common practice for general machinery, fans and pumps; set [rotor] grade"),
+    "rotor.material": ("carbon steel", "CP", "common practice; set [rotor] material"),
+    "shop.angle_step": ("1 deg", "CP", "common practice marking resolution; set [shop] angle_step"),
+    "shop.mass_step": ("0.1 g", "CP", "common practice weighing resolution; set [shop] mass_step"),
+    "shop.units": ("metric", "CP", "set [shop] units"),
+})
+
+MAX_JOB_BYTES = 1_000_000
+_TEXT_LIMIT = 2000
+
+
+class JobError(BadInput):
+    """Every problem found in a job file, reported at once.
+
+    ``problems`` holds one message per problem; ``str()`` joins them on one line.
+    """
+
+    def __init__(self, origin: str, problems: list[str]):
+        self.origin = origin
+        self.problems = tuple(problems)
+        count = len(problems)
+        head = f"{origin}: {count} problem{'s' if count != 1 else ''} in the job file: "
+        super().__init__(head + "; ".join(problems))
+
+
+# -- line numbers of keys ------------------------------------------------------------------------
+
+_HEADER = re.compile(r"^\s*(\[\[?)\s*([^\]]+?)\s*\]\]?\s*(?:#.*)?$")
+_KEY = re.compile(r"""^\s*((?:"[^"]*"|'[^']*'|[A-Za-z0-9_-]+)(?:\s*\.\s*(?:"[^"]*"|'[^']*'|[A-Za-z0-9_-]+))*)\s*=""")
+
+
+def _split_dotted(text: str) -> list[str]:
+    parts = re.findall(r"""\s*("[^"]*"|'[^']*'|[A-Za-z0-9_-]+)\s*(?:\.|$)""", text)
+    return [p[1:-1] if p[:1] in "\"'" else p for p in parts]
+
+
+def key_lines(text: str) -> dict[tuple, int]:
+    """Map each key path to the line where it is written (1-based).
+
+    Paths are tuples of names, with the index of an array-of-tables entry after its name:
+    ``("plane", 1, "radius")``. Table headers map too (``("plane", 1)``). Keys inside multi-line values are
+    not tracked (their value's first line is).
+
+    >>> key_lines('[order]\\nnumber = "7"\\n[[plane]]\\nname = "A"\\n[[plane]]\\nname = "B"\\n')[("plane", 1, "name")]
+    6
+    """
+    lines: dict[tuple, int] = {}
+    counters: dict[tuple, int] = {}
+    current: tuple = ()
+    in_multiline = None
+    for number, line in enumerate(text.splitlines(), start=1):
+        if in_multiline:
+            if line.count(in_multiline) % 2 == 1:
+                in_multiline = None
+            continue
+        header = _HEADER.match(line)
+        if header and not _KEY.match(line):
+            names = _split_dotted(header.group(2))
+            if header.group(1) == "[[":
+                base = tuple(_resolve(names[:-1], counters)) + (names[-1],)
+                index = counters.get(base, -1) + 1
+                counters[base] = index
+                current = base + (index,)
+                # nested arrays restart under a new parent entry
+                for key in [k for k in counters if len(k) > len(current) and k[: len(current)] == current]:
+                    del counters[key]
+            else:
+                current = tuple(_resolve(names, counters))
+            lines.setdefault(current, number)
+            continue
+        key = _KEY.match(line)
+        if key:
+            path = current + tuple(_split_dotted(key.group(1)))
+            lines.setdefault(path, number)
+            rest = line[key.end():]
+            for quote in ('"""', "'''"):
+                if rest.count(quote) == 1:
+                    in_multiline = quote
+    return lines
+
+
+def _resolve(names: list[str], counters: dict[tuple, int]) -> list:
+    """Insert array-of-tables indices into a header path ([plane.limits] under the last [[plane]])."""
+    out: list = []
+    for name in names:
+        out.append(name)
+        key = tuple(out)
+        if key in counters:
+            out.append(counters[key])
+    return out
+
+
+# -- the parsed job ------------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class PlaneSpec:
+    """One correction plane as the job describes it (lengths as pint quantities)."""
+
+    name: str
+    position: Any
+    radius: Any
+    surface: str
+    methods: tuple[str, ...]
+    fixed_positions: tuple[float, ...] = ()
+    max_depth: Any = None
+    max_length: Any = None
+    material: str = "carbon steel"
+
+    def to_dict(self) -> dict:
+        return {
+            "name": self.name, "position_mm": self.position.m_as("mm"), "radius_mm": self.radius.m_as("mm"),
+            "surface": self.surface, "methods": list(self.methods),
+            "fixed_positions_deg": list(self.fixed_positions),
+            "max_depth_mm": None if self.max_depth is None else self.max_depth.m_as("mm"),
+            "max_length_mm": None if self.max_length is None else self.max_length.m_as("mm"),
+            "material": self.material,
+        }
+
+
+@dataclass(frozen=True)
+class Measurement:
+    """What was measured.
+
+    ``kind`` is ``machine`` (``readings``: plane name -> (unbalance quantity, angle in degrees of the heavy
+    spot)), ``runs`` (``runs``: the raw run tables for the solver) or ``coefficients`` (``coefficients``:
+    path of the stored coefficients, ``original``: the original run table).
+    """
+
+    kind: str
+    readings: Mapping[str, tuple[Any, float]] = field(default_factory=dict)
+    shows: str = "heavy spot"
+    runs: tuple = ()
+    coefficients: Path | None = None
+    original: Mapping | None = None
+    raw: Mapping = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class ShopSettings:
+    """The shop's settings: unit system, tables, rounding steps."""
+
+    units: str
+    drills: str
+    plate_stock: str
+    angle_step_deg: float
+    mass_step: Any
+
+
+@dataclass(frozen=True)
+class Job:
+    """A validated job: everything the chain needs, with units, and where each default came from.
+
+    ``defaults_used`` lists the keys the file left out and that took a default (see :data:`DEFAULTS`).
+    """
+
+    origin: str
+    order: Mapping[str, str]
+    mass: Any
+    service_speed_rpm: float
+    balancing_speed_rpm: float
+    grade: str
+    criterion: str
+    material: str
+    bearing_span: Any
+    centre_of_mass: Any
+    static_share: float | None
+    planes: tuple[PlaneSpec, ...]
+    angle_reference: str
+    angle_sense: str
+    readings_sense: str
+    measurement: Measurement
+    shop: ShopSettings
+    defaults_used: tuple[str, ...] = ()
+
+    @property
+    def number(self) -> str:
+        """The order number."""
+        return self.order["number"]
+
+    def plane(self, name: str) -> PlaneSpec:
+        for plane in self.planes:
+            if plane.name == name:
+                return plane
+        raise KeyError(name)
+
+
+# -- validation ----------------------------------------------------------------------------------
+
+class _Checker:
+    """Collects problems with file and line."""
+
+    def __init__(self, origin: str, lines: dict[tuple, int]):
+        self.origin = origin
+        self.lines = lines
+        self.problems: list[str] = []
+
+    def line_of(self, path: tuple) -> int | None:
+        for cut in range(len(path), 0, -1):
+            if path[:cut] in self.lines:
+                return self.lines[path[:cut]]
+        return None
+
+    def add(self, path: tuple, message: str) -> None:
+        line = self.line_of(path)
+        where = f"line {line}, " if line else ""
+        self.problems.append(f"{where}{_dotted(path)}: {message}")
+
+
+def _dotted(path: tuple) -> str:
+    out = ""
+    for part in path:
+        if isinstance(part, int):
+            out += f"[{part + 1}]"
+        else:
+            out += ("." if out else "") + (part if re.fullmatch(r"[A-Za-z0-9_-]+", part) else repr(part))
+    return out or "(file)"
+
+
+def _shown(value) -> str:
+    text = repr(value)
+    return text if len(text) <= 60 else text[:57] + "..."
+
+
+_MISSING = object()
+
+
+def _table(ck: _Checker, data: Mapping, path: tuple, required: bool = True) -> Mapping:
+    value = data.get(path[-1], _MISSING)
+    if value is _MISSING:
+        if required:
+            ck.add(path, f"missing; the job file needs a [{_dotted(path)}] table")
+        return {}
+    if not isinstance(value, dict):
+        ck.add(path, f"{_shown(value)} is not a table; write it as [{_dotted(path)}]")
+        return {}
+    return value
+
+
+def _unknown(ck: _Checker, table: Mapping, path: tuple, allowed: tuple[str, ...]) -> None:
+    for key in table:
+        if key not in allowed:
+            ck.add(path + (key,), f"unknown key; allowed keys here: {', '.join(allowed)}")
+
+
+def _text(ck: _Checker, table: Mapping, path: tuple, required: bool = False, default: str = "") -> str:
+    value = table.get(path[-1], _MISSING)
+    if value is _MISSING:
+        if required:
+            ck.add(path, "missing; give it as text in quotes")
+        return default
+    if not isinstance(value, str):
+        ck.add(path, f"{_shown(value)} is not text; write it in quotes")
+        return default
+    if required and not value.strip():
+        ck.add(path, "is empty; give it as text in quotes")
+        return default
+    if len(value) > _TEXT_LIMIT:
+        ck.add(path, f"is {len(value)} characters long; at most {_TEXT_LIMIT} are allowed")
+        return value[:_TEXT_LIMIT]
+    return value
+
+
+def _quantity(ck: _Checker, table: Mapping, path: tuple, kind: str, required: bool = False,
+              positive: bool = False, nonnegative: bool = False):
+    from toolkit.units import quantity
+
+    value = table.get(path[-1], _MISSING)
+    if value is _MISSING:
+        if required:
+            from toolkit.units import KINDS as UNIT_KINDS
+
+            ck.add(path, f"missing; give a {kind} with its unit, e.g. \"{UNIT_KINDS[kind].example}\"")
+        return None
+    try:
+        return quantity(value, kind, "\x00", positive=positive, nonnegative=nonnegative)
+    except BadInput as exc:
+        ck.add(path, _strip_name(str(exc), value))
+        return None
+
+
+def _strip_name(message: str, value) -> str:
+    message = message.replace("\x00: ", "", 1)
+    return message if _shown(value) in message or repr(str(value)) in message else f"{_shown(value)}: {message}"
+
+
+def _choice(ck: _Checker, table: Mapping, path: tuple, allowed: tuple[str, ...], required: bool = False,
+            default: str | None = None) -> str | None:
+    value = table.get(path[-1], _MISSING)
+    if value is _MISSING:
+        if required:
+            ck.add(path, f"missing; allowed: {', '.join(repr(a) for a in allowed)}")
+        return default
+    norm = " ".join(str(value).strip().lower().replace("_", " ").replace("-", " ").split())
+    if not isinstance(value, str) or norm not in allowed:
+        ck.add(path, f"{_shown(value)} is not allowed; allowed: {', '.join(repr(a) for a in allowed)}")
+        return default
+    return norm
+
+
+_GRADE = re.compile(r"^\s*G\s*([0-9]+(?:\.[0-9]+)?)\s*$", re.IGNORECASE)
+
+
+def _grade(ck: _Checker, table: Mapping, path: tuple) -> str | None:
+    value = table.get(path[-1], _MISSING)
+    if value is _MISSING:
+        return None
+    if isinstance(value, str):
+        match = _GRADE.match(value)
+        if match:
+            return f"G {match.group(1)}"
+        try:
+            from toolkit.units import magnitude
+
+            g = magnitude(value, "grade", "mm/s", "\x00", positive=True)
+            return f"G {g:g}"
+        except BadInput:
+            pass
+    ck.add(path, f"{_shown(value)} is not a balance quality grade; write e.g. \"G 6.3\" or \"6.3 mm/s\"")
+    return None
+
+
+def _angle(ck: _Checker, value, path: tuple) -> float | None:
+    from toolkit.vectors import parse_angle
+
+    if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+        ck.add(path, f"{_shown(value)} is not an angle; give degrees such as 90 or \"90 deg\"")
+        return None
+    try:
+        return parse_angle(value, "\x00")
+    except BadInput:
+        ck.add(path, f"{_shown(value)} is not an angle; give degrees such as 90 or \"90 deg\"")
+        return None
+
+
+def parse_job(text: str, origin: str = "<job>", base: Path | None = None) -> Job:
+    """Validate the TOML text of a job and return a :class:`Job`, or raise :class:`JobError` listing every
+    problem with its line.
+
+    ``base`` is the folder that relative paths in the job (shop tables, stored coefficients) are read
+    from; default: the current folder.
+
+    >>> job = parse_job(EXAMPLE)
+    >>> job.number, job.planes[1].methods, job.measurement.readings["B"][1]
+    ('INV-0001', ('plate',), 200.0)
+    >>> parse_job(EXAMPLE.replace('"412 kg"', '412'), "job.toml")
+    Traceback (most recent call last):
+    ...
+    toolkit.workorder.job.JobError: job.toml: 1 problem in the job file: line 6, rotor.mass: 412 has no unit; ...
+    """
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise JobError(origin, [f"not valid TOML ({exc})"]) from None
+    ck = _Checker(origin, key_lines(text))
+    base = Path(base) if base is not None else Path(".")
+    defaults_used: list[str] = []
+
+    _unknown(ck, data, (), ("order", "rotor", "geometry", "plane", "angles", "measurement", "shop", "format"))
+
+    # [order]
+    order_t = _table(ck, data, ("order",))
+    _unknown(ck, order_t, ("order",), ("number", "rotor", "customer", "drawing", "serial", "date", "notes"))
+    order = {
+        "number": _text(ck, order_t, ("order", "number"), required=True),
+        "rotor": _text(ck, order_t, ("order", "rotor"), required=True),
+    }
+    for key in ("customer", "drawing", "serial", "date", "notes"):
+        order[key] = _text(ck, order_t, ("order", key))
+    if order["number"] and len(order["number"]) > 80:
+        ck.add(("order", "number"), f"{len(order['number'])} characters; an order number has at most 80")
+
+    # [rotor]
+    rotor_t = _table(ck, data, ("rotor",))
+    _unknown(ck, rotor_t, ("rotor",), ("mass", "service_speed", "balancing_speed", "grade", "criterion",
+                                        "material"))
+    mass = _quantity(ck, rotor_t, ("rotor", "mass"), "mass", required=True, positive=True)
+    service = _speed(ck, rotor_t, ("rotor", "service_speed"), required=True)
+    balancing = _speed(ck, rotor_t, ("rotor", "balancing_speed")) or service
+    grade = _grade(ck, rotor_t, ("rotor", "grade"))
+    if "grade" not in rotor_t:
+        grade = DEFAULTS["rotor.grade"][0]
+        defaults_used.append("rotor.grade")
+    criterion = _choice(ck, rotor_t, ("rotor", "criterion"), ("iso", "api", "mil"), default="iso")
+    material = _text(ck, rotor_t, ("rotor", "material"), default=DEFAULTS["rotor.material"][0])
+    if "material" not in rotor_t:
+        defaults_used.append("rotor.material")
+    if service and balancing and balancing > service * 1.0001:
+        ck.add(("rotor", "balancing_speed"), f"{rotor_t.get('balancing_speed')!r} is above the service speed "
+                                             f"{rotor_t.get('service_speed')!r}; a rigid-rotor balancing "
+                                             "speed is at most the service speed")
+
+    # [geometry]
+    geo_t = _table(ck, data, ("geometry",))
+    _unknown(ck, geo_t, ("geometry",), ("bearing_span", "centre_of_mass", "static_share"))
+    span = _quantity(ck, geo_t, ("geometry", "bearing_span"), "length", required=True, positive=True)
+    com = _quantity(ck, geo_t, ("geometry", "centre_of_mass"), "length", required=True)
+    share = geo_t.get("static_share")
+    if share is not None and (isinstance(share, bool) or not isinstance(share, (int, float))
+                              or not 0 < share < 1):
+        ck.add(("geometry", "static_share"), f"{_shown(share)} is not allowed; give a fraction between 0 and 1")
+        share = None
+
+    # [[plane]]
+    planes_raw = data.get("plane", _MISSING)
+    planes: list[PlaneSpec] = []
+    if planes_raw is _MISSING:
+        ck.add(("plane",), "missing; describe one or two correction planes as [[plane]] tables")
+        planes_raw = []
+    elif not isinstance(planes_raw, list) or not all(isinstance(p, dict) for p in planes_raw):
+        ck.add(("plane",), "must be written as [[plane]] tables")
+        planes_raw = []
+    elif not 1 <= len(planes_raw) <= 2:
+        ck.add(("plane",), f"{len(planes_raw)} planes given; a work order handles one or two correction planes")
+    names_seen: set[str] = set()
+    for i, p in enumerate(planes_raw):
+        path = ("plane", i)
+        _unknown(ck, p, path, ("name", "position", "radius", "surface", "methods", "fixed_positions",
+                               "max_depth", "max_length", "material"))
+        name = _text(ck, p, path + ("name",), required=True)
+        if name and name in names_seen:
+            ck.add(path + ("name",), f"{name!r} is used by another plane; plane names must differ")
+        names_seen.add(name)
+        position = _quantity(ck, p, path + ("position",), "length", required=True)
+        radius = _quantity(ck, p, path + ("radius",), "length", required=True, positive=True)
+        surface = _choice(ck, p, path + ("surface",), SURFACES, required=True)
+        methods = _methods(ck, p, path + ("methods",))
+        fixed = []
+        raw_fixed = p.get("fixed_positions", [])
+        if not isinstance(raw_fixed, list):
+            ck.add(path + ("fixed_positions",), f"{_shown(raw_fixed)} is not a list; write e.g. [0, 60, 120]")
+        else:
+            for value in raw_fixed:
+                angle = _angle(ck, value, path + ("fixed_positions",))
+                if angle is not None:
+                    fixed.append(angle)
+            if fixed and len(fixed) < 2:
+                ck.add(path + ("fixed_positions",), "one position given; give two or more, or none")
+            if len(set(fixed)) != len(fixed):
+                ck.add(path + ("fixed_positions",), f"{_shown(raw_fixed)} repeats an angle")
+        max_depth = _quantity(ck, p, path + ("max_depth",), "length", positive=True)
+        max_length = _quantity(ck, p, path + ("max_length",), "length", positive=True)
+        plane_material = _text(ck, p, path + ("material",), default=material)
+        if None not in (name, position, radius, surface) and methods:
+            planes.append(PlaneSpec(name, position, radius, surface, methods, tuple(sorted(fixed)), max_depth,
+                                    max_length, plane_material))
+    if len(planes) == 2 and span is not None:
+        gap = abs((planes[0].position - planes[1].position).m_as("mm"))
+        if gap == 0:
+            ck.add(("plane", 1, "position"), "both planes at the same axial position; two planes must be apart")
+
+    # [angles]
+    ang_t = _table(ck, data, ("angles",))
+    _unknown(ck, ang_t, ("angles",), ("reference", "sense", "readings"))
+    reference = _text(ck, ang_t, ("angles", "reference"), required=True)
+    sense = _choice(ck, ang_t, ("angles", "sense"), SENSES, required=True)
+    readings_sense = _choice(ck, ang_t, ("angles", "readings"), SENSES, default=sense)
+
+    # [measurement]
+    meas_t = _table(ck, data, ("measurement",))
+    all_names = [p.get("name") for p in planes_raw if isinstance(p.get("name"), str)]
+    measurement = _measurement(ck, meas_t, all_names, planes, base)
+
+    # [shop]
+    shop_t = _table(ck, data, ("shop",), required=False)
+    _unknown(ck, shop_t, ("shop",), ("units", "drills", "plate_stock", "angle_step", "mass_step"))
+    units = _choice(ck, shop_t, ("shop", "units"), ("metric", "imperial"), default="metric")
+    for key in ("units", "angle_step", "mass_step"):
+        if key not in shop_t:
+            defaults_used.append(f"shop.{key}")
+    drills = _table_ref(ck, shop_t, ("shop", "drills"), base)
+    stock = _table_ref(ck, shop_t, ("shop", "plate_stock"), base)
+    step_deg = 1.0
+    if "angle_step" in shop_t:
+        raw = shop_t["angle_step"]
+        angle = _angle(ck, raw, ("shop", "angle_step"))
+        if angle is not None:
+            if not 0 < angle <= 45:
+                ck.add(("shop", "angle_step"), f"{_shown(raw)} is not allowed; give a step between 0 and 45 degrees")
+            else:
+                step_deg = angle
+    mass_step = _quantity(ck, shop_t, ("shop", "mass_step"), "mass", positive=True)
+    if mass_step is None:
+        from toolkit.units import Q_
+
+        mass_step = Q_(0.1, "g")
+
+    if ck.problems:
+        raise JobError(origin, ck.problems)
+    return Job(origin, MappingProxyType(order), mass, service, balancing, grade, criterion or "iso", material,
+               span, com, share, tuple(planes), reference, sense, readings_sense, measurement,
+               ShopSettings(units or "metric", drills, stock, step_deg, mass_step), tuple(defaults_used))
+
+
+def _speed(ck: _Checker, table: Mapping, path: tuple, required: bool = False) -> float | None:
+    from toolkit.units import speed_rpm
+
+    value = table.get(path[-1], _MISSING)
+    if value is _MISSING:
+        if required:
+            ck.add(path, "missing; give a speed with its unit, e.g. \"1480 rpm\"")
+        return None
+    try:
+        return speed_rpm(value, "\x00")
+    except BadInput as exc:
+        ck.add(path, _strip_name(str(exc), value))
+        return None
+
+
+def _methods(ck: _Checker, p: Mapping, path: tuple) -> tuple[str, ...]:
+    raw = p.get("methods", _MISSING)
+    if raw is _MISSING:
+        ck.add(path, f"missing; list the allowed correction methods in order of preference, from "
+                     f"{', '.join(METHODS)}, e.g. [\"drill\"]")
+        return ()
+    if isinstance(raw, str):
+        raw = [raw]
+    if not isinstance(raw, list) or not raw:
+        ck.add(path, f"{_shown(raw)} is not a list of methods; allowed: {', '.join(METHODS)}")
+        return ()
+    out = []
+    for item in raw:
+        if not isinstance(item, str) or item.strip().lower() not in METHODS:
+            ck.add(path, f"{_shown(item)} is not a correction method; allowed: {', '.join(METHODS)}")
+            continue
+        if item.strip().lower() not in out:
+            out.append(item.strip().lower())
+    return tuple(out)
+
+
+def _table_ref(ck: _Checker, table: Mapping, path: tuple, base: Path) -> str:
+    value = table.get(path[-1], "builtin")
+    if not isinstance(value, str) or not value.strip():
+        ck.add(path, f"{_shown(value)} is not allowed; give \"builtin\" or the path of a CSV table")
+        return "builtin"
+    if value.strip().lower() == "builtin":
+        return "builtin"
+    file = (base / value).resolve() if not Path(value).is_absolute() else Path(value)
+    if file.suffix.lower() != ".csv":
+        ck.add(path, f"{_shown(value)} is not a .csv file; give \"builtin\" or the path of a CSV table")
+    elif not file.is_file():
+        ck.add(path, f"{_shown(value)}: no such file (looked for {file})")
+    return str(file)
+
+
+def _measurement(ck: _Checker, meas: Mapping, names: list[str], planes: list[PlaneSpec],
+                 base: Path) -> Measurement:
+    path = ("measurement",)
+    kind = _choice(ck, meas, path + ("kind",), KINDS, required=bool(meas) or True)
+    raw = MappingProxyType(dict(meas))
+    if kind == "machine":
+        _unknown(ck, meas, path, ("kind", "shows", "readings"))
+        shows = _choice(ck, meas, path + ("shows",), SHOWS, default="heavy spot")
+        readings_t = _table(ck, meas, path + ("readings",))
+        readings: dict[str, tuple[Any, float]] = {}
+        for key in readings_t:
+            if key not in names:
+                ck.add(path + ("readings", key), f"no plane named {key!r}; planes: {', '.join(names) or 'none'}")
+        for plane in planes:
+            value = readings_t.get(plane.name, _MISSING)
+            vpath = path + ("readings", plane.name)
+            if value is _MISSING:
+                if readings_t:
+                    ck.add(vpath, "missing; give the reading of this plane as AMOUNT@ANGLE, e.g. \"1820 g*mm@40\"")
+                continue
+            reading = _reading(ck, value, vpath, plane)
+            if reading is not None:
+                amount, angle = reading
+                if shows == "add":
+                    angle = (angle + 180.0) % 360.0
+                readings[plane.name] = (amount, angle)
+        return Measurement("machine", MappingProxyType(readings), shows or "heavy spot", raw=raw)
+    if kind == "runs":
+        _unknown(ck, meas, path, ("kind", "run", "sensors", "trial_stays"))
+        runs = meas.get("run")
+        if not isinstance(runs, list) or len(runs) < 2 or not all(isinstance(r, dict) for r in runs):
+            ck.add(path + ("run",), "give the original run and at least one trial run as [[measurement.run]] "
+                                    "tables")
+            runs = []
+        return Measurement("runs", runs=tuple(runs), raw=raw)
+    if kind == "coefficients":
+        _unknown(ck, meas, path, ("kind", "coefficients", "original"))
+        file_name = meas.get("coefficients")
+        file = None
+        if not isinstance(file_name, str) or not file_name.strip():
+            ck.add(path + ("coefficients",), f"{_shown(file_name)}: give the path of the stored coefficients file")
+        else:
+            file = (base / file_name) if not Path(file_name).is_absolute() else Path(file_name)
+            if not file.is_file():
+                ck.add(path + ("coefficients",), f"{file_name!r}: no such file (looked for {file.resolve()})")
+        original = _table(ck, meas, path + ("original",))
+        return Measurement("coefficients", coefficients=file, original=MappingProxyType(dict(original)), raw=raw)
+    return Measurement(kind or "machine", raw=raw)
+
+
+def _reading(ck: _Checker, value, path: tuple, plane: PlaneSpec):
+    """A machine reading as (unbalance quantity, heavy-spot angle); a mass is taken at the plane's radius."""
+    from toolkit.vectors import parse_vector
+
+    if not isinstance(value, str):
+        ck.add(path, f"{_shown(value)} is not a reading; write AMOUNT@ANGLE, e.g. \"1820 g*mm@40\" or \"5.9 g@40\"")
+        return None
+    try:
+        amount, angle = parse_vector(value, "unbalance", "\x00")
+        return amount, angle
+    except BadInput:
+        pass
+    try:
+        amount, angle = parse_vector(value, "mass", "\x00")
+    except BadInput:
+        ck.add(path, f"{_shown(value)} is not a reading; write AMOUNT@ANGLE with an unbalance or a mass, e.g. "
+                     "\"1820 g*mm@40\" or \"5.9 g@40\"")
+        return None
+    return (amount * plane.radius).to("g*mm"), angle
+
+
+def load_job(path: str | Path) -> Job:
+    """Read and validate a job file (see the module description for its tables).
+
+    Raises :class:`JobError` (a :class:`~toolkit.errors.BadInput`) naming the file and every problem.
+    """
+    path = Path(path)
+    try:
+        size = path.stat().st_size
+    except FileNotFoundError:
+        raise BadInput(f"{path}: no such job file") from None
+    except OSError as exc:
+        raise BadInput(f"{path}: cannot read ({exc.strerror})") from None
+    if not path.is_file():
+        raise BadInput(f"{path}: not a file; give a job file (.toml)")
+    if size > MAX_JOB_BYTES:
+        raise BadInput(f"{path}: {size} bytes is too large for a job file (at most {MAX_JOB_BYTES})")
+    raw = path.read_bytes()
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw[: exc.start].count(b"\n") + 1
+        raise BadInput(f"{path}, line {line}: not UTF-8 text") from None
+    return parse_job(text, str(path), path.parent)
+
+
+#: A small complete job used by the docstring examples (invented example, not a real rotor).
+EXAMPLE = """\
+# invented example
+[order]
+number = "INV-0001"
+rotor = "invented test rotor"
+[rotor]
+mass = "412 kg"
+service_speed = "1480 rpm"
+grade = "G 6.3"
+[geometry]
+bearing_span = "1200 mm"
+centre_of_mass = "540 mm"
+[[plane]]
+name = "A"
+position = "150 mm"
+radius = "300 mm"
+surface = "outer"
+methods = ["drill"]
+[[plane]]
+name = "B"
+position = "1050 mm"
+radius = "320 mm"
+surface = "outer"
+methods = ["plate"]
+[angles]
+reference = "keyway"
+sense = "against rotation"
+[measurement]
+kind = "machine"
+[measurement.readings]
+A = "1800 g*mm@40"
+B = "2400 g*mm@200"
+"""

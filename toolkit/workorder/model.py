@@ -1,0 +1,358 @@
+"""The work order: one immutable value that the exporters (spreadsheet, PDF, batch summary) only read.
+
+Inside the work order every amount is a float in a fixed unit named in the field (``_g_mm``, ``_g``,
+``_mm``, ``_deg``), converted once when the order is built; the properties without the suffix give pint
+quantities. Angles are degrees in [0, 360) from the job's angle reference, counted in the job's sense
+(``angle_sense``), which every exporter prints beside each angle.
+
+An unbalance is the heavy spot. An operation says ``add`` (mass placed at its angle) or ``remove`` (mass
+taken away at its angle); its effect on the rotor's unbalance is ``+U`` at the angle for ``add`` and ``-U``
+(that is, ``+U`` at angle + 180°) for ``remove``.
+"""
+
+from __future__ import annotations
+
+import cmath
+import math
+from dataclasses import asdict, dataclass, field
+
+from toolkit.errors import BadInput
+
+__all__ = [
+    "Identification", "Tolerance", "Operation", "PlaneOrder", "Setting", "WorkOrder",
+    "vector", "polar", "effect",
+]
+
+ACTIONS = ("add", "remove")
+KINDS = ("hole", "plate", "washers", "mass")
+
+
+def vector(amount: float, angle_deg: float) -> complex:
+    """The complex number ``amount * exp(i * angle)`` (angle in degrees).
+
+    >>> abs(vector(2.0, 90.0) - 2j) < 1e-12
+    True
+    """
+    return amount * cmath.exp(1j * math.radians(angle_deg))
+
+
+def polar(z: complex) -> tuple[float, float]:
+    """Amount and angle in [0, 360) of a complex vector.
+
+    >>> polar(vector(3.0, 300.0))
+    (3.0..., 300.0...)
+    """
+    angle = math.degrees(cmath.phase(z)) % 360.0
+    return abs(z), (0.0 if angle >= 360.0 - 1e-12 else angle)
+
+
+def effect(action: str, amount_g_mm: float, angle_deg: float) -> complex:
+    """The change of the rotor's unbalance caused by adding or removing ``amount_g_mm`` at ``angle_deg``.
+
+    Adding mass puts unbalance at its angle; removing it takes unbalance away there (the same as adding at
+    angle + 180°).  [D, DOMAIN.md section 2, helpers]
+
+    >>> polar(effect("remove", 50.0, 30.0))
+    (50.0..., 210.0...)
+    """
+    if action == "add":
+        return vector(amount_g_mm, angle_deg)
+    if action == "remove":
+        return -vector(amount_g_mm, angle_deg)
+    raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
+
+
+def _q(value: float, unit: str):
+    from toolkit.units import Q_
+
+    return Q_(value, unit)
+
+
+@dataclass(frozen=True)
+class Identification:
+    """Who and what the order is for. Free text, printed as given, never evaluated."""
+
+    number: str
+    rotor: str
+    customer: str = ""
+    drawing: str = ""
+    serial: str = ""
+    date: str = ""
+    notes: str = ""
+
+
+@dataclass(frozen=True)
+class Tolerance:
+    """The permissible residual unbalance of one correction plane and where it comes from."""
+
+    u_per_g_mm: float
+    method: str
+    source: str
+
+    @property
+    def u_per(self):
+        """The allowance as a pint quantity [unbalance]."""
+        return _q(self.u_per_g_mm, "g*mm")
+
+
+@dataclass(frozen=True)
+class Operation:
+    """One numbered step of the work order.
+
+    ``kind`` is ``hole``, ``plate``, ``washers`` or ``mass``; ``action`` is ``add`` or ``remove``;
+    ``description`` says in words what to do (for example ``"drill 2 holes Ø10.0 mm, 12.3 mm deep to full
+    diameter"``); ``mass_g`` is the mass added or removed; ``unbalance_g_mm`` what the operation achieves at
+    ``angle_deg``. ``details`` are extra (label, text) pairs for the shop floor.
+    """
+
+    number: int
+    plane: str
+    kind: str
+    action: str
+    description: str
+    angle_deg: float
+    mass_g: float
+    unbalance_g_mm: float
+    radius_mm: float
+    details: tuple[tuple[str, str], ...] = ()
+
+    def __post_init__(self):
+        if self.action not in ACTIONS:
+            raise BadInput(f"operation {self.number}: action {self.action!r} is not allowed; use add or remove")
+        if self.kind not in KINDS:
+            raise BadInput(f"operation {self.number}: kind {self.kind!r} is not allowed; use {', '.join(KINDS)}")
+        if not 0.0 <= self.angle_deg < 360.0:
+            raise BadInput(f"operation {self.number}: angle {self.angle_deg!r} must lie in [0, 360)")
+
+    @property
+    def mass(self):
+        return _q(self.mass_g, "g")
+
+    @property
+    def effect(self) -> complex:
+        """The change this operation makes to the plane's unbalance, g·mm as a complex vector."""
+        return effect(self.action, self.unbalance_g_mm, self.angle_deg)
+
+
+@dataclass(frozen=True)
+class PlaneOrder:
+    """Everything the work order says about one correction plane."""
+
+    name: str
+    position_mm: float
+    radius_mm: float
+    surface: str
+    method: str
+    tolerance: Tolerance
+    initial_g_mm: float
+    initial_deg: float
+    correction_action: str
+    correction_g_mm: float
+    correction_deg: float
+    operations: tuple[Operation, ...]
+    predicted_g_mm: float
+    predicted_deg: float
+    notes: tuple[str, ...] = ()
+
+    @property
+    def passed(self) -> bool:
+        """The predicted residual is within the allowance."""
+        return self.predicted_g_mm <= self.tolerance.u_per_g_mm * (1 + 1e-9)
+
+    @property
+    def initial(self):
+        return _q(self.initial_g_mm, "g*mm")
+
+    @property
+    def predicted(self):
+        return _q(self.predicted_g_mm, "g*mm")
+
+
+@dataclass(frozen=True)
+class Setting:
+    """A value the order used where DOMAIN.md marks it [M] or [CP]: what, the value, its mark, whether the
+    job gave it (``given``) or the default was used, and how to override it."""
+
+    name: str
+    value: str
+    mark: str
+    given: bool
+    how: str
+
+
+@dataclass(frozen=True)
+class WorkOrder:
+    """A finished work order. Exporters only read it.
+
+    ``angle_sense`` is ``"against rotation"`` or ``"with rotation"``; ``units`` is ``metric`` or
+    ``imperial`` (the system the exporters print in). ``passed`` is true when every plane's predicted
+    residual is within its allowance.
+    """
+
+    ident: Identification
+    rotor_mass_kg: float
+    service_speed_rpm: float
+    balancing_speed_rpm: float
+    grade: str
+    criterion: str
+    material: str
+    u_per_total_g_mm: float
+    angle_reference: str
+    angle_sense: str
+    units: str
+    planes: tuple[PlaneOrder, ...]
+    measurement: str
+    cautions: tuple[str, ...]
+    sources: tuple[str, ...]
+    settings: tuple[Setting, ...] = ()
+    warnings: tuple[str, ...] = ()
+    inputs: dict = field(default_factory=dict, compare=False, hash=False)
+
+    @property
+    def passed(self) -> bool:
+        return all(p.passed for p in self.planes)
+
+    @property
+    def operations(self) -> tuple[Operation, ...]:
+        """All operations of all planes, in their numbered order."""
+        return tuple(op for plane in self.planes for op in plane.operations)
+
+    @property
+    def rotor_mass(self):
+        return _q(self.rotor_mass_kg, "kg")
+
+    def to_dict(self) -> dict:
+        """A JSON-ready dictionary (amounts in g·mm, g, mm, degrees, as the key names say)."""
+        data = asdict(self)
+        data.pop("inputs", None)
+        data["passed"] = self.passed
+        for plane, raw in zip(self.planes, data["planes"]):
+            raw["passed"] = plane.passed
+            raw["u_per_g_mm"] = plane.tolerance.u_per_g_mm
+        data["corrections"] = [
+            {"plane": p.name, "mass_g": op.mass_g, "angle_deg": op.angle_deg, "action": op.action,
+             "kind": op.kind, "description": op.description}
+            for p in self.planes for op in p.operations
+        ]
+        return data
+
+
+def unit_labels(units: str) -> dict[str, tuple[str, float]]:
+    """Printed unit symbol and factor from the stored unit, for the chosen system.
+
+    Keys: ``unbalance`` (from g·mm), ``mass`` (from g), ``length`` (from mm), ``rotor_mass`` (from kg).
+    Factors are exact conversions (1 oz = 28.349523125 g, 1 in = 25.4 mm, 1 lb = 0.45359237 kg).
+
+    >>> unit_labels("imperial")["unbalance"]
+    ('oz·in', 0.001388...)
+    """
+    if units == "imperial":
+        oz, inch, lb = 28.349523125, 25.4, 0.45359237
+        return {"unbalance": ("oz·in", 1 / (oz * inch)), "mass": ("oz", 1 / oz), "length": ("in", 1 / inch),
+                "rotor_mass": ("lb", 1 / lb)}
+    return {"unbalance": ("g·mm", 1.0), "mass": ("g", 1.0), "length": ("mm", 1.0), "rotor_mass": ("kg", 1.0)}
+
+
+class Formatter:
+    """Numbers of a work order as printed text in its unit system (one place, shared by the exporters).
+
+    >>> f = Formatter("metric", "keyway", "against rotation")
+    >>> f.unbalance(2005.35), f.mass(12.345), f.angle(215.04), f.where(215.04)
+    ('2005 g·mm', '12.3 g', '215°', '215° from keyway, against rotation')
+    """
+
+    def __init__(self, units: str, reference: str, sense: str):
+        self.labels = unit_labels(units)
+        self.reference = reference
+        self.sense = sense
+
+    def value(self, kind: str, stored: float) -> float:
+        """A stored value (g·mm, g, mm, kg) in the printed unit."""
+        return stored * self.labels[kind][1]
+
+    def symbol(self, kind: str) -> str:
+        return self.labels[kind][0]
+
+    def _fmt(self, kind: str, stored: float, sig: int) -> str:
+        from toolkit.units import format_number
+
+        x = self.value(kind, stored)
+        if abs(x) >= 10 ** sig:
+            text = f"{x:.0f}"
+        else:
+            text = format_number(x, sig) if x else "0"
+        return f"{text} {self.symbol(kind)}"
+
+    def unbalance(self, g_mm: float) -> str:
+        return self._fmt("unbalance", g_mm, 4)
+
+    def mass(self, g: float) -> str:
+        return self._fmt("mass", g, 3)
+
+    def length(self, mm: float) -> str:
+        return self._fmt("length", mm, 4)
+
+    def rotor_mass(self, kg: float) -> str:
+        return self._fmt("rotor_mass", kg, 4)
+
+    @staticmethod
+    def angle(deg: float) -> str:
+        value = round(deg) % 360 if abs(deg - round(deg)) < 0.05 else round(deg, 1) % 360
+        return f"{value:g}°"
+
+    def where(self, deg: float) -> str:
+        """An angle with its reference and sense, as every operation prints it."""
+        return f"{self.angle(deg)} from {self.reference}, {self.sense}"
+
+    def convention(self) -> str:
+        """The sentence that states the angle convention of the whole order."""
+        return (f"Angles in degrees from the reference mark ({self.reference}), counted {self.sense}. "
+                f"An unbalance is the heavy spot.")
+
+
+def example_order(number: str = "INV-HAND-01", units: str = "metric") -> WorkOrder:
+    """A small work order put together by hand: an invented example for documentation and exporter tests.
+
+    The numbers are invented; the allowances follow the ISO 21940-11 shop formula
+    U_per = 9549.3 · G · m / n (G 6.3, 412 kg, 1480 r/min: 16 747 g·mm) split by the lever rule
+    (centre of mass 540 mm from bearing A on a 1200 mm span). The predicted residual is computed from the
+    operations with :func:`effect`, not typed in.
+
+    >>> order = example_order()
+    >>> [op.kind for op in order.operations], order.passed
+    (['hole', 'plate'], True)
+    """
+    u_total = 60000 / (2 * math.pi) * 6.3 * 412 / 1480
+    allowances = (u_total * 660 / 1200, u_total * 540 / 1200)
+    source = "ISO 21940-11:2016, 6.3.3 (U_per) and 7.2 lever rule (clause wording from memory)"
+    ops = (
+        Operation(1, "drive end", "hole", "remove", "drill 2 holes Ø14.0 mm, 27.0 mm deep to full diameter "
+                  "(tip 31.2 mm), 12° apart, centred", 40.0, 65.0, 40_200.0, 310.0,
+                  (("drill", "Ø14.0 mm, 118° point"),)),
+        Operation(2, "fan end", "plate", "add", "weld on a plate 8 × 50 × 31 mm rolled to the radius, "
+                  "centred", 20.0, 95.0, 30_780.0, 324.0, (("weigh before welding", "95.0 g"),)),
+    )
+    initial = ((42_000.0, 40.0), (30_500.0, 200.0))
+    planes = []
+    for (name, pos, radius, surface, method), (u0, a0), u_per, op in zip(
+            (("drive end", 150.0, 310.0, "outer", "drill"), ("fan end", 1050.0, 320.0, "outer", "plate")),
+            initial, allowances, ops):
+        residual = vector(u0, a0) + op.effect
+        amount, angle = polar(residual)
+        corr_action = "remove" if method == "drill" else "add"
+        corr_angle = a0 if corr_action == "remove" else (a0 + 180.0) % 360.0
+        planes.append(PlaneOrder(name, pos, radius, surface, method, Tolerance(u_per, "lever rule", source),
+                                 u0, a0, corr_action, u0, corr_angle, (op,), amount, angle))
+    return WorkOrder(
+        ident=Identification(number, "invented two-plane fan rotor (invented example)",
+                             "Invented Customer Ltd (invented example)", "D-0000 rev A", "SN-000", "2026-12-01",
+                             "invented example, not a real job"),
+        rotor_mass_kg=412.0, service_speed_rpm=1480.0, balancing_speed_rpm=600.0, grade="G 6.3",
+        criterion="iso", material="carbon steel", u_per_total_g_mm=u_total, angle_reference="keyway",
+        angle_sense="against rotation", units=units, planes=tuple(planes),
+        measurement="balancing machine readings (invented)",
+        cautions=("Secure every trial and correction mass before any run.",
+                  "Lock out the drive while drilling or welding."),
+        sources=(source,),
+        settings=(Setting("angle marking step", "1°", "CP", False, "[shop] angle_step"),),
+    )

@@ -1,0 +1,353 @@
+"""The work order as a spreadsheet the shop prints and fills in (openpyxl).
+
+One sheet, ``Work order``, in sections from top to bottom: identification; tolerance per correction plane
+(allowance, method, source); initial unbalance; numbered operations with a ``Status`` column restricted to a
+list; predicted residual; check run (the operator types the residual measured after correction, and the
+result cell computes itself with a formula); sign-off; values used (defaults marked common practice or from
+memory, with how to override them); warnings; cautions; sources.
+
+Printing: A4, fitted to one page wide, the title rows repeated on every page, panes frozen under them,
+header and footer with the order number and ``page N of M``.
+
+User text (order number, customer, notes, plane names, descriptions) is always written as text: a value
+that starts with ``=``, ``+``, ``-`` or ``@`` is stored as a string with the quote-prefix flag, never as a
+formula.
+"""
+
+from __future__ import annotations
+
+from io import BytesIO
+from pathlib import Path
+
+from toolkit.workorder.model import Formatter, WorkOrder
+
+__all__ = ["workbook", "to_bytes", "write_xlsx", "STATUS_CHOICES", "SHEET", "safe_text", "FORMULA_START"]
+
+SHEET = "Work order"
+#: The values the Status column accepts (a list validation in the sheet).
+STATUS_CHOICES = ("open", "done", "skipped", "on hold")
+#: Leading characters that would make a spreadsheet read text as a formula.
+FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\n")
+_COLUMNS = 9
+_WIDTHS = (7, 16, 44, 10, 14, 16, 12, 12, 22)
+
+
+def safe_text(cell, text: str) -> None:
+    """Write user text into ``cell`` so that it can never become a formula.
+
+    >>> from openpyxl import Workbook
+    >>> c = Workbook().active["A1"]; safe_text(c, "=1+1"); (c.value, c.data_type, c.quotePrefix)
+    ('=1+1', 's', True)
+    """
+    text = "" if text is None else str(text)
+    cell.value = text
+    if text.startswith(FORMULA_START):
+        cell.data_type = "s"
+        cell.quotePrefix = True
+
+
+def _hf(text: str) -> str:
+    """Escape user text for a header or footer (``&`` starts a control code there)."""
+    return str(text).replace("&", "&&")[:120]
+
+
+class _Sheet:
+    """Writes the order row by row."""
+
+    def __init__(self, ws, styles):
+        self.ws = ws
+        self.row = 1
+        self.s = styles
+
+    def text(self, col, value, style=None):
+        cell = self.ws.cell(row=self.row, column=col)
+        safe_text(cell, value)
+        if style:
+            self.s.apply(cell, style)
+        return cell
+
+    def number(self, col, value, fmt="0.0", style=None):
+        cell = self.ws.cell(row=self.row, column=col, value=float(value))
+        cell.number_format = fmt
+        if style:
+            self.s.apply(cell, style)
+        return cell
+
+    def section(self, title: str):
+        self.row += 1
+        self.text(1, title, "section")
+        self.ws.merge_cells(start_row=self.row, start_column=1, end_row=self.row, end_column=_COLUMNS)
+        self.row += 1
+
+    def header(self, labels):
+        for col, label in enumerate(labels, start=1):
+            self.text(col, label, "header")
+        self.row += 1
+
+    def long(self, text: str, style=None, height_per_line=15, chars_per_line=120):
+        self.text(1, text, style or "wrap")
+        self.ws.merge_cells(start_row=self.row, start_column=1, end_row=self.row, end_column=_COLUMNS)
+        lines = max(1, -(-len(text) // chars_per_line))
+        self.ws.row_dimensions[self.row].height = height_per_line * lines
+        self.row += 1
+
+
+class _Styles:
+    def __init__(self):
+        from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
+
+        thin = Side(style="thin", color="808080")
+        self.defs = {
+            "title": dict(font=Font(bold=True, size=14)),
+            "sub": dict(font=Font(italic=True, size=9)),
+            "section": dict(font=Font(bold=True, size=11, color="FFFFFF"),
+                            fill=PatternFill("solid", fgColor="2F4F4F")),
+            "header": dict(font=Font(bold=True), fill=PatternFill("solid", fgColor="D9E2E2"),
+                           border=Border(bottom=thin), alignment=Alignment(wrap_text=True, vertical="top")),
+            "label": dict(font=Font(bold=True)),
+            "input": dict(fill=PatternFill("solid", fgColor="FFF5CC"), border=Border(top=thin, bottom=thin,
+                                                                                    left=thin, right=thin)),
+            "wrap": dict(alignment=Alignment(wrap_text=True, vertical="top")),
+            "caution": dict(alignment=Alignment(wrap_text=True, vertical="top"), font=Font(color="8B0000")),
+            "pass": dict(font=Font(bold=True, color="006400")),
+            "fail": dict(font=Font(bold=True, color="B22222")),
+        }
+
+    def apply(self, cell, name):
+        for attr, value in self.defs[name].items():
+            setattr(cell, attr, value)
+
+
+def workbook(order: WorkOrder):
+    """Build the openpyxl ``Workbook`` of a work order (nothing is written to disk).
+
+    Parameters: ``order`` (:class:`~toolkit.workorder.model.WorkOrder`). Returns the workbook; the sheet
+    is :data:`SHEET`. Defined names ``measured_N`` and ``result_N`` (N = 1, 2 for the planes in order) and
+    ``overall_result`` point at the check-run cells.
+    """
+    from openpyxl import Workbook
+    from openpyxl.utils import get_column_letter
+    from openpyxl.worksheet.datavalidation import DataValidation
+    from openpyxl.workbook.defined_name import DefinedName
+
+    fmt = Formatter(order.units, order.angle_reference, order.angle_sense)
+    u_sym, m_sym, l_sym = fmt.symbol("unbalance"), fmt.symbol("mass"), fmt.symbol("length")
+    wb = Workbook()
+    ws = wb.active
+    ws.title = SHEET
+    styles = _Styles()
+    sh = _Sheet(ws, styles)
+    for col, width in enumerate(_WIDTHS, start=1):
+        ws.column_dimensions[get_column_letter(col)].width = width
+
+    # title rows (repeated on every printed page)
+    sh.text(1, f"Balancing work order {order.ident.number}", "title")
+    ws.merge_cells(start_row=1, start_column=1, end_row=1, end_column=_COLUMNS)
+    sh.row = 2
+    sh.text(1, fmt.convention() + f" Units: {u_sym}, {m_sym}, {l_sym}.", "sub")
+    ws.merge_cells(start_row=2, start_column=1, end_row=2, end_column=_COLUMNS)
+    ws.print_title_rows = "1:2"
+    ws.freeze_panes = "A3"
+    sh.row = 3
+
+    # identification
+    sh.section("Identification")
+    i = order.ident
+    rows = [
+        ("Order number", i.number), ("Customer", i.customer), ("Rotor", i.rotor), ("Drawing", i.drawing),
+        ("Serial number", i.serial), ("Date", i.date),
+        ("Rotor mass", fmt.rotor_mass(order.rotor_mass_kg)),
+        ("Service speed (max.)", f"{order.service_speed_rpm:g} r/min"),
+        ("Balancing speed", f"{order.balancing_speed_rpm:g} r/min"),
+        ("Criterion", _criterion(order)),
+        ("Permissible residual unbalance, whole rotor", fmt.unbalance(order.u_per_total_g_mm)),
+        ("Material", order.material), ("Measurement", order.measurement),
+        ("Angle reference", order.angle_reference), ("Angle sense", order.angle_sense),
+        ("Notes", i.notes),
+    ]
+    for label, value in rows:
+        sh.text(1, label, "label")
+        ws.merge_cells(start_row=sh.row, start_column=1, end_row=sh.row, end_column=2)
+        sh.text(3, value, "wrap")
+        ws.merge_cells(start_row=sh.row, start_column=3, end_row=sh.row, end_column=_COLUMNS)
+        sh.row += 1
+
+    # tolerance
+    sh.section("Tolerance per correction plane")
+    sh.header(["Plane", "Name", "Method", f"Position [{l_sym}]", f"Radius [{l_sym}]",
+               f"Allowance U_per [{u_sym}]", "", "", "Source"])
+    for n, p in enumerate(order.planes, start=1):
+        sh.number(1, n, "0")
+        sh.text(2, p.name)
+        sh.text(3, p.tolerance.method, "wrap")
+        sh.number(4, fmt.value("length", p.position_mm), "0.0")
+        sh.number(5, fmt.value("length", p.radius_mm), "0.0")
+        sh.number(6, fmt.value("unbalance", p.tolerance.u_per_g_mm), _nf(fmt.value("unbalance", p.tolerance.u_per_g_mm)))
+        sh.text(9, p.tolerance.source, "wrap")
+        sh.row += 1
+
+    # initial unbalance
+    sh.section("Initial unbalance (heavy spot) and correction")
+    sh.header(["Plane", "Name", "Correction", f"Angle [°]", f"Unbalance [{u_sym}]", "Correction angle [°]",
+               f"Correction [{u_sym}]", "Action", "Surface"])
+    for n, p in enumerate(order.planes, start=1):
+        sh.number(1, n, "0")
+        sh.text(2, p.name)
+        sh.text(3, f"{p.correction_action} {fmt.unbalance(p.correction_g_mm)} at {fmt.where(p.correction_deg)}",
+                "wrap")
+        sh.number(4, p.initial_deg, "0.0")
+        sh.number(5, fmt.value("unbalance", p.initial_g_mm), _nf(fmt.value("unbalance", p.initial_g_mm)))
+        sh.number(6, p.correction_deg, "0.0")
+        sh.number(7, fmt.value("unbalance", p.correction_g_mm), _nf(fmt.value("unbalance", p.correction_g_mm)))
+        sh.text(8, p.correction_action)
+        sh.text(9, p.surface)
+        sh.row += 1
+
+    # operations
+    sh.section("Operations (in this order; mark each one)")
+    sh.header(["No.", "Plane", "What", "Action", f"Mass [{m_sym}]", f"Effect [{u_sym}]", "Angle [°]", "Status",
+               "Done by / remark"])
+    status = DataValidation(type="list", formula1='"' + ",".join(STATUS_CHOICES) + '"', allow_blank=True,
+                            showErrorMessage=True, errorTitle="Status",
+                            error="Choose one of: " + ", ".join(STATUS_CHOICES))
+    ws.add_data_validation(status)
+    for op in order.operations:
+        sh.number(1, op.number, "0")
+        sh.text(2, op.plane)
+        extra = "; ".join(f"{k}: {v}" for k, v in op.details)
+        sh.text(3, f"{op.description} at {fmt.where(op.angle_deg)}" + (f" ({extra})" if extra else ""), "wrap")
+        sh.text(4, op.action)
+        sh.number(5, fmt.value("mass", op.mass_g), _nf(fmt.value("mass", op.mass_g)))
+        sh.number(6, fmt.value("unbalance", op.unbalance_g_mm), _nf(fmt.value("unbalance", op.unbalance_g_mm)))
+        sh.number(7, op.angle_deg, "0.0")
+        cell = sh.text(8, "open", "input")
+        status.add(cell)
+        sh.text(9, "", "input")
+        ws.row_dimensions[sh.row].height = 15 * max(1, -(-len(str(ws.cell(sh.row, 3).value)) // 48))
+        sh.row += 1
+    if not order.operations:
+        sh.long("No operation: the initial unbalance is already within the allowance.")
+
+    # predicted residual
+    sh.section("Predicted residual after the operations")
+    sh.header(["Plane", "Name", "Predicted residual", "Angle [°]", f"Residual [{u_sym}]", f"Allowance [{u_sym}]",
+               "Result", "", ""])
+    for n, p in enumerate(order.planes, start=1):
+        sh.number(1, n, "0")
+        sh.text(2, p.name)
+        sh.text(3, f"{fmt.unbalance(p.predicted_g_mm)} at {fmt.where(p.predicted_deg)}", "wrap")
+        sh.number(4, p.predicted_deg, "0.0")
+        sh.number(5, fmt.value("unbalance", p.predicted_g_mm), _nf(fmt.value("unbalance", p.predicted_g_mm)))
+        sh.number(6, fmt.value("unbalance", p.tolerance.u_per_g_mm), _nf(fmt.value("unbalance", p.tolerance.u_per_g_mm)))
+        sh.text(7, "PASS" if p.passed else "FAIL", "pass" if p.passed else "fail")
+        sh.row += 1
+
+    # check run
+    sh.section("Check run after correction (operator: enter the measured residual of each plane)")
+    sh.header(["Plane", "Name", "Instruction", f"Allowance [{u_sym}]", f"Measured [{u_sym}]", "Angle [°]",
+               "Result", "", ""])
+    result_cells = []
+    for n, p in enumerate(order.planes, start=1):
+        r = sh.row
+        sh.number(1, n, "0")
+        sh.text(2, p.name)
+        sh.text(3, "Run with all masses secured and guards closed; type the residual in the yellow cell.", "wrap")
+        sh.number(4, fmt.value("unbalance", p.tolerance.u_per_g_mm), _nf(fmt.value("unbalance", p.tolerance.u_per_g_mm)))
+        measured = ws.cell(row=r, column=5)
+        styles.apply(measured, "input")
+        styles.apply(ws.cell(row=r, column=6), "input")
+        ws.cell(row=r, column=7).value = (f'=IF(ISNUMBER(E{r}),IF(E{r}<=D{r},"PASS","FAIL"),"enter reading")')
+        result_cells.append(f"G{r}")
+        wb.defined_names[f"measured_{n}"] = DefinedName(f"measured_{n}", attr_text=f"'{SHEET}'!$E${r}")
+        wb.defined_names[f"result_{n}"] = DefinedName(f"result_{n}", attr_text=f"'{SHEET}'!$G${r}")
+        sh.row += 1
+    r = sh.row
+    sh.text(3, "Rotor result (all planes)", "label")
+    first, last = result_cells[0], result_cells[-1]
+    count = len(result_cells)
+    ws.cell(row=r, column=7).value = (f'=IF(COUNTIF({first}:{last},"FAIL")>0,"FAIL",'
+                                      f'IF(COUNTIF({first}:{last},"PASS")={count},"PASS","open"))')
+    wb.defined_names["overall_result"] = DefinedName("overall_result", attr_text=f"'{SHEET}'!$G${r}")
+    sh.row += 1
+    sh.long("Acceptance: measured residual at most the allowance (ΔU = 0: measurement error not deducted; "
+            "from memory, ISO 21940-14 lets a shop deduct it). Defer to the rotor maker's acceptance rules.", "sub")
+
+    # sign-off
+    sh.section("Sign-off")
+    sh.header(["", "Role", "Name", "", "Signature", "", "Date", "", ""])
+    for role in ("Operator (balancing)", "Machinist (drilling / welding)", "Inspector (release)"):
+        sh.text(2, role, "label")
+        ws.merge_cells(start_row=sh.row, start_column=2, end_row=sh.row, end_column=2)
+        for col in (3, 5, 7):
+            styles.apply(ws.cell(row=sh.row, column=col), "input")
+        ws.row_dimensions[sh.row].height = 24
+        sh.row += 1
+
+    # settings, warnings, cautions, sources
+    if order.settings:
+        sh.section("Values used (marked common practice or from memory: override in the job file)")
+        sh.header(["", "Setting", "Value", "Mark", "", "Given by", "", "", "How to override"])
+        for s in order.settings:
+            sh.text(2, s.name, "wrap")
+            sh.text(3, s.value, "wrap")
+            sh.text(4, s.mark)
+            sh.text(6, "job file" if s.given else "default")
+            sh.text(9, s.how, "wrap")
+            sh.row += 1
+    if order.warnings:
+        sh.section("Warnings")
+        for w in order.warnings:
+            sh.long(w)
+    sh.section("Cautions")
+    for n, caution in enumerate(order.cautions, start=1):
+        sh.long(f"{n}. {caution}", "caution")
+    sh.section("Sources")
+    for source in order.sources:
+        sh.long(source)
+
+    # print set-up
+    ws.page_setup.paperSize = ws.PAPERSIZE_A4
+    ws.page_setup.orientation = "landscape"
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    ws.print_options.gridLines = False
+    ws.oddHeader.left.text = _hf(f"Work order {order.ident.number}")
+    ws.oddHeader.right.text = _hf(order.ident.rotor)
+    ws.oddFooter.left.text = _hf(f"Work order {order.ident.number}")
+    ws.oddFooter.right.text = "page &P of &N"
+    ws.print_area = f"A1:{get_column_letter(_COLUMNS)}{sh.row}"
+    return wb
+
+
+def _criterion(order: WorkOrder) -> str:
+    if order.criterion == "iso":
+        return f"balance quality grade {order.grade} (ISO 21940-11)"
+    return f"{order.criterion.upper()} criterion"
+
+
+def _nf(x: float) -> str:
+    """A number format with about four significant figures for a value of this size."""
+    x = abs(x)
+    if x >= 1000:
+        return "0"
+    if x >= 100:
+        return "0.0"
+    if x >= 10:
+        return "0.00"
+    return "0.000"
+
+
+def to_bytes(order: WorkOrder) -> bytes:
+    """The .xlsx file of a work order as bytes."""
+    buffer = BytesIO()
+    workbook(order).save(buffer)
+    return buffer.getvalue()
+
+
+def write_xlsx(order: WorkOrder, path: str | Path, *, force: bool = False) -> Path:
+    """Write the work order's spreadsheet to ``path`` atomically (never over an existing file unless
+    ``force``); returns the path."""
+    from toolkit.fileio import write_atomic
+
+    return write_atomic(path, to_bytes(order), force=force)
