@@ -1,0 +1,259 @@
+"""Stored influence coefficients: save them from a solved job, reuse them on later rotors of the same type.
+
+A shop that balances many rotors of one type measures the influence coefficients once (with trial runs)
+and then corrects each later rotor from its original run alone. After the correction a trim run shows how
+well the stored coefficients still describe the rotor; the coefficients are then updated by the
+least-change (Broyden) rank-one update A' = A + (ΔV − A·ΔU)·ΔUᴴ / (ΔUᴴ·ΔU), which reproduces the trim run
+exactly and leaves the response to any correction orthogonal to ΔU unchanged [D]. With one plane this is
+α' = ΔV/ΔU, the one-plane formula of DOMAIN.md section 2.
+
+The file is JSON of our own design (``"format": "counterpoise-influence"``, ``"version": 1``)::
+
+    {"format": "counterpoise-influence", "version": 1, "saved": "2026-12-01T22:00:00Z",
+     "note": "...", "speed_rpm": 1480.0, "sensors": ["drive end"], "planes": ["near"],
+     "weight_angles": "against rotation", "phase": "lag", "reading_unit": "mm/s", "mass_unit": "g",
+     "radius_mm": {"near": 150.0},
+     "coefficients": [[{"amount": 0.35, "angle_deg": 210.0}]]}
+
+``coefficients[i][j]`` is the reading at sensor i per gram at 0° in plane j, in reading unit per gram, with
+its angle in the weight-angle frame (readings conjugated first when the two senses disagree). Readings of a
+later rotor are taken in the senses stored in the file.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass, replace
+from pathlib import Path
+
+import numpy as np
+
+from toolkit.errors import BadInput
+from toolkit.influence import (Run, RunSet, Settings, Solution, conjugate_needed, correct, CAUTIONS,
+                               _weight_sense, _phase_sense)
+from toolkit.vectors import parse_reading, polar
+
+__all__ = ["Coefficients", "coefficients_from", "save_coefficients", "load_coefficients",
+           "solve_with_coefficients", "trim_update", "FORMAT"]
+
+FORMAT = "counterpoise-influence"
+
+
+@dataclass(frozen=True)
+class Coefficients:
+    """Influence coefficients of a rotor type with the conditions they were measured under."""
+
+    sensors: tuple[str, ...]
+    planes: tuple[str, ...]
+    matrix: tuple[tuple[complex, ...], ...]
+    weight_angles: str
+    phase: str
+    reading_unit: str
+    reading_kind: str
+    speed_rpm: float | None = None
+    radius_mm: tuple[tuple[str, float], ...] = ()
+    saved: str = ""
+    note: str = ""
+
+    def array(self) -> np.ndarray:
+        return np.array(self.matrix, dtype=complex)
+
+    def to_dict(self) -> dict:
+        return {"format": FORMAT, "version": 1, "saved": self.saved, "note": self.note,
+                "speed_rpm": self.speed_rpm, "sensors": list(self.sensors), "planes": list(self.planes),
+                "weight_angles": self.weight_angles, "phase": self.phase, "reading_unit": self.reading_unit,
+                "mass_unit": "g", "radius_mm": dict(self.radius_mm),
+                "coefficients": [[dict(zip(("amount", "angle_deg"), polar(z))) for z in row]
+                                 for row in self.matrix]}
+
+
+def _now() -> str:
+    import datetime
+
+    return datetime.datetime.now(datetime.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+def coefficients_from(solution: Solution, note: str = "") -> Coefficients:
+    """The coefficients of a solved job, ready to save.
+
+    >>> from toolkit.influence import solve_one_plane
+    >>> c = coefficients_from(solve_one_plane("4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49"))
+    >>> amount, angle = polar(c.matrix[0][0]); f"{amount:.3f} {c.reading_unit} per g @ {angle:.1f}"
+    '0.350 mm/s per g @ 210.0'
+    """
+    rs = solution.runset
+    return Coefficients(sensors=rs.sensors, planes=rs.planes, matrix=solution.influence,
+                        weight_angles=rs.weight_angles, phase=rs.phase, reading_unit=rs.reading_unit,
+                        reading_kind=rs.reading_kind, speed_rpm=rs.speed_rpm, radius_mm=rs.radius_mm,
+                        saved=_now(), note=note)
+
+
+def save_coefficients(coefficients: Coefficients, path, *, force: bool = False) -> Path:
+    """Write the coefficients file atomically (never over an existing file without ``force``)."""
+    from toolkit.fileio import write_atomic
+
+    return write_atomic(path, json.dumps(coefficients.to_dict(), indent=2, ensure_ascii=False) + "\n",
+                        force=force)
+
+
+_KIND_OF_UNIT = {"mm/s": "vibration velocity", "um": "displacement", "m/s^2": "acceleration"}
+
+
+def load_coefficients(path) -> Coefficients:
+    """Read a coefficients file; every error names the file and the field."""
+    p = Path(path)
+    try:
+        data = json.loads(p.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise BadInput(f"{p}: no such file") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise BadInput(f"{p}: cannot read ({exc})") from None
+    except json.JSONDecodeError as exc:
+        raise BadInput(f"{p}: not valid JSON (line {exc.lineno}, column {exc.colno}): {exc.msg}") from None
+    if not isinstance(data, dict) or data.get("format") != FORMAT:
+        raise BadInput(f"{p}: format: not a counterpoise influence-coefficient file")
+    if data.get("version") != 1:
+        raise BadInput(f"{p}: version: {data.get('version')!r} is not supported; this program reads version 1")
+    try:
+        sensors = tuple(data["sensors"])
+        planes = tuple(data["planes"])
+        unit = data["reading_unit"]
+        rows = data["coefficients"]
+        weight_angles = _weight_sense(data["weight_angles"], f"{p}: weight_angles")
+        phase = _phase_sense(data["phase"], f"{p}: phase")
+    except KeyError as exc:
+        raise BadInput(f"{p}: {exc.args[0]}: missing") from None
+    if unit not in _KIND_OF_UNIT:
+        raise BadInput(f"{p}: reading_unit: {unit!r} is not one of {', '.join(_KIND_OF_UNIT)}")
+    if not isinstance(rows, list) or len(rows) != len(sensors) or not sensors or not planes:
+        raise BadInput(f"{p}: coefficients: need one row per sensor ({len(sensors)})")
+    matrix = []
+    for i, row in enumerate(rows):
+        if not isinstance(row, list) or len(row) != len(planes):
+            raise BadInput(f"{p}: coefficients[{i + 1}]: need one entry per plane ({len(planes)})")
+        out = []
+        for j, cell in enumerate(row):
+            try:
+                amount, angle = float(cell["amount"]), float(cell["angle_deg"])
+            except (TypeError, KeyError, ValueError):
+                raise BadInput(f"{p}: coefficients[{i + 1}][{j + 1}]: need amount and angle_deg numbers") from None
+            if not (math.isfinite(amount) and math.isfinite(angle)):
+                raise BadInput(f"{p}: coefficients[{i + 1}][{j + 1}]: not finite")
+            out.append(amount * complex(math.cos(math.radians(angle)), math.sin(math.radians(angle))))
+        matrix.append(tuple(out))
+    radius = data.get("radius_mm") or {}
+    return Coefficients(sensors=sensors, planes=planes, matrix=tuple(matrix), weight_angles=weight_angles,
+                        phase=phase, reading_unit=unit, reading_kind=_KIND_OF_UNIT[unit],
+                        speed_rpm=data.get("speed_rpm"), radius_mm=tuple((k, float(v)) for k, v in radius.items()),
+                        saved=str(data.get("saved", "")), note=str(data.get("note", "")))
+
+
+def _readings(coefficients: Coefficients, readings, name: str) -> np.ndarray:
+    if isinstance(readings, str):
+        readings = [readings]
+    if not isinstance(readings, (list, tuple)) or len(readings) != len(coefficients.sensors):
+        raise BadInput(f"{name}: give {len(coefficients.sensors)} reading(s), one per sensor "
+                       f"({', '.join(coefficients.sensors)})")
+    out = []
+    for i, text in enumerate(readings):
+        z, kind, unit = parse_reading(text, f"{name}[{i + 1}]")
+        if kind != coefficients.reading_kind:
+            raise BadInput(f"{name}[{i + 1}]: {text!r} is a {kind}; the coefficients are for "
+                           f"{coefficients.reading_kind} ({coefficients.reading_unit})")
+        out.append(z)
+    v = np.array(out, dtype=complex)
+    return np.conj(v) if conjugate_needed(coefficients.weight_angles, coefficients.phase) else v
+
+
+def solve_with_coefficients(coefficients: Coefficients, original, *, method: str = "least squares",
+                            weights=None, settings: Settings | None = None, origin: str = "stored coefficients"
+                            ) -> Solution:
+    """Corrections for a later rotor from its original readings alone (one per sensor, in the senses stored
+    with the coefficients), by the weighted least squares of :func:`toolkit.influence.correct`.
+
+    >>> from toolkit.influence import solve_one_plane
+    >>> c = coefficients_from(solve_one_plane("4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49"))
+    >>> s = solve_with_coefficients(c, ["2.1 mm/s@285"]); k = s.corrections[0]
+    >>> f"{k.action} {k.mass.m_as('g'):.2f} g@{k.angle_deg:.1f}"
+    'add 6.00 g@255.0'
+    """
+    from toolkit.units import Q_
+    from toolkit.influence import Correction
+
+    settings = settings or Settings()
+    o = _readings(coefficients, original, "original")
+    a = coefficients.array()
+    w = np.ones(len(o)) if weights is None else np.asarray(weights, dtype=float)
+    if w.shape != o.shape or not np.all(np.isfinite(w)) or np.any(w <= 0):
+        raise BadInput(f"weights: need {len(o)} numbers greater than zero, one per sensor")
+    x, penalty = correct(o, a, w, method)
+    sv = np.linalg.svd(a * w[:, None], compute_uv=False)
+    cond = float(sv[0] / sv[-1]) if sv[-1] > 0 else math.inf
+    warnings = []
+    if len(coefficients.planes) > 1 and cond > settings.max_condition:
+        warnings.append(f"ill-conditioned planes: condition number {cond:.3g} (limit {settings.max_condition:g}, "
+                        f"chosen here)")
+    warnings.append(f"stored coefficients saved {coefficients.saved or 'at an unknown date'}: they hold for the same "
+                    f"rotor type, speed, sensors and mounting only; confirm with a trim run")
+    conj = conjugate_needed(coefficients.weight_angles, coefficients.phase)
+    residual = o + a @ x
+    records = []
+    for i, s in enumerate(coefficients.sensors):
+        z = np.conj(residual[i]) if conj else residual[i]
+        amt, ang = polar(complex(z))
+        records.append({"sensor": s, "amount": amt, "angle_deg": ang, "unit": coefficients.reading_unit,
+                        "original_amount": float(abs(o[i]))})
+    radius = dict(coefficients.radius_mm)
+    corrections = []
+    for j, plane in enumerate(coefficients.planes):
+        mass, angle = polar(complex(x[j]))
+        corrections.append(Correction(plane, Q_(mass, "g"), angle, "add",
+                                      mass * radius[plane] if plane in radius else None))
+    runset = RunSet(origin=origin, sensors=coefficients.sensors, planes=coefficients.planes,
+                    weight_angles=coefficients.weight_angles, phase=coefficients.phase,
+                    reading_kind=coefficients.reading_kind, reading_unit=coefficients.reading_unit,
+                    runs=(Run("original", (), tuple(map(complex, np.conj(o) if conj else o))),),
+                    weights=tuple(map(float, w)), radius_mm=coefficients.radius_mm, method=method,
+                    speed_rpm=coefficients.speed_rpm)
+    return Solution(runset=runset, corrections=tuple(corrections), total_correction_g=tuple(map(complex, x)),
+                    influence=coefficients.matrix, original=tuple(map(complex, o)), condition_number=cond,
+                    predicted_residual=tuple(records), warnings=tuple(warnings), method=method,
+                    settings=settings, penalty=float(penalty),
+                    source="stored influence coefficients; weighted least squares (Goodman 1964)",
+                    cautions=CAUTIONS)
+
+
+def trim_update(coefficients: Coefficients, before, installed, after) -> Coefficients:
+    """Coefficients updated from a trim run: readings ``before`` and ``after`` installing the masses
+    ``installed`` (plane → mass vector, e.g. ``{"near": "6 g@255"}``, in the weight-angle sense).
+
+    Source: least-change rank-one (Broyden) update A' = A + (ΔV − A·ΔU)·ΔUᴴ/(ΔUᴴ·ΔU) [D].
+
+    >>> from toolkit.influence import solve_one_plane
+    >>> c = coefficients_from(solve_one_plane("4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49"))
+    >>> new = trim_update(c, ["2.1 mm/s@285"], {"plane": "6 g@255"}, ["0.4 mm/s@285"])
+    >>> amount, angle = polar(new.matrix[0][0]); f"{amount:.4f} @ {angle:.1f}"
+    '0.2833 @ 210.0'
+    """
+    from toolkit.vectors import to_complex
+
+    v0 = _readings(coefficients, before, "before")
+    v1 = _readings(coefficients, after, "after")
+    if not isinstance(installed, dict) or not installed:
+        raise BadInput("installed: give the masses installed by plane, e.g. {'near': '6 g@255'}")
+    du = np.zeros(len(coefficients.planes), dtype=complex)
+    for plane, vec in installed.items():
+        if plane not in coefficients.planes:
+            raise BadInput(f"installed: unknown plane {plane!r}; planes are {', '.join(coefficients.planes)}")
+        du[coefficients.planes.index(plane)] = to_complex(vec, "mass", f"installed.{plane}") * 1000.0
+    norm = float(np.vdot(du, du).real)
+    if norm == 0:
+        raise BadInput("installed: all masses are zero; a trim run needs a correction installed")
+    dv = v1 - v0
+    if np.abs(dv).max() == 0:
+        raise BadInput("after: identical to before; the installed correction changed nothing")
+    a = coefficients.array()
+    a_new = a + np.outer(dv - a @ du, np.conj(du)) / norm
+    return replace(coefficients, matrix=tuple(tuple(map(complex, row)) for row in a_new), saved=_now(),
+                   note=(coefficients.note + "; " if coefficients.note else "") + "updated by a trim run")
