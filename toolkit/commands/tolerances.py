@@ -1,1 +1,259 @@
-"""Subcommands grades, tolerance, verify."""
+"""Subcommands grades, tolerance, verify.
+
+Light at import: numpy, pint and the library modules are imported inside the run functions.
+"""
+
+from __future__ import annotations
+
+from toolkit.commands._common import add_json, add_units, emit
+
+_CAUTION_NOTE = ("The rotor maker's balance specification, where it is stricter, takes precedence over these "
+                 "figures.")
+
+
+# -- helpers ------------------------------------------------------------------------------------------
+
+def _fraction(text, option: str, low: float, high: float, example: str):
+    from toolkit.errors import BadInput
+
+    if text is None:
+        return None
+    try:
+        value = float(text)
+    except ValueError:
+        raise BadInput(f"{option}: {text!r} is not a number; give a fraction from {low:g} to {high:g}, "
+                       f"e.g. {example}") from None
+    if not low <= value <= high:
+        raise BadInput(f"{option}: {text!r} is outside {low:g} to {high:g}; e.g. {example}")
+    return value
+
+
+class _Fmt:
+    """Numbers with units in the chosen system."""
+
+    def __init__(self, system_name: str):
+        from toolkit.units import unit_system
+
+        self.system = unit_system(system_name)
+
+    def unb(self, q) -> str:
+        from toolkit.units import format_quantity
+
+        return format_quantity(q, self.system.unbalance)
+
+    def length(self, q) -> str:
+        from toolkit.units import format_quantity
+
+        return format_quantity(q, self.system.length)
+
+    def mass(self, q) -> str:
+        from toolkit.units import format_quantity
+
+        return format_quantity(q, self.system.rotor_mass)
+
+
+def _table(rows: list[list[str]], indent: str = "  ") -> list[str]:
+    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
+    return [indent + "  ".join(cell.ljust(w) for cell, w in zip(r, widths)).rstrip() for r in rows]
+
+
+def _warnings(lines: list[str], warnings) -> None:
+    for w in warnings:
+        lines.append(f"warning: {w}")
+
+
+# -- grades --------------------------------------------------------------------------------------------
+
+def configure_grades(parser) -> None:
+    parser.epilog = "Example: counterpoise grades --json"
+    add_json(parser)
+    parser.set_defaults(run=run_grades)
+
+
+def run_grades(args) -> int:
+    from toolkit.tolerance import grades
+
+    rows = grades()
+    data = {"grades": [g.to_dict() for g in rows],
+            "marks": {"H": "grade value confirmed in a reproduction of the standard's table",
+                      "M": "from memory, not confirmed against the standard"}}
+    lines = ["Balance quality grades (ISO 21940-11:2016); G = e_per x Omega in mm/s.",
+             "Machine kinds are typical uses in our own words; the rotor maker's specification comes first.", ""]
+    lines += _table([["grade", "mark", "typical machinery"]] +
+                    [[g.label, g.mark, g.machinery] for g in rows])
+    lines += ["", "marks: H = value confirmed in a reproduction of the standard's table; M = from memory, "
+                  "not confirmed.", "sources: the source column of tables/grades.csv (counterpoise grades --json)."]
+    emit(args.json, data, "\n".join(lines))
+    return 0
+
+
+# -- tolerance ------------------------------------------------------------------------------------------
+
+def configure_tolerance(parser) -> None:
+    parser.epilog = ('Example: counterpoise tolerance --grade G6.3 --mass "412 kg" --speed "1480 rpm" '
+                     '--bearing-span "900 mm" --com-from-a "400 mm" --plane "I=-120 mm" --plane "II=1010 mm"')
+    parser.add_argument("--grade", required=True, help="balance quality grade: G6.3, 'G 6.3', 6.3 or '6.3 mm/s'")
+    parser.add_argument("--custom-grade", action="store_true",
+                        help="accept a grade off the ISO 21940-11 series (the output says so)")
+    parser.add_argument("--mass", required=True, help='rotor mass with its unit, e.g. "412 kg" or "908 lb"')
+    parser.add_argument("--speed", required=True, help='maximum service speed, e.g. "1480 rpm" or "24.7 Hz"')
+    parser.add_argument("--bearing-span", metavar="LENGTH", help='distance between bearings A and B, e.g. "900 mm"')
+    parser.add_argument("--com-from-a", metavar="LENGTH",
+                        help="centre of mass measured from bearing A towards B")
+    parser.add_argument("--plane", action="append", default=[], metavar="NAME=POSITION",
+                        help="correction plane and its position from bearing A towards B (negative or beyond "
+                             "the span when outboard); repeat for the second plane")
+    parser.add_argument("--static-share", metavar="FRACTION",
+                        help="state the tolerance as static and couple parts, the static part this fraction "
+                             "of U_per (for narrow or overhung rotors)")
+    parser.add_argument("--criterion", action="append", default=[], metavar="NAME",
+                        help="iso (default), api or mil-std-167; repeat to compare (the strictest per plane "
+                             "governs)")
+    parser.add_argument("--journal-load", action="append", default=[], metavar="A=MASS",
+                        help="static load on a journal (A or B), for the API criterion")
+    parser.add_argument("--min-share", metavar="FRACTION", default=None,
+                        help="lower bound of a bearing plane's share in the lever rule (default 0.3, i.e. "
+                             "0.3-0.7)")
+    parser.add_argument("--residual", action="append", default=[], metavar="NAME=AMOUNT@ANGLE",
+                        help='measured residual in a plane, e.g. "A=450 g*mm@40"; exit 1 when any fails')
+    parser.add_argument("--error-allowance", metavar="AMOUNT",
+                        help="error allowance dU for the residual check (default 0)")
+    parser.add_argument("--check-stage", default="after-balancing", metavar="STAGE",
+                        help="after-balancing (pass when residual <= allowance - dU, default) or later-check "
+                             "(fail only when residual > allowance + dU)")
+    add_units(parser)
+    add_json(parser)
+    parser.set_defaults(run=run_tolerance)
+
+
+def run_tolerance(args) -> int:
+    from toolkit.tolerance import DEFAULT_MIN_SHARE, tolerance_report
+
+    fmt = _Fmt(args.units)
+    min_share = _fraction(args.min_share, "--min-share", 0.0, 0.5, "0.3")
+    static_share = _fraction(args.static_share, "--static-share", 0.0, 1.0, "0.5")
+    report = tolerance_report(
+        args.grade, args.mass, args.speed, custom_grade=args.custom_grade,
+        bearing_span=args.bearing_span, com_from_a=args.com_from_a, planes=args.plane or None,
+        static_share=static_share, criteria=args.criterion or ("iso",), journal_loads=args.journal_load or None,
+        min_share=DEFAULT_MIN_SHARE if min_share is None else min_share,
+        residuals=args.residual or None, error_allowance=args.error_allowance, check_stage=args.check_stage)
+    data = report.to_dict()
+    data["units"] = fmt.system.name
+    emit(args.json, data, None if args.json else _tolerance_text(report, fmt))
+    return 1 if report.passed is False else 0
+
+
+def _tolerance_text(report, fmt: _Fmt) -> str:
+    g = report.grade
+    lines = [f"Permissible residual unbalance, {report.method}",
+             f"  grade       {g.label}  ({g.machinery}; source mark {g.mark})",
+             f"  rotor mass  {fmt.mass(report.mass)}",
+             f"  max speed   {report.speed_rpm:g} r/min",
+             f"  e_per       {report.e_per.m_as('um'):.4g} µm (g·mm per kg)",
+             f"  U_per       {fmt.unb(report.u_per)}  (whole rotor)"]
+    if report.bearing_span is not None:
+        lines.append(f"  geometry    bearing span {fmt.length(report.bearing_span)}, centre of mass "
+                     f"{fmt.length(report.com_from_a)} from bearing A")
+    if report.planes:
+        names = [c.name for c in report.criteria]
+        head = ["plane", "position"] + [c.label for c in report.criteria] + ["allowance"]
+        rows = [head]
+        for p in report.planes:
+            cells = [p.name, "bearing" if p.position is None else fmt.length(p.position)]
+            by = dict(p.by_criterion)
+            for key in names:
+                cells.append(fmt.unb(by[key]) + (" *" if key == p.criterion and len(names) > 1 else ""))
+            cells.append(f"{fmt.unb(p.u_per)}")
+            rows.append(cells)
+        lines += ["", "Allowance per plane" + (" (* strictest criterion, it governs)" if len(names) > 1 else "")]
+        lines += _table(rows)
+    else:
+        lines += ["", "Per-plane allowances need --bearing-span and --com-from-a (or --journal-load A=... "
+                      "--journal-load B=...)."]
+    lines += ["", "Methods and sources"]
+    for c in report.criteria:
+        lines.append(f"  {c.label}: {c.method}")
+        lines.append(f"    source: {c.source}")
+        for note in c.notes:
+            lines.append(f"    note: {note}")
+    if report.bearings is not None and len(report.criteria) > 0:
+        b = report.bearings
+        lines.append(f"  bearing shares (ISO): A {b.share_a:.3f}, B {b.share_b:.3f} (lever rule gave "
+                     f"{b.lever_share_a:.3f}/{1 - b.lever_share_a:.3f})")
+    sc = report.static_couple
+    if sc is not None:
+        lines += ["", f"Static and couple tolerances ({sc.method})",
+                  f"  static (resultant, at the centre-of-mass plane)  {fmt.unb(sc.static)}",
+                  f"  couple, in each of planes {sc.planes[0]} and {sc.planes[1]} (opposite angles)  "
+                  f"{fmt.unb(sc.couple_per_plane)}",
+                  f"  static share {sc.static_share:g} (largest possible {sc.max_static_share:.3f}); "
+                  f"source: {sc.source}"]
+    if report.checks:
+        rule = report.checks[0].rule
+        lines += ["", f"Residual check (rule: {rule})"]
+        rows = [["plane", "residual", "angle", "allowance", "limit", "margin", "result"]]
+        for c in report.checks:
+            rows.append([c.plane, fmt.unb(c.residual), f"{c.angle_deg:g}° from reference mark",
+                         fmt.unb(c.allowance), fmt.unb(c.limit),
+                         f"{fmt.unb(c.margin)} ({c.margin_percent:.0f} %)", "PASS" if c.passed else "FAIL"])
+        lines += _table(rows)
+        lines.append("  result: " + ("all planes within tolerance" if report.passed
+                                     else "OUT OF TOLERANCE (exit status 1)"))
+    lines.append("")
+    _warnings(lines, report.warnings)
+    lines.append(f"note: {_CAUTION_NOTE}")
+    return "\n".join(lines)
+
+
+# -- verify ---------------------------------------------------------------------------------------------
+
+def configure_verify(parser) -> None:
+    parser.epilog = ('Example: counterpoise verify --test "200 g*mm" --reading 44.88@0 --reading 53.63@60 '
+                     '--reading 58.64@120 --reading 56.03@180 --reading 47.72@240 --reading 41.41@300 '
+                     '--allowed "150 g*mm"')
+    parser.add_argument("--test", required=True, metavar="AMOUNT",
+                        help='test unbalance (test mass x radius), e.g. "150 g*mm"; 1-2x the allowance')
+    parser.add_argument("--reading", action="append", default=[], metavar="AMPLITUDE@ANGLE",
+                        help="reading amplitude with the test mass at ANGLE degrees; repeat, 3 or more "
+                             "positions (six at 60 deg is usual)")
+    parser.add_argument("--allowed", metavar="AMOUNT", help="allowed residual unbalance, for pass or fail")
+    parser.add_argument("--min-consistency", metavar="FRACTION", default=None,
+                        help="warn when the fit's consistency is below this (default 0.9)")
+    add_units(parser)
+    add_json(parser)
+    parser.set_defaults(run=run_verify)
+
+
+def run_verify(args) -> int:
+    from toolkit.verify import MIN_CONSISTENCY, verify_residual
+
+    fmt = _Fmt(args.units)
+    min_c = _fraction(args.min_consistency, "--min-consistency", 0.0, 1.0, "0.9")
+    result = verify_residual(args.test, args.reading, allowed=args.allowed,
+                             min_consistency=MIN_CONSISTENCY if min_c is None else min_c)
+    data = result.to_dict()
+    data["units"] = fmt.system.name
+    emit(args.json, data, None if args.json else _verify_text(result, fmt))
+    return 1 if result.passed is False else 0
+
+
+def _verify_text(v, fmt: _Fmt) -> str:
+    lines = [f"Residual unbalance from a test unbalance of {fmt.unb(v.test_unbalance)} at "
+             f"{len(v.readings)} positions"]
+    lines += _table([["test at", "reading"]] + [[f"{a:g}°", f"{r:g}"] for a, r in zip(v.angles_deg, v.readings)])
+    lines += ["",
+              f"  residual     {fmt.unb(v.residual)} at {v.residual_angle_deg:.1f}° (heavy spot, in the frame of "
+              f"the test-mass positions)",
+              f"  consistency  {v.consistency:.4f} (coefficient of determination of the fit; 1 = on the circle)",
+              f"  shortcut     {fmt.unb(v.shortcut)} by (max - min)/(max + min), for comparison only",
+              f"  method       {v.method}",
+              f"  source       {v.source}"]
+    if v.allowed is not None:
+        verdict = "PASS" if v.passed else "FAIL (exit status 1)"
+        lines.append(f"  allowed      {fmt.unb(v.allowed)}: {verdict}")
+    lines.append("")
+    _warnings(lines, v.warnings)
+    for c in v.cautions:
+        lines.append(f"caution: {c}")
+    return "\n".join(lines)
