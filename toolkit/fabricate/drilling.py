@@ -25,7 +25,7 @@ import numpy as np
 from toolkit.errors import BadInput, Infeasible
 from toolkit.fabricate import stock as _stock
 from toolkit.fabricate.materials import resolve_density
-from toolkit.units import magnitude
+from toolkit.units import format_number as _fmt, magnitude
 from toolkit.vectors import parse_angle
 
 __all__ = ["Limits", "Hole", "DrillResult", "point_height", "axial_hole", "radial_hole", "solve_bracketed",
@@ -366,9 +366,9 @@ class DrillResult:
     def placement(self) -> str:
         """Where to drill, in words, including the add/remove conversion."""
         if self.given_action == "add":
-            return (f"correction given as add {self.requested_g_mm:.4g} g·mm at {self.given_angle_deg:g}°: "
+            return (f"correction given as add {_fmt(self.requested_g_mm)} g·mm at {self.given_angle_deg:g}°: "
                     f"remove it at the heavy spot, {self.remove_angle_deg:g}° (= {self.given_angle_deg:g}° + 180°)")
-        return f"remove {self.requested_g_mm:.4g} g·mm at the heavy spot, {self.remove_angle_deg:g}°"
+        return f"remove {_fmt(self.requested_g_mm)} g·mm at the heavy spot, {self.remove_angle_deg:g}°"
 
     def to_dict(self) -> dict:
         return {
@@ -616,9 +616,9 @@ def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed) -> 
     else:
         most = one * (1 if not fixed else 2)
     if U > most:
-        reason = (f"{U:.4g} g·mm is more than {n if not fixed else 'the'} {big:g} mm holes can remove within "
-                  f"the limits (at most about {most:.4g} g·mm at {limits.max_depth_ratio:g}·d); nearest: remove "
-                  f"{most:.4g} g·mm here and the rest in another plane or by another method, or raise "
+        reason = (f"{_fmt(U)} g·mm is more than {n if not fixed else 'the'} {big:g} mm holes can remove within "
+                  f"the limits (at most about {_fmt(most)} g·mm at {limits.max_depth_ratio:g}·d); nearest: remove "
+                  f"{_fmt(most)} g·mm here and the rest in another plane or by another method, or raise "
                   "--max-depth-ratio if the rotor maker allows")
     else:
         h = _h(small, angle)
@@ -626,7 +626,7 @@ def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed) -> 
             least = rho * _axial_volume(small / 2, 0.0, h) * R
         else:
             least = rho * _radial_moment(R, small / 2, _radial_min_depth(R, small / 2), h)
-        reason = (f"{U:.4g} g·mm is less than the smallest {small:g} mm drill removes with its point alone "
-                  f"({least:.4g} g·mm at {R:g} mm); nearest: drill at a smaller radius, use a smaller drill, "
+        reason = (f"{_fmt(U)} g·mm is less than the smallest {small:g} mm drill removes with its point alone "
+                  f"({_fmt(least)} g·mm at {R:g} mm); nearest: drill at a smaller radius, use a smaller drill, "
                   "or leave it if within tolerance")
     return reason

@@ -1,0 +1,336 @@
+"""Weld-on plates that add a required unbalance: flat on an outer surface, rolled to the radius (outer or
+inner surface) or flat on a radial face.
+
+Geometry (DOMAIN.md section 3, derived [D]): a flat plate of thickness t touching an outer surface of
+radius R at its middle has its centroid at R + t/2 and mass ρ t w b. A plate rolled to the radius is an
+annular sector (arc length b on R, half-angle α = b/(2R), R_o = R + t, or R − t on an inner surface):
+m = ρ w α |R_o² − R²|, centroid r̄ = (2/3)(sin α/α)(R_o³ − R³)/(R_o² − R²). On a flat radial face the
+centroid is the plate's centre, at the given radius.
+
+Weld metal: a fillet of leg z has cross-section z²/2 [D] plus 10–30 % convexity ([M], default 20 %,
+overridable); the default leg is the minimum fillet for the plate thickness: 3 mm up to 6 mm, 5 mm up to
+12 mm, 6 mm up to 20 mm, 8 mm above [H: AWS D1.1 minimum fillet table], never more than the plate
+thickness. The fillet's centroid lies z/3 from the surface [D]; welds along the arc are spread by
+sin α/α, welds at the ends sit at ±α [D].
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, asdict
+
+from toolkit.errors import BadInput, Infeasible
+from toolkit.fabricate import stock as _stock
+from toolkit.fabricate.drilling import correction_g_mm, solve_bracketed, _norm
+from toolkit.fabricate.materials import resolve_density, require_weldable
+from toolkit.units import format_number as _fmt, magnitude
+from toolkit.vectors import parse_angle
+
+__all__ = ["SHAPES", "SURFACES", "WELD_RUNS", "PlateResult", "plate_geometry", "min_fillet_mm",
+           "weld_plate", "CAUTIONS", "DEFAULT_CONVEXITY"]
+
+SHAPES = ("flat", "rolled", "face")
+SURFACES = ("outer", "inner")
+#: Which edges are welded: all round (default, common practice for balance plates), the two ends, the sides.
+WELD_RUNS = ("all-round", "ends", "sides")
+#: Weld convexity allowance on top of z²/2 [M: 10–30 %], overridable.
+DEFAULT_CONVEXITY = 0.20
+#: Longest plate, as a multiple of its width, before a thicker stock is preferred (our choice, CP).
+DEFAULT_ASPECT = 3.0
+
+CAUTIONS = (
+    "Lock the rotor and isolate its drive (lock-out/tag-out, OSHA 29 CFR 1910.147) before welding.",
+    "Weld only to a qualified procedure (e.g. ISO 15614-1 or AWS D1.1) by a qualified welder; mind preheat "
+    "and heat effects on the rotor.",
+    "Put the return clamp on the rotor next to the weld, never across bearings; strip coatings near the weld "
+    "and keep a fire watch (OSHA 29 CFR 1926.352/.354).",
+    "Weigh the plate before welding (plate is rolled heavier than nominal) and re-check the balance after "
+    "cooling; follow the rotor maker, local codes and licensed practice.",
+)
+
+
+def min_fillet_mm(thickness_mm: float) -> float:
+    """Minimum fillet leg for a base thickness [mm] (AWS D1.1 minimum fillet table, as reproduced [H]).
+
+    >>> [min_fillet_mm(t) for t in (5, 6, 10, 16, 25)]
+    [3.0, 3.0, 5.0, 6.0, 8.0]
+    """
+    if thickness_mm <= 6:
+        return 3.0
+    if thickness_mm <= 12:
+        return 5.0
+    if thickness_mm <= 20:
+        return 6.0
+    return 8.0
+
+
+def _plate_kernel(shape: str, surface: str, R: float, t: float, w: float, b: float, rho: float):
+    """(mass [g], centroid radius [mm]) of the plate alone; lengths mm, rho g/mm³."""
+    if shape == "rolled":
+        alpha = b / (2 * R)
+        Ro = R + t if surface == "outer" else R - t
+        area2 = abs(Ro * Ro - R * R)
+        m = rho * w * alpha * area2
+        rbar = (2.0 / 3.0) * (math.sin(alpha) / alpha) * abs(Ro ** 3 - R ** 3) / area2
+        return m, rbar
+    m = rho * t * w * b
+    if shape == "face":
+        return m, R
+    return m, R + t / 2.0
+
+
+def _weld_kernel(shape: str, surface: str, R: float, w: float, b: float, z: float, convexity: float,
+                 run: str, rho: float):
+    """(weld mass [g], its unbalance contribution [g·mm]) for the chosen weld run."""
+    area = z * z / 2.0 * (1.0 + convexity)
+    sides = 2 * b if run in ("all-round", "sides") else 0.0
+    ends = 2 * w if run in ("all-round", "ends") else 0.0
+    m_sides, m_ends = rho * area * sides, rho * area * ends
+    if shape == "face":
+        return m_sides + m_ends, (m_sides + m_ends) * R
+    r_w = R + z / 3.0 if surface == "outer" else R - z / 3.0
+    alpha = b / (2 * R)
+    spread = math.sin(alpha) / alpha if alpha > 0 else 1.0
+    return m_sides + m_ends, r_w * (m_sides * spread + m_ends * math.cos(alpha))
+
+
+def plate_geometry(shape: str, radius, thickness, width, length, density, surface: str = "outer") -> dict:
+    """Mass [g], centroid radius [mm] and unbalance [g·mm] of a plate alone (formulas in the module text).
+
+    >>> g = plate_geometry("rolled", "250 mm", "8 mm", "50 mm", "80 mm", "7850 kg/m^3")
+    >>> round(g["mass_g"], 2), round(g["centroid_radius_mm"], 2)
+    (255.22, 252.94)
+    """
+    shape, surface = _check_shape(shape, surface)
+    R = magnitude(radius, "length", "mm", "--radius", positive=True)
+    t = magnitude(thickness, "length", "mm", "--thickness", positive=True)
+    w = magnitude(width, "length", "mm", "--width", positive=True)
+    b = magnitude(length, "length", "mm", "length", positive=True)
+    rho = resolve_density(density=density).g_mm3
+    _check_fit_shape(shape, surface, R, t, b)
+    m, rbar = _plate_kernel(shape, surface, R, t, w, b, rho)
+    return {"mass_g": m, "centroid_radius_mm": rbar, "unbalance_g_mm": m * rbar}
+
+
+def _check_shape(shape, surface):
+    if shape not in SHAPES:
+        raise BadInput(f"--shape: {shape!r} is not allowed; use one of {', '.join(SHAPES)}")
+    if surface not in SURFACES:
+        raise BadInput(f"--surface: {surface!r} is not allowed; use one of {', '.join(SURFACES)}")
+    if shape == "flat" and surface == "inner":
+        raise BadInput("--shape flat --surface inner: a flat plate cannot sit in a bore; use --shape rolled")
+    return shape, surface
+
+
+def _check_fit_shape(shape, surface, R, t, b):
+    if shape == "rolled":
+        if b >= math.pi * R:
+            raise Infeasible(f"a {b:.0f} mm plate would wrap half the {R:g} mm radius; use two seats or "
+                             "another method")
+        if surface == "inner" and t >= R:
+            raise BadInput(f"--thickness: {t:g} mm does not fit inside a {R:g} mm radius")
+
+
+@dataclass(frozen=True)
+class PlateResult:
+    """A weld-on plate for a required unbalance, after rounding its size to the shop's step."""
+
+    shape: str
+    surface: str
+    radius_mm: float
+    thickness_mm: float
+    thickness_label: str
+    width_mm: float
+    length_mm: float
+    seats: int
+    seat_angles_deg: tuple[float, ...]
+    mass_g: float
+    weld_mass_g: float
+    fillet_mm: float
+    fillet_source: str
+    convexity: float
+    convexity_source: str
+    weld_run: str
+    centroid_radius_mm: float
+    requested_g_mm: float
+    add_angle_deg: float
+    given_action: str
+    given_angle_deg: float
+    achieved_g_mm: float
+    error_g_mm: float
+    step_mm: float
+    density_kg_m3: float
+    material: str | None
+    density_source: str
+    warnings: tuple[str, ...] = ()
+    method: str = "plate and fillet geometry (DOMAIN.md section 3, derived)"
+    cautions: tuple[str, ...] = CAUTIONS
+
+    def placement(self) -> str:
+        if self.given_action == "remove":
+            return (f"correction given as remove {_fmt(self.requested_g_mm)} g·mm at {self.given_angle_deg:g}°: "
+                    f"weld the plate opposite, at {self.add_angle_deg:g}° (= {self.given_angle_deg:g}° + 180°)")
+        return f"add {_fmt(self.requested_g_mm)} g·mm at {self.add_angle_deg:g}°"
+
+    def to_dict(self) -> dict:
+        out = asdict(self)
+        out["seat_angles_deg"] = list(self.seat_angles_deg)
+        out["total_mass_g"] = self.seats * (self.mass_g + self.weld_mass_g)
+        out["placement"] = self.placement()
+        out["warnings"], out["cautions"] = list(self.warnings), list(self.cautions)
+        return out
+
+
+def _solve_length(shape, surface, R, t, w, U1, rho, z, conv, run):
+    def total(b):
+        m, rbar = _plate_kernel(shape, surface, R, t, w, b, rho)
+        return m * rbar + _weld_kernel(shape, surface, R, w, b, z, conv, run, rho)[1]
+
+    hi = 0.95 * math.pi * R if shape != "face" else 1e7
+    lo = 1e-9
+    if total(hi) < U1:
+        return None, total
+    if total(lo) > U1:
+        return 0.0, total
+    return solve_bracketed(lambda b: total(b) - U1, lo, hi, 1e-12), total
+
+
+def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat", surface: str = "outer",
+               angle_deg=0.0, action: str = "add", material=None, density=None, step="1 mm",
+               fillet=None, convexity: float | None = None, weld_run: str = "all-round", stock="plate_stock",
+               stock_unit: str = "mm", max_length=None, seat_offset_deg: float | None = None,
+               aspect: float = DEFAULT_ASPECT, include_weld: bool = True,
+               materials_table: str = "materials") -> PlateResult:
+    """A weld-on plate that adds ``correction``, sized to stock thickness and rounded to ``step``.
+
+    correction : Quantity [mass·length] or [mass] with ``radius``. radius : Quantity [length] (surface
+    radius; for ``shape="face"`` the radius of the plate's centre). width : Quantity [length] (axial width
+    on a cylinder, radial width on a face). thickness : Quantity [length] or None (thinnest stock whose
+    length stays within ``aspect`` × width and ``max_length``). step : Quantity [length], size rounding.
+    fillet : leg [length] (default AWS D1.1 minimum [H]); convexity : fraction (default 0.2 [M]).
+    max_length : the seat's room along the arc; if the plate does not fit and ``seat_offset_deg`` is given,
+    the correction is split onto two seats at angle ± offset (each U / (2 cos offset)), else refused.
+    Materials marked not weldable are refused with another method suggested.
+
+    >>> p = weld_plate("38 g", radius="620 mm", width="40 mm", thickness="6 mm", shape="rolled",
+    ...                material="steel")
+    >>> p.length_mm, round(p.achieved_g_mm), round(p.centroid_radius_mm, 2)
+    (17.0, 23050, 622.99)
+    """
+    shape, surface = _check_shape(shape, surface)
+    if weld_run not in WELD_RUNS:
+        raise BadInput(f"--weld: {weld_run!r} is not allowed; use one of {', '.join(WELD_RUNS)}")
+    if action not in ("add", "remove"):
+        raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
+    R = float(magnitude(radius, "length", "mm", "--radius", positive=True))
+    U = correction_g_mm(correction, radius)
+    w0 = float(magnitude(width, "length", "mm", "--width", positive=True))
+    st = float(magnitude(step, "length", "mm", "--step", positive=True))
+    dens = resolve_density(material, density, materials_table)
+    require_weldable(dens)
+    rho = dens.g_mm3
+    given = parse_angle(angle_deg, "angle")
+    add_angle = _norm(given + 180.0) if action == "remove" else given
+    if convexity is None:
+        conv, conv_src = DEFAULT_CONVEXITY, "default 20 % [M: 10–30 %]"
+    else:
+        if isinstance(convexity, bool) or not isinstance(convexity, (int, float)) or not 0 <= convexity <= 1:
+            raise BadInput(f"--convexity: {convexity!r} must be a fraction from 0 to 1 (e.g. 0.2)")
+        conv, conv_src = float(convexity), "given"
+    if not (isinstance(aspect, (int, float)) and aspect > 0):
+        raise BadInput(f"aspect: {aspect!r} must be a number greater than zero")
+    warnings = []
+    w = max(st, round(w0 / st) * st)
+    if abs(w - w0) > 1e-9:
+        warnings.append(f"width {w0:g} mm rounded to the {st:g} mm step: {w:g} mm")
+    room = None if max_length is None else magnitude(max_length, "length", "mm", "--max-length", positive=True)
+    if thickness is not None:
+        tv = float(magnitude(thickness, "length", "mm", "--thickness", positive=True))
+        options = [_stock.PlateThickness(f"{tv:g} mm", tv, "given")]
+    else:
+        options = list(_stock.plate_stock(stock, stock_unit))
+    fillet_mm = None if fillet is None else magnitude(fillet, "length", "mm", "--fillet", positive=True)
+    offset = None
+    if seat_offset_deg is not None:
+        if isinstance(seat_offset_deg, bool) or not isinstance(seat_offset_deg, (int, float)) \
+                or not 0 < seat_offset_deg < 90:
+            raise BadInput(f"--seat-offset: {seat_offset_deg!r} must be an angle between 0 and 90 degrees")
+        offset = float(seat_offset_deg)
+
+    def design(t_opt, seats):
+        t = t_opt.thickness_mm
+        if shape == "rolled" and surface == "inner" and t >= R:
+            return None
+        z = fillet_mm if fillet_mm is not None else min(min_fillet_mm(t), t)
+        U1 = U if seats == 1 else U / (2 * math.cos(math.radians(offset)))
+        b, total = _solve_length(shape, surface, R, t, w, U1 if include_weld else U1, rho,
+                                 z if include_weld else 0.0, conv, weld_run)
+        if b is None:
+            return None
+        return t_opt, z, b, total, U1
+
+    chosen = None
+    limit = aspect * w if thickness is None else math.inf
+    for seats in (1, 2):
+        if seats == 2 and offset is None:
+            break
+        for t_opt in options:
+            got = design(t_opt, seats)
+            if got is None:
+                continue
+            b = got[2]
+            if (room is None or b <= room) and b <= limit:
+                chosen = (seats, got)
+                break
+        if chosen is None and thickness is None:  # no thickness within the aspect: take the first that fits
+            for t_opt in options:
+                got = design(t_opt, seats)
+                if got is not None and (room is None or got[2] <= room):
+                    chosen = (seats, got)
+                    break
+        if chosen:
+            break
+    if chosen is None:
+        raise Infeasible(_nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, weld_run))
+    seats, (t_opt, z, b_exact, total, U1) = chosen
+    t = t_opt.thickness_mm
+    b = float(max(st, round(b_exact / st) * st))
+    if room is not None and b > room + 1e-9:
+        b -= st
+    if shape == "flat":
+        gap = R - math.sqrt(max(R * R - (b / 2) ** 2, 0.0)) if surface == "outer" else 0.0
+        if gap > 1.0:
+            warnings.append(f"a flat {b:g} mm plate stands {gap:.1f} mm off the {R:g} mm surface at its ends; "
+                            "consider --shape rolled [CP]")
+    if b < 2 * z + st:
+        warnings.append(f"plate length {b:g} mm is short for {z:g} mm fillets; consider a thinner plate or "
+                        "washers")
+    m, rbar = _plate_kernel(shape, surface, R, t, w, b, rho)
+    mw, uw = _weld_kernel(shape, surface, R, w, b, z, conv, weld_run, rho) if include_weld else (0.0, 0.0)
+    one = m * rbar + uw
+    angles = (add_angle,) if seats == 1 else (_norm(add_angle - offset), _norm(add_angle + offset))
+    achieved = one if seats == 1 else 2 * one * math.cos(math.radians(offset))
+    if seats == 2:
+        warnings.append(f"the plate does not fit one seat: split onto two seats at ±{offset:g}° "
+                        f"({angles[0]:g}° and {angles[1]:g}°)")
+    fillet_src = "given" if fillet_mm is not None else "AWS D1.1 minimum fillet for the plate thickness [H]"
+    return PlateResult(shape, surface, R, t, t_opt.label, w, b, seats, angles, m, mw, z, fillet_src, conv,
+                       conv_src, weld_run, rbar, U, add_angle, action, given, achieved, abs(achieved - U), st,
+                       dens.kg_m3, dens.material.name if dens.material else None, dens.source, tuple(warnings))
+
+
+def _nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, run) -> str:
+    t = options[-1].thickness_mm
+    z = fillet_mm if fillet_mm is not None else min(min_fillet_mm(t), t)
+    if room is not None:
+        b = room
+    else:
+        b = 0.95 * math.pi * R if shape != "face" else None
+    if b is None:
+        return f"no plate found for {U:.4g} g·mm; check the inputs"
+    m, rbar = _plate_kernel(shape, surface, R, t, w, b, rho)
+    most = m * rbar + _weld_kernel(shape, surface, R, w, b, z, conv, run, rho)[1]
+    where = f"within the {room:g} mm room" if room is not None else "on this radius"
+    hint = "" if offset is not None else "; or give --seat-offset to split onto two seats"
+    return (f"{_fmt(U)} g·mm needs more than the thickest plate ({options[-1].label}, {w:g} mm wide) adds "
+            f"{where}: at most about {_fmt(most)} g·mm; nearest: a wider plate, a larger radius{hint}")
