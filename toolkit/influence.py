@@ -435,7 +435,12 @@ def load_runs(path) -> RunSet:
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise BadInput(f"{p}: not valid TOML: {exc}") from None
+        message = str(exc)
+        if "end of document" in message:  # give the line and column of the end of the file
+            lines = text.split("\n")
+            message = message.replace("end of document", f"line {len(lines)}, column {len(lines[-1]) + 1}, "
+                                                         f"the end of the file")
+        raise BadInput(f"{p}: not valid TOML: {message}") from None
     return runs_from_dict(data, str(p))
 
 
@@ -615,7 +620,7 @@ def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings 
         o, a, misfit = fit_influence(u, v)
     except BadInput as exc:
         unused = [p for j, p in enumerate(runset.planes) if not np.any(u[:, j])]
-        if unused:
+        if unused and "runs for" not in str(exc):
             raise BadInput(f"{origin}: run: no run has a trial in plane {unused[0]!r}; add a trial run for "
                            f"it") from None
         raise BadInput(f"{origin}: {exc}") from None
