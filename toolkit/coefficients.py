@@ -30,7 +30,7 @@ from pathlib import Path
 import numpy as np
 
 from toolkit.errors import BadInput
-from toolkit.influence import (Run, RunSet, Settings, Solution, conjugate_needed, correct, CAUTIONS,
+from toolkit.influence import (Run, RunSet, Settings, Solution, conjugate_needed, correct, finish_solution,
                                _weight_sense, _phase_sense)
 from toolkit.vectors import parse_reading, polar
 
@@ -178,9 +178,6 @@ def solve_with_coefficients(coefficients: Coefficients, original, *, method: str
     >>> f"{k.action} {k.mass.m_as('g'):.2f} g@{k.angle_deg:.1f}"
     'add 6.00 g@255.0'
     """
-    from toolkit.units import Q_
-    from toolkit.influence import Correction
-
     settings = settings or Settings()
     o = _readings(coefficients, original, "original")
     a = coefficients.array()
@@ -188,40 +185,18 @@ def solve_with_coefficients(coefficients: Coefficients, original, *, method: str
     if w.shape != o.shape or not np.all(np.isfinite(w)) or np.any(w <= 0):
         raise BadInput(f"weights: need {len(o)} numbers greater than zero, one per sensor")
     x, penalty = correct(o, a, w, method)
-    sv = np.linalg.svd(a * w[:, None], compute_uv=False)
-    cond = float(sv[0] / sv[-1]) if sv[-1] > 0 else math.inf
-    warnings = []
-    if len(coefficients.planes) > 1 and cond > settings.max_condition:
-        warnings.append(f"ill-conditioned planes: condition number {cond:.3g} (limit {settings.max_condition:g}, "
-                        f"chosen here)")
-    warnings.append(f"stored coefficients saved {coefficients.saved or 'at an unknown date'}: they hold for the same "
-                    f"rotor type, speed, sensors and mounting only; confirm with a trim run")
+    warnings = [f"stored coefficients saved {coefficients.saved or 'at an unknown date'}: they hold for the same "
+                f"rotor type, speed, sensors and mounting only; confirm with a trim run"]
     conj = conjugate_needed(coefficients.weight_angles, coefficients.phase)
-    residual = o + a @ x
-    records = []
-    for i, s in enumerate(coefficients.sensors):
-        z = np.conj(residual[i]) if conj else residual[i]
-        amt, ang = polar(complex(z))
-        records.append({"sensor": s, "amount": amt, "angle_deg": ang, "unit": coefficients.reading_unit,
-                        "original_amount": float(abs(o[i]))})
-    radius = dict(coefficients.radius_mm)
-    corrections = []
-    for j, plane in enumerate(coefficients.planes):
-        mass, angle = polar(complex(x[j]))
-        corrections.append(Correction(plane, Q_(mass, "g"), angle, "add",
-                                      mass * radius[plane] if plane in radius else None))
     runset = RunSet(origin=origin, sensors=coefficients.sensors, planes=coefficients.planes,
                     weight_angles=coefficients.weight_angles, phase=coefficients.phase,
                     reading_kind=coefficients.reading_kind, reading_unit=coefficients.reading_unit,
                     runs=(Run("original", (), tuple(map(complex, np.conj(o) if conj else o))),),
                     weights=tuple(map(float, w)), radius_mm=coefficients.radius_mm, method=method,
                     speed_rpm=coefficients.speed_rpm)
-    return Solution(runset=runset, corrections=tuple(corrections), total_correction_g=tuple(map(complex, x)),
-                    influence=coefficients.matrix, original=tuple(map(complex, o)), condition_number=cond,
-                    predicted_residual=tuple(records), warnings=tuple(warnings), method=method,
-                    settings=settings, penalty=float(penalty),
-                    source="stored influence coefficients; weighted least squares (Goodman 1964)",
-                    cautions=CAUTIONS)
+    return finish_solution(runset, o, a, x, w, left=np.zeros(len(x), dtype=complex), method=method,
+                           settings=settings, warnings=warnings, penalty=penalty,
+                           source="stored influence coefficients; weighted least squares (Goodman 1964)")
 
 
 def trim_update(coefficients: Coefficients, before, installed, after) -> Coefficients:

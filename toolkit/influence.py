@@ -46,7 +46,7 @@ from toolkit.vectors import parse_angle, parse_reading, polar, to_complex
 __all__ = [
     "CAUTIONS", "Settings", "Run", "RunSet", "Correction", "Solution", "AmplitudeSolution",
     "TrialSuggestion", "conjugate_needed", "runs_from_dict", "load_runs", "solve_runs", "solve_one_plane",
-    "fit_influence", "correct", "four_run", "suggest_trial_mass", "METHODS",
+    "fit_influence", "correct", "finish_solution", "four_run", "suggest_trial_mass", "METHODS",
 ]
 
 #: Cautions every output of this module carries (DOMAIN.md section 4).
@@ -574,7 +574,7 @@ def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings 
     >>> c = solve_runs(rs).corrections[0]; f"{c.action} {c.mass.m_as('g'):.2f} g@{c.angle_deg:.1f}"
     'add 12.00 g@255.0'
     """
-    from toolkit.units import Q_, magnitude
+    from toolkit.units import magnitude
 
     settings = settings or Settings()
     method = method or runset.method
@@ -654,6 +654,21 @@ def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings 
                         f"at its limit; penalty {penalty:.3g}): the predicted residual is larger than without "
                         f"limits")
 
+    left = u[-1] if runset.trials_left_on else np.zeros(len(runset.planes), dtype=complex)
+    return finish_solution(runset, o, a, x, w, left=left, method=method, settings=settings, warnings=warnings,
+                           penalty=penalty, misfit_pct=misfit_pct)
+
+
+def finish_solution(runset: RunSet, o, a, x, w, *, left, method: str, settings: Settings, warnings: list,
+                    penalty: float = 0.0, misfit_pct: float | None = None, source: str | None = None) -> Solution:
+    """Package a correction ``x`` (complex grams per plane, in the weight-angle frame) for the rotor with
+    original readings ``o`` and coefficients ``a`` as a :class:`Solution`: condition number and the
+    ill-conditioning warnings, predicted residual at every point, corrections net of the masses ``left``
+    on the rotor, in words (add/remove) with their angles. Used by :func:`solve_runs` and by the stored
+    coefficients of :mod:`toolkit.coefficients`."""
+    from toolkit.units import Q_
+
+    warnings = list(warnings)
     aw = a * w[:, None]
     sv = np.linalg.svd(aw, compute_uv=False)
     cond = float(sv[0] / sv[-1]) if sv[-1] > 0 else math.inf
@@ -683,9 +698,6 @@ def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings 
     warnings.append(f"predicted residual after the corrections: {worst['amount']:.3g} {runset.reading_unit} at "
                     f"{worst['sensor']!r} (largest of {len(records)} point(s)); confirm with a check run")
 
-    left = np.zeros(len(runset.planes), dtype=complex)
-    if runset.trials_left_on:
-        left = u[-1]
     actions = dict(runset.actions) or {p: "add" for p in runset.planes}
     radius = dict(runset.radius_mm)
     corrections = []
@@ -700,7 +712,8 @@ def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings 
     return Solution(runset=runset, corrections=tuple(corrections), total_correction_g=tuple(map(complex, x)),
                     influence=tuple(tuple(map(complex, row)) for row in a), original=tuple(map(complex, o)),
                     condition_number=cond, predicted_residual=tuple(records), warnings=tuple(warnings),
-                    method=method, settings=settings, penalty=float(penalty), fit_misfit_pct=misfit_pct)
+                    method=method, settings=settings, penalty=float(penalty), fit_misfit_pct=misfit_pct,
+                    **({"source": source} if source else {}))
 
 
 def solve_one_plane(original, trial, with_trial, *, keep_trial: bool = False, radius=None,
