@@ -157,6 +157,19 @@ def test_bad_options_one_line_exit_2(capsys, argv, message):
     assert err.count("\n") == 1 and message in err, err
 
 
+def test_amplitude_only(capsys):
+    # correction.csv "four-run": add 60.00 g@45.00, consistency 1.000 (rel 1e-3), derived here (D)
+    code, out, err = run(capsys, "solve", "--original", "6.0 mm/s", "--trial", "40 g", "--amplitude",
+                         "0=4.2496 mm/s", "--amplitude", "120=6.2910 mm/s", "--amplitude", "240=9.9179 mm/s", "--json")
+    assert code == 0, err
+    data = json.loads(out)
+    c = data["corrections"][0]
+    assert c["action"] == "add" and c["mass_g"] == pytest.approx(60.0, rel=1e-3)
+    assert angle_close(c["angle_deg"], 45.0, 0.05) and data["consistency"] == pytest.approx(1.0, abs=1e-3)
+    code, out, err = run(capsys, "solve", "--original", "6.0 mm/s", "--trial", "40 g", "--amplitude", "0")
+    assert code == 2 and "ANGLE=AMPLITUDE" in err
+
+
 def test_trial_suggestion(capsys):
     code, out, _ = run(capsys, "solve", "--bearing-mass", "200 kg", "--radius", "150 mm", "--speed", "1480 rpm",
                        "--json")

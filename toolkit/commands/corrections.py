@@ -52,6 +52,9 @@ def configure_solve(parser) -> None:
     parser.add_argument("--after", action="append", metavar="VEC",
                         help="with --coefficients: readings after the installed correction (trim run), once "
                              "per sensor; updates the coefficients (save them with --save-coefficients)")
+    parser.add_argument("--amplitude", action="append", metavar="ANGLE=AMPLITUDE",
+                        help="amplitude-only method: the reading with the trial (--trial, a mass) at ANGLE, e.g. "
+                             "'120=6.29 mm/s'; three or more, with --original an amplitude such as '6.0 mm/s'")
     parser.add_argument("--bearing-mass", metavar="MASS",
                         help="suggest a trial mass: rotor mass carried by the nearer bearing, e.g. '200 kg'")
     parser.add_argument("--speed", metavar="SPEED", help="speed of the trial run, e.g. '1480 rpm'")
@@ -99,6 +102,8 @@ def run_solve(args) -> int:
         return _run_suggest(args)
     if args.coefficients:
         return _run_stored(args)
+    if args.amplitude:
+        return _run_amplitude(args)
     settings = _settings(args)
     if args.runs:
         if args.trial or args.with_trial or args.original:
@@ -227,6 +232,34 @@ def _run_stored(args) -> int:
                                        settings=_settings(args), origin=str(args.coefficients))
     data = solution.to_dict()
     emit(args.json, data, _solution_text(solution))
+    return 0
+
+
+def _run_amplitude(args) -> int:
+    from toolkit.errors import BadInput
+    from toolkit.influence import four_run
+    from toolkit.units import format_number
+
+    if not args.original or len(args.original) != 1 or not args.trial:
+        raise BadInput("--amplitude: give --original (an amplitude, e.g. '6.0 mm/s') once and --trial (a mass, "
+                       "e.g. '40 g')")
+    runs = []
+    for item in args.amplitude:
+        angle, sep, amplitude = item.partition("=")
+        if not sep:
+            raise BadInput(f"--amplitude: {item!r} must be ANGLE=AMPLITUDE, e.g. '120=6.29 mm/s'")
+        runs.append((angle.strip(), amplitude.strip()))
+    s = four_run(args.original[0], args.trial, runs)
+    sense = f", {args.weight_angles}" if args.weight_angles else ""
+    lines = [f"Correction (amplitude only; angle measured like the trial positions{sense}):",
+             f"  add {format_number(s.mass.m_as('g'))} g at {s.angle_deg:.1f}°",
+             f"Consistency index: {s.consistency:.3f} (1 for a linear rotor)"]
+    if s.warnings:
+        lines.append("Warnings:")
+        lines += [f"  - {w}" for w in s.warnings]
+    lines.append("Cautions:")
+    lines += [f"  - {c}" for c in s.cautions]
+    emit(args.json, s.to_dict(), "\n".join(lines))
     return 0
 
 
