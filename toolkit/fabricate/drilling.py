@@ -290,6 +290,9 @@ def correction_g_mm(amount, radius=None, name: str = "--unbalance") -> float:
             q = None
     if q is not None:
         return float(q.m_as("g*mm"))
+    if isinstance(amount, (int, float)) or (isinstance(amount, str) and _is_number(amount)):
+        raise BadInput(f"{name}: {amount!r} has no unit; give an unbalance (e.g. '2400 g*mm', '3.3 oz*in') or "
+                       "a mass with --radius (e.g. '38 g')")
     try:
         m = magnitude(amount, "mass", "g", name, positive=True)
     except BadInput:
@@ -299,6 +302,14 @@ def correction_g_mm(amount, radius=None, name: str = "--unbalance") -> float:
         raise BadInput(f"{name}: {amount!s} is a mass; give its radius too (--radius, e.g. '620 mm') or give "
                        "an unbalance such as '2400 g*mm'")
     return float(m * magnitude(radius, "length", "mm", "--radius", positive=True))
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
 
 
 # -- design ----------------------------------------------------------------------------------------------
@@ -415,7 +426,7 @@ def _depth_for(orientation: str, U1: float, d: float, R: float, rho: float, angl
 
 
 def _round_depth(L: float, step: float, orientation: str, d: float, R: float) -> float:
-    Lr = round(L / step) * step
+    Lr = round(round(L / step) * step, 9)
     if orientation == "radial":
         lmin = _radial_min_depth(R, d / 2)
         while Lr < lmin:
@@ -541,9 +552,10 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
     else:
         candidates = [c for c in _stock.drills(drills) if orientation == "axial" or c.diameter_mm < R]
     chosen = None
-    for ratio in (limits.preferred_depth_ratio, limits.max_depth_ratio):
-        if diameter is not None:
-            ratio = limits.max_depth_ratio
+    ratios = [limits.warn_depth_ratio, limits.max_depth_ratio]
+    if diameter is None:
+        ratios.insert(0, limits.preferred_depth_ratio)
+    for ratio in sorted(set(r for r in ratios if r <= limits.max_depth_ratio)) or [limits.max_depth_ratio]:
         for c in candidates:
             got = _design(orientation, U, c.diameter_mm, R, rho, angle, limits, wall_mm, ratio, fixed,
                           remove_angle)
@@ -565,7 +577,7 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
         Lr = _round_depth(L, limits.depth_step_mm, orientation, d, R)
         g = _geometry(orientation, d, Lr, R, rho, angle)
         if g.tip_depth_mm > limits.tip_limit_mm(d) + 1e-9:
-            Lr -= limits.depth_step_mm
+            Lr = round(Lr - limits.depth_step_mm, 9)
             g = _geometry(orientation, d, Lr, R, rho, angle)
         holes.append(Hole(ang, round(off, 6) + 0.0, d, Lr, g.tip_depth_mm, g.mass_g, g.unbalance_g_mm))
         total += g.unbalance_g_mm * complex(math.cos(math.radians(ang)), math.sin(math.radians(ang)))
@@ -616,7 +628,7 @@ def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed) -> 
     else:
         most = one * (1 if not fixed else 2)
     if U > most:
-        reason = (f"{_fmt(U)} g·mm is more than {n if not fixed else 'the'} {big:g} mm holes can remove within "
+        reason = (f"{_fmt(U)} g·mm is more than {f'{n} ×' if not fixed else 'the'} {big:g} mm holes can remove within "
                   f"the limits (at most about {_fmt(most)} g·mm at {limits.max_depth_ratio:g}·d); nearest: remove "
                   f"{_fmt(most)} g·mm here and the rest in another plane or by another method, or raise "
                   "--max-depth-ratio if the rotor maker allows")

@@ -123,7 +123,7 @@ def _ops_plate(p: plates.PlateResult) -> tuple[Operation, ...]:
              "fillet_mm": p.fillet_mm, "centroid_radius_mm": p.centroid_radius_mm},
             f"plate{'' if p.seats == 1 else f' {i} of 2'}: weld a {p.shape} {p.thickness_label} plate "
             f"{p.width_mm:g} × {p.length_mm:g} mm ({_fmt(p.mass_g)} g, about {_fmt(p.weld_mass_g)} g of weld "
-            f"with {p.fillet_mm:g} mm fillets) on the {p.surface if p.shape != 'face' else 'face'} at {a:g}°, "
+            f"with {p.fillet_mm:g} mm fillets) on the {p.surface + ' surface' if p.shape != 'face' else 'face'} at {a:g}°, "
             f"radius {p.radius_mm:g} mm"))
     return tuple(ops)
 

@@ -240,7 +240,7 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     if not (isinstance(aspect, (int, float)) and aspect > 0):
         raise BadInput(f"aspect: {aspect!r} must be a number greater than zero")
     warnings = []
-    w = max(st, round(w0 / st) * st)
+    w = float(max(st, round(round(w0 / st) * st, 9)))
     if abs(w - w0) > 1e-9:
         warnings.append(f"width {w0:g} mm rounded to the {st:g} mm step: {w:g} mm")
     room = None if max_length is None else magnitude(max_length, "length", "mm", "--max-length", positive=True)
@@ -294,9 +294,9 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
         raise Infeasible(_nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, weld_run))
     seats, (t_opt, z, b_exact, total, U1) = chosen
     t = t_opt.thickness_mm
-    b = float(max(st, round(b_exact / st) * st))
+    b = float(max(st, round(round(b_exact / st) * st, 9)))
     if room is not None and b > room + 1e-9:
-        b -= st
+        b = round(b - st, 9)
     if shape == "flat":
         gap = R - math.sqrt(max(R * R - (b / 2) ** 2, 0.0)) if surface == "outer" else 0.0
         if gap > 1.0:
