@@ -687,6 +687,9 @@ def finish_solution(runset: RunSet, o, a, x, w, *, left, method: str, settings: 
 
     conj = conjugate_needed(runset.weight_angles, runset.phase)
     residual = o + a @ x
+    # what is left below 1e-12 of the largest original reading is rounding noise: report it as zero
+    noise = 1e-12 * float(np.abs(o).max())
+    residual = np.where(np.abs(residual) <= noise, 0, residual)
     records = []
     for i, s in enumerate(runset.sensors):
         z = np.conj(residual[i]) if conj else residual[i]

@@ -186,8 +186,7 @@ def _solution_text(solution, saved=None, defaults=()) -> str:
     lines.append(f"Condition number: {format_number(solution.condition_number)}")
     lines.append("Predicted residual after the corrections:")
     for r in solution.predicted_residual:
-        amount = 0.0 if r["amount"] <= 1e-9 * max(r["original_amount"], 1e-300) else r["amount"]
-        lines.append(f"  {r['sensor']}: {format_number(amount)} {r['unit']} "
+        lines.append(f"  {r['sensor']}: {format_number(r['amount'])} {r['unit']} "
                      f"(was {format_number(r['original_amount'])})")
     if saved:
         lines.append(f"Coefficients saved to {saved}")
