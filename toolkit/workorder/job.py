@@ -66,6 +66,11 @@ SURFACES = ("outer", "inner", "face")
 SENSES = ("against rotation", "with rotation")
 #: Kinds of measurement.
 KINDS = ("machine", "runs", "coefficients")
+#: Tolerance criteria (names as in :data:`toolkit.tolerance.CRITERIA`).
+CRITERIA = ("iso", "api", "mil-std-167")
+#: Drilling limits a job may override ([shop.drilling]; common practice, see toolkit.fabricate.drilling.Limits).
+DRILLING_KEYS = ("warn_depth_ratio", "max_depth_ratio", "max_depth_mm", "min_wall_mm", "min_wall_ratio",
+                 "spacing_ratio", "depth_step_mm", "preferred_depth_ratio", "max_holes")
 #: What a balancing machine's angle shows.
 SHOWS = ("heavy spot", "add")
 
@@ -178,6 +183,11 @@ class PlaneSpec:
     max_depth: Any = None
     max_length: Any = None
     material: str = "carbon steel"
+    width: Any = None
+    wall: Any = None
+    plate_shape: str = "rolled"
+    hole_orientation: str = "radial"
+    washer_size: str | None = None
 
     def to_dict(self) -> dict:
         return {
@@ -186,7 +196,9 @@ class PlaneSpec:
             "fixed_positions_deg": list(self.fixed_positions),
             "max_depth_mm": None if self.max_depth is None else self.max_depth.m_as("mm"),
             "max_length_mm": None if self.max_length is None else self.max_length.m_as("mm"),
-            "material": self.material,
+            "material": self.material, "width_mm": None if self.width is None else self.width.m_as("mm"),
+            "wall_mm": None if self.wall is None else self.wall.m_as("mm"), "plate_shape": self.plate_shape,
+            "hole_orientation": self.hole_orientation, "washer_size": self.washer_size,
         }
 
 
@@ -195,16 +207,17 @@ class Measurement:
     """What was measured.
 
     ``kind`` is ``machine`` (``readings``: plane name -> (unbalance quantity, angle in degrees of the heavy
-    spot)), ``runs`` (``runs``: the raw run tables for the solver) or ``coefficients`` (``coefficients``:
-    path of the stored coefficients, ``original``: the original run table).
+    spot)), ``runs`` (``runs``: the runs description for :func:`toolkit.influence.runs_from_dict`, with
+    planes, radii and weight-angle sense filled in from the job) or ``coefficients`` (``coefficients``:
+    path of the stored coefficients file, ``original``: one reading per sensor).
     """
 
     kind: str
     readings: Mapping[str, tuple[Any, float]] = field(default_factory=dict)
     shows: str = "heavy spot"
-    runs: tuple = ()
+    runs: Mapping | None = None
     coefficients: Path | None = None
-    original: Mapping | None = None
+    original: tuple[str, ...] = ()
     raw: Mapping = field(default_factory=dict)
 
 
@@ -217,6 +230,10 @@ class ShopSettings:
     plate_stock: str
     angle_step_deg: float
     mass_step: Any
+    plate_step: Any = None
+    point_angle_deg: float = 118.0
+    drilling: Mapping = field(default_factory=dict)
+    given: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -237,10 +254,11 @@ class Job:
     bearing_span: Any
     centre_of_mass: Any
     static_share: float | None
+    min_share: float | None
+    error_allowance: Any
     planes: tuple[PlaneSpec, ...]
     angle_reference: str
     angle_sense: str
-    readings_sense: str
     measurement: Measurement
     shop: ShopSettings
     defaults_used: tuple[str, ...] = ()
@@ -445,7 +463,7 @@ def parse_job(text: str, origin: str = "<job>", base: Path | None = None) -> Job
     # [rotor]
     rotor_t = _table(ck, data, ("rotor",))
     _unknown(ck, rotor_t, ("rotor",), ("mass", "service_speed", "balancing_speed", "grade", "criterion",
-                                        "material"))
+                                        "material", "error_allowance"))
     mass = _quantity(ck, rotor_t, ("rotor", "mass"), "mass", required=True, positive=True)
     service = _speed(ck, rotor_t, ("rotor", "service_speed"), required=True)
     balancing = _speed(ck, rotor_t, ("rotor", "balancing_speed")) or service
@@ -453,7 +471,8 @@ def parse_job(text: str, origin: str = "<job>", base: Path | None = None) -> Job
     if "grade" not in rotor_t:
         grade = DEFAULTS["rotor.grade"][0]
         defaults_used.append("rotor.grade")
-    criterion = _choice(ck, rotor_t, ("rotor", "criterion"), ("iso", "api", "mil"), default="iso")
+    criterion = _choice(ck, rotor_t, ("rotor", "criterion"), CRITERIA, default="iso")
+    error_allowance = _quantity(ck, rotor_t, ("rotor", "error_allowance"), "unbalance", nonnegative=True)
     material = _text(ck, rotor_t, ("rotor", "material"), default=DEFAULTS["rotor.material"][0])
     if "material" not in rotor_t:
         defaults_used.append("rotor.material")
@@ -464,7 +483,7 @@ def parse_job(text: str, origin: str = "<job>", base: Path | None = None) -> Job
 
     # [geometry]
     geo_t = _table(ck, data, ("geometry",))
-    _unknown(ck, geo_t, ("geometry",), ("bearing_span", "centre_of_mass", "static_share"))
+    _unknown(ck, geo_t, ("geometry",), ("bearing_span", "centre_of_mass", "static_share", "min_share"))
     span = _quantity(ck, geo_t, ("geometry", "bearing_span"), "length", required=True, positive=True)
     com = _quantity(ck, geo_t, ("geometry", "centre_of_mass"), "length", required=True)
     share = geo_t.get("static_share")
@@ -472,6 +491,11 @@ def parse_job(text: str, origin: str = "<job>", base: Path | None = None) -> Job
                               or not 0 < share < 1):
         ck.add(("geometry", "static_share"), f"{_shown(share)} is not allowed; give a fraction between 0 and 1")
         share = None
+    min_share = geo_t.get("min_share")
+    if min_share is not None and (isinstance(min_share, bool) or not isinstance(min_share, (int, float))
+                                  or not 0 <= min_share <= 0.5):
+        ck.add(("geometry", "min_share"), f"{_shown(min_share)} is not allowed; give a fraction from 0 to 0.5")
+        min_share = None
 
     # [[plane]]
     planes_raw = data.get("plane", _MISSING)
@@ -488,7 +512,8 @@ def parse_job(text: str, origin: str = "<job>", base: Path | None = None) -> Job
     for i, p in enumerate(planes_raw):
         path = ("plane", i)
         _unknown(ck, p, path, ("name", "position", "radius", "surface", "methods", "fixed_positions",
-                               "max_depth", "max_length", "material"))
+                               "max_depth", "max_length", "material", "width", "wall", "plate_shape",
+                               "hole_orientation", "washer_size"))
         name = _text(ck, p, path + ("name",), required=True)
         if name and name in names_seen:
             ck.add(path + ("name",), f"{name!r} is used by another plane; plane names must differ")
@@ -513,9 +538,23 @@ def parse_job(text: str, origin: str = "<job>", base: Path | None = None) -> Job
         max_depth = _quantity(ck, p, path + ("max_depth",), "length", positive=True)
         max_length = _quantity(ck, p, path + ("max_length",), "length", positive=True)
         plane_material = _text(ck, p, path + ("material",), default=material)
+        width = _quantity(ck, p, path + ("width",), "length", positive=True)
+        if "plate" in methods and width is None and "width" not in p:
+            ck.add(path + ("width",), "missing; a plane that allows plates needs the seat width for the plate, "
+                                      "e.g. \"40 mm\"")
+        wall = _quantity(ck, p, path + ("wall",), "length", positive=True)
+        default_shape = "face" if surface == "face" else "rolled"
+        plate_shape = _choice(ck, p, path + ("plate_shape",), ("flat", "rolled", "face"), default=default_shape)
+        if surface == "face" and plate_shape != "face":
+            ck.add(path + ("plate_shape",), f"{plate_shape!r} does not suit a face; use 'face' or leave it out")
+        default_orientation = "radial" if surface == "outer" else "axial"
+        orientation = _choice(ck, p, path + ("hole_orientation",), ("axial", "radial"),
+                              default=default_orientation)
+        washer_size = _text(ck, p, path + ("washer_size",)) or None
         if None not in (name, position, radius, surface) and methods:
             planes.append(PlaneSpec(name, position, radius, surface, methods, tuple(sorted(fixed)), max_depth,
-                                    max_length, plane_material))
+                                    max_length, plane_material, width, wall, plate_shape, orientation,
+                                    washer_size))
     if len(planes) == 2 and span is not None:
         gap = abs((planes[0].position - planes[1].position).m_as("mm"))
         if gap == 0:
@@ -523,25 +562,47 @@ def parse_job(text: str, origin: str = "<job>", base: Path | None = None) -> Job
 
     # [angles]
     ang_t = _table(ck, data, ("angles",))
-    _unknown(ck, ang_t, ("angles",), ("reference", "sense", "readings"))
+    _unknown(ck, ang_t, ("angles",), ("reference", "sense"))
     reference = _text(ck, ang_t, ("angles", "reference"), required=True)
     sense = _choice(ck, ang_t, ("angles", "sense"), SENSES, required=True)
-    readings_sense = _choice(ck, ang_t, ("angles", "readings"), SENSES, default=sense)
 
     # [measurement]
     meas_t = _table(ck, data, ("measurement",))
     all_names = [p.get("name") for p in planes_raw if isinstance(p.get("name"), str)]
-    measurement = _measurement(ck, meas_t, all_names, planes, base)
+    measurement = _measurement(ck, meas_t, all_names, planes, base, sense)
 
     # [shop]
     shop_t = _table(ck, data, ("shop",), required=False)
-    _unknown(ck, shop_t, ("shop",), ("units", "drills", "plate_stock", "angle_step", "mass_step"))
+    _unknown(ck, shop_t, ("shop",), ("units", "drills", "plate_stock", "angle_step", "mass_step", "plate_step",
+                                      "point_angle", "drilling"))
     units = _choice(ck, shop_t, ("shop", "units"), ("metric", "imperial"), default="metric")
     for key in ("units", "angle_step", "mass_step"):
         if key not in shop_t:
             defaults_used.append(f"shop.{key}")
-    drills = _table_ref(ck, shop_t, ("shop", "drills"), base)
-    stock = _table_ref(ck, shop_t, ("shop", "plate_stock"), base)
+    drills = _table_ref(ck, shop_t, ("shop", "drills"), base, ("metric", "inch"),
+                        "inch" if units == "imperial" else "metric")
+    stock = _table_ref(ck, shop_t, ("shop", "plate_stock"), base, ("plate_stock",), "plate_stock")
+    plate_step = _quantity(ck, shop_t, ("shop", "plate_step"), "length", positive=True)
+    point_angle = 118.0
+    if "point_angle" in shop_t:
+        raw = shop_t["point_angle"]
+        value = _angle(ck, raw, ("shop", "point_angle"))
+        if value is not None and not 60 <= value <= 180:
+            ck.add(("shop", "point_angle"), f"{_shown(raw)} is not allowed; give an included angle from 60 to 180 "
+                                            "degrees (118 for general twist drills)")
+        elif value is not None:
+            point_angle = value
+    drilling = {}
+    drill_t = _table(ck, shop_t, ("shop", "drilling"), required=False)
+    for key, value in drill_t.items():
+        if key not in DRILLING_KEYS:
+            ck.add(("shop", "drilling", key), f"unknown key; allowed keys here: {', '.join(DRILLING_KEYS)}")
+        elif isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) \
+                or value < 0 or (key == "max_holes" and not isinstance(value, int)):
+            ck.add(("shop", "drilling", key), f"{_shown(value)} is not allowed; give a number, zero or more"
+                                              + (" (a whole number)" if key == "max_holes" else ""))
+        else:
+            drilling[key] = value
     step_deg = 1.0
     if "angle_step" in shop_t:
         raw = shop_t["angle_step"]
@@ -560,8 +621,10 @@ def parse_job(text: str, origin: str = "<job>", base: Path | None = None) -> Job
     if ck.problems:
         raise JobError(origin, ck.problems)
     return Job(origin, MappingProxyType(order), mass, service, balancing, grade, criterion or "iso", material,
-               span, com, share, tuple(planes), reference, sense, readings_sense, measurement,
-               ShopSettings(units or "metric", drills, stock, step_deg, mass_step), tuple(defaults_used))
+               span, com, share, min_share, error_allowance, tuple(planes), reference, sense, measurement,
+               ShopSettings(units or "metric", drills, stock, step_deg, mass_step, plate_step, point_angle,
+                            MappingProxyType(drilling), tuple(k for k in shop_t)),
+               tuple(defaults_used))
 
 
 def _speed(ck: _Checker, table: Mapping, path: tuple, required: bool = False) -> float | None:
@@ -600,25 +663,27 @@ def _methods(ck: _Checker, p: Mapping, path: tuple) -> tuple[str, ...]:
     return tuple(out)
 
 
-def _table_ref(ck: _Checker, table: Mapping, path: tuple, base: Path) -> str:
-    value = table.get(path[-1], "builtin")
+def _table_ref(ck: _Checker, table: Mapping, path: tuple, base: Path, names: tuple[str, ...],
+               default: str) -> str:
+    value = table.get(path[-1], default)
+    allowed = " or ".join(repr(n) for n in names)
     if not isinstance(value, str) or not value.strip():
-        ck.add(path, f"{_shown(value)} is not allowed; give \"builtin\" or the path of a CSV table")
-        return "builtin"
-    if value.strip().lower() == "builtin":
-        return "builtin"
+        ck.add(path, f"{_shown(value)} is not allowed; give {allowed} or the path of a CSV table")
+        return default
+    if value.strip().lower() in names:
+        return value.strip().lower()
     file = (base / value).resolve() if not Path(value).is_absolute() else Path(value)
     if file.suffix.lower() != ".csv":
-        ck.add(path, f"{_shown(value)} is not a .csv file; give \"builtin\" or the path of a CSV table")
+        ck.add(path, f"{_shown(value)} is not allowed; give {allowed} or the path of a CSV table")
     elif not file.is_file():
         ck.add(path, f"{_shown(value)}: no such file (looked for {file})")
     return str(file)
 
 
 def _measurement(ck: _Checker, meas: Mapping, names: list[str], planes: list[PlaneSpec],
-                 base: Path) -> Measurement:
+                 base: Path, sense: str | None) -> Measurement:
     path = ("measurement",)
-    kind = _choice(ck, meas, path + ("kind",), KINDS, required=bool(meas) or True)
+    kind = _choice(ck, meas, path + ("kind",), KINDS, required=True)
     raw = MappingProxyType(dict(meas))
     if kind == "machine":
         _unknown(ck, meas, path, ("kind", "shows", "readings"))
@@ -643,13 +708,23 @@ def _measurement(ck: _Checker, meas: Mapping, names: list[str], planes: list[Pla
                 readings[plane.name] = (amount, angle)
         return Measurement("machine", MappingProxyType(readings), shows or "heavy spot", raw=raw)
     if kind == "runs":
-        _unknown(ck, meas, path, ("kind", "run", "sensors", "trial_stays"))
-        runs = meas.get("run")
-        if not isinstance(runs, list) or len(runs) < 2 or not all(isinstance(r, dict) for r in runs):
-            ck.add(path + ("run",), "give the original run and at least one trial run as [[measurement.run]] "
-                                    "tables")
-            runs = []
-        return Measurement("runs", runs=tuple(runs), raw=raw)
+        allowed = ("kind", "sensors", "phase", "run", "weights", "trials_left_on", "method", "speed", "limits")
+        _unknown(ck, meas, path, allowed)
+        data = {k: v for k, v in meas.items() if k in allowed and k != "kind"}
+        data["planes"] = [p.name for p in planes]
+        data["weight_angles"] = sense or "against rotation"
+        data["radius"] = {p.name: f"{p.radius.m_as('mm')!r} mm" for p in planes}
+        data["action"] = "add"
+        if "phase" not in meas:
+            ck.add(path + ("phase",), "missing; say how the instrument reports phase: 'lag' or 'lead'")
+        if len(planes) == len(names) and sense and "phase" in meas:
+            from toolkit.influence import runs_from_dict
+
+            try:
+                runs_from_dict(data, "\x00")
+            except BadInput as exc:
+                ck.add(path + ("run",), str(exc).replace("\x00: ", "", 1))
+        return Measurement("runs", runs=MappingProxyType(data), raw=raw)
     if kind == "coefficients":
         _unknown(ck, meas, path, ("kind", "coefficients", "original"))
         file_name = meas.get("coefficients")
@@ -660,8 +735,12 @@ def _measurement(ck: _Checker, meas: Mapping, names: list[str], planes: list[Pla
             file = (base / file_name) if not Path(file_name).is_absolute() else Path(file_name)
             if not file.is_file():
                 ck.add(path + ("coefficients",), f"{file_name!r}: no such file (looked for {file.resolve()})")
-        original = _table(ck, meas, path + ("original",))
-        return Measurement("coefficients", coefficients=file, original=MappingProxyType(dict(original)), raw=raw)
+        original = meas.get("original")
+        if not isinstance(original, list) or not original or not all(isinstance(r, str) for r in original):
+            ck.add(path + ("original",), f"{_shown(original)}: give the original run as a list of readings, one "
+                                         "per sensor, e.g. [\"4.2 mm/s@285\"]")
+            original = []
+        return Measurement("coefficients", coefficients=file, original=tuple(original), raw=raw)
     return Measurement(kind or "machine", raw=raw)
 
 
@@ -736,12 +815,13 @@ position = "1050 mm"
 radius = "320 mm"
 surface = "outer"
 methods = ["plate"]
+width = "60 mm"
 [angles]
 reference = "keyway"
 sense = "against rotation"
 [measurement]
 kind = "machine"
 [measurement.readings]
-A = "1800 g*mm@40"
-B = "2400 g*mm@200"
+A = "21000 g*mm@40"
+B = "16500 g*mm@200"
 """

@@ -153,11 +153,18 @@ class PlaneOrder:
     predicted_g_mm: float
     predicted_deg: float
     notes: tuple[str, ...] = ()
+    limit_g_mm: float | None = None
+
+    @property
+    def limit(self) -> float:
+        """The acceptance limit in g·mm: the allowance, less the measurement error allowance if one was
+        given (``limit_g_mm``)."""
+        return self.tolerance.u_per_g_mm if self.limit_g_mm is None else self.limit_g_mm
 
     @property
     def passed(self) -> bool:
-        """The predicted residual is within the allowance."""
-        return self.predicted_g_mm <= self.tolerance.u_per_g_mm * (1 + 1e-9)
+        """The predicted residual is within the acceptance limit."""
+        return self.predicted_g_mm <= self.limit * (1 + 1e-9)
 
     @property
     def initial(self):

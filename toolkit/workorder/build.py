@@ -1,0 +1,364 @@
+"""The chain from a job to a work order: tolerance, initial unbalance, corrections, operations, predicted
+residual, pass or fail.
+
+Steps (each a call into the module that owns the method; nothing is recomputed here):
+
+1. Tolerance per correction plane: :func:`toolkit.tolerance.tolerance_report` (ISO 21940-11 U_per, the
+   bounded lever rule, transfer to the correction planes by statics, or the API/MIL criteria).
+2. Initial unbalance per plane: read from the balancing machine (the job's readings), or solved from
+   trial-mass runs (:func:`toolkit.influence.solve_runs`) or from stored coefficients and an original run
+   (:func:`toolkit.coefficients.solve_with_coefficients`). The solver's "add W at θ" is the heavy spot
+   U = W·r at θ + 180°.
+3. Operations per plane: :func:`toolkit.fabricate.plan.plan_correction` for the job's allowed methods in
+   order of preference; the first whose predicted residual is within the allowance is used, else the one
+   that leaves the least (a warning says so). A method that cannot be carried out (a hole too deep, a plate
+   that does not fit) is skipped with its reason. Washers on a plane with fixed positions (tapped holes)
+   are split onto the two neighbouring positions (:func:`toolkit.vectors.split_vector`).
+4. Angles rounded to the shop's marking step (``[shop] angle_step``, 1° by default [CP]).
+5. Predicted residual per plane = initial unbalance + the effect of every operation at its rounded angle
+   (adding mass puts unbalance at its angle, removing takes it away there) [D]; checked against the
+   allowance with :func:`toolkit.tolerance.check_residuals` (ΔU from the job, default 0 [M]).
+
+The result is one immutable :class:`~toolkit.workorder.model.WorkOrder`.
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+from toolkit.errors import BadInput, Infeasible
+from toolkit.workorder.job import DEFAULTS, Job, load_job, parse_job
+from toolkit.workorder.model import (Identification, Operation, PlaneOrder, Setting, Tolerance, WorkOrder,
+                                     effect, polar, vector)
+
+__all__ = ["build_order", "order_from_file", "demo_job", "demo_order", "GENERAL_CAUTIONS"]
+
+#: Cautions every work order carries (DOMAIN.md section 4); the fabrication and solver modules add their own
+#: for the operations used.
+GENERAL_CAUTIONS = (
+    "Secure every trial and correction mass before any run (welds finished and inspected, bolts torqued "
+    "and locked); a loose mass leaves the rotor at speed.",
+    "Keep guards closed and people clear of the plane of rotation during every run.",
+    "Lock the rotor and isolate its drive (lock-out/tag-out, OSHA 29 CFR 1910.147) before drilling, welding "
+    "or fitting masses.",
+    "Follow the rotor maker's instructions, local codes and licensed practice: they take precedence over "
+    "this work order.",
+)
+
+_METHOD_KIND = {"drill": "hole", "plate": "plate", "washers": "washers"}
+
+
+def _q(value: float, unit: str):
+    from toolkit.units import Q_
+
+    return Q_(value, unit)
+
+
+def _round_angle(angle: float, step: float) -> float:
+    value = round(angle / step) * step % 360.0
+    return 0.0 if value >= 360.0 - 1e-9 else round(value, 6)
+
+
+def _tolerances(job: Job):
+    from toolkit.tolerance import DEFAULT_MIN_SHARE, tolerance_report
+
+    report = tolerance_report(
+        job.grade, job.mass, _q(job.service_speed_rpm, "rpm"), bearing_span=job.bearing_span,
+        com_from_a=job.centre_of_mass, planes={p.name: p.position for p in job.planes},
+        static_share=job.static_share, criteria=(job.criterion,),
+        min_share=DEFAULT_MIN_SHARE if job.min_share is None else job.min_share)
+    by_name = {p.name: p for p in report.planes}
+    tolerances = {}
+    for plane in job.planes:
+        record = by_name[plane.name]
+        tolerances[plane.name] = Tolerance(record.u_per.m_as("g*mm"), record.method, record.source)
+    notes = list(report.warnings)
+    if report.static_couple is not None:
+        notes.append(f"static and couple tolerances: {_describe_static_couple(report.static_couple)}")
+    return report, tolerances, notes
+
+
+def _describe_static_couple(sc) -> str:
+    data = sc.to_dict()
+    parts = [f"{k.replace('_', ' ')} {v:.4g}" for k, v in data.items() if isinstance(v, (int, float))]
+    return "; ".join(parts[:4])
+
+
+def _initial(job: Job):
+    """Initial unbalance per plane as {name: (g·mm, heavy-spot angle)}, a description, warnings, sources,
+    cautions."""
+    m = job.measurement
+    if m.kind == "machine":
+        out = {name: (amount.m_as("g*mm"), angle) for name, (amount, angle) in m.readings.items()}
+        shows = "heavy spot" if m.shows == "heavy spot" else "the add position (turned to the heavy spot here)"
+        return out, f"balancing machine readings per plane (the machine's angle shows {shows})", [], [], []
+    if m.kind == "runs":
+        from toolkit.influence import runs_from_dict, solve_runs
+
+        runset = runs_from_dict(dict(m.runs), f"{job.origin} [measurement]")
+        solution = solve_runs(runset)
+        what = (f"trial-mass runs ({len(runset.runs)} runs, {len(runset.sensors)} sensor(s), "
+                f"{runset.method}), solved by influence coefficients")
+    else:
+        from toolkit.coefficients import load_coefficients, solve_with_coefficients
+
+        coefficients = load_coefficients(m.coefficients)
+        names = {p.name for p in job.planes}
+        if set(coefficients.planes) != names:
+            raise BadInput(f"{job.origin}: measurement.coefficients: the stored coefficients are for planes "
+                           f"{', '.join(coefficients.planes)}; the job's planes are {', '.join(sorted(names))}")
+        if coefficients.weight_angles != job.angle_sense:
+            raise BadInput(f"{job.origin}: measurement.coefficients: the stored coefficients count weight angles "
+                           f"{coefficients.weight_angles}; the job counts them {job.angle_sense}")
+        solution = solve_with_coefficients(coefficients, list(m.original), origin=str(m.coefficients))
+        what = f"original run with stored influence coefficients ({Path(str(m.coefficients)).name})"
+    radius = {p.name: p.radius.m_as("mm") for p in job.planes}
+    out = {}
+    for c in solution.corrections:
+        grams = c.mass.m_as("g")
+        heavy = c.angle_deg if c.action == "remove" else (c.angle_deg + 180.0) % 360.0
+        out[c.plane] = (grams * radius[c.plane], heavy)
+    return out, what, list(solution.warnings), [solution.source], list(solution.cautions)
+
+
+def _plan(job: Job, plane, u0: float, a0: float, allowance: float, method: str, step: float):
+    """Plan one method; returns (plan-operation list as (kind, action, angle, mass, U, dims, text), plan
+    warnings, cautions, residual complex)."""
+    from toolkit.fabricate.drilling import Limits
+    from toolkit.fabricate.plan import plan_correction
+
+    common = dict(radius=plane.radius, material=plane.material, allowance=_q(allowance, "g*mm"),
+                  materials_table="materials")
+    if method == "drill":
+        limits = dict(job.shop.drilling)
+        if plane.max_depth is not None:
+            limits["max_depth_mm"] = plane.max_depth.m_as("mm")
+        plans = [plan_correction(_q(u0, "g*mm"), a0, "drill", action="remove", orientation=plane.hole_orientation,
+                                 drills=job.shop.drills, limits=Limits(**limits),
+                                 point_angle_deg=job.shop.point_angle_deg, wall=plane.wall,
+                                 fixed_positions=list(plane.fixed_positions) or None, **common)]
+    elif method == "plate":
+        plans = [plan_correction(_q(u0, "g*mm"), a0, "plate", action="remove", shape=plane.plate_shape,
+                                 surface=plane.surface if plane.surface in ("outer", "inner") else "outer",
+                                 width=plane.width, stock=job.shop.plate_stock,
+                                 stock_unit="in" if job.shop.units == "imperial" else "mm",
+                                 step=job.shop.plate_step or "1 mm", max_length=plane.max_length, **common)]
+    else:
+        orientation = "axial" if plane.surface == "face" else "radial"
+        surface = plane.surface if plane.surface in ("outer", "inner") else "outer"
+        add_angle = (a0 + 180.0) % 360.0
+        if plane.fixed_positions:
+            from toolkit.vectors import split_vector
+
+            grams = u0 / plane.radius.m_as("mm")
+            split = split_vector(f"{grams!r} g@{add_angle!r}", at=list(plane.fixed_positions))
+            parts = [(angle, mass * plane.radius.m_as("mm")) for angle, mass in split.parts]
+        else:
+            parts = [(add_angle, u0)]
+        plans = [plan_correction(_q(u, "g*mm"), angle, "washers", action="add", orientation=orientation,
+                                 surface=surface, size=plane.washer_size, **common) for angle, u in parts]
+    ops, warnings, cautions = [], [], []
+    for p in plans:
+        for op in p.operations:
+            text = op.description.replace(f" at {op.angle_deg:g}°", "")
+            ops.append((_METHOD_KIND[method], op.action, _round_angle(op.angle_deg, step), op.mass_g,
+                        op.unbalance_g_mm, dict(op.dimensions), text))
+        warnings.extend(p.warnings)
+        cautions.extend(p.cautions)
+    residual = vector(u0, a0) + sum((effect(a, u, ang) for _k, a, ang, _m, u, _d, _t in ops), 0j)
+    return ops, warnings, cautions, residual
+
+
+def _correct_plane(job: Job, plane, u0: float, a0: float, allowance: float, limit: float):
+    """Try the plane's methods in order; returns (method, ops, residual, notes, cautions)."""
+    step = job.shop.angle_step_deg
+    if u0 <= limit:
+        return "none", [], vector(u0, a0), [f"plane {plane.name}: the initial unbalance is within the allowance; "
+                                            "no correction"], []
+    tried, notes = [], []
+    for method in plane.methods:
+        try:
+            ops, warnings, cautions, residual = _plan(job, plane, u0, a0, allowance, method, step)
+        except Infeasible as exc:
+            notes.append(f"plane {plane.name}: {method} not possible ({' '.join(str(exc).split())})")
+            continue
+        tried.append((method, ops, residual, warnings, cautions))
+        if abs(residual) <= limit:
+            break
+    if not tried:
+        raise Infeasible(f"{job.origin}: plane {plane.name}: no allowed method can carry out the correction: "
+                         + "; ".join(notes))
+    best = next((t for t in tried if abs(t[2]) <= limit), None) or min(tried, key=lambda t: abs(t[2]))
+    method, ops, residual, warnings, cautions = best
+    if abs(residual) > limit:
+        notes.append(f"plane {plane.name}: no allowed method brings the predicted residual within the "
+                     f"allowance; {method} leaves the least")
+    notes.extend(f"plane {plane.name}: {w}" for w in warnings)
+    return method, ops, residual, notes, cautions
+
+
+def _settings(job: Job, report) -> tuple[Setting, ...]:
+    from toolkit.tolerance import DEFAULT_MIN_SHARE
+
+    out = []
+    for key in ("rotor.grade", "rotor.material"):
+        _value, mark, _why = DEFAULTS[key]
+        section, name = key.split(".")
+        out.append(Setting(name, job.grade if name == "grade" else job.material, mark,
+                           key not in job.defaults_used, f"[{section}] {name}"))
+    out.append(Setting("angle marking step", f"{job.shop.angle_step_deg:g}°", "CP",
+                       "angle_step" in job.shop.given, "[shop] angle_step"))
+    out.append(Setting("weighing step", f"{job.shop.mass_step.m_as('g'):g} g", "CP",
+                       "mass_step" in job.shop.given, "[shop] mass_step"))
+    share = DEFAULT_MIN_SHARE if job.min_share is None else job.min_share
+    out.append(Setting("lever-rule share bounds", f"{share:g} to {1 - share:g}", "M",
+                       job.min_share is not None, "[geometry] min_share"))
+    delta = 0.0 if job.error_allowance is None else job.error_allowance.m_as("g*mm")
+    out.append(Setting("measurement error allowance ΔU", f"{delta:g} g·mm", "M", job.error_allowance is not None,
+                       "[rotor] error_allowance"))
+    if any("drill" in p.methods for p in job.planes):
+        from dataclasses import fields
+
+        from toolkit.fabricate.drilling import Limits
+
+        defaults = Limits()
+        for f in fields(Limits):
+            value = job.shop.drilling.get(f.name, getattr(defaults, f.name))
+            if value is None:
+                continue
+            out.append(Setting(f"drilling: {f.name.replace('_', ' ')}", f"{value:g}", "CP",
+                               f.name in job.shop.drilling, f"[shop.drilling] {f.name}"))
+        out.append(Setting("drill point angle", f"{job.shop.point_angle_deg:g}°", "S",
+                           "point_angle" in job.shop.given, "[shop] point_angle"))
+    if any("plate" in p.methods for p in job.planes):
+        step = job.shop.plate_step.m_as("mm") if job.shop.plate_step is not None else 1.0
+        out.append(Setting("plate size step", f"{step:g} mm", "CP", job.shop.plate_step is not None,
+                           "[shop] plate_step"))
+    return tuple(out)
+
+
+_SOURCES = {
+    "hole": "Drilled holes: point cone h = (d/2)/tan(θ/2) (drill makers' data); hole volume and first moment "
+            "derived here [D]; hole spacing, wall and depth limits common practice [CP].",
+    "plate": "Weld-on plates: plate and annular-sector centroid derived here [D]; minimum fillet size AWS D1.1 "
+             "table as reproduced [H]; stock thicknesses as stocked [H, M].",
+    "washers": "Washers: ISO 7089 dimensions as reproduced by a fastener supplier [H]; masses derived [D].",
+}
+
+
+def build_order(job: Job) -> WorkOrder:
+    """Run the whole chain on a validated :class:`~toolkit.workorder.job.Job`.
+
+    Raises :class:`~toolkit.errors.BadInput` for inconsistent inputs and
+    :class:`~toolkit.errors.Infeasible` when no allowed method can carry out a plane's correction.
+
+    >>> order = build_order(parse_job(EXAMPLE_JOB))
+    >>> [(p.name, p.method, round(p.tolerance.u_per_g_mm)) for p in order.planes]
+    [('A', 'drill', 8962), ('B', 'plate', 7333)]
+    >>> [op.action for op in order.operations][:1], order.passed
+    (['remove'], True)
+    """
+    from toolkit.tolerance import check_residuals
+
+    report, tolerances, notes = _tolerances(job)
+    initial, measured_by, warnings, sources, cautions = _initial(job)
+    missing = [p.name for p in job.planes if p.name not in initial]
+    if missing:
+        raise BadInput(f"{job.origin}: measurement: no unbalance for plane(s) {', '.join(missing)}")
+    warnings = list(notes) + warnings
+    delta = 0.0 if job.error_allowance is None else job.error_allowance.m_as("g*mm")
+    planes, number = [], 1
+    kinds_used = set()
+    for spec in job.planes:
+        tol = tolerances[spec.name]
+        u0, a0 = initial[spec.name]
+        limit = tol.u_per_g_mm - delta
+        if limit <= 0:
+            raise BadInput(f"{job.origin}: rotor.error_allowance: {delta:g} g·mm is not below the allowance of "
+                           f"plane {spec.name} ({tol.u_per_g_mm:.4g} g·mm)")
+        method, raw_ops, residual, plane_notes, plane_cautions = _correct_plane(job, spec, u0, a0, tol.u_per_g_mm,
+                                                                               limit)
+        warnings.extend(plane_notes)
+        cautions.extend(plane_cautions)
+        ops = []
+        for kind, action, angle, mass, u, dims, text in raw_ops:
+            kinds_used.add(kind)
+            details = _details(kind, dims, mass, job)
+            ops.append(Operation(number, spec.name, kind, action, text, angle, mass, u, spec.radius.m_as("mm"),
+                                 details))
+            number += 1
+        amount, angle = polar(residual)
+        check, = check_residuals({spec.name: _q(tol.u_per_g_mm, "g*mm")}, {spec.name: (_q(amount, "g*mm"), angle)},
+                                 error_allowance=job.error_allowance)
+        correction_action = "remove" if method == "drill" else "add"
+        correction_angle = a0 if correction_action == "remove" else (a0 + 180.0) % 360.0
+        planes.append(PlaneOrder(spec.name, spec.position.m_as("mm"), spec.radius.m_as("mm"), spec.surface, method,
+                                 tol, u0, a0, correction_action, u0, correction_angle, tuple(ops), amount, angle,
+                                 (check.rule,), check.limit.m_as("g*mm")))
+    all_cautions = list(GENERAL_CAUTIONS) + cautions
+    sources = [tolerances[p.name].source for p in job.planes] + sources
+    sources.append("Residual check: " + planes[0].notes[0] if planes else "")
+    sources += [_SOURCES[k] for k in ("hole", "plate", "washers") if k in kinds_used]
+    sources.append("Safety: lock-out/tag-out OSHA 29 CFR 1910.147; hot work OSHA 29 CFR 1926.352/.354; welding "
+                   "procedures ISO 15614-1 or AWS D1.1.")
+    order = job.order
+    return WorkOrder(
+        ident=Identification(order["number"], order["rotor"], order.get("customer", ""), order.get("drawing", ""),
+                             order.get("serial", ""), order.get("date", ""), order.get("notes", "")),
+        rotor_mass_kg=job.mass.m_as("kg"), service_speed_rpm=job.service_speed_rpm,
+        balancing_speed_rpm=job.balancing_speed_rpm, grade=report.grade.label, criterion=job.criterion,
+        material=job.material, u_per_total_g_mm=report.u_per.m_as("g*mm"), angle_reference=job.angle_reference,
+        angle_sense=job.angle_sense, units=job.shop.units, planes=tuple(planes), measurement=measured_by,
+        cautions=_unique(all_cautions, words=5), sources=_unique(s for s in sources if s),
+        settings=_settings(job, report), warnings=_unique(warnings),
+        inputs={"origin": job.origin},
+    )
+
+
+def _details(kind: str, dims: dict, mass: float, job: Job) -> tuple[tuple[str, str], ...]:
+    step = job.shop.mass_step.m_as("g")
+    if kind == "plate":
+        return (("weigh before welding", f"{round(mass / step) * step:.{_decimals(step)}f} g with weld"),)
+    if kind == "washers":
+        return (("weigh the stack", f"{round(mass / step) * step:.{_decimals(step)}f} g"),)
+    return ()
+
+
+def _decimals(step: float) -> int:
+    text = f"{step:g}"
+    return len(text.split(".")[1]) if "." in text else 0
+
+
+def _unique(items, words: int | None = None) -> tuple[str, ...]:
+    """Items in order without repeats; with ``words``, an item whose first ``words`` words repeat an
+    earlier item's (the same caution worded for another operation) is left out."""
+    seen, out = set(), []
+    for item in items:
+        text = re.sub(r"\s+", " ", item.strip())
+        key = " ".join(text.lower().split()[:words]) if words else text
+        if key not in seen:
+            seen.add(key)
+            out.append(text)
+    return tuple(out)
+
+
+def order_from_file(path: str | Path) -> WorkOrder:
+    """Read, validate and build the work order of a job file."""
+    return build_order(load_job(path))
+
+
+def demo_job() -> Job:
+    """The built-in invented demo job (``toolkit/workorder/demo.toml``)."""
+    from importlib import resources
+
+    text = resources.files("toolkit.workorder").joinpath("demo.toml").read_text(encoding="utf-8")
+    return parse_job(text, "built-in demo job (invented example)")
+
+
+def demo_order() -> WorkOrder:
+    """The work order of the built-in invented demo job."""
+    return build_order(demo_job())
+
+
+from toolkit.workorder.job import EXAMPLE as EXAMPLE_JOB  # noqa: E402  (docstring example data)
