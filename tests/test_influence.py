@@ -286,6 +286,34 @@ def test_trial_too_small_warning_and_override():
     assert not any("trial effect too small" in w for w in big.warnings)
 
 
+def test_singular_planes_are_refused():
+    # two planes with identical effects at every sensor cannot be separated
+    col = np.array([vec(0.8, 200), vec(0.3, 120)])
+    A = np.column_stack([col, col])
+    data = runset_from(A, np.array([vec(40, 30), vec(25, 250)]), [np.zeros(2), [vec(20, 0), 0], [0, vec(20, 90)]])
+    with pytest.raises(BadInput, match=r"^same: run: singular data"):
+        solve_runs(runs_from_dict(data, "same"))
+    # more planes than sensors
+    A = np.array([[vec(0.8, 200), vec(0.3, 120)]])
+    data = runset_from(A, np.array([vec(40, 30), vec(25, 250)]), [np.zeros(2), [vec(20, 0), 0], [0, vec(20, 90)]])
+    with pytest.raises(BadInput, match="fewer sensors than planes"):
+        solve_runs(runs_from_dict(data, "one sensor"))
+
+
+def test_remove_action_is_the_opposite_angle():
+    # DESIGN.md conventions: removing at the heavy spot equals adding at angle + 180
+    A = np.array([[vec(0.8, 200), vec(0.3, 120)], [vec(0.25, 300), vec(0.9, 170)]])
+    data = runset_from(A, np.array([vec(40, 30), vec(25, 250)]), [np.zeros(2), [vec(20, 0), 0], [0, vec(20, 90)]])
+    added = solve_runs(runs_from_dict(data, "add")).corrections
+    data["action"] = {"P2": "remove"}
+    mixed = solve_runs(runs_from_dict(data, "mixed")).corrections
+    assert mixed[0].action == "add" and mixed[0].angle_deg == pytest.approx(added[0].angle_deg)
+    assert mixed[1].action == "remove"
+    assert mixed[1].mass.m_as("g") == pytest.approx(added[1].mass.m_as("g"))
+    assert angle_close(mixed[1].angle_deg, added[1].angle_deg + 180, 1e-9)
+    assert angle_close(mixed[1].angle_deg, 250, 1e-6)  # the heavy spot of the constructed rotor (D)
+
+
 def test_trial_that_changed_nothing_is_refused():
     data = {"sensors": ["s"], "planes": ["p"], "weight_angles": "with rotation", "phase": "lead",
             "run": [{"name": "original", "readings": ["4 mm/s@10"]},

@@ -184,7 +184,10 @@ def solve_with_coefficients(coefficients: Coefficients, original, *, method: str
     w = np.ones(len(o)) if weights is None else np.asarray(weights, dtype=float)
     if w.shape != o.shape or not np.all(np.isfinite(w)) or np.any(w <= 0):
         raise BadInput(f"weights: need {len(o)} numbers greater than zero, one per sensor")
-    x, penalty = correct(o, a, w, method)
+    try:
+        x, penalty = correct(o, a, w, method)
+    except BadInput as exc:
+        raise BadInput(f"{origin}: {exc}") from None
     warnings = [f"stored coefficients saved {coefficients.saved or 'at an unknown date'}: they hold for the same "
                 f"rotor type, speed, sensors and mounting only; confirm with a trim run"]
     conj = conjugate_needed(coefficients.weight_angles, coefficients.phase)

@@ -519,6 +519,10 @@ def correct(o: np.ndarray, a: np.ndarray, w: np.ndarray, method: str = "least sq
     """
     if method not in METHODS:
         raise BadInput(f"method: {method!r} is not known; use {' or '.join(map(repr, METHODS))}")
+    sv = np.linalg.svd(a * w[:, None], compute_uv=False)
+    if sv[-1] <= 1e-12 * sv[0] or a.shape[0] < a.shape[1]:
+        raise BadInput("run: singular data: the planes' effects cannot be told apart at the sensors (two planes "
+                       "act alike, or fewer sensors than planes); use fewer planes, or more sensors or speeds")
     x = _minmax(o, a, w) if method == "min-max" else _weighted_lsq(o, a, w)
     if limits is None or np.all(np.abs(x) <= limits * (1 + 1e-9)):
         return x, 0.0
@@ -647,7 +651,10 @@ def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings 
     lim = None
     if limit_map:
         lim = np.array([limit_map.get(p, np.inf) for p in runset.planes], dtype=float)
-    x, penalty = correct(o, a, w, method, lim)
+    try:
+        x, penalty = correct(o, a, w, method, lim)
+    except BadInput as exc:
+        raise BadInput(f"{origin}: {exc}") from None
     if penalty > 0:
         capped = [p for j, p in enumerate(runset.planes) if abs(abs(x[j]) - lim[j]) <= 1e-6 * lim[j]]
         warnings.append(f"corrections held within the plane mass limits ({', '.join(capped) or 'all planes'} "
