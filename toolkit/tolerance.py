@@ -25,6 +25,7 @@ quantity arrays and convert them once at the boundary.
 
 from __future__ import annotations
 
+import functools
 import math
 import re
 from dataclasses import dataclass
@@ -72,7 +73,7 @@ SHOP_CONSTANT = 60000.0 / (2.0 * math.pi)
 DEFAULT_MIN_SHARE = 0.3
 
 #: API residual unbalance per plane: 4 oz*in per lb of journal load, times r/min. API Std 617, 7th ed.,
-#: Annex B [S]. In SI 4 oz*in/lb = 6350.3 g*mm/kg [D from the exact ounce, inch and pound].
+#: Annex B [S]. In SI 4 oz*in/lb = 6350 g*mm/kg exactly (1 lb = 16 oz, 1 in = 25.4 mm) [D].
 API_OZ_IN_PER_LB = 4.0
 
 _G_MM = "g*mm"
@@ -133,7 +134,7 @@ _GRADE_TEXT = re.compile(r"^G?\s*((?:\d+\.?\d*|\.\d+))\s*(?:mm\s*/\s*s)?$", re.I
 _GRADE_HELP = "write e.g. 'G6.3', 'G 6.3', '6.3' or '6.3 mm/s'"
 
 
-def parse_grade(value, *, custom: bool = False, table: str = "grades") -> Grade:
+def parse_grade(value, *, custom: bool = False, table: str = "grades", name: str = "grade") -> Grade:
     """A balance quality grade from ``"G6.3"``, ``"G 6.3"``, ``"6.3"``, ``"6.3 mm/s"``, a quantity in
     [length]/[time], or the grade number.
 
@@ -146,7 +147,7 @@ def parse_grade(value, *, custom: bool = False, table: str = "grades") -> Grade:
     if isinstance(value, Grade):
         return value
     if isinstance(value, bool):
-        raise BadInput(f"grade: {value!r} is not a balance quality grade; {_GRADE_HELP}")
+        raise BadInput(f"{name}: {value!r} is not a balance quality grade; {_GRADE_HELP}")
     if isinstance(value, (int, float)):
         g = float(value)
         shown = value
@@ -157,15 +158,15 @@ def parse_grade(value, *, custom: bool = False, table: str = "grades") -> Grade:
             g = float(match.group(1))
         else:
             try:
-                g = magnitude(shown, "grade", "mm/s", "grade")
+                g = magnitude(shown, "grade", "mm/s", name)
             except BadInput:
-                raise BadInput(f"grade: {value!r} is not a balance quality grade; {_GRADE_HELP}") from None
+                raise BadInput(f"{name}: {value!r} is not a balance quality grade; {_GRADE_HELP}") from None
             g = float(g)
     else:
-        g = float(magnitude(value, "grade", "mm/s", "grade"))
+        g = float(magnitude(value, "grade", "mm/s", name))
         shown = f"{g:g} mm/s"
     if not math.isfinite(g) or g <= 0:
-        raise BadInput(f"grade: {shown!r} must be a finite grade greater than zero; {_GRADE_HELP}")
+        raise BadInput(f"{name}: {shown!r} must be a finite grade greater than zero; {_GRADE_HELP}")
     series = grades(table)
     for row in series:
         if abs(row.mm_s - g) <= 1e-6 * g:
@@ -175,11 +176,17 @@ def parse_grade(value, *, custom: bool = False, table: str = "grades") -> Grade:
         return Grade(g, "custom grade given by the user", "custom",
                      "custom grade given by the user; not a grade of the ISO 21940-11 series", custom=True)
     allowed = ", ".join(f"{r.mm_s:g}" for r in series)
-    raise BadInput(f"grade: {shown!r} is not in the ISO 21940-11 series (G {allowed}); to use a value off "
+    raise BadInput(f"{name}: {shown!r} is not in the ISO 21940-11 series (G {allowed}); to use a value off "
                    f"the series ask for a custom grade (--custom-grade)")
 
 
 # -- boundary helpers (arrays convert once, validation by reductions) ------------------------------
+
+@functools.lru_cache(maxsize=None)
+def _unit(name: str):
+    """A parsed pint Unit, cached: building quantities from unit strings re-parses them every time."""
+    return registry().Unit(name)
+
 
 def _is_array_quantity(value) -> bool:
     return isinstance(value, registry().Quantity) and isinstance(value.magnitude, np.ndarray)
@@ -193,24 +200,24 @@ def _mag(value, kind: str, unit: str, name: str, *, positive: bool = True):
             quantity(value, kind, name)  # raises the standard message
         if kind == "speed":
             _factor, root = registry().get_root_units(value.units)
-            return value.m_as("rpm" if "radian" in root._units else "1/min")
-        return value.m_as(unit)
+            return value.m_as(_unit("rpm" if "radian" in root._units else "1/min"))
+        return value.m_as(_unit(unit))
     if kind == "speed":
         return speed_rpm(value, name, positive=positive)
     return magnitude(value, kind, unit, name, positive=positive)
 
 
-def _require_positive(result, *inputs) -> None:
+def _require_positive(result, signed, *inputs) -> None:
     """Raise BadInput naming the first input with a value that is not finite and greater than zero.
 
-    ``result`` is checked first with two reductions (cheap); only on failure are the inputs searched.
-    ``inputs`` are ``(name, magnitudes, unit)``.
+    Cheap check first, by reductions: ``result`` (a product or quotient of the inputs) must lie in
+    (0, inf) and ``signed`` (the one input whose sign the result does not fix, or None) must be > 0; NaN
+    fails both comparisons. Only on failure are the inputs searched, to name the field and element.
+    ``inputs`` are ``(name, magnitudes, unit)``; scalars were already checked at the boundary.
     """
-    arrays = [arr for _n, arr, _u in inputs if isinstance(arr, np.ndarray)]
-    if not arrays:
-        return  # scalars were checked at the boundary
-    lo, hi = np.min(result), np.max(result)
-    if lo > 0 and math.isfinite(hi) and all(np.min(a) > 0 for a in arrays):
+    if not any(isinstance(arr, np.ndarray) for _n, arr, _u in inputs):
+        return
+    if np.min(result) > 0 and np.max(result) < math.inf and (signed is None or np.min(signed) > 0):
         return
     for name, arr, unit in inputs:
         a = np.asarray(arr, dtype=float)
@@ -219,7 +226,8 @@ def _require_positive(result, *inputs) -> None:
             i = int(np.flatnonzero(bad)[0])
             raise BadInput(f"{name}: element {i} is {a.flat[i]!r} {unit}; every value must be a finite "
                            f"number greater than zero")
-    raise BadInput(f"the inputs give a result that is not finite and positive (range {lo!r} to {hi!r})")
+    raise BadInput(f"the inputs give a result out of the floating-point range ({np.min(result)!r} to "
+                   f"{np.max(result)!r}); check the units")
 
 
 # -- e_per and U_per ---------------------------------------------------------------------------------
@@ -238,9 +246,10 @@ def specific_unbalance(grade, speed, *, custom_grade: bool = False):
     """
     g = parse_grade(grade, custom=custom_grade).mm_s
     n = _mag(speed, "speed", "rpm", "speed")
-    e = (SHOP_CONSTANT * g) / n
-    _require_positive(e, ("speed", n, "rpm"))
-    return Q_(e, "um")
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        e = (SHOP_CONSTANT * g) / n
+    _require_positive(e, None, ("speed", n, "rpm"))
+    return Q_(e, _unit("um"))
 
 
 def permissible_unbalance(grade, mass, speed, *, custom_grade: bool = False):
@@ -261,9 +270,10 @@ def permissible_unbalance(grade, mass, speed, *, custom_grade: bool = False):
     g = parse_grade(grade, custom=custom_grade).mm_s
     m = _mag(mass, "mass", "kg", "mass")
     n = _mag(speed, "speed", "rpm", "speed")
-    u = (SHOP_CONSTANT * g) * m / n
-    _require_positive(u, ("speed", n, "rpm"), ("mass", m, "kg"))
-    return Q_(u, _G_MM)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        u = (SHOP_CONSTANT * g) * m / n
+    _require_positive(u, n, ("speed", n, "rpm"), ("mass", m, "kg"))
+    return Q_(u, _unit(_G_MM))
 
 
 # -- allocation to the bearing planes ----------------------------------------------------------------
@@ -300,11 +310,13 @@ def bearing_allowances(u_per, bearing_span, com_from_a, *, min_share: float = DE
     u = _mag(u_per, "unbalance", _G_MM, "u_per")
     span = _mag(bearing_span, "length", "mm", "bearing_span")
     com = _mag(com_from_a, "length", "mm", "com_from_a", positive=False)
-    _require_positive(span * u, ("bearing_span", span, "mm"), ("u_per", u, _G_MM))
+    _raw, share_a = _lever_shares(span, com, low)
+    u_a = u * share_a
+    _require_positive(u, None, ("u_per", u, _G_MM))
+    _require_positive(span, None, ("bearing_span", span, "mm"))
     if isinstance(com, np.ndarray) and not math.isfinite(np.sum(com)):
         raise BadInput("com_from_a: every value must be a finite length")
-    _raw, share_a = _lever_shares(span, com, low)
-    return Q_(u * share_a, _G_MM), Q_(u * (1.0 - share_a), _G_MM)
+    return Q_(u_a, _unit(_G_MM)), Q_(u - u_a, _unit(_G_MM))
 
 
 @dataclass(frozen=True)

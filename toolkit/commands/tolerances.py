@@ -127,13 +127,17 @@ def configure_tolerance(parser) -> None:
 
 
 def run_tolerance(args) -> int:
-    from toolkit.tolerance import DEFAULT_MIN_SHARE, tolerance_report
+    from toolkit.tolerance import DEFAULT_MIN_SHARE, parse_grade, tolerance_report
+    from toolkit.units import Q_, quantity, speed_rpm
 
     fmt = _Fmt(args.units)
+    grade = parse_grade(args.grade, custom=args.custom_grade, name="--grade")
+    mass = quantity(args.mass, "mass", "--mass", positive=True)
+    speed = Q_(speed_rpm(args.speed, "--speed"), "rpm")
     min_share = _fraction(args.min_share, "--min-share", 0.0, 0.5, "0.3")
     static_share = _fraction(args.static_share, "--static-share", 0.0, 1.0, "0.5")
     report = tolerance_report(
-        args.grade, args.mass, args.speed, custom_grade=args.custom_grade,
+        grade, mass, speed, custom_grade=args.custom_grade,
         bearing_span=args.bearing_span, com_from_a=args.com_from_a, planes=args.plane or None,
         static_share=static_share, criteria=args.criterion or ("iso",), journal_loads=args.journal_load or None,
         min_share=DEFAULT_MIN_SHARE if min_share is None else min_share,
