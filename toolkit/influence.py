@@ -559,6 +559,11 @@ def _phase_diff(a: complex, b: complex) -> float:
     return d
 
 
+def _trial_source(settings: Settings) -> str:
+    sources = settings.to_dict()
+    return " and ".join(sorted({sources[k]["source"] for k in ("trial_change_pct", "trial_change_deg")}))
+
+
 def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings | None = None,
                limits=None) -> Solution:
     """Corrections for the rotor described by ``runset``.
@@ -616,8 +621,7 @@ def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings 
         if not enough:
             warnings.append(f"trial effect too small in run {run.name!r}: no sensor changed by "
                             f"{settings.trial_change_pct:g} % in amplitude or {settings.trial_change_deg:g}° in "
-                            f"phase against run {runset.runs[prev].name!r} (thresholds: "
-                            f"{settings.to_dict()['trial_change_pct']['source']}); "
+                            f"phase against run {runset.runs[prev].name!r} (thresholds: {_trial_source(settings)}); "
                             f"the coefficients may be dominated by reading errors: use a larger trial")
 
     try:

@@ -113,6 +113,9 @@ def run_solve(args) -> int:
         runset = load_runs(args.runs)
         if args.weight_angles or args.phase:
             raise BadInput("--weight-angles/--phase: the runs file declares its senses; change them there")
+        if args.radius or args.keep_trial:
+            raise BadInput("--radius/--keep-trial: the runs file declares them (radius = {...}, "
+                           "trials_left_on = true); change them there")
         solution = solve_runs(runset, method=_method(args), settings=settings,
                               limits=_pairs(args.limit, "--limit") or None)
     else:
