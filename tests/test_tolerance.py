@@ -170,9 +170,11 @@ def test_shares_within_bounds(span, frac, low):
     ua, ub = a.m_as("g*mm"), b.m_as("g*mm")
     assert ua + ub == pytest.approx(1000.0)
     assert 1000 * low - 1e-9 <= ua <= 1000 * (1 - low) + 1e-9
-    if 0 <= frac <= 1:
-        # the larger share goes to the plane nearer the centre of mass
-        assert (ua >= ub - 1e-9) == (frac <= 0.5 + 1e-12) or abs(frac - 0.5) < 1e-9
+    # the larger share goes to the plane nearer the centre of mass (never the smaller one)
+    if frac < 0.5:
+        assert ua >= ub - 1e-9
+    elif frac > 0.5:
+        assert ua <= ub + 1e-9
 
 
 @given(st.floats(10.0, 5000.0), st.floats(0.0, 1.0), st.floats(1.0, 1e5))
@@ -415,3 +417,12 @@ def test_report_errors(kwargs, message):
 def test_overhung_com_warns():
     r = allocate_to_bearings("1000 g*mm", "500 mm", "-100 mm")
     assert any("overhung" in w for w in r.warnings)
+
+
+def test_mil_std_without_geometry_reported_per_plane():
+    r = tolerance_report("G6.3", "412 kg", "1480 rpm", criteria=["iso", "mil-std-167"])
+    assert r.planes == ()
+    mil = dict(r.criteria[1].planes)
+    # MIL-STD-167-1 4 W/N above 1000 r/min [H]: 4 * 908.30 lb / 1480 = 2.4549 oz*in
+    assert mil["each plane"].m_as("oz*in") == pytest.approx(4 * 412 / 0.45359237 / 1480, rel=1e-9)
+    assert dict(r.criteria[0].planes)["rotor"] == r.u_per

@@ -925,7 +925,7 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
             why = "closer than a third of the bearing span" if narrow else "both outboard of one bearing"
             warnings.append(f"the correction planes are {why}: state the tolerance as static and couple parts "
                             f"(--static-share), Bloch & Geitner ch. 6")
-    elif all(ab is not None for ab in at_bearings.values()):
+    elif (span is not None or loads) and all(ab is not None for ab in at_bearings.values()):
         plane_names = ["A", "B"]
         per_criterion = {k: list(ab) for k, ab in at_bearings.items()}
 
@@ -934,8 +934,8 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
         label, source = CRITERIA[key]
         values = per_criterion.get(key)
         plane_list = tuple((p, Q_(v, _G_MM)) for p, v in zip(plane_names, values)) if values else ()
-        if key == "iso" and not plane_list:
-            plane_list = (("rotor", u_per),)
+        if not plane_list:  # no planes known: the whole-rotor ISO figure, the per-plane figure of others
+            plane_list = (("rotor", u_per),) if key == "iso" else (("each plane", Q_(at_bearings[key][0], _G_MM)),)
         results.append(CriterionResult(key, label, methods[key] + (plane_method_suffix if values else ""),
                                        source, plane_list, notes[key]))
 

@@ -173,8 +173,9 @@ def _tolerance_text(report, fmt: _Fmt) -> str:
         lines += ["", "Allowance per plane" + (" (* strictest criterion, it governs)" if len(names) > 1 else "")]
         lines += _table(rows)
     else:
-        lines += ["", "Per-plane allowances need --bearing-span and --com-from-a (or --journal-load A=... "
-                      "--journal-load B=...)."]
+        lines += ["", "Figures without plane geometry (per-plane allowances need --bearing-span and "
+                      "--com-from-a, or --journal-load A=... --journal-load B=...)"]
+        lines += _table([[c.label, name, fmt.unb(u)] for c in report.criteria for name, u in c.planes])
     lines += ["", "Methods and sources"]
     for c in report.criteria:
         lines.append(f"  {c.label}: {c.method}")
