@@ -314,6 +314,20 @@ def test_remove_action_is_the_opposite_angle():
     assert angle_close(mixed[1].angle_deg, 250, 1e-6)  # the heavy spot of the constructed rotor (D)
 
 
+def test_trial_effect_judged_against_the_right_run():
+    # trials removed: run 3 (small trial in P2 only) is judged against the original, not against run 2
+    A = np.array([[vec(0.8, 200), vec(0.3, 120)], [vec(0.25, 300), vec(0.9, 170)]])
+    U0 = np.array([vec(40, 30), vec(25, 250)])
+    sol = solve_runs(runs_from_dict(runset_from(A, U0, [np.zeros(2), [vec(40, 0), 0], [0, vec(1, 90)]]), "x"))
+    small = [w for w in sol.warnings if "trial effect too small" in w]
+    assert len(small) == 1 and "run 'run3'" in small[0] and "against run 'run1'" in small[0]
+    # trials left on: run 3 is judged against run 2
+    sol = solve_runs(runs_from_dict(runset_from(A, U0, [np.zeros(2), [vec(40, 0), 0], [vec(40, 0), vec(1, 90)]],
+                                                left_on=True), "x"))
+    small = [w for w in sol.warnings if "trial effect too small" in w]
+    assert len(small) == 1 and "against run 'run2'" in small[0]
+
+
 def test_trial_that_changed_nothing_is_refused():
     data = {"sensors": ["s"], "planes": ["p"], "weight_angles": "with rotation", "phase": "lead",
             "run": [{"name": "original", "readings": ["4 mm/s@10"]},

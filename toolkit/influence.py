@@ -595,16 +595,16 @@ def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings 
     warnings: list[str] = []
 
     # every trial run must change something; small changes are warned
-    base_index = next((k for k, r in enumerate(runset.runs) if not r.trials), None)
     for k, run in enumerate(runset.runs):
         if not run.trials:
             continue
-        prev = base_index if base_index is not None else None
-        # compare with the closest earlier run whose trials differ (trial left on: run 3 against run 2)
-        for j in range(k - 1, -1, -1):
-            if not np.allclose(u[j], u[k]):
-                prev = j
-                break
+        # compare with the earlier run that differs from this one in the fewest planes (the latest of
+        # those): the original run when trials are removed, the previous run when they are left on
+        prev, fewest = None, None
+        for j in range(k):
+            changed = int(np.count_nonzero(np.abs(u[k] - u[j]) > 1e-12))
+            if changed and (fewest is None or changed <= fewest):
+                prev, fewest = j, changed
         if prev is None:
             continue
         ref, now = v[prev], v[k]
