@@ -122,6 +122,8 @@ def run_drill(args) -> int:
              f"  drill          {r.drill}, {r.point_angle_deg:g}° point, {r.orientation} holes on {r.radius_mm:g} mm "
              f"{'pitch' if r.orientation == 'axial' else 'surface'} radius"]
     lines += [f"  {op.description}" for op in plan.operations]
+    if r.pattern():
+        lines.append(f"  pattern        {r.pattern()}")
     lines += [f"  removed mass   {_mass(r.removed_mass_g, args)}",
               *_achieved(plan, args),
               f"  material       {r.material or 'as given'}, {r.density_kg_m3:g} kg/m³ ({r.density_source})",

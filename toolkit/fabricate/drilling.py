@@ -374,6 +374,16 @@ class DrillResult:
     def removed_mass_g(self) -> float:
         return sum(h.mass_g for h in self.holes)
 
+    def pattern(self) -> str:
+        """The hole pattern in words (empty for one hole)."""
+        if self.pitch_deg is None:
+            return ""
+        surface = self.radius_mm
+        chord = 2 * surface * math.sin(math.radians(self.pitch_deg) / 2)
+        return (f"{len(self.holes)} holes at {self.pitch_deg:g}° pitch, symmetric about {self.remove_angle_deg:g}°; "
+                f"centres {chord:.1f} mm apart on the {surface:g} mm radius (at least "
+                f"{self.limits.spacing_ratio:g}·d = {self.limits.spacing_ratio * self.diameter_mm:.1f} mm)")
+
     def placement(self) -> str:
         """Where to drill, in words, including the add/remove conversion."""
         if self.given_action == "add":
@@ -393,7 +403,7 @@ class DrillResult:
             "achieved_g_mm": self.achieved_g_mm, "achieved_angle_deg": self.achieved_angle_deg,
             "error_g_mm": self.error_g_mm,
             "angle_offsets_deg": [h.offset_deg for h in self.holes],
-            "pitch_deg": self.pitch_deg,
+            "pitch_deg": self.pitch_deg, "pattern": self.pattern(),
             "fixed_positions_deg": list(self.fixed_positions) if self.fixed_positions else None,
             "density_kg_m3": self.density_kg_m3, "material": self.material,
             "density_source": self.density_source, "limits_used": self.limits.to_dict(),
@@ -594,9 +604,6 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
         if chord < limits.spacing_ratio * d:
             warnings.append(f"fixed positions {holes[0].angle_deg:g}° and {holes[1].angle_deg:g}° are "
                             f"{chord:.1f} mm apart, under {limits.spacing_ratio:g}·d [CP]")
-    if orientation == "axial" and pitch is not None:
-        warnings.append(f"holes at pitch {pitch:g}° on {R:g} mm: centres {2 * R * math.sin(math.radians(pitch) / 2):.1f} "
-                        f"mm apart (at least {limits.spacing_ratio:g}·d = {limits.spacing_ratio * d:.1f} mm) [CP]")
     achieved = abs(total)
     ach_angle = _norm(math.degrees(math.atan2(total.imag, total.real))) if achieved > 0 else remove_angle
     want = U * complex(math.cos(math.radians(remove_angle)), math.sin(math.radians(remove_angle)))
