@@ -77,7 +77,7 @@ def summary(order, files: list[str]) -> str:
     fmt = Formatter(order.units, order.angle_reference, order.angle_sense)
     lines = [f"Work order {order.ident.number}: {order.ident.rotor}"]
     lines += [f"  wrote {f}" for f in files]
-    lines.append(f"  grade {order.grade}, {order.rotor_mass_kg:g} kg, {order.service_speed_rpm:g} r/min: "
+    lines.append(f"  grade {order.grade}, {fmt.rotor_mass(order.rotor_mass_kg)}, {order.service_speed_rpm:g} r/min: "
                  f"permissible residual {fmt.unbalance(order.u_per_total_g_mm)} for the whole rotor")
     for p in order.planes:
         lines.append(f"  plane {p.name}: allowance {fmt.unbalance(p.tolerance.u_per_g_mm)}; initial "

@@ -156,6 +156,8 @@ def _plan(job: Job, plane, u0: float, a0: float, allowance: float, method: str, 
             parts = [(angle, mass * plane.radius.m_as("mm")) for angle, mass in split.parts]
         else:
             parts = [(add_angle, u0)]
+        if len(parts) > 1:
+            common["allowance"] = None  # the plane is checked as a whole below, not part by part
         plans = [plan_correction(_q(u, "g*mm"), angle, "washers", action="add", orientation=orientation,
                                  surface=surface, size=plane.washer_size, **common) for angle, u in parts]
     ops, warnings, cautions = [], [], []

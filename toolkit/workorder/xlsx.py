@@ -244,7 +244,7 @@ def workbook(order: WorkOrder):
 
     # check run
     sh.section("Check run after correction (operator: enter the measured residual of each plane)")
-    sh.header(["Plane", "Name", "Instruction", f"Allowance [{u_sym}]", f"Measured [{u_sym}]", "Angle [°]",
+    sh.header(["Plane", "Name", "Instruction", f"Limit [{u_sym}]", f"Measured [{u_sym}]", "Angle [°]",
                "Result", "", ""])
     result_cells = []
     for n, p in enumerate(order.planes, start=1):
@@ -252,7 +252,7 @@ def workbook(order: WorkOrder):
         sh.number(1, n, "0")
         sh.text(2, p.name)
         sh.text(3, "Run with all masses secured and guards closed; type the residual in the yellow cell.", "wrap")
-        sh.number(4, fmt.value("unbalance", p.tolerance.u_per_g_mm), _nf(fmt.value("unbalance", p.tolerance.u_per_g_mm)))
+        sh.number(4, fmt.value("unbalance", p.limit), _nf(fmt.value("unbalance", p.limit)))
         measured = ws.cell(row=r, column=5)
         styles.apply(measured, "input")
         styles.apply(ws.cell(row=r, column=6), "input")
@@ -269,8 +269,10 @@ def workbook(order: WorkOrder):
                                       f'IF(COUNTIF({first}:{last},"PASS")={count},"PASS","open"))')
     wb.defined_names["overall_result"] = DefinedName("overall_result", attr_text=f"'{SHEET}'!$G${r}")
     sh.row += 1
-    sh.long("Acceptance: measured residual at most the allowance (ΔU = 0: measurement error not deducted; "
-            "from memory, ISO 21940-14 lets a shop deduct it). Defer to the rotor maker's acceptance rules.", "sub")
+    rule = order.planes[0].notes[0] if order.planes and order.planes[0].notes else \
+        "pass when residual <= allowance"
+    sh.long(f"Acceptance rule: {rule}. The limit is the allowance less the measurement error allowance ΔU "
+            "(default 0, from memory: ISO 21940-14). The rotor maker's acceptance rules take precedence.", "sub")
 
     # sign-off
     sh.section("Sign-off")

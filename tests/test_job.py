@@ -1,0 +1,151 @@
+"""Job files: the examples load; every problem is reported at once with file, line, key, value and what is
+allowed; key line numbers; readings as unbalance or as a mass at the radius."""
+
+from pathlib import Path
+
+import pytest
+from hypothesis import given, settings, strategies as st
+
+from toolkit.errors import BadInput
+from toolkit.workorder.job import EXAMPLE, JobError, key_lines, load_job, parse_job
+
+EXAMPLES = sorted((Path(__file__).resolve().parent.parent / "examples").glob("job-*.toml"))
+
+
+def test_there_are_examples():
+    assert len(EXAMPLES) >= 3
+
+
+@pytest.mark.parametrize("path", EXAMPLES, ids=lambda p: p.name)
+def test_examples_load_and_say_they_are_invented(path):
+    job = load_job(path)
+    assert job.number and job.planes
+    assert "invented example" in path.read_text(encoding="utf-8").lower()
+    assert "invented" in job.order["rotor"].lower()
+
+
+def test_all_problems_at_once_with_lines():
+    bad = (EXAMPLE.replace('"412 kg"', "412")                       # line 6
+           .replace('service_speed = "1480 rpm"', 'service_speed = "1480 kg"')
+           .replace('methods = ["plate"]', 'methods = ["glue"]')
+           .replace('sense = "against rotation"', 'sense = "clockwise"')
+           .replace('[angles]', '[angles]\ncolour = "red"'))
+    with pytest.raises(JobError) as info:
+        parse_job(bad, "shop/job.toml")
+    err = info.value
+    assert len(err.problems) == 5, err.problems
+    text = str(err)
+    assert text.startswith("shop/job.toml: 5 problems in the job file: ")
+    assert "line 6, rotor.mass: 412 has no unit; give a mass with its unit, e.g. '412 kg'" in text
+    assert "line 7, rotor.service_speed: '1480 kg' is not a speed" in text
+    assert "line 23, plane[2].methods: 'glue' is not a correction method; allowed: drill, plate, washers" in text
+    assert "line 26, angles.colour: unknown key; allowed keys here: reference, sense" in text
+    assert "line 28, angles.sense: 'clockwise' is not allowed; allowed: 'against rotation', 'with rotation'" in text
+    assert "\n" not in text  # one line for the command line
+
+
+def test_missing_tables_and_keys_are_named():
+    with pytest.raises(JobError) as info:
+        parse_job('[order]\nnumber = "1"\n', "j.toml")
+    text = str(info.value)
+    for key in ("order.rotor", "rotor: missing", "geometry: missing", "plane: missing", "angles: missing",
+                "measurement: missing"):
+        assert key in text, key
+
+
+def test_not_toml_names_the_line():
+    with pytest.raises(JobError, match=r"j.toml: 1 problem in the job file: not valid TOML .*line 2"):
+        parse_job('[order]\nnumber = \n', "j.toml")
+
+
+def test_reading_as_mass_uses_the_plane_radius():
+    job = parse_job(EXAMPLE.replace('A = "21000 g*mm@40"', 'A = "70 g@40"'))
+    amount, angle = job.measurement.readings["A"]
+    # 70 g at the 300 mm correction radius is 21 000 g·mm (derived here (D): U = m·r)
+    assert amount.m_as("g*mm") == pytest.approx(21000.0)
+    assert angle == 40.0
+
+
+def test_machine_showing_add_position_is_turned_to_the_heavy_spot():
+    job = parse_job(EXAMPLE.replace("[measurement]\nkind = \"machine\"",
+                                    "[measurement]\nkind = \"machine\"\nshows = \"add\""))
+    # mass to add at 40 deg means the heavy spot is opposite, at 220 deg (DESIGN.md conventions, common practice)
+    assert job.measurement.readings["A"][1] == pytest.approx(220.0)
+
+
+def test_reading_for_an_unknown_plane_and_missing_plane():
+    bad = EXAMPLE.replace('B = "16500 g*mm@200"', 'C = "1 g@3"')
+    with pytest.raises(JobError) as info:
+        parse_job(bad)
+    text = str(info.value)
+    assert "measurement.readings.C: no plane named 'C'; planes: A, B" in text
+    assert "measurement.readings.B: missing" in text
+
+
+def test_plate_plane_needs_a_width():
+    with pytest.raises(JobError, match=r"plane\[2\].width: missing; a plane that allows plates needs the seat width"):
+        parse_job(EXAMPLE.replace('width = "60 mm"\n', ""))
+
+
+def test_runs_are_validated_by_the_solver_module_with_the_line():
+    text = EXAMPLE.split("[measurement]")[0] + (
+        '[measurement]\nkind = "runs"\nphase = "lag"\nsensors = ["s1", "s2"]\n'
+        '[[measurement.run]]\nname = "original"\nreadings = ["1 mm/s@0"]\n'
+        '[[measurement.run]]\nname = "t"\ntrial = { A = "10 g@0" }\nreadings = ["2 mm/s@0", "1 mm/s@3"]\n')
+    with pytest.raises(JobError, match=r"measurement.run: run 'original': readings: 1 given for 2 sensors"):
+        parse_job(text)
+
+
+def test_defaults_are_recorded():
+    job = parse_job(EXAMPLE)
+    assert "rotor.material" in job.defaults_used and "shop.angle_step" in job.defaults_used
+    assert "rotor.grade" not in job.defaults_used
+
+
+def test_load_job_refusals(tmp_path):
+    with pytest.raises(BadInput, match="no such job file"):
+        load_job(tmp_path / "none.toml")
+    raw = tmp_path / "latin1.toml"
+    raw.write_bytes(b'[order]\nnumber = "caf\xe9"\n')
+    with pytest.raises(BadInput, match=r"latin1.toml, line 2: not UTF-8 text"):
+        load_job(raw)
+
+
+def test_key_lines_nested_and_quoted():
+    text = ('[order]\nnumber = "1"  # comment\n\n[[plane]]\nname = "a"\n[[plane]]\nname = "b"\n'
+            '[measurement.readings]\n"b plane" = "1 g@0"\nplain = 2\n')
+    lines = key_lines(text)
+    assert lines[("order", "number")] == 2
+    assert lines[("plane", 0, "name")] == 5
+    assert lines[("plane", 1)] == 6 and lines[("plane", 1, "name")] == 7
+    assert lines[("measurement", "readings", "b plane")] == 9
+    assert lines[("measurement", "readings", "plain")] == 10
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.text(alphabet="abcdefgh", min_size=1, max_size=6), min_size=1, max_size=6, unique=True),
+       st.integers(min_value=0, max_value=3))
+def test_key_lines_of_any_array_of_tables(names, blanks):
+    """Property: in a file of N [[plane]] tables, the i-th name sits where we wrote it."""
+    text, expected, line = "", {}, 0
+    for i, name in enumerate(names):
+        text += "\n" * blanks + "[[plane]]\n" + f'name = "{name}"\n'
+        line += blanks + 2
+        expected[("plane", i, "name")] = line
+    got = key_lines(text)
+    for key, value in expected.items():
+        assert got[key] == value
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.floats(min_value=0.01, max_value=5000), st.floats(min_value=0, max_value=359.9))
+def test_reading_units_are_interchangeable(grams, angle):
+    """Property (unit invariance): a mass at the radius, the same unbalance in g·mm, and in oz·in agree."""
+    as_mass = EXAMPLE.replace('A = "21000 g*mm@40"', f'A = "{grams!r} g@{angle!r}"')
+    as_g_mm = EXAMPLE.replace('A = "21000 g*mm@40"', f'A = "{grams * 300.0!r} g*mm@{angle!r}"')
+    as_oz_in = EXAMPLE.replace('A = "21000 g*mm@40"', f'A = "{grams * 300.0 / 720.0779!r} oz*in@{angle!r}"')
+    values = [parse_job(t).measurement.readings["A"] for t in (as_mass, as_g_mm, as_oz_in)]
+    # 1 oz·in = 720.0779 g·mm (international avoirdupois ounce and inch definitions)
+    for amount, a in values:
+        assert amount.m_as("g*mm") == pytest.approx(grams * 300.0, rel=1e-6)
+        assert a == pytest.approx(angle % 360.0, abs=1e-9)
