@@ -125,6 +125,17 @@ def grades(table: str = "grades") -> tuple[Grade, ...]:
     >>> [g.label for g in grades()][:4]
     ['G 0.4', 'G 1', 'G 2.5', 'G 6.3']
     """
+    if table == "grades":
+        return _builtin_grades()
+    return _grades_from(table)
+
+
+@functools.lru_cache(maxsize=1)
+def _builtin_grades() -> tuple[Grade, ...]:
+    return _grades_from("grades")
+
+
+def _grades_from(table) -> tuple[Grade, ...]:
     rows = catalog.load(table, GRADE_SCHEMA)
     return tuple(sorted((Grade(r["grade_mm_s"], r["machinery"], r["mark"], r["source"]) for r in rows),
                         key=lambda g: g.mm_s))
