@@ -121,3 +121,12 @@ def test_module_import_stays_light():
             "print(any(m in sys.modules for m in ('numpy', 'pint', 'openpyxl', 'reportlab')))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "False"
+
+
+def test_plate_weld_options_reach_the_plan(capsys):
+    code, d = _json(capsys, ["plate", "--unbalance", "20000 g*mm", "--radius", "200 mm", "--width", "30 mm",
+                             "--thickness", "10 mm", "--shape", "face", "--material", "steel", "--fillet", "4 mm",
+                             "--convexity", "0.1", "--weld", "ends"])
+    assert code == 0 and d["fillet_mm"] == 4 and d["convexity"] == 0.1 and d["weld_run"] == "ends"
+    # derived (D): two end welds of 30 mm, leg 4 mm, 10 % convexity
+    assert d["weld_mass_g"] == pytest.approx(7.85e-3 * 16 / 2 * 1.1 * 60)

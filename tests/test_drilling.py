@@ -137,25 +137,26 @@ def _slope(orientation, d, L, R, rho="7850 kg/m^3", eps=1e-4):
 
 
 @settings(max_examples=40, deadline=None)
-@given(u=st.floats(300, 20000), orientation=st.sampled_from(["axial", "radial"]))
+@given(u=st.floats(300, 8000), orientation=st.sampled_from(["axial", "radial"]))
 def test_achieved_within_half_a_depth_step(u, orientation):
+    # up to 8000 g*mm one 12 mm hole stays clear of the 12 d limit (radial reaches about 9950 g*mm there)
+    one = Limits(max_holes=1, max_depth_ratio=12, warn_depth_ratio=12)
     r = drill_correction(f"{u} g*mm", radius="150 mm", orientation=orientation, diameter="12 mm",
-                         material="steel", limits=Limits(max_holes=7))
-    n = len(r.holes)
-    if n == 1:
-        step = 0.1 * _slope(orientation, 12, r.depth_mm, 150)
-        assert abs(r.achieved_g_mm - u) <= 0.5 * step * 1.01 + 1e-9
+                         material="steel", limits=one)
+    assert len(r.holes) == 1
+    step = 0.1 * _slope(orientation, 12, r.depth_mm, 150)
+    assert abs(r.achieved_g_mm - u) <= 0.5 * step * 1.01 + 1e-9
 
 
 @settings(max_examples=30, deadline=None)
-@given(u1=st.floats(200, 5000), factor=st.floats(1.05, 3.0), orientation=st.sampled_from(["axial", "radial"]))
+@given(u1=st.floats(200, 2000), factor=st.floats(1.05, 3.0), orientation=st.sampled_from(["axial", "radial"]))
 def test_depth_rises_with_unbalance(u1, factor, orientation):
-    fine = Limits(depth_step_mm=1e-6, max_depth_ratio=50, warn_depth_ratio=50)
+    fine = Limits(depth_step_mm=1e-6, max_depth_ratio=12, warn_depth_ratio=12, max_holes=1)
     a = drill_correction(f"{u1} g*mm", radius="150 mm", orientation=orientation, diameter="10 mm",
                          material="steel", limits=fine)
     b = drill_correction(f"{u1 * factor} g*mm", radius="150 mm", orientation=orientation, diameter="10 mm",
                          material="steel", limits=fine)
-    assert (b.depth_mm, len(b.holes)) > (a.depth_mm, len(a.holes)) or len(b.holes) > len(a.holes)
+    assert b.depth_mm > a.depth_mm
 
 
 @settings(max_examples=20, deadline=None)
@@ -224,6 +225,13 @@ def test_limits_warn_refuse_and_override():
     r = drill_correction("3000 g*mm", radius="100 mm", diameter="8 mm", material="steel", limits=deep)
     assert 5 * 8 < r.tip_depth_mm <= 10 * 8 and r.limits.max_depth_ratio == 10
     assert r.to_dict()["limits_used"]["max_depth_ratio"] == 10
+
+
+def test_rounding_never_passes_the_refusal_limit():
+    # near the limit the depth is rounded down rather than past 5 d (common practice limit)
+    lim = Limits(max_holes=1)
+    top = drill_correction("1515 g*mm", radius="100 mm", diameter="8 mm", material="steel", limits=lim)
+    assert top.tip_depth_mm <= 5 * 8 + 1e-9
 
 
 def test_absolute_depth_cap_and_wall():

@@ -174,20 +174,10 @@ def run_plate(args) -> int:
                            surface=args.surface, width=args.width, thickness=args.thickness, step=args.step,
                            stock=args.stock, stock_unit=args.stock_unit, max_length=args.max_length,
                            seat_offset_deg=None if args.seat_offset is None else _number(args.seat_offset, "--seat-offset"),
+                           fillet=args.fillet, weld_run=args.weld,
+                           convexity=None if args.convexity is None else _number(args.convexity, "--convexity"),
                            materials_table=args.materials)
     p = plan.detail
-    if args.fillet is not None or args.convexity is not None or args.weld != "all-round":
-        # the plan searched with the defaults for the weld; redo the chosen size with the user's weld
-        from toolkit.fabricate.plates import weld_plate
-
-        p = weld_plate(amount, radius=args.radius, width=args.width, thickness=f"{p.thickness_mm} mm",
-                       shape=args.shape, surface=args.surface, angle_deg=angle, action=args.action,
-                       material=args.material, density=args.density, step=f"{p.step_mm} mm",
-                       fillet=args.fillet, convexity=None if args.convexity is None else _number(args.convexity, "--convexity"),
-                       weld_run=args.weld, max_length=args.max_length,
-                       seat_offset_deg=None if args.seat_offset is None else _number(args.seat_offset, "--seat-offset"),
-                       materials_table=args.materials)
-        plan = _replan(plan, p)
     data = p.to_dict() | _plan_keys(plan)
     lines = [f"Weld-on plate: {p.placement()}"]
     lines += [f"  {op.description}" for op in plan.operations]
@@ -199,18 +189,6 @@ def run_plate(args) -> int:
               f"  material       {p.material or 'as given'}, {p.density_kg_m3:g} kg/m³ ({p.density_source})"]
     emit(args.json, data, _finish(lines, plan))
     return 1 if plan.within_allowance is False else 0
-
-
-def _replan(plan, p):
-    from dataclasses import replace
-
-    from toolkit.fabricate.plan import _ops_plate, _summarise
-
-    ops = _ops_plate(p)
-    amount, ang, err = _summarise(ops, plan.requested_g_mm, plan.requested_angle_deg, plan.action)
-    within = None if plan.allowance_g_mm is None else err <= plan.allowance_g_mm + 1e-9
-    return replace(plan, operations=ops, achieved_g_mm=amount, achieved_angle_deg=ang, error_g_mm=err,
-                   within_allowance=within, warnings=tuple(p.warnings), detail=p)
 
 
 # -- washers ---------------------------------------------------------------------------------------------

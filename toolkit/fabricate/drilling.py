@@ -276,26 +276,20 @@ def correction_g_mm(amount, radius=None, name: str = "--unbalance") -> float:
     """
     from toolkit.units import quantity
 
-    if isinstance(amount, str) and amount.strip():
-        try:
-            q = quantity(amount, "unbalance", name, positive=True)
-        except BadInput:
-            q = None
-    else:
-        q = None
-    if q is None and not isinstance(amount, str):
-        try:
-            q = quantity(amount, "unbalance", name, positive=True)
-        except BadInput:
-            q = None
-    if q is not None:
-        return float(q.m_as("g*mm"))
-    if isinstance(amount, (int, float)) or (isinstance(amount, str) and _is_number(amount)):
+    if isinstance(amount, bool) or isinstance(amount, (int, float)) or (isinstance(amount, str)
+                                                                       and _is_number(amount)):
         raise BadInput(f"{name}: {amount!r} has no unit; give an unbalance (e.g. '2400 g*mm', '3.3 oz*in') or "
                        "a mass with --radius (e.g. '38 g')")
     try:
+        return float(quantity(amount, "unbalance", name, positive=True).m_as("g*mm"))
+    except BadInput as exc:
+        if "greater than zero" in str(exc):
+            raise
+    try:
         m = magnitude(amount, "mass", "g", name, positive=True)
-    except BadInput:
+    except BadInput as exc:
+        if "greater than zero" in str(exc):
+            raise
         raise BadInput(f"{name}: {amount!r} is neither an unbalance (e.g. '2400 g*mm', '3.3 oz*in') nor a "
                        "mass with --radius (e.g. '38 g')") from None
     if radius is None:

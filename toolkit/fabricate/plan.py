@@ -153,6 +153,7 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
                     stock="plate_stock", stock_unit: str = "mm", step="1 mm", size=None, series=None,
                     washer_table: str = "washers", limits: Limits | None = None, point_angle_deg: float = 118.0,
                     wall=None, fixed_positions=None, max_length=None, seat_offset_deg=None,
+                    fillet=None, convexity=None, weld_run: str = "all-round",
                     max_count: int = washers.DEFAULT_MAX_COUNT, materials_table: str = "materials") -> Plan:
     """Operations that carry out one correction, with the achieved vector and the allowance check.
 
@@ -206,7 +207,8 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
         if width is None:
             raise BadInput("--width: a plate needs the seat's width, e.g. '40 mm'")
         kw = dict(common, width=width, shape=shape, surface=surface, stock=stock, stock_unit=stock_unit,
-                  max_length=max_length, seat_offset_deg=seat_offset_deg)
+                  max_length=max_length, seat_offset_deg=seat_offset_deg, fillet=fillet, convexity=convexity,
+                  weld_run=weld_run)
         err = run("plate as chosen", plates.weld_plate, _ops_plate, correction=unbalance, thickness=thickness,
                   step=step, **kw)
         if allow is not None and err > allow:
@@ -246,7 +248,9 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
     within = None if allow is None else err <= allow + 1e-9
     reason = ""
     if within is False:
-        reason = (f"no option within the allowance of {_fmt(allow)} g·mm: tried {', '.join(a[0] for a in attempts)}; "
+        names = [a[0] for a in attempts]
+        shown = ", ".join(names) if len(names) <= 4 else f"{', '.join(names[:2])}, ... {names[-1]} ({len(names)} options)"
+        reason = (f"no option within the allowance of {_fmt(allow)} g·mm: tried {shown}; "
                   f"best leaves {_fmt(err)} g·mm; nearest: a finer tool or stock, or a second correction pass")
     warnings = tuple(res.warnings) + ((reason,) if reason else ())
     return Plan(method, action, U, angle, ops, amount, ang, err, allow, within,

@@ -123,6 +123,8 @@ def _check_shape(shape, surface):
 
 
 def _check_fit_shape(shape, surface, R, t, b):
+    if shape == "face" and t <= 0:
+        raise BadInput(f"--thickness: {t!r} must be greater than zero")
     if shape == "rolled":
         if b >= math.pi * R:
             raise Infeasible(f"a {b:.0f} mm plate would wrap half the {R:g} mm radius; use two seats or "
@@ -263,7 +265,7 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
             return None
         z = fillet_mm if fillet_mm is not None else min(min_fillet_mm(t), t)
         U1 = U if seats == 1 else U / (2 * math.cos(math.radians(offset)))
-        b, total = _solve_length(shape, surface, R, t, w, U1 if include_weld else U1, rho,
+        b, total = _solve_length(shape, surface, R, t, w, U1, rho,
                                  z if include_weld else 0.0, conv, weld_run)
         if b is None:
             return None
