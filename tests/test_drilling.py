@@ -283,3 +283,25 @@ def test_shop_drill_set(tmp_path):
     worse.write_text("size,diameter,unit,source\nA,6,cm,x\n")
     with pytest.raises(BadInput, match=r"line 2, column 'unit'"):
         stock.drills(str(worse))
+
+
+def test_fixed_position_with_a_negligible_share_is_left_undrilled():
+    # 1000 g*mm at 1 deg onto positions 0 and 30: the 30 deg share (1000 sin 1 / sin 30 = 34.9 g*mm, law of
+    # sines, D) is below half of what a 10 mm point alone removes at 150 mm (92.6 g*mm, D), so one hole
+    r = drill_correction("1000 g*mm", radius="150 mm", diameter="10 mm", material="steel", angle_deg=1,
+                         fixed_positions=[0, 30])
+    assert [h.angle_deg for h in r.holes] == [0.0]
+    assert any("drilled at 0° only" in w for w in r.warnings)
+    assert r.error_g_mm > 0
+
+
+def test_rounding_respects_the_wall():
+    for u in ("700 g*mm", "750 g*mm"):
+        r = drill_correction(u, radius="100 mm", diameter="8 mm", material="steel", wall="25 mm",
+                             limits=Limits(max_holes=1))
+        assert 25 - r.tip_depth_mm >= 4 - 1e-9  # max(2 mm, 0.5 d), common practice
+    # derived (D): 764.35 g*mm needs an 18.57 mm shoulder; 18.6 mm would put the tip 0.003 mm past the
+    # 21 mm the wall allows, so it is rounded down to 18.5 mm instead
+    r = drill_correction("764.35 g*mm", radius="100 mm", diameter="8 mm", material="steel", wall="25 mm",
+                         limits=Limits(max_holes=1))
+    assert r.depth_mm == pytest.approx(18.5) and 25 - r.tip_depth_mm >= 4

@@ -462,6 +462,10 @@ def _design(orientation, U, d, R, rho, angle, limits, wall, ratio, fixed, remove
         return None
     if fixed:
         parts = _split_fixed(U, remove_angle, fixed)
+        least = _least(orientation, d, R, rho, angle)
+        if len(parts) == 2 and min(u for _, u in parts) < 0.5 * least:
+            # a share smaller than half of what the point alone removes is better left undrilled
+            parts = [max(parts, key=lambda p: p[1])]
         depths = []
         for ang, u in parts:
             L = _depth_for(orientation, u, d, R, rho, angle, top)
@@ -482,6 +486,15 @@ def _design(orientation, U, d, R, rho, angle, limits, wall, ratio, fixed, remove
             offs = [(k - (n - 1) / 2.0) * (pitch or 0.0) for k in range(n)]
             return [(_norm(remove_angle + o), o, L) for o in offs], (pitch if n > 1 else None)
     return None
+
+
+def _least(orientation: str, d: float, R: float, rho: float, angle: float) -> float:
+    """Unbalance [g·mm] removed by the shallowest hole the formulas allow (the point alone, axial; the full
+    diameter just below the surface, radial)."""
+    h = _h(d, angle)
+    if orientation == "axial":
+        return rho * _axial_volume(d / 2, 0.0, h) * R
+    return rho * _radial_moment(R, d / 2, _radial_min_depth(R, d / 2), h)
 
 
 def _offset(angle: float, centre: float) -> float:
@@ -580,7 +593,7 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
     for ang, off, L in plan:
         Lr = _round_depth(L, limits.depth_step_mm, orientation, d, R)
         g = _geometry(orientation, d, Lr, R, rho, angle)
-        if g.tip_depth_mm > limits.tip_limit_mm(d) + 1e-9:
+        if Lr > _top(d, angle, limits, wall_mm, limits.max_depth_ratio) + 1e-9:  # never round past a limit
             Lr = round(Lr - limits.depth_step_mm, 9)
             g = _geometry(orientation, d, Lr, R, rho, angle)
         holes.append(Hole(ang, round(off, 6) + 0.0, d, Lr, g.tip_depth_mm, g.mass_g, g.unbalance_g_mm))
@@ -592,6 +605,9 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
     if wall_mm is not None:
         warnings.append(f"wall left under the tip: {wall_mm - tip:.1f} mm "
                         f"(at least {max(limits.min_wall_mm, limits.min_wall_ratio * d):.1f} mm required) [CP]")
+    if fixed and len(holes) == 1 and abs(holes[0].offset_deg) > 1e-9:
+        warnings.append(f"the share for the other fixed position is below half of what one {d:g} mm hole's point "
+                        f"removes; drilled at {holes[0].angle_deg:g}° only (see the achieved angle)")
     if fixed and len(holes) == 2:
         gap = abs(_offset(holes[0].angle_deg, holes[1].angle_deg))
         chord = 2 * R * math.sin(math.radians(gap) / 2)
@@ -634,11 +650,7 @@ def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed) -> 
                   f"{_fmt(most)} g·mm here and the rest in another plane or by another method, or raise "
                   "--max-depth-ratio if the rotor maker allows")
     else:
-        h = _h(small, angle)
-        if orientation == "axial":
-            least = rho * _axial_volume(small / 2, 0.0, h) * R
-        else:
-            least = rho * _radial_moment(R, small / 2, _radial_min_depth(R, small / 2), h)
+        least = _least(orientation, small, R, rho, angle)
         reason = (f"{_fmt(U)} g·mm is less than the smallest {small:g} mm drill removes with its point alone "
                   f"({_fmt(least)} g·mm at {R:g} mm); nearest: drill at a smaller radius, use a smaller drill, "
                   "or leave it if within tolerance")
