@@ -95,7 +95,7 @@ def test_plate_not_weldable_and_allowance_exit_1(capsys):
     assert main(["plate", "--unbalance", "2000 g*mm", "--radius", "300 mm", "--width", "30 mm",
                  "--material", "grey cast iron"]) == 2
     assert "not weldable" in capsys.readouterr().err
-    assert main(["plate", "--unbalance", "2000 g*mm", "--radius", "300 mm", "--width", "30 mm",
+    assert main(["plate", "--unbalance", "200000 g*mm", "--radius", "300 mm", "--width", "30 mm",
                  "--material", "steel", "--thickness", "25 mm", "--allowance", "0.001 g*mm"]) == 1
     assert "NOT within" in capsys.readouterr().out
 

@@ -93,7 +93,7 @@ def test_achieved_within_half_a_step(u, shape):
 
 
 @settings(max_examples=15, deadline=None)
-@given(u=st.floats(5000, 100000))
+@given(u=st.floats(20000, 100000))  # an 8 mm plate at its 10 mm shortest adds about 13000 g*mm
 def test_same_result_whatever_units(u):
     a = weld_plate(f"{u} g*mm", radius="400 mm", width="40 mm", thickness="8 mm", shape="rolled",
                    density="7850 kg/m^3")
@@ -152,3 +152,11 @@ def test_plate_stock_fingerprint(tmp_path):
     bad.write_text("thickness,unit,label,source\n5,mm,5 mm,\n")
     with pytest.raises(BadInput, match=r"stock.csv, line 2, column 'source'"):
         stock.plate_stock(str(bad))
+
+
+def test_too_small_for_a_plate():
+    # shortest plate max(10 mm, 2 fillet legs) is our choice (common practice)
+    with pytest.raises(Infeasible, match=r"less than the smallest 3 mm plate 30 mm wide adds with its weld .*nearest: washers"):
+        weld_plate("50 g*mm", radius="300 mm", width="30 mm", material="steel")
+    p = weld_plate("5000 g*mm", radius="300 mm", width="30 mm", material="steel")
+    assert p.length_mm >= max(10, 2 * p.fillet_mm)

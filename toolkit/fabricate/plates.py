@@ -35,6 +35,8 @@ SURFACES = ("outer", "inner")
 WELD_RUNS = ("all-round", "ends", "sides")
 #: Weld convexity allowance on top of z²/2 [M: 10–30 %], overridable.
 DEFAULT_CONVEXITY = 0.20
+#: Shortest plate: at least this long and two fillet legs (our choice, common practice [CP]).
+MIN_LENGTH_MM = 10.0
 #: Longest plate, as a multiple of its width, before a thicker stock is preferred (our choice, CP).
 DEFAULT_ASPECT = 3.0
 
@@ -210,6 +212,7 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     on a cylinder, radial width on a face). thickness : Quantity [length] or None (thinnest stock whose
     length stays within ``aspect`` × width and ``max_length``). step : Quantity [length], size rounding.
     fillet : leg [length] (default AWS D1.1 minimum [H]); convexity : fraction (default 0.2 [M]).
+    A plate shorter than max(10 mm, 2 fillet legs) [CP] is refused with washers or a hole suggested.
     max_length : the seat's room along the arc; if the plate does not fit and ``seat_offset_deg`` is given,
     the correction is split onto two seats at angle ± offset (each U / (2 cos offset)), else refused.
     Materials marked not weldable are refused with another method suggested.
@@ -269,9 +272,13 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
                                  z if include_weld else 0.0, conv, weld_run)
         if b is None:
             return None
+        if b < max(MIN_LENGTH_MM, 2 * z):
+            too_small.append((t_opt, z, total(max(MIN_LENGTH_MM, 2 * z))))
+            return None
         return t_opt, z, b, total, U1
 
     chosen = None
+    too_small: list = []
     limit = aspect * w if thickness is None else math.inf
     for seats in (1, 2):
         if seats == 2 and offset is None:
@@ -292,6 +299,11 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
                     break
         if chosen:
             break
+    if chosen is None and too_small:
+        t_opt, z, least = min(too_small, key=lambda x: x[2])
+        raise Infeasible(f"{_fmt(U)} g·mm is less than the smallest {t_opt.label} plate {w:g} mm wide adds with its "
+                         f"weld ({max(MIN_LENGTH_MM, 2 * z):g} mm long, {z:g} mm fillets: {_fmt(least)} g·mm); "
+                         "nearest: washers, a drilled hole at the heavy spot, or a narrower plate (--width)")
     if chosen is None:
         raise Infeasible(_nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, weld_run))
     seats, (t_opt, z, b_exact, total, U1) = chosen
@@ -304,9 +316,6 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
         if gap > 1.0:
             warnings.append(f"a flat {b:g} mm plate stands {gap:.1f} mm off the {R:g} mm surface at its ends; "
                             "consider --shape rolled [CP]")
-    if b < 2 * z + st:
-        warnings.append(f"plate length {b:g} mm is short for {z:g} mm fillets; consider a thinner plate or "
-                        "washers")
     m, rbar = _plate_kernel(shape, surface, R, t, w, b, rho)
     mw, uw = _weld_kernel(shape, surface, R, w, b, z, conv, weld_run, rho) if include_weld else (0.0, 0.0)
     one = m * rbar + uw
