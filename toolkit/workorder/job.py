@@ -54,7 +54,7 @@ from toolkit.errors import BadInput
 
 __all__ = [
     "Job", "PlaneSpec", "Measurement", "ShopSettings", "JobError",
-    "load_job", "parse_job", "key_lines",
+    "load_job", "parse_job", "job_from_data", "key_lines",
     "METHODS", "SURFACES", "SENSES", "DEFAULTS",
 ]
 
@@ -93,11 +93,11 @@ class JobError(BadInput):
     ``problems`` holds one message per problem; ``str()`` joins them on one line.
     """
 
-    def __init__(self, origin: str, problems: list[str]):
+    def __init__(self, origin: str, problems: list[str], what: str = "the job file"):
         self.origin = origin
         self.problems = tuple(problems)
         count = len(problems)
-        head = f"{origin}: {count} problem{'s' if count != 1 else ''} in the job file: "
+        head = f"{origin}: {count} problem{'s' if count != 1 else ''} in {what}: "
         super().__init__(head + "; ".join(problems))
 
 
@@ -278,11 +278,13 @@ class Job:
 # -- validation ----------------------------------------------------------------------------------
 
 class _Checker:
-    """Collects problems with file and line."""
+    """Collects problems with file and line (a job file) or with the column they came from (a planner
+    row: ``columns`` maps key paths to column names)."""
 
-    def __init__(self, origin: str, lines: dict[tuple, int]):
+    def __init__(self, origin: str, lines: dict[tuple, int], columns: Mapping[tuple, str] | None = None):
         self.origin = origin
         self.lines = lines
+        self.columns = columns
         self.problems: list[str] = []
 
     def line_of(self, path: tuple) -> int | None:
@@ -292,6 +294,13 @@ class _Checker:
         return None
 
     def add(self, path: tuple, message: str) -> None:
+        if self.columns is not None:
+            for cut in range(len(path), 0, -1):
+                if path[:cut] in self.columns:
+                    self.problems.append(f"column {self.columns[path[:cut]]}: {message}")
+                    return
+            self.problems.append(f"{_dotted(path)}: {message}")
+            return
         line = self.line_of(path)
         where = f"line {line}, " if line else ""
         self.problems.append(f"{where}{_dotted(path)}: {message}")
@@ -442,7 +451,19 @@ def parse_job(text: str, origin: str = "<job>", base: Path | None = None) -> Job
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise JobError(origin, [f"not valid TOML ({exc})"]) from None
-    ck = _Checker(origin, key_lines(text))
+    return job_from_data(data, origin, base, lines=key_lines(text))
+
+
+def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None, *,
+                  lines: Mapping[tuple, int] | None = None, columns: Mapping[tuple, str] | None = None,
+                  what: str = "the job file") -> Job:
+    """Validate a job given as nested tables (the parsed TOML, or a planner row turned into tables) and
+    return a :class:`Job`, or raise :class:`JobError` listing every problem.
+
+    ``lines`` (key path -> line) puts line numbers into the problems; ``columns`` (key path -> column
+    name) names the planner column instead.
+    """
+    ck = _Checker(origin, dict(lines or {}), columns)
     base = Path(base) if base is not None else Path(".")
     defaults_used: list[str] = []
 
@@ -619,7 +640,7 @@ def parse_job(text: str, origin: str = "<job>", base: Path | None = None) -> Job
         mass_step = Q_(0.1, "g")
 
     if ck.problems:
-        raise JobError(origin, ck.problems)
+        raise JobError(origin, ck.problems, what)
     return Job(origin, MappingProxyType(order), mass, service, balancing, grade, criterion or "iso", material,
                span, com, share, min_share, error_allowance, tuple(planes), reference, sense, measurement,
                ShopSettings(units or "metric", drills, stock, step_deg, mass_step, plate_step, point_angle,

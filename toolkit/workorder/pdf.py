@@ -25,9 +25,9 @@ import unicodedata
 from io import BytesIO
 from pathlib import Path
 
-from toolkit.workorder.model import Formatter, PlaneOrder, WorkOrder
+from toolkit.workorder.model import Formatter, PlaneOrder, WorkOrder, example_order
 
-__all__ = ["to_bytes", "write_pdf", "render", "combined_bytes", "write_combined"]
+__all__ = ["to_bytes", "write_pdf", "render", "Document", "combined_bytes", "write_combined"]
 
 _W, _H = 595.2756, 841.8898  # A4 in points
 _M = 42.0                    # margin
@@ -35,6 +35,12 @@ _INK = (0.10, 0.12, 0.14)
 _ACCENT = (0.05, 0.36, 0.40)
 _MUTED = (0.45, 0.47, 0.50)
 _WARN = (0.62, 0.10, 0.08)
+
+
+#: Letters and signs without a Latin-1 form or a Unicode decomposition, and what to print instead.
+_FOLD = {"Ł": "L", "ł": "l", "Đ": "D", "đ": "d", "Ħ": "H", "ħ": "h", "Œ": "OE", "œ": "oe", "ı": "i",
+         "≤": "<=", "≥": ">=", "Δ": "d", "–": "-", "—": "-", "’": "'", "‘": "'", "“": '"', "”": '"',
+         "→": "->", "←": "<-", "…": "..."}
 
 
 def _latin(text) -> str:
@@ -52,54 +58,51 @@ def _latin(text) -> str:
             out.append(ch)
         except UnicodeEncodeError:
             folded = unicodedata.normalize("NFKD", ch).encode("latin-1", "ignore").decode("latin-1")
-            out.append(folded or {"≤": "<=", "≥": ">=", "Δ": "d", "–": "-", "—": "-", "’": "'",
-                                  "“": '"', "”": '"', "→": "->"}.get(ch, "?"))
+            out.append(folded or _FOLD.get(ch, "?"))
     return "".join(out)
 
 
 class _Doc:
-    """A canvas with deferred pages, so that footers can say ``page N of M`` for each order."""
+    """A canvas whose pages are held back until their order is complete, so that each footer can say
+    ``page N of M`` for its own order; then they are finished and only the PDF stream keeps them."""
 
     def __init__(self, buffer):
         from reportlab.pdfgen.canvas import Canvas
 
         self.c = Canvas(buffer, pagesize=(_W, _H), invariant=1, pageCompression=1)
         self.c.setCreator("Counterpoise")
-        self.pages: list[tuple[dict, str]] = []
-        self.group_start = 0
+        self.pending: list[dict] = []
         self.footer = ""
 
     def start_order(self, footer: str, title: str):
-        self.group_start = len(self.pages)
+        self.pending = []
         self.footer = footer
         self.c.setTitle(_latin(title))
 
     def new_page(self):
-        self.pages.append((dict(self.c.__dict__), self.footer))
+        self.pending.append(dict(self.c.__dict__))
         self.c._startPage()
 
     def end_order(self):
-        self.new_page()
-        group = self.pages[self.group_start:]
-        total = len(group)
-        for n, (state, footer) in enumerate(group, start=1):
-            self.pages[self.group_start + n - 1] = (state, f"{footer}  |  page {n} of {total}")
-
-    def save(self):
         from reportlab.pdfgen.canvas import Canvas
 
+        self.new_page()
         c = self.c
-        for state, footer in self.pages:
+        total = len(self.pending)
+        for n, state in enumerate(self.pending, start=1):
             c.__dict__.update(state)
             c.setFont("Helvetica", 7.5)
             c.setFillColorRGB(*_MUTED)
             c.setStrokeColorRGB(*_MUTED)
             c.setLineWidth(0.4)
             c.line(_M, 30, _W - _M, 30)
-            c.drawString(_M, 20, _latin(footer))
+            c.drawString(_M, 20, _latin(f"{self.footer}  |  page {n} of {total}"))
             c.drawRightString(_W - _M, 20, "Counterpoise work order")
             Canvas.showPage(c)
-        c.save()
+        self.pending = []
+
+    def save(self):
+        self.c.save()
 
 
 class _Writer:
@@ -563,15 +566,37 @@ def to_bytes(order: WorkOrder) -> bytes:
     return buffer.getvalue()
 
 
+class Document:
+    """Several work orders in one PDF, added one at a time (a batch's combined document).
+
+    >>> doc = Document(); doc.add(example_order("A")); doc.add(example_order("B")); doc.orders
+    2
+    >>> doc.finish()[:5]
+    b'%PDF-'
+    """
+
+    def __init__(self):
+        self._buffer = BytesIO()
+        self._doc = _Doc(self._buffer)
+        self.orders = 0
+
+    def add(self, order: WorkOrder) -> None:
+        render(self._doc, order)
+        self.orders += 1
+
+    def finish(self) -> bytes:
+        """The finished PDF (call once)."""
+        self._doc.c.setTitle("Work orders")
+        self._doc.save()
+        return self._buffer.getvalue()
+
+
 def combined_bytes(orders) -> bytes:
     """One PDF holding several work orders one after the other, each with its own page numbers."""
-    buffer = BytesIO()
-    doc = _Doc(buffer)
+    doc = Document()
     for order in orders:
-        render(doc, order)
-    doc.c.setTitle("Work orders")
-    doc.save()
-    return buffer.getvalue()
+        doc.add(order)
+    return doc.finish()
 
 
 def write_pdf(order: WorkOrder, path: str | Path, *, force: bool = False) -> Path:

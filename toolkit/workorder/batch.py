@@ -1,0 +1,434 @@
+"""Planner batches: one rotor per row of a sheet (.xlsx or .csv) to a work order per rotor, a combined PDF
+and a summary workbook.
+
+The sheet has one header row; the column names are below (case and surrounding spaces do not matter;
+unknown columns are refused so that a typing error cannot silently drop a value). Empty cells are left
+out, so the job defaults apply. Each row is validated like a job file, and its problems name the column.
+
+==================  =======================================================================
+column              meaning (the job-file key it fills)
+==================  =======================================================================
+order               order number (required; also the PDF file name, made safe)
+rotor               what the rotor is (required)
+customer, drawing,  identification, free text
+serial, date, notes
+mass                rotor mass with unit, e.g. ``412 kg``
+service_speed       maximum service speed, e.g. ``1480 rpm``
+balancing_speed     optional
+grade               e.g. ``G 6.3``
+criterion           ``iso`` (default), ``api``, ``mil-std-167``
+material            e.g. ``carbon steel``
+bearing_span        e.g. ``1200 mm``
+centre_of_mass      from bearing A, e.g. ``540 mm``
+reference, sense    angle reference mark; ``against rotation`` or ``with rotation``
+shows               what the machine's angle shows: ``heavy spot`` (default) or ``add``
+units               ``metric`` or ``imperial``
+drills, plate_stock the shop's tables (as in the job file; paths relative to the sheet)
+planeN_name         N = 1 or 2: the plane's name (leave plane 2 empty for a one-plane rotor)
+planeN_position     from bearing A, e.g. ``150 mm``
+planeN_radius       correction radius
+planeN_surface      ``outer``, ``inner`` or ``face``
+planeN_methods      allowed methods in order, separated by ``;``: ``drill;plate``
+planeN_reading      the balancing machine's reading, ``AMOUNT@ANGLE`` (``1820 g*mm@40`` or ``5.9 g@40``)
+planeN_width, planeN_wall, planeN_max_depth, planeN_max_length, planeN_washer_size,
+planeN_plate_shape, planeN_hole_orientation, planeN_fixed_positions (angles separated by ``;``)
+job                 optional: a job file (path relative to the sheet) used as the base for this row;
+                    the row's non-empty cells replace its values (use it for trial-run jobs)
+==================  =======================================================================
+
+Outputs in the output folder: ``<order>.pdf`` per rotor, ``<sheet>-orders.pdf`` (every work order in one
+document, each with its own page numbers) and ``<sheet>-summary.xlsx`` (one row per rotor: allowances,
+corrections, predicted residuals, status, file or reason). A bad row is reported with its row number and
+reason and the other rows go on.
+
+Scale: the sheet is streamed (openpyxl read-only mode, or the csv reader), the summary is written in
+openpyxl's write-only mode, and each order's pages are finished as soon as it is drawn, so memory grows
+with the combined PDF only.
+"""
+
+from __future__ import annotations
+
+import csv
+import sys
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from toolkit.errors import BadInput, CounterpoiseError
+
+__all__ = ["COLUMNS", "PLANE_COLUMNS", "BatchResult", "run_batch", "read_rows", "row_job"]
+
+#: Top-level columns and the job key path each fills.
+COLUMNS = {
+    "order": ("order", "number"), "rotor": ("order", "rotor"), "customer": ("order", "customer"),
+    "drawing": ("order", "drawing"), "serial": ("order", "serial"), "date": ("order", "date"),
+    "notes": ("order", "notes"),
+    "mass": ("rotor", "mass"), "service_speed": ("rotor", "service_speed"),
+    "balancing_speed": ("rotor", "balancing_speed"), "grade": ("rotor", "grade"),
+    "criterion": ("rotor", "criterion"), "material": ("rotor", "material"),
+    "bearing_span": ("geometry", "bearing_span"), "centre_of_mass": ("geometry", "centre_of_mass"),
+    "reference": ("angles", "reference"), "sense": ("angles", "sense"),
+    "shows": ("measurement", "shows"),
+    "units": ("shop", "units"), "drills": ("shop", "drills"), "plate_stock": ("shop", "plate_stock"),
+}
+#: Per-plane columns (``plane1_...``, ``plane2_...``), named after the job file's plane keys.
+PLANE_COLUMNS = ("name", "position", "radius", "surface", "methods", "reading", "width", "wall", "max_depth",
+                 "max_length", "washer_size", "plate_shape", "hole_orientation", "fixed_positions")
+_LISTS = ("methods", "fixed_positions")
+MAX_PLANES = 2
+
+
+def _known_columns() -> set[str]:
+    return set(COLUMNS) | {"job"} | {f"plane{n}_{c}" for n in range(1, MAX_PLANES + 1) for c in PLANE_COLUMNS}
+
+
+@dataclass(frozen=True)
+class BatchResult:
+    """What a batch did: rows read, orders written, failed rows (row number, reason), orders predicted out
+    of tolerance, and the files written."""
+
+    sheet: str
+    rows: int
+    done: int
+    failures: tuple[tuple[int, str], ...]
+    out_of_tolerance: tuple[str, ...]
+    files: tuple[str, ...]
+    seconds: float = field(default=0.0, compare=False)
+
+    def to_dict(self) -> dict:
+        return {"sheet": self.sheet, "rows": self.rows, "done": self.done,
+                "failures": [{"row": r, "reason": why} for r, why in self.failures],
+                "out_of_tolerance": list(self.out_of_tolerance), "files": list(self.files),
+                "seconds": round(self.seconds, 3)}
+
+
+# -- reading the sheet --------------------------------------------------------------------------------
+
+def _cell_text(value) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, float):
+        return f"{value:.15g}"
+    if hasattr(value, "isoformat"):
+        return value.isoformat()[:10]
+    return str(value).strip()
+
+
+def _header(cells, origin: str) -> list[str]:
+    header = [_cell_text(c).lower().replace(" ", "_") for c in cells]
+    while header and not header[-1]:
+        header.pop()
+    if not header:
+        raise BadInput(f"{origin}: the first row must name the columns, e.g. order, rotor, mass, ...")
+    known = _known_columns()
+    unknown = [h for h in header if h and h not in known]
+    if unknown:
+        raise BadInput(f"{origin}, row 1: unknown column(s) {', '.join(unknown)}; see the planner columns in "
+                       "the README (order, rotor, mass, service_speed, ..., plane1_name, plane1_reading, ...)")
+    dupes = sorted({h for h in header if h and header.count(h) > 1})
+    if dupes:
+        raise BadInput(f"{origin}, row 1: column {dupes[0]} appears twice")
+    missing = [c for c in ("order",) if c not in header]
+    if missing:
+        raise BadInput(f"{origin}, row 1: missing column(s) {', '.join(missing)}")
+    return header
+
+
+def read_rows(path: str | Path):
+    """Yield ``(row number, {column: text})`` for each non-empty data row of a planner sheet.
+
+    Row numbers are the sheet's own (the header is row 1). An .xlsx is read in read-only mode (cached
+    values of formulas); a .csv as UTF-8 (a byte-order mark is allowed).
+    """
+    path = Path(path)
+    origin = str(path)
+    if not path.is_file():
+        raise BadInput(f"{origin}: no such planner sheet")
+    suffix = path.suffix.lower()
+    if suffix == ".csv":
+        yield from _csv_rows(path, origin)
+    elif suffix in (".xlsx", ".xlsm"):
+        yield from _xlsx_rows(path, origin)
+    else:
+        raise BadInput(f"{origin}: {path.suffix or 'no suffix'} is not a planner sheet; give a .xlsx or .csv file")
+
+
+def _csv_rows(path: Path, origin: str):
+    try:
+        handle = path.open(encoding="utf-8-sig", newline="")
+    except OSError as exc:
+        raise BadInput(f"{origin}: cannot read ({exc.strerror})") from None
+    with handle:
+        reader = csv.reader(handle)
+        try:
+            header = _header(next(reader, []), origin)
+            for cells in reader:
+                if not any(c.strip() for c in cells):
+                    continue
+                yield reader.line_num, {h: _cell_text(c) for h, c in zip(header, cells) if h}
+        except UnicodeDecodeError:
+            raise BadInput(f"{origin}, after row {reader.line_num}: not UTF-8 text") from None
+        except csv.Error as exc:
+            raise BadInput(f"{origin}, row {reader.line_num}: {exc}") from None
+
+
+def _xlsx_rows(path: Path, origin: str):
+    from openpyxl import load_workbook
+
+    try:
+        wb = load_workbook(path, read_only=True, data_only=True)
+    except Exception as exc:  # openpyxl raises several kinds for a damaged or foreign file
+        raise BadInput(f"{origin}: cannot read as a workbook ({type(exc).__name__})") from None
+    try:
+        ws = wb.worksheets[0]
+        rows = ws.iter_rows(values_only=True)
+        header = _header(next(rows, ()), origin)
+        for number, cells in enumerate(rows, start=2):
+            if cells is None or all(c is None or _cell_text(c) == "" for c in cells):
+                continue
+            yield number, {h: _cell_text(c) for h, c in zip(header, cells) if h}
+    finally:
+        wb.close()
+
+
+def _count_rows(path: Path) -> int | None:
+    """Rows to expect (for the progress bar), cheaply; None when unknown."""
+    try:
+        if path.suffix.lower() == ".csv":
+            with path.open("rb") as handle:
+                return max(0, sum(1 for _ in handle) - 1)
+        from openpyxl import load_workbook
+
+        wb = load_workbook(path, read_only=True)
+        try:
+            count = wb.worksheets[0].max_row
+        finally:
+            wb.close()
+        return None if count is None else max(0, count - 1)
+    except Exception:  # only a progress hint
+        return None
+
+
+# -- a row to a job -----------------------------------------------------------------------------------
+
+def _put(data: dict, path: tuple, value) -> None:
+    table = data
+    for key in path[:-1]:
+        table = table.setdefault(key, {})
+    table[path[-1]] = value
+
+
+def row_job(cells: dict, origin: str, base: Path):
+    """Validate one planner row and return its :class:`~toolkit.workorder.job.Job` (problems name the
+    column)."""
+    import tomllib
+
+    from toolkit.workorder.job import job_from_data, load_job
+
+    data: dict = {}
+    columns: dict[tuple, str] = {}
+    template = cells.get("job", "")
+    if template:
+        file = (base / template) if not Path(template).is_absolute() else Path(template)
+        load_job(file)  # its own problems, with line numbers
+        data = tomllib.loads(file.read_text(encoding="utf-8-sig"))
+        base = file.parent
+    else:
+        data["measurement"] = {"kind": "machine"}
+    for column, path in COLUMNS.items():
+        text = cells.get(column, "")
+        if text:
+            _put(data, path, text)
+            columns[path] = column
+    planes = data.get("plane") if template else None
+    planes = list(planes) if isinstance(planes, list) else []
+    for n in range(1, MAX_PLANES + 1):
+        given = {c: cells.get(f"plane{n}_{c}", "") for c in PLANE_COLUMNS}
+        if not any(given.values()):
+            continue
+        while len(planes) < n:
+            planes.append({})
+        plane = dict(planes[n - 1])
+        for key, text in given.items():
+            if not text or key == "reading":
+                continue
+            value = [p.strip() for p in text.split(";") if p.strip()] if key in _LISTS else text
+            plane[key] = value
+            columns[("plane", n - 1, key)] = f"plane{n}_{key}"
+        planes[n - 1] = plane
+        if given["reading"]:
+            name = plane.get("name", f"plane {n}")
+            _put(data, ("measurement", "readings", name), given["reading"])
+            columns[("measurement", "readings", name)] = f"plane{n}_reading"
+    if planes:
+        data["plane"] = planes
+    return job_from_data(data, origin, base, columns=columns, what="the row")
+
+
+# -- the batch ----------------------------------------------------------------------------------------
+
+class _Progress:
+    """A one-line progress bar on stderr (only used on an interactive terminal)."""
+
+    def __init__(self, total: int | None, enabled: bool):
+        self.total = total
+        self.enabled = enabled
+        self.last = 0.0
+
+    def show(self, done: int, failed: int, final: bool = False):
+        if not self.enabled:
+            return
+        now = time.monotonic()
+        if not final and now - self.last < 0.1:
+            return
+        self.last = now
+        if self.total:
+            width = 30
+            filled = int(width * min(done, self.total) / self.total)
+            bar = "#" * filled + "." * (width - filled)
+            text = f"\r[{bar}] {done}/{self.total} rows, {failed} failed"
+        else:
+            text = f"\r{done} rows, {failed} failed"
+        sys.stderr.write(text + ("\n" if final else ""))
+        sys.stderr.flush()
+
+
+def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, progress: bool = False
+              ) -> BatchResult:
+    """Turn every row of a planner sheet into a work order.
+
+    Writes one PDF per rotor, the combined PDF and the summary workbook into ``out`` (atomically; an
+    existing file is replaced only with ``force``). A row that cannot be built is recorded with its row
+    number and reason; the others go on. Raises :class:`~toolkit.errors.BadInput` only for problems of the
+    whole sheet (missing, unreadable, unknown columns) and :class:`~toolkit.errors.OutputError` when the
+    summary or combined files exist without ``force``.
+    """
+    from toolkit.fileio import check_writable, safe_filename, write_atomic
+    from toolkit.workorder import pdf
+    from toolkit.workorder.build import build_order
+
+    start = time.perf_counter()
+    sheet = Path(sheet)
+    out = Path(out)
+    stem = safe_filename(sheet.stem, "planner")
+    combined_path = out / f"{stem}-orders.pdf"
+    summary_path = out / f"{stem}-summary.xlsx"
+    for path in (combined_path, summary_path):
+        check_writable(path, force)
+    rows = read_rows(sheet)
+    first = next(rows, None)  # sheet-level problems surface before anything is written
+    bar = _Progress(_count_rows(sheet) if progress else None, progress)
+    summary = _Summary()
+    combined = pdf.Document()
+    seen: dict[str, int] = {}
+    failures: list[tuple[int, str]] = []
+    failing: list[str] = []
+    files: list[str] = []
+    count = 0
+    base = sheet.parent
+
+    def one(number: int, cells: dict) -> None:
+        origin = f"{sheet}, row {number}"
+        try:
+            order = build_order(row_job(cells, origin, base))
+            name = safe_filename(order.ident.number)
+            if name in seen:
+                raise BadInput(f"order number {order.ident.number!r} gives the same file name as row {seen[name]}")
+            seen[name] = number
+            path = write_atomic(out / f"{name}.pdf", pdf.to_bytes(order), force=force)
+        except CounterpoiseError as exc:
+            reason = " ".join(str(exc).split())
+            prefix = f"{origin}: "
+            failures.append((number, reason[len(prefix):] if reason.startswith(prefix) else reason))
+            summary.failed(number, cells, failures[-1][1])
+            return
+        files.append(str(path))
+        combined.add(order)
+        summary.ok(number, order, path.name)
+        if not order.passed:
+            failing.append(order.ident.number)
+
+    if first is not None:
+        for number, cells in _chain(first, rows):
+            count += 1
+            one(number, cells)
+            bar.show(count, len(failures))
+    bar.show(count, len(failures), final=True)
+    if combined.orders:
+        files.append(str(write_atomic(combined_path, combined.finish(), force=force)))
+    files.append(str(write_atomic(summary_path, summary.finish(), force=force)))
+    return BatchResult(str(sheet), count, count - len(failures), tuple(failures), tuple(failing), tuple(files),
+                       time.perf_counter() - start)
+
+
+def _chain(first, rest):
+    yield first
+    yield from rest
+
+
+class _Summary:
+    """The summary workbook, written row by row in openpyxl's write-only mode."""
+
+    HEADER = ("Row", "Order", "Rotor", "Status", "Units",
+              *(f"{label} {n}" for n in range(1, MAX_PLANES + 1)
+                for label in ("Plane", "Allowance [g·mm]", "Initial [g·mm]", "Initial angle [°]", "Operations",
+                              "Predicted [g·mm]", "Result")),
+              "File or reason")
+
+    def __init__(self):
+        from openpyxl import Workbook
+
+        self.wb = Workbook(write_only=True)
+        self.ws = self.wb.create_sheet("Summary")
+        self.ws.freeze_panes = "A2"
+        self.ws.print_title_rows = "1:1"
+        self.ws.page_setup.orientation = "landscape"
+        self.ws.page_setup.fitToWidth = 1
+        self.ws.page_setup.fitToHeight = 0
+        self.ws.sheet_properties.pageSetUpPr.fitToPage = True
+        self.ws.oddFooter.right.text = "page &P of &N"
+        for col, width in zip("ABCDEFGHIJKLMNOPQRST", (6, 16, 30, 16, 9) + (14, 12, 12, 10, 40, 12, 8) * 2 + (30,)):
+            self.ws.column_dimensions[col].width = width
+        self.ws.append([self._text(h) for h in self.HEADER])
+
+    def _text(self, value):
+        from openpyxl.cell import WriteOnlyCell
+
+        from toolkit.workorder.xlsx import FORMULA_START
+
+        cell = WriteOnlyCell(self.ws, value=value)
+        if isinstance(value, str) and value.startswith(FORMULA_START):
+            cell.data_type = "s"
+        return cell
+
+    def ok(self, number: int, order, file_name: str):
+        from toolkit.workorder.model import Formatter
+
+        fmt = Formatter(order.units, order.angle_reference, order.angle_sense)
+        status = "ready" if order.passed else "out of tolerance (predicted)"
+        row = [number, self._text(order.ident.number), self._text(order.ident.rotor), status, order.units]
+        for n in range(MAX_PLANES):
+            if n < len(order.planes):
+                p = order.planes[n]
+                ops = "; ".join(f"{op.number}. {op.action} {fmt.mass(op.mass_g)} ({op.kind}) at "
+                                f"{fmt.angle(op.angle_deg)}" for op in p.operations) or "none"
+                row += [self._text(p.name), round(p.tolerance.u_per_g_mm, 3), round(p.initial_g_mm, 3),
+                        round(p.initial_deg, 2), self._text(ops), round(p.predicted_g_mm, 3),
+                        "PASS" if p.passed else "FAIL"]
+            else:
+                row += [None] * 7
+        row.append(self._text(file_name))
+        self.ws.append(row)
+
+    def failed(self, number: int, cells: dict, reason: str):
+        self.ws.append([number, self._text(cells.get("order", "")), self._text(cells.get("rotor", "")),
+                        "failed", None, *([None] * 7 * MAX_PLANES), self._text(reason)])
+
+    def finish(self) -> bytes:
+        from io import BytesIO
+
+        buffer = BytesIO()
+        self.wb.save(buffer)
+        return buffer.getvalue()
