@@ -426,3 +426,8 @@ def test_mil_std_without_geometry_reported_per_plane():
     # MIL-STD-167-1 4 W/N above 1000 r/min [H]: 4 * 908.30 lb / 1480 = 2.4549 oz*in
     assert mil["each plane"].m_as("oz*in") == pytest.approx(4 * 412 / 0.45359237 / 1480, rel=1e-9)
     assert dict(r.criteria[0].planes)["rotor"] == r.u_per
+
+
+def test_single_criterion_as_text():
+    r = tolerance_report("G6.3", "412 kg", "1480 rpm", bearing_span="900 mm", com_from_a="400 mm", criteria="API")
+    assert [c.name for c in r.criteria] == ["api"]

@@ -830,6 +830,8 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
     n = float(speed_rpm(speed, "speed"))
     low = _check_min_share(min_share)
     names = []
+    if isinstance(criteria, str):
+        criteria = (criteria,)
     for c in criteria:
         key = str(c).strip().lower()
         if key not in CRITERIA:
