@@ -130,3 +130,12 @@ def test_plate_weld_options_reach_the_plan(capsys):
     assert code == 0 and d["fillet_mm"] == 4 and d["convexity"] == 0.1 and d["weld_run"] == "ends"
     # derived (D): two end welds of 30 mm, leg 4 mm, 10 % convexity
     assert d["weld_mass_g"] == pytest.approx(7.85e-3 * 16 / 2 * 1.1 * 60)
+
+
+def test_imperial_text_uses_inch_and_ounce(capsys):
+    code = main(["drill", "--unbalance", "3.3 oz*in@40", "--radius", "6 in", "--axial", "--drills", "inch",
+                 "--material", "1045", "--units", "imperial", "--action", "add"])
+    out = capsys.readouterr().out
+    assert code == 0
+    assert "add 3.300 oz·in at 40°: remove it at the heavy spot, 220° (= 40° + 180°)" in out
+    assert " in deep to the shoulder" in out and " oz" in out and " mm" not in out.split("Cautions:")[0]

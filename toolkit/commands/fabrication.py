@@ -115,12 +115,13 @@ def run_drill(args) -> int:
                            density=args.density, action=args.action, allowance=args.allowance,
                            orientation=args.orientation, diameter=args.diameter, drills=args.drills,
                            point_angle_deg=_number(args.point_angle, "--point-angle"), limits=limits,
-                           wall=args.wall, fixed_positions=positions, materials_table=args.materials)
+                           wall=args.wall, fixed_positions=positions, materials_table=args.materials,
+                           units=args.units)
     r = plan.detail
     data = r.to_dict() | _plan_keys(plan)
-    lines = [f"Drill: {r.placement()}",
-             f"  drill          {r.drill}, {r.point_angle_deg:g}° point, {r.orientation} holes on {r.radius_mm:g} mm "
-             f"{'pitch' if r.orientation == 'axial' else 'surface'} radius"]
+    lines = [f"Drill: {r.placement(lambda x: _unb(x, args))}",
+             f"  drill          {r.drill}, {r.point_angle_deg:g}° point, {r.orientation} holes on "
+             f"{_length(r.radius_mm, args)} {'pitch' if r.orientation == 'axial' else 'surface'} radius"]
     lines += [f"  {op.description}" for op in plan.operations]
     if r.pattern():
         lines.append(f"  pattern        {r.pattern()}")
@@ -128,9 +129,10 @@ def run_drill(args) -> int:
               *_achieved(plan, args),
               f"  material       {r.material or 'as given'}, {r.density_kg_m3:g} kg/m³ ({r.density_source})",
               f"  limits used    tip warn {r.limits.warn_depth_ratio:g}·d, refuse {r.limits.max_depth_ratio:g}·d"
-              + (f" or {r.limits.max_depth_mm:g} mm" if r.limits.max_depth_mm else "")
-              + f"; wall under tip ≥ max({r.limits.min_wall_mm:g} mm, {r.limits.min_wall_ratio:g}·d); spacing "
-              f"{r.limits.spacing_ratio:g}·d; depth step {r.limits.depth_step_mm:g} mm [{_LIMIT_HELP}]",
+              + (f" or {_length(r.limits.max_depth_mm, args)}" if r.limits.max_depth_mm else "")
+              + f"; wall under tip ≥ max({_length(r.limits.min_wall_mm, args)}, {r.limits.min_wall_ratio:g}·d); "
+              f"spacing {r.limits.spacing_ratio:g}·d; depth step {_length(r.limits.depth_step_mm, args)} "
+              f"[{_LIMIT_HELP}]",
               "  depths are to the shoulder (full diameter) from first contact; the tip lies deeper"]
     emit(args.json, data, _finish(lines, plan))
     return 1 if plan.within_allowance is False else 0
@@ -176,15 +178,15 @@ def run_plate(args) -> int:
                            seat_offset_deg=None if args.seat_offset is None else _number(args.seat_offset, "--seat-offset"),
                            fillet=args.fillet, weld_run=args.weld,
                            convexity=None if args.convexity is None else _number(args.convexity, "--convexity"),
-                           materials_table=args.materials)
+                           materials_table=args.materials, units=args.units)
     p = plan.detail
     data = p.to_dict() | _plan_keys(plan)
-    lines = [f"Weld-on plate: {p.placement()}"]
+    lines = [f"Weld-on plate: {p.placement(lambda x: _unb(x, args))}"]
     lines += [f"  {op.description}" for op in plan.operations]
     lines += [f"  plate mass     {_mass(p.mass_g, args)} each; weld metal about {_mass(p.weld_mass_g, args)} "
-              f"({p.weld_run}, {p.fillet_mm:g} mm fillet: {p.fillet_source}; convexity {p.convexity:g}: "
+              f"({p.weld_run}, {_length(p.fillet_mm, args)} fillet: {p.fillet_source}; convexity {p.convexity:g}: "
               f"{p.convexity_source})",
-              f"  centroid       {p.centroid_radius_mm:.2f} mm from the axis (plate alone)",
+              f"  centroid       {_length(p.centroid_radius_mm, args)} from the axis (plate alone)",
               *_achieved(plan, args),
               f"  material       {p.material or 'as given'}, {p.density_kg_m3:g} kg/m³ ({p.density_source})"]
     emit(args.json, data, _finish(lines, plan))
@@ -217,14 +219,17 @@ def run_washers(args) -> int:
                            density=args.density, action=args.action, allowance=args.allowance,
                            orientation="radial" if args.radial else "axial", surface=args.surface,
                            size=args.size, series=args.series, washer_table=args.washers,
-                           max_count=_number(args.max_count, "--max-count", int), materials_table=args.materials)
+                           max_count=_number(args.max_count, "--max-count", int), materials_table=args.materials,
+                           units=args.units)
     s = plan.detail
     data = s.to_dict() | _plan_keys(plan)
-    lines = [f"Washers: {s.placement()}"]
+    lines = [f"Washers: {s.placement(lambda x: _unb(x, args))}"]
     lines += [f"  {op.description}" for op in plan.operations]
-    lines += [f"  one washer     {s.d1_mm:g} × {s.d2_mm:g} × {s.h_mm:g} mm, {_mass(s.unit_mass_g, args)} "
+    lines += [f"  one washer     {_length(s.d1_mm, args)} × {_length(s.d2_mm, args)} × {_length(s.h_mm, args)}, "
+              f"{_mass(s.unit_mass_g, args)} "
               f"({s.washer_source}; {s.density_source})",
-              f"  stack          {s.stack_height_mm:g} mm high, centroid {s.centroid_radius_mm:.2f} mm from the axis",
+              f"  stack          {_length(s.stack_height_mm, args)} high, centroid {_length(s.centroid_radius_mm, args)} "
+              "from the axis",
               *_achieved(plan, args)]
     emit(args.json, data, _finish(lines, plan))
     return 1 if plan.within_allowance is False else 0
@@ -272,6 +277,14 @@ def _unb(x: float, args) -> str:
     from toolkit.units import Q_
 
     return format_quantity(Q_(x, "g*mm"), system.unbalance)
+
+
+def _length(x: float, args) -> str:
+    from toolkit.units import format_number, unit_system
+
+    if unit_system(args.units).name == "metric":
+        return f"{round(x, 2):g} mm"
+    return f"{format_number(x / 25.4)} in"
 
 
 def _mass(x: float, args) -> str:

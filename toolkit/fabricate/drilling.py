@@ -378,12 +378,13 @@ class DrillResult:
                 f"centres {chord:.1f} mm apart on the {surface:g} mm radius (at least "
                 f"{self.limits.spacing_ratio:g}·d = {self.limits.spacing_ratio * self.diameter_mm:.1f} mm)")
 
-    def placement(self) -> str:
-        """Where to drill, in words, including the add/remove conversion."""
+    def placement(self, unb=None) -> str:
+        """Where the correction goes, in words; ``unb`` formats an unbalance in g·mm (default metric)."""
+        unb = unb or (lambda x: f"{_fmt(x)} g·mm")
         if self.given_action == "add":
-            return (f"correction given as add {_fmt(self.requested_g_mm)} g·mm at {self.given_angle_deg:g}°: "
+            return (f"correction given as add {unb(self.requested_g_mm)} at {self.given_angle_deg:g}°: "
                     f"remove it at the heavy spot, {self.remove_angle_deg:g}° (= {self.given_angle_deg:g}° + 180°)")
-        return f"remove {_fmt(self.requested_g_mm)} g·mm at the heavy spot, {self.remove_angle_deg:g}°"
+        return f"remove {unb(self.requested_g_mm)} at the heavy spot, {self.remove_angle_deg:g}°"
 
     def to_dict(self) -> dict:
         return {

@@ -98,7 +98,33 @@ class Plan:
         }
 
 
-def _ops_drill(r: drilling.DrillResult) -> tuple[Operation, ...]:
+class _Say:
+    """Lengths and masses in words, in the chosen unit system (metric: mm, g; imperial: in, oz)."""
+
+    def __init__(self, units: str = "metric"):
+        from toolkit.units import unit_system
+
+        self.system = unit_system(units)
+
+    def len(self, mm: float, decimals: int = 1) -> str:
+        if self.system.name == "metric":
+            return f"{mm:.{decimals}f} mm" if decimals is not None else f"{mm:g} mm"
+        return f"{mm / 25.4:.{decimals + 2 if decimals is not None else 4}f} in"
+
+    def dim(self, mm: float) -> str:
+        return f"{mm:g} mm" if self.system.name == "metric" else f"{mm / 25.4:.4g} in"
+
+    def mass(self, g: float) -> str:
+        return f"{_fmt(g)} g" if self.system.name == "metric" else f"{_fmt(g / 28.349523125)} oz"
+
+    def unb(self, g_mm: float) -> str:
+        if self.system.name == "metric":
+            return f"{_fmt(g_mm)} g·mm"
+        return f"{_fmt(g_mm / (28.349523125 * 25.4))} oz·in"
+
+
+def _ops_drill(r: drilling.DrillResult, say: _Say | None = None) -> tuple[Operation, ...]:
+    say = say or _Say()
     ops = []
     for i, h in enumerate(r.holes, 1):
         where = "pitch radius" if r.orientation == "axial" else "surface radius"
@@ -107,12 +133,13 @@ def _ops_drill(r: drilling.DrillResult) -> tuple[Operation, ...]:
             {"diameter_mm": h.diameter_mm, "depth_mm": h.depth_mm, "tip_depth_mm": h.tip_depth_mm,
              "radius_mm": r.radius_mm},
             f"hole {i} of {len(r.holes)}: drill {r.orientation} {r.drill} ({r.point_angle_deg:g}° point) at "
-            f"{h.angle_deg:g}° on {r.radius_mm:g} mm {where}, {h.depth_mm:.1f} mm deep to the shoulder "
-            f"({h.tip_depth_mm:.1f} mm to the tip); removes {_fmt(h.mass_g)} g"))
+            f"{h.angle_deg:g}° on {say.dim(r.radius_mm)} {where}, {say.len(h.depth_mm)} deep to the shoulder "
+            f"({say.len(h.tip_depth_mm)} to the tip); removes {say.mass(h.mass_g)}"))
     return tuple(ops)
 
 
-def _ops_plate(p: plates.PlateResult) -> tuple[Operation, ...]:
+def _ops_plate(p: plates.PlateResult, say: _Say | None = None) -> tuple[Operation, ...]:
+    say = say or _Say()
     ops = []
     for i, a in enumerate(p.seat_angles_deg, 1):
         one = p.achieved_g_mm / len(p.seat_angles_deg) if p.seats == 1 else \
@@ -122,19 +149,20 @@ def _ops_plate(p: plates.PlateResult) -> tuple[Operation, ...]:
             {"thickness_mm": p.thickness_mm, "width_mm": p.width_mm, "length_mm": p.length_mm,
              "fillet_mm": p.fillet_mm, "centroid_radius_mm": p.centroid_radius_mm},
             f"plate{'' if p.seats == 1 else f' {i} of 2'}: weld a {p.shape} {p.thickness_label} plate "
-            f"{p.width_mm:g} × {p.length_mm:g} mm ({_fmt(p.mass_g)} g, about {_fmt(p.weld_mass_g)} g of weld "
-            f"with {p.fillet_mm:g} mm fillets) on the {p.surface + ' surface' if p.shape != 'face' else 'face'} at {a:g}°, "
-            f"radius {p.radius_mm:g} mm"))
+            f"{say.dim(p.width_mm)} × {say.dim(p.length_mm)} ({say.mass(p.mass_g)}, about {say.mass(p.weld_mass_g)} "
+            f"of weld with {say.dim(p.fillet_mm)} fillets) on the "
+            f"{p.surface + ' surface' if p.shape != 'face' else 'face'} at {a:g}°, radius {say.dim(p.radius_mm)}"))
     return tuple(ops)
 
 
-def _ops_washers(s: washers.WasherStack) -> tuple[Operation, ...]:
+def _ops_washers(s: washers.WasherStack, say: _Say | None = None) -> tuple[Operation, ...]:
+    say = say or _Say()
     return (Operation(
         "washers", "add", s.add_angle_deg, s.mass_g, s.achieved_g_mm,
         {"size": s.size, "series": s.series, "count": s.count, "stack_height_mm": s.stack_height_mm,
          "centroid_radius_mm": s.centroid_radius_mm},
-        f"washers: stack {s.count} × {s.size} {s.series} ({_fmt(s.mass_g)} g) on the {s.orientation} bolt at "
-        f"{s.add_angle_deg:g}°, radius {s.radius_mm:g} mm"),)
+        f"washers: stack {s.count} × {s.size} {s.series} ({say.mass(s.mass_g)}) on the {s.orientation} bolt at "
+        f"{s.add_angle_deg:g}°, radius {say.dim(s.radius_mm)}"),)
 
 
 def _summarise(ops, U, angle, action):
@@ -154,7 +182,8 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
                     washer_table: str = "washers", limits: Limits | None = None, point_angle_deg: float = 118.0,
                     wall=None, fixed_positions=None, max_length=None, seat_offset_deg=None,
                     fillet=None, convexity=None, weld_run: str = "all-round",
-                    max_count: int = washers.DEFAULT_MAX_COUNT, materials_table: str = "materials") -> Plan:
+                    max_count: int = washers.DEFAULT_MAX_COUNT, materials_table: str = "materials",
+                    units: str = "metric") -> Plan:
     """Operations that carry out one correction, with the achieved vector and the allowance check.
 
     unbalance : Quantity [mass·length] (``"2400 g*mm"``) or [mass] with ``radius`` (``"38 g"``).
@@ -162,7 +191,8 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
     action : ``"add"`` or ``"remove"`` (how the correction is stated). allowance : Quantity [mass·length]
     or None (the predicted residual allowed for this correction). The other keywords go to
     :func:`~toolkit.fabricate.drilling.drill_correction`, :func:`~toolkit.fabricate.plates.weld_plate` or
-    :func:`~toolkit.fabricate.washers.washer_stack`.
+    :func:`~toolkit.fabricate.washers.washer_stack`. units : ``"metric"`` or ``"imperial"``, the units of
+    the operations' descriptions and the plan's reason (numbers in the records stay mm, g, g·mm).
 
     >>> p = plan_correction("2400 g*mm", 131, "drill", radius="150 mm", material="steel", action="add",
     ...                     allowance="20 g*mm")
@@ -178,11 +208,12 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
     allow = None if allowance is None else magnitude(allowance, "unbalance", "g*mm", "--allowance",
                                                      nonnegative=True)
     limits = limits or Limits()
+    say = _Say(units)
     attempts: list[tuple[str, object, tuple]] = []
 
     def run(label, fn, to_ops, **kw):
         res = fn(**kw)
-        ops = to_ops(res)
+        ops = to_ops(res, say)
         attempts.append((label, res, ops))
         return _summarise(ops, U, angle, action)[2]
 
@@ -250,8 +281,8 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
     if within is False:
         names = [a[0] for a in attempts]
         shown = ", ".join(names) if len(names) <= 4 else f"{', '.join(names[:2])}, ... {names[-1]} ({len(names)} options)"
-        reason = (f"no option within the allowance of {_fmt(allow)} g·mm: tried {shown}; "
-                  f"best leaves {_fmt(err)} g·mm; nearest: a finer tool or stock, or a second correction pass")
+        reason = (f"no option within the allowance of {say.unb(allow)}: tried {shown}; "
+                  f"best leaves {say.unb(err)}; nearest: a finer tool or stock, or a second correction pass")
     warnings = tuple(res.warnings) + ((reason,) if reason else ())
     return Plan(method, action, U, angle, ops, amount, ang, err, allow, within,
                 tuple(a[0] for a in attempts), reason, warnings, tuple(res.cautions), res)

@@ -170,11 +170,13 @@ class PlateResult:
     method: str = "plate and fillet geometry (DOMAIN.md section 3, derived)"
     cautions: tuple[str, ...] = CAUTIONS
 
-    def placement(self) -> str:
+    def placement(self, unb=None) -> str:
+        """Where the correction goes, in words; ``unb`` formats an unbalance in g·mm (default metric)."""
+        unb = unb or (lambda x: f"{_fmt(x)} g·mm")
         if self.given_action == "remove":
-            return (f"correction given as remove {_fmt(self.requested_g_mm)} g·mm at {self.given_angle_deg:g}°: "
+            return (f"correction given as remove {unb(self.requested_g_mm)} at {self.given_angle_deg:g}°: "
                     f"weld the plate opposite, at {self.add_angle_deg:g}° (= {self.given_angle_deg:g}° + 180°)")
-        return f"add {_fmt(self.requested_g_mm)} g·mm at {self.add_angle_deg:g}°"
+        return f"add {unb(self.requested_g_mm)} at {self.add_angle_deg:g}°"
 
     def to_dict(self) -> dict:
         out = asdict(self)

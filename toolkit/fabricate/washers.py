@@ -95,11 +95,13 @@ class WasherStack:
     method: str = "washer mass from standard dimensions; stack centroid (D)"
     cautions: tuple[str, ...] = CAUTIONS
 
-    def placement(self) -> str:
+    def placement(self, unb=None) -> str:
+        """Where the correction goes, in words; ``unb`` formats an unbalance in g·mm (default metric)."""
+        unb = unb or (lambda x: f"{_fmt(x)} g·mm")
         if self.given_action == "remove":
-            return (f"correction given as remove {_fmt(self.requested_g_mm)} g·mm at {self.given_angle_deg:g}°: "
+            return (f"correction given as remove {unb(self.requested_g_mm)} at {self.given_angle_deg:g}°: "
                     f"add the washers opposite, at {self.add_angle_deg:g}° (= {self.given_angle_deg:g}° + 180°)")
-        return f"add {_fmt(self.requested_g_mm)} g·mm at {self.add_angle_deg:g}°"
+        return f"add {unb(self.requested_g_mm)} at {self.add_angle_deg:g}°"
 
     def to_dict(self) -> dict:
         out = asdict(self)
