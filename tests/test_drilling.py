@@ -305,3 +305,13 @@ def test_rounding_respects_the_wall():
     r = drill_correction("764.35 g*mm", radius="100 mm", diameter="8 mm", material="steel", wall="25 mm",
                          limits=Limits(max_holes=1))
     assert r.depth_mm == pytest.approx(18.5) and 25 - r.tip_depth_mm >= 4
+
+
+@pytest.mark.parametrize("R, d, L", [(100, 10, 10), (150, 12, 20), (60, 8, 5)])
+def test_radial_volume_close_to_the_approximate_form(R, d, L):
+    # DOMAIN.md section 3 (D): V ~ pi r^2 (L + h/3) - pi r^4/(8R); the neglected terms are of order r^6/R^3,
+    # so the exact (quadrature) volume agrees to better than 1e-5 for these proportions
+    g = radial_hole(f"{d} mm", f"{L} mm", f"{R} mm", "1000 kg/m^3")
+    r, h = d / 2, d / 2 / math.tan(math.radians(59))
+    approx = math.pi * r * r * (L + h / 3) - math.pi * r ** 4 / (8 * R)
+    assert g.volume_mm3 == pytest.approx(approx, rel=1e-5)

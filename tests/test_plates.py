@@ -160,3 +160,14 @@ def test_too_small_for_a_plate():
         weld_plate("50 g*mm", radius="300 mm", width="30 mm", material="steel")
     p = weld_plate("5000 g*mm", radius="300 mm", width="30 mm", material="steel")
     assert p.length_mm >= max(10, 2 * p.fillet_mm)
+
+
+def test_inner_rolled_plate_sits_inside_the_radius():
+    # derived (D): inside a bore the sector lies between R - t and R, so its centroid is below R, and the
+    # weld fillets (centroid z/3 from the surface) sit at R - z/3
+    p = weld_plate("20000 g*mm", radius="400 mm", width="40 mm", shape="rolled", surface="inner",
+                   thickness="8 mm", material="steel")
+    assert 392 < p.centroid_radius_mm < 400
+    g = plate_geometry("rolled", "400 mm", "8 mm", "40 mm", f"{p.length_mm} mm", "7850 kg/m^3", surface="inner")
+    assert p.mass_g == pytest.approx(g["mass_g"])
+    assert p.achieved_g_mm > g["unbalance_g_mm"]  # the weld metal adds to it
