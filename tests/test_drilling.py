@@ -2,7 +2,6 @@
 independent 3-D integration of the radial hole, depth solving, drill choice, limits and hole patterns."""
 
 import math
-from pathlib import Path
 
 import numpy as np
 import pytest

@@ -1,6 +1,5 @@
 """Materials table: densities against an independent reference library, aliases, weldability, shop tables."""
 
-import hashlib
 from pathlib import Path
 
 import periodictable

@@ -1,8 +1,6 @@
 """Weld-on plates: the rolled-plate reference case, independent integration of the plate's first moment,
 weld allowance, stock choice, rounding, fit and weldability."""
 
-import math
-
 import numpy as np
 import pytest
 from hypothesis import given, settings, strategies as st

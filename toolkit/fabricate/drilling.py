@@ -18,7 +18,7 @@ used. Removal is at the heavy spot: a correction written "add U at θ" is drille
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, asdict, replace
+from dataclasses import dataclass, asdict
 
 import numpy as np
 

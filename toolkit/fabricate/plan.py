@@ -3,8 +3,9 @@ rounding, and whether the predicted residual stays within an allowance.
 
 The predicted residual is the vector difference between the requested correction and what the rounded
 operations achieve (D). If it exceeds the allowance, finer options are tried in order before giving up:
-smaller drills of the set (drilling), thinner stock and then finer size steps down to 0.1 mm (plates),
-smaller washers of the series (washers). A plan that still misses says so in ``reason``; it is returned, not
+smaller drills of the set (drilling), thinner stock and then finer size steps down to 0.1 mm (plates).
+For washers the stack chooser already takes the nearest size and count of the series; with a fixed size
+there is no finer option. A plan that still misses says so in ``reason``; it is returned, not
 raised, so a work order can show it.
 
 Angles and the add/remove sense: a correction is "add U at θ" or "remove U at θ". Holes remove at the heavy
@@ -16,7 +17,7 @@ from __future__ import annotations
 
 import cmath
 import math
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 
 from toolkit.errors import BadInput, Infeasible
 from toolkit.fabricate import drilling, plates, washers
