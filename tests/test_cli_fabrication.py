@@ -139,3 +139,11 @@ def test_imperial_text_uses_inch_and_ounce(capsys):
     assert code == 0
     assert "add 3.300 oz·in at 40°: remove it at the heavy spot, 220° (= 40° + 180°)" in out
     assert " in deep to the shoulder" in out and " oz" in out and " mm" not in out.split("Cautions:")[0]
+
+
+def test_plate_shows_material_note_and_ce_guidance(capsys):
+    code = main(["plate", "--unbalance", "38 g@307", "--radius", "620 mm", "--width", "40 mm", "--material",
+                 "42CrMo4", "--shape", "rolled", "--ce", "0.72"])
+    out = capsys.readouterr().out
+    assert code == 0 and "low-alloy steel: weldable only with a qualified procedure" in out
+    assert "CE 0.72: preheat" in out

@@ -115,3 +115,26 @@ def test_shop_table_and_malformed_table(tmp_path):
 def test_every_row_has_a_source_column():
     table = catalog.load("materials", MATERIAL_SCHEMA)
     assert "source" in table.columns
+
+
+@pytest.mark.parametrize("contents, expected", [
+    # derived here (D) by hand from the IIW formula (EN 1011-2 Annex C method A as reproduced, H)
+    (dict(C=0.20, Mn=1.20), 0.40),
+    (dict(C=0.40, Mn=0.75, Cr=1.0, Mo=0.2), 0.765),
+    (dict(C=0.10, Mn=0.6, Ni=1.5, Cu=0.3), 0.32),
+])
+def test_carbon_equivalent(contents, expected):
+    from toolkit.fabricate.materials import carbon_equivalent
+
+    assert carbon_equivalent(**contents) == pytest.approx(expected, abs=1e-12)
+
+
+def test_preheat_guidance_bands():
+    # EN 1011-2 Annex C as reproduced (H): below about 0.35 no preheat, above 0.45 preheat and more
+    from toolkit.fabricate.materials import preheat_guidance
+
+    assert "normally no preheat" in preheat_guidance(0.34)
+    assert "may be needed" in preheat_guidance(0.40)
+    assert "post-weld heat treatment" in preheat_guidance(0.46)
+    with pytest.raises(BadInput, match="--ce"):
+        preheat_guidance(7)

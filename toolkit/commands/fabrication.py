@@ -162,6 +162,8 @@ def configure_plate(parser) -> None:
                         help="plate stock CSV (columns thickness, unit, label, source)")
     parser.add_argument("--stock-unit", choices=("mm", "in"), default="mm", help="metric or inch stock (mm)")
     parser.add_argument("--max-length", metavar="LENGTH", help="room along the seat; longer plates are refused or split")
+    parser.add_argument("--ce", metavar="X",
+                        help="the rotor's IIW carbon equivalent, if known (e.g. 0.42): adds preheat guidance")
     parser.add_argument("--seat-offset", metavar="DEG",
                         help="when one seat is too short, split onto two seats at angle ± DEG")
     parser.set_defaults(run=run_plate)
@@ -177,6 +179,7 @@ def run_plate(args) -> int:
                            stock=args.stock, stock_unit=args.stock_unit, max_length=args.max_length,
                            seat_offset_deg=None if args.seat_offset is None else _number(args.seat_offset, "--seat-offset"),
                            fillet=args.fillet, weld_run=args.weld,
+                           ce=None if args.ce is None else _number(args.ce, "--ce"),
                            convexity=None if args.convexity is None else _number(args.convexity, "--convexity"),
                            materials_table=args.materials, units=args.units)
     p = plan.detail

@@ -18,7 +18,8 @@ from toolkit import catalog
 from toolkit.errors import BadInput, Infeasible
 from toolkit.units import magnitude
 
-__all__ = ["Material", "MATERIAL_SCHEMA", "materials", "find", "resolve_density", "require_weldable"]
+__all__ = ["Material", "MATERIAL_SCHEMA", "materials", "find", "resolve_density", "require_weldable",
+           "carbon_equivalent", "preheat_guidance"]
 
 MATERIAL_SCHEMA = {
     "name": catalog.text,
@@ -141,3 +142,36 @@ def require_weldable(density: Density) -> None:
     if m is not None and not m.weldable:
         raise Infeasible(f"{m.name} is marked not weldable ({m.notes or 'materials table'}); use drilled "
                          "holes (drill) or bolt-on washers (washers) instead")
+
+
+def carbon_equivalent(C: float, Mn: float = 0.0, Cr: float = 0.0, Mo: float = 0.0, V: float = 0.0,
+                      Ni: float = 0.0, Cu: float = 0.0) -> float:
+    """IIW carbon equivalent CE = C + Mn/6 + (Cr + Mo + V)/5 + (Ni + Cu)/15, contents in mass per cent
+    (EN 1011-2 Annex C, method A, as reproduced [H]). Valid for carbon and low-alloy steels.
+
+    >>> round(carbon_equivalent(C=0.20, Mn=1.20), 3), round(carbon_equivalent(0.40, 0.75, Cr=1.0, Mo=0.2), 3)
+    (0.4, 0.765)
+    """
+    values = {"C": C, "Mn": Mn, "Cr": Cr, "Mo": Mo, "V": V, "Ni": Ni, "Cu": Cu}
+    for name, v in values.items():
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not 0 <= v <= 30:
+            raise BadInput(f"{name}: {v!r} is not a content in per cent (0 to 30)")
+    return C + Mn / 6 + (Cr + Mo + V) / 5 + (Ni + Cu) / 15
+
+
+def preheat_guidance(ce: float) -> str:
+    """Plain-words guidance for a carbon equivalent (EN 1011-2 Annex C as reproduced [H]): below about 0.35
+    normally no preheat; above 0.45 preheat, low-hydrogen consumables and often post-weld heat treatment.
+
+    >>> preheat_guidance(0.30)[:24], preheat_guidance(0.50)[:24]
+    ('CE 0.30: normally no pre', 'CE 0.50: preheat, low-hy')
+    """
+    if isinstance(ce, bool) or not isinstance(ce, (int, float)) or not 0 <= ce <= 3:
+        raise BadInput(f"--ce: {ce!r} is not a carbon equivalent (0 to 3, e.g. 0.42)")
+    if ce < 0.35:
+        text = "normally no preheat"
+    elif ce <= 0.45:
+        text = "preheat may be needed depending on thickness and restraint"
+    else:
+        text = "preheat, low-hydrogen consumables and often post-weld heat treatment"
+    return (f"CE {ce:.2f}: {text} (EN 1011-2 Annex C as reproduced [H]); the welding procedure decides")

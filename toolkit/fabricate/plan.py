@@ -182,7 +182,7 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
                     stock="plate_stock", stock_unit: str = "mm", step="1 mm", size=None, series=None,
                     washer_table: str = "washers", limits: Limits | None = None, point_angle_deg: float = 118.0,
                     wall=None, fixed_positions=None, max_length=None, seat_offset_deg=None,
-                    fillet=None, convexity=None, weld_run: str = "all-round",
+                    fillet=None, convexity=None, weld_run: str = "all-round", ce: float | None = None,
                     max_count: int = washers.DEFAULT_MAX_COUNT, materials_table: str = "materials",
                     units: str = "metric") -> Plan:
     """Operations that carry out one correction, with the achieved vector and the allowance check.
@@ -240,7 +240,7 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
             raise BadInput("--width: a plate needs the seat's width, e.g. '40 mm'")
         kw = dict(common, width=width, shape=shape, surface=surface, stock=stock, stock_unit=stock_unit,
                   max_length=max_length, seat_offset_deg=seat_offset_deg, fillet=fillet, convexity=convexity,
-                  weld_run=weld_run)
+                  weld_run=weld_run, ce=ce)
         err = run("plate as chosen", plates.weld_plate, _ops_plate, correction=unbalance, thickness=thickness,
                   step=step, **kw)
         if allow is not None and err > allow:

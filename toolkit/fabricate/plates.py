@@ -22,7 +22,7 @@ from dataclasses import dataclass, asdict
 from toolkit.errors import BadInput, Infeasible
 from toolkit.fabricate import stock as _stock
 from toolkit.fabricate.drilling import correction_g_mm, solve_bracketed, _norm
-from toolkit.fabricate.materials import resolve_density, require_weldable
+from toolkit.fabricate.materials import preheat_guidance, require_weldable, resolve_density
 from toolkit.units import format_number as _fmt, magnitude
 from toolkit.vectors import parse_angle
 
@@ -205,7 +205,7 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
                angle_deg=0.0, action: str = "add", material=None, density=None, step="1 mm",
                fillet=None, convexity: float | None = None, weld_run: str = "all-round", stock="plate_stock",
                stock_unit: str = "mm", max_length=None, seat_offset_deg: float | None = None,
-               aspect: float = DEFAULT_ASPECT, include_weld: bool = True,
+               aspect: float = DEFAULT_ASPECT, include_weld: bool = True, ce: float | None = None,
                materials_table: str = "materials") -> PlateResult:
     """A weld-on plate that adds ``correction``, sized to stock thickness and rounded to ``step``.
 
@@ -217,7 +217,8 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     A plate shorter than max(10 mm, 2 fillet legs) [CP] is refused with washers or a hole suggested.
     max_length : the seat's room along the arc; if the plate does not fit and ``seat_offset_deg`` is given,
     the correction is split onto two seats at angle ± offset (each U / (2 cos offset)), else refused.
-    Materials marked not weldable are refused with another method suggested.
+    Materials marked not weldable are refused with another method suggested. ce : the rotor's IIW carbon
+    equivalent, if known; its preheat guidance and the material's welding note are added to the warnings.
 
     >>> p = weld_plate("38 g", radius="620 mm", width="40 mm", thickness="6 mm", shape="rolled",
     ...                material="steel")
@@ -247,6 +248,10 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     if not (isinstance(aspect, (int, float)) and aspect > 0):
         raise BadInput(f"aspect: {aspect!r} must be a number greater than zero")
     warnings = []
+    if dens.material is not None and dens.material.notes:
+        warnings.append(f"{dens.material.name}: {dens.material.notes}")
+    if ce is not None:
+        warnings.append(preheat_guidance(ce))
     w = float(max(st, round(round(w0 / st) * st, 9)))
     if abs(w - w0) > 1e-9:
         warnings.append(f"width {w0:g} mm rounded to the {st:g} mm step: {w:g} mm")
