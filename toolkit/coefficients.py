@@ -100,6 +100,15 @@ def save_coefficients(coefficients: Coefficients, path, *, force: bool = False) 
 _KIND_OF_UNIT = {"mm/s": "vibration velocity", "um": "displacement", "m/s^2": "acceleration"}
 
 
+def _names(value, field: str) -> tuple[str, ...]:
+    """A list of distinct non-empty names from a coefficients file, or BadInput naming the field."""
+    if not isinstance(value, list) or not value or not all(isinstance(v, str) and v.strip() for v in value):
+        raise BadInput(f"{field}: need a list of names")
+    if len(set(value)) != len(value):
+        raise BadInput(f"{field}: names must differ")
+    return tuple(value)
+
+
 def load_coefficients(path) -> Coefficients:
     """Read a coefficients file; every error names the file and the field."""
     p = Path(path)
@@ -116,15 +125,15 @@ def load_coefficients(path) -> Coefficients:
     if data.get("version") != 1:
         raise BadInput(f"{p}: version: {data.get('version')!r} is not supported; this program reads version 1")
     try:
-        sensors = tuple(data["sensors"])
-        planes = tuple(data["planes"])
+        sensors = _names(data["sensors"], f"{p}: sensors")
+        planes = _names(data["planes"], f"{p}: planes")
         unit = data["reading_unit"]
         rows = data["coefficients"]
         weight_angles = _weight_sense(data["weight_angles"], f"{p}: weight_angles")
         phase = _phase_sense(data["phase"], f"{p}: phase")
     except KeyError as exc:
         raise BadInput(f"{p}: {exc.args[0]}: missing") from None
-    if unit not in _KIND_OF_UNIT:
+    if not isinstance(unit, str) or unit not in _KIND_OF_UNIT:
         raise BadInput(f"{p}: reading_unit: {unit!r} is not one of {', '.join(_KIND_OF_UNIT)}")
     if not isinstance(rows, list) or len(rows) != len(sensors) or not sensors or not planes:
         raise BadInput(f"{p}: coefficients: need one row per sensor ({len(sensors)})")
@@ -143,9 +152,17 @@ def load_coefficients(path) -> Coefficients:
             out.append(amount * complex(math.cos(math.radians(angle)), math.sin(math.radians(angle))))
         matrix.append(tuple(out))
     radius = data.get("radius_mm") or {}
+    if not isinstance(radius, dict) or not all(
+            isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) and v > 0
+            for v in radius.values()):
+        raise BadInput(f"{p}: radius_mm: need a table of plane names and positive radii in mm")
+    speed = data.get("speed_rpm")
+    if speed is not None and (isinstance(speed, bool) or not isinstance(speed, (int, float))
+                              or not math.isfinite(speed) or speed <= 0):
+        raise BadInput(f"{p}: speed_rpm: {speed!r} is not a positive number of r/min")
     return Coefficients(sensors=sensors, planes=planes, matrix=tuple(matrix), weight_angles=weight_angles,
                         phase=phase, reading_unit=unit, reading_kind=_KIND_OF_UNIT[unit],
-                        speed_rpm=data.get("speed_rpm"), radius_mm=tuple((k, float(v)) for k, v in radius.items()),
+                        speed_rpm=speed, radius_mm=tuple((k, float(v)) for k, v in radius.items()),
                         saved=str(data.get("saved", "")), note=str(data.get("note", "")))
 
 

@@ -156,6 +156,8 @@ def _kind(kind: str | Kind) -> Kind:
 def _check_finite(mag, name: str, shown) -> None:
     try:
         finite = math.isfinite(mag)
+    except OverflowError:  # an integer beyond the float range, e.g. '2**1024 kg'
+        finite = False
     except TypeError:  # an array
         import numpy as np
 
