@@ -45,9 +45,10 @@ SETTINGS = settings(max_examples=_HUNT or 20, deadline=None, derandomize=not _HU
 
 def run_cli(argv: list[str]) -> tuple[int, str, str]:
     """Run ``main(argv)`` with stdout and stderr captured; Python warnings are shown every time so a leak
-    cannot hide behind the once-per-location default."""
+    cannot hide behind the once-per-location default. Paths in ``argv`` must be absolute."""
     out, err = io.StringIO(), io.StringIO()
-    with warnings.catch_warnings():
+    # in a scratch working folder: a generated "demo" without --out writes there, not into the project
+    with warnings.catch_warnings(), tempfile.TemporaryDirectory() as scratch, contextlib.chdir(scratch):
         warnings.simplefilter("always")
         with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
             rc = main(argv)
