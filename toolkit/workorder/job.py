@@ -42,6 +42,7 @@ given and what is allowed. ``tomllib`` gives no line numbers, so :func:`key_line
 
 from __future__ import annotations
 
+import functools
 import math
 import re
 import tomllib
@@ -360,6 +361,15 @@ def _text(ck: _Checker, table: Mapping, path: tuple, required: bool = False, def
     return value
 
 
+@functools.lru_cache(maxsize=4096)
+def _parsed(text: str, kind: str, positive: bool, nonnegative: bool):
+    """A quantity parsed from text, cached: planner rows repeat the same values ("412 kg", "1480 rpm") and
+    parsing is the costly part of validating a row. Errors are not cached (they raise)."""
+    from toolkit.units import quantity
+
+    return quantity(text, kind, "\x00", positive=positive, nonnegative=nonnegative)
+
+
 def _quantity(ck: _Checker, table: Mapping, path: tuple, kind: str, required: bool = False,
               positive: bool = False, nonnegative: bool = False):
     from toolkit.units import quantity
@@ -372,6 +382,8 @@ def _quantity(ck: _Checker, table: Mapping, path: tuple, kind: str, required: bo
             ck.add(path, f"missing; give a {kind} with its unit, e.g. \"{UNIT_KINDS[kind].example}\"")
         return None
     try:
+        if isinstance(value, str):
+            return _parsed(value, kind, positive, nonnegative)
         return quantity(value, kind, "\x00", positive=positive, nonnegative=nonnegative)
     except BadInput as exc:
         ck.add(path, _strip_name(str(exc), value))

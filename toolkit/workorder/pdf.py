@@ -20,8 +20,10 @@ Output is deterministic for the same work order (reportlab's invariant mode, fix
 
 from __future__ import annotations
 
+import functools
 import math
 import unicodedata
+from contextlib import contextmanager
 from io import BytesIO
 from pathlib import Path
 
@@ -60,6 +62,33 @@ def _latin(text) -> str:
             folded = unicodedata.normalize("NFKD", ch).encode("latin-1", "ignore").decode("latin-1")
             out.append(folded or _FOLD.get(ch, "?"))
     return "".join(out)
+
+
+@contextmanager
+def _binary_streams():
+    """Write page streams Flate-compressed without the ASCII85 text layer while we draw and save.
+
+    reportlab reads this switch (``rl_config.useA85``) when a stream is created and written; ASCII85
+    only makes a PDF 7-bit clean and, in reportlab's pure-Python fallback, costs about a tenth of the
+    rendering time. The previous value is restored afterwards.
+    """
+    from reportlab import rl_config
+
+    previous = rl_config.useA85
+    rl_config.useA85 = 0
+    try:
+        yield
+    finally:
+        rl_config.useA85 = previous
+
+
+@functools.lru_cache(maxsize=8192)
+def _wrap(text: str, font: str, size: float, width: float) -> tuple[str, ...]:
+    """Lines of ``text`` that fit ``width`` points (cached: labels, cautions and sources repeat in every
+    order of a batch)."""
+    from reportlab.lib.utils import simpleSplit
+
+    return tuple(simpleSplit(text, font, size, width))
 
 
 class _Doc:
@@ -143,13 +172,12 @@ class _Writer:
         self.y -= 17
 
     def paragraph(self, text: str, size: float = 8.5, color=_INK, font: str = "Helvetica", indent: float = 0):
-        from reportlab.lib.utils import simpleSplit
-
-        lines = simpleSplit(_latin(text), font, size, _W - 2 * _M - indent)
-        for line in lines:
-            self.ensure(size + 3)
-            self.c.setFont(font, size)
-            self.c.setFillColorRGB(*color)
+        lines = _wrap(_latin(text), font, size, _W - 2 * _M - indent)
+        for n, line in enumerate(lines):
+            if n == 0 or self.y - size - 3 < 44:
+                self.ensure(size + 3)
+                self.c.setFont(font, size)
+                self.c.setFillColorRGB(*color)
             self.c.drawString(_M + indent, self.y, line)
             self.y -= size + 2.5
         self.y -= 2
@@ -158,8 +186,6 @@ class _Writer:
               boxes: bool = False, row_height: float | None = None, titles: bool = True):
         """Columns: (title, width as a fraction of the text width). Cells wrap. ``boxes`` draws an empty
         tick box in the first column."""
-        from reportlab.lib.utils import simpleSplit
-
         width = _W - 2 * _M
         xs = [_M]
         for _, frac in columns:
@@ -180,7 +206,7 @@ class _Writer:
 
         header()
         for row in rows:
-            wrapped = [simpleSplit(_latin(cell), "Helvetica", size, (xs[i + 1] - xs[i]) - 5) or [""]
+            wrapped = [_wrap(_latin(cell), "Helvetica", size, (xs[i + 1] - xs[i]) - 5) or ("",)
                        for i, cell in enumerate(row)]
             height = max(len(w) for w in wrapped) * (size + 2) + 3
             if row_height:
@@ -189,9 +215,9 @@ class _Writer:
                 self.ensure(height + 40)
                 header()
             top = self.y
+            c.setFont("Helvetica", size)
+            c.setFillColorRGB(*_INK)
             for i, lines in enumerate(wrapped):
-                c.setFont("Helvetica", size)
-                c.setFillColorRGB(*_INK)
                 for k, line in enumerate(lines):
                     c.drawString(xs[i] + 2 + (11 if boxes and i == 0 and k == 0 else 0), top - k * (size + 2), line)
             if boxes:
@@ -381,8 +407,6 @@ def _diagram(c, plane: PlaneOrder, fmt: Formatter, order: WorkOrder, x0: float, 
               "washers": "stacked bars: washers (add)", "mass": "diamond: added mass"}
     for kind in sorted({op.kind for op in plane.operations}):
         entries.append((kind, _INK, shapes[kind]))
-    from reportlab.lib.utils import simpleSplit
-
     for kind, color, text in entries:
         c.setStrokeColorRGB(*color)
         c.setFillColorRGB(*color)
@@ -401,7 +425,7 @@ def _diagram(c, plane: PlaneOrder, fmt: Formatter, order: WorkOrder, x0: float, 
             _legend_marker(c, kind, lx - 20, ly + 2)
         c.setDash()
         c.setFillColorRGB(*_INK)
-        lines = simpleSplit(_latin(text), "Helvetica", 7, x0 + width - lx)
+        lines = _wrap(_latin(text), "Helvetica", 7, x0 + width - lx)
         for k, line in enumerate(lines):
             c.drawString(lx - 4, ly - k * 8.5, line)
         ly -= 8.5 * len(lines) + 6
@@ -560,9 +584,10 @@ def render(doc: _Doc, order: WorkOrder) -> None:
 def to_bytes(order: WorkOrder) -> bytes:
     """The PDF of one work order as bytes (deterministic for the same order)."""
     buffer = BytesIO()
-    doc = _Doc(buffer)
-    render(doc, order)
-    doc.save()
+    with _binary_streams():
+        doc = _Doc(buffer)
+        render(doc, order)
+        doc.save()
     return buffer.getvalue()
 
 
@@ -577,17 +602,20 @@ class Document:
 
     def __init__(self):
         self._buffer = BytesIO()
-        self._doc = _Doc(self._buffer)
+        with _binary_streams():
+            self._doc = _Doc(self._buffer)
         self.orders = 0
 
     def add(self, order: WorkOrder) -> None:
-        render(self._doc, order)
+        with _binary_streams():
+            render(self._doc, order)
         self.orders += 1
 
     def finish(self) -> bytes:
         """The finished PDF (call once)."""
-        self._doc.c.setTitle("Work orders")
-        self._doc.save()
+        with _binary_streams():
+            self._doc.c.setTitle("Work orders")
+            self._doc.save()
         return self._buffer.getvalue()
 
 
