@@ -603,3 +603,185 @@ def test_coefficient_file_fields_are_checked(coefficients, tmp_path, field, valu
                           "--original", "20 um@250", "--original", "15 um@80"])
     assert rc == 2
     assert field in err, err
+
+
+# -- planner sheets (batch) -----------------------------------------------------------------------------------------
+
+PLANNER = EXAMPLES / "planner.csv"
+
+
+def _planner_rows() -> list[list[str]]:
+    import csv
+
+    with PLANNER.open(encoding="utf-8", newline="") as handle:
+        return [row for row in csv.reader(handle)]
+
+
+def _csv_bytes(rows) -> bytes:
+    import csv
+
+    buffer = io.StringIO()
+    csv.writer(buffer, lineterminator="\n").writerows(rows)
+    return buffer.getvalue().encode("utf-8", "surrogateescape")
+
+
+PLANNER_CELL = st.one_of(SPECIAL, QUANTITY, VECTOR, ANGLE, st.text(max_size=16),
+                         st.sampled_from(["", "drill;plate", "washers", "laser", "1 g@1;2", "job-fan-runs.toml",
+                                          "../../etc/passwd", "=HYPERLINK(\"x\")"]))
+
+
+@st.composite
+def spoiled_planner(draw) -> list[list]:
+    """The invented example planner (header and the first and third rows, to stay quick) with one to
+    three cells replaced, rows cut short or lengthened, or a stray row added."""
+    rows = _planner_rows()
+    rows = [rows[0], rows[1], rows[3]]
+    for _ in range(draw(st.integers(min_value=1, max_value=3))):
+        action = draw(st.sampled_from(["cell", "cell", "cell", "short", "long", "stray", "header"]))
+        r = draw(st.integers(min_value=1, max_value=len(rows) - 1))
+        if action == "cell":
+            c = draw(st.integers(min_value=0, max_value=len(rows[r]) - 1))
+            rows[r] = rows[r][:c] + [draw(PLANNER_CELL)] + rows[r][c + 1:]
+        elif action == "short":
+            rows[r] = rows[r][:draw(st.integers(min_value=0, max_value=len(rows[r])))]
+        elif action == "long":
+            rows[r] = rows[r] + [draw(PLANNER_CELL)]
+        elif action == "stray":
+            rows.append([draw(PLANNER_CELL) for _ in range(draw(st.integers(min_value=1, max_value=4)))])
+        else:
+            c = draw(st.integers(min_value=0, max_value=len(rows[0]) - 1))
+            rows[0] = rows[0][:c] + [draw(st.sampled_from(["", "order", "Mass ", "bogus", "plane3_name"]))] \
+                + rows[0][c + 1:]
+    return rows
+
+
+def _run_batch(sheet: Path, tmp: Path):
+    for companion in EXAMPLES.glob("job-*.toml"):  # the example's "job" column refers to a file beside it
+        shutil.copy(companion, sheet.parent / companion.name)
+    return check(["batch", str(sheet), "--out", str(tmp / "out"), "--json"])
+
+
+def _printable(cell):
+    """A cell without the control characters a workbook cannot hold (they have their own test below)."""
+    from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
+
+    return ILLEGAL_CHARACTERS_RE.sub("?", cell) if isinstance(cell, str) else cell
+
+
+@SETTINGS
+@given(rows=spoiled_planner(), tail=st.sampled_from([b"", b"", b"\xff\xfe", b"\xe9t\xe9", b"\r\n,,,\r\n"]))
+def test_spoiled_planner_csv(rows, tail):
+    with tempfile.TemporaryDirectory() as tmp:
+        tmp = Path(tmp)
+        sheet = tmp / "planner.csv"
+        sheet.write_bytes(_csv_bytes([[_printable(c) for c in row] for row in rows]) + tail)
+        _run_batch(sheet, tmp)
+
+
+@pytest.mark.xfail(strict=True, reason="issue 5 still open: a control character in a planner cell ends in "
+                                       "openpyxl's IllegalCharacterError")
+@pytest.mark.parametrize("column, char", [("order", "\x00"), ("rotor", "\x1f"), ("plane1_name", "\x0b")])
+def test_control_characters_in_planner_cells(tmp_path, column, char):
+    # seen at 22:58 UTC: exit 3 (IllegalCharacterError), and openpyxl's write-only generator then prints
+    # "Exception ignored ... Traceback" on stderr when it is collected
+    rows = _planner_rows()
+    rows[1] = list(rows[1])
+    rows[1][rows[0].index(column)] += f"{char}z"
+    sheet = tmp_path / "planner.csv"
+    sheet.write_bytes(_csv_bytes(rows))
+    _run_batch(sheet, tmp_path)
+
+
+XLSX_CELL = st.one_of(PLANNER_CELL, st.integers(min_value=-10**20, max_value=10**20),
+                      st.floats(allow_nan=False), st.booleans(), st.none(),
+                      st.datetimes(min_value=__import__("datetime").datetime(1900, 3, 1)),
+                      st.sampled_from(["=1/0", "=NA()", "=A1", "=SUM(1,2)"]))
+
+
+@SETTINGS
+@given(rows=spoiled_planner(), extra=st.lists(XLSX_CELL, max_size=3))
+def test_spoiled_planner_xlsx(rows, extra):
+    from openpyxl import Workbook
+
+    with tempfile.TemporaryDirectory() as tmp:
+        tmp = Path(tmp)
+        book = Workbook()
+        sheet = book.active
+        for row in rows:
+            sheet.append([_printable(c.replace("\udcff", "?")) for c in row])
+        if extra:
+            sheet.append(["PL-9", "typed cells (invented example)", *map(_printable, extra)])
+        path = tmp / "planner.xlsx"
+        book.save(path)
+        _run_batch(path, tmp)
+
+
+def test_broken_row_is_reported_and_the_others_finish(tmp_path):
+    rows = _planner_rows()
+    header = rows[0]
+    rows[2] = list(rows[2])
+    rows[2][header.index("mass")] = "heavy"        # row 3 of the sheet (the header is row 1)
+    sheet = tmp_path / "planner.csv"
+    sheet.write_bytes(_csv_bytes(rows))
+    rc, out, err = _run_batch(sheet, tmp_path)
+    assert rc == 1  # done, but a row failed
+    data = json.loads(out)
+    text = json.dumps(data)
+    assert "row 3" in text or '"row": 3' in text or "[3," in text, text[:2000]
+    assert "mass" in text
+    written = {Path(f).name for f in data["files"]}
+    assert {"PL-0001.pdf", "PL-0003.pdf"} <= written and "PL-0002.pdf" not in written
+
+
+def test_text_file_renamed_xlsx_is_refused(tmp_path):
+    sheet = tmp_path / "planner.xlsx"
+    sheet.write_bytes(PLANNER.read_bytes())
+    rc, out, err = check(["batch", str(sheet), "--out", str(tmp_path / "out")])
+    assert rc == 2
+    assert str(sheet) in err
+
+
+def _xlsx_with_huge_cell(path: Path, megabytes: int) -> None:
+    """A real workbook whose sheet holds one inline cell of ``megabytes`` MB of one letter: a few hundred
+    kB on disk (a zip bomb in the small)."""
+    import zipfile
+
+    from openpyxl import Workbook
+
+    base = path.with_suffix(".base.xlsx")
+    book = Workbook()
+    book.active.append(["order", "rotor", "mass"])
+    book.active.append(["X-1", "invented example", "412 kg"])
+    book.save(base)
+    with zipfile.ZipFile(base) as src, zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED) as dst:
+        for item in src.infolist():
+            data = src.read(item.filename)
+            if item.filename != "xl/worksheets/sheet1.xml":
+                dst.writestr(item, data)
+                continue
+            head, tail = data.split(b"</sheetData>")
+            with dst.open(item.filename, "w", force_zip64=True) as member:
+                member.write(head + b'<row r="3"><c r="A3" t="inlineStr"><is><t>')
+                chunk = b"A" * (1 << 20)
+                for _ in range(megabytes):
+                    member.write(chunk)
+                member.write(b"</t></is></c></row></sheetData>" + tail)
+    base.unlink()
+
+
+MEASURE = ("import resource, sys\nfrom toolkit.cli import main\nrc = main(sys.argv[1:])\n"
+           "print('peak-kB', resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)\nsys.exit(rc)\n")
+
+
+@pytest.mark.xfail(strict=True, reason="issue 5 still open: a 300 MB cell is read whole (about 680 MB peak)")
+def test_zip_bomb_sheet_is_refused_within_memory(tmp_path):
+    sheet = tmp_path / "planner.xlsx"
+    _xlsx_with_huge_cell(sheet, 300)
+    assert sheet.stat().st_size < 2_000_000
+    result = subprocess.run([sys.executable, "-c", MEASURE, "batch", str(sheet), "--out", str(tmp_path / "out")],
+                            capture_output=True, timeout=120)
+    err = result.stderr.decode("utf-8", "replace")
+    peak_mb = int(result.stdout.split(b"peak-kB")[-1]) / 1024
+    assert result.returncode == 2, err
+    assert len(err.splitlines()) == 1 and "Traceback" not in err, err
+    assert peak_mb < 500, peak_mb  # issue 6: well under the 500 MB a 10,000-row sheet may use
