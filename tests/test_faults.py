@@ -682,7 +682,7 @@ def test_spoiled_planner_csv(rows, tail):
                                        "openpyxl's IllegalCharacterError")
 @pytest.mark.parametrize("column, char", [("order", "\x00"), ("rotor", "\x1f"), ("plane1_name", "\x0b")])
 def test_control_characters_in_planner_cells(tmp_path, column, char):
-    # seen at 22:58 UTC: exit 3 (IllegalCharacterError), and openpyxl's write-only generator then prints
+    # seen while writing this file: exit 3 (IllegalCharacterError), and openpyxl's write-only generator then prints
     # "Exception ignored ... Traceback" on stderr when it is collected
     rows = _planner_rows()
     rows[1] = list(rows[1])
