@@ -1,0 +1,244 @@
+"""Planner batches: our 1,000-rotor batch against a plain openpyxl + reportlab writer, and peak memory.
+
+    python benchmarks/bench_batch.py [--rotors 1000] [--runs 3] [--memory-rows 10000] [--format xlsx]
+
+1. Time. ``counterpoise batch`` on a planner sheet of invented rotors (the rows of examples/planner.csv
+   repeated with their own order numbers and readings varied) is timed end to end in a child process. The
+   baseline, run alternately in the same session, writes the same output with openpyxl and reportlab
+   directly: the same cells in the summary workbook (read back from our summary), and, for every work order,
+   the same number of pages carrying the same text (extracted from our PDFs with pypdf) and the same polar
+   diagrams' worth of vector drawing, both as one PDF per rotor and as the combined PDF. The baseline
+   parses nothing, computes nothing and lays nothing out: it is the floor of writing these files. Target:
+   ours at most 1.5x the baseline (issue 6), median of ``--runs``.
+2. Memory. ``counterpoise batch`` on a ``--memory-rows`` sheet in a child process that reports its own peak
+   resident set (``ru_maxrss``). Target: under 500 MB (issue 6). The floor, a child that imports the same
+   modules and does nothing, is printed beside it.
+
+Every rotor in these sheets is an invented example.
+"""
+
+from __future__ import annotations
+
+import argparse
+import csv
+import math
+import random
+import shutil
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+EXAMPLES = ROOT / "examples"
+
+CHILD_BATCH = (
+    "import resource, sys, time\n"
+    "start = time.perf_counter()\n"
+    "from toolkit.cli import main\n"
+    "rc = main(['batch', sys.argv[1], '--out', sys.argv[2], '--force', '--json'])\n"
+    "sys.stderr.write(f'elapsed {time.perf_counter() - start} peak-kB '\n"
+    "                 f'{resource.getrusage(resource.RUSAGE_SELF).ru_maxrss}\\n')\n"
+    "sys.exit(0 if rc in (0, 1) else rc)\n"
+)
+CHILD_FLOOR = (
+    "import resource, sys\n"
+    "import toolkit.cli, toolkit.workorder.batch, toolkit.workorder.build, toolkit.workorder.pdf, openpyxl\n"
+    "sys.stderr.write(f'peak-kB {resource.getrusage(resource.RUSAGE_SELF).ru_maxrss}\\n')\n"
+)
+CHILD_BASELINE = (
+    "import pickle, resource, sys, time\n"
+    "start = time.perf_counter()\n"
+    "sys.path.insert(0, sys.argv[3])\n"
+    "from bench_batch import write_baseline\n"
+    "with open(sys.argv[1], 'rb') as handle:\n"
+    "    plan = pickle.load(handle)\n"
+    "write_baseline(plan, sys.argv[2])\n"
+    "sys.stderr.write(f'elapsed {time.perf_counter() - start} peak-kB '\n"
+    "                 f'{resource.getrusage(resource.RUSAGE_SELF).ru_maxrss}\\n')\n"
+)
+
+
+# -- the invented planner sheet ---------------------------------------------------------------------------------
+
+def _vary(reading: str, rng: random.Random) -> str:
+    amount, angle = reading.split("@")
+    number, unit = amount.split(" ", 1)
+    return f"{float(number) * rng.uniform(0.8, 1.2):.4g} {unit}@{(float(angle) + rng.uniform(-40, 40)) % 360:.1f}"
+
+
+def planner(path: Path, rotors: int, seed: int = 7) -> Path:
+    """A planner sheet (.csv or .xlsx by suffix) of ``rotors`` invented rotors, with the example job files
+    its rows refer to copied beside it."""
+    rng = random.Random(seed)
+    with (EXAMPLES / "planner.csv").open(encoding="utf-8", newline="") as handle:
+        header, *examples = list(csv.reader(handle))
+    rows = []
+    for i in range(rotors):
+        row = list(examples[i % len(examples)])
+        row[header.index("order")] = f"BENCH-{i + 1:05d}"
+        for column in ("plane1_reading", "plane2_reading"):
+            j = header.index(column)
+            if row[j]:
+                row[j] = _vary(row[j], rng)
+        rows.append(row)
+    for job in EXAMPLES.glob("job-*.toml"):
+        shutil.copy(job, path.parent / job.name)
+    if path.suffix == ".csv":
+        with path.open("w", encoding="utf-8", newline="") as handle:
+            csv.writer(handle).writerows([header, *rows])
+    else:
+        from openpyxl import Workbook
+
+        book = Workbook(write_only=True)
+        sheet = book.create_sheet("planner")
+        sheet.append(header)
+        for row in rows:
+            sheet.append(row)
+        book.save(path)
+    return path
+
+
+# -- what our batch wrote, as plain data for the baseline ---------------------------------------------------------
+
+def plan_from_output(out: Path) -> dict:
+    """The cells of our summary workbook and, per PDF, the text of every page and the count of diagrams."""
+    from openpyxl import load_workbook
+    from pypdf import PdfReader
+
+    summary = next(out.glob("*-summary.xlsx"))
+    book = load_workbook(summary, read_only=True)
+    cells = [list(row) for row in book.worksheets[0].iter_rows(values_only=True)]
+    book.close()
+    orders = []
+    for pdf in sorted(out.glob("*.pdf")):
+        if pdf.name.endswith("-orders.pdf"):
+            continue
+        reader = PdfReader(pdf)
+        pages = [page.extract_text() or "" for page in reader.pages]
+        planes = sum(text.count("Plane ") for text in pages[:1]) or 2
+        orders.append({"name": pdf.name, "pages": pages, "diagrams": min(planes, 2)})
+    return {"summary": cells, "orders": orders}
+
+
+def _page(canvas, text: str, diagrams: int, page_number: int) -> None:
+    from reportlab.lib.pagesizes import A4
+
+    width, height = A4
+    canvas.setFont("Helvetica", 8)
+    y = height - 40
+    for line in text.splitlines():
+        canvas.drawString(36, y, line[:160])
+        y -= 10
+        if y < 40:
+            break
+    if page_number == 0:
+        for k in range(diagrams):  # a polar diagram: rings, spokes, ticks, vectors, labels
+            cx, cy, r = 150 + 260 * k, 200, 90
+            canvas.circle(cx, cy, r)
+            canvas.circle(cx, cy, r * 0.4)
+            for a in range(0, 360, 10):
+                t = math.radians(a)
+                inner = r * (0.92 if a % 30 else 0.85)
+                canvas.line(cx + inner * math.cos(t), cy + inner * math.sin(t), cx + r * math.cos(t),
+                            cy + r * math.sin(t))
+                if a % 30 == 0:
+                    canvas.drawString(cx + (r + 6) * math.cos(t), cy + (r + 6) * math.sin(t), f"{a}°")
+            for a in (40, 130, 220, 310):
+                t = math.radians(a)
+                canvas.line(cx, cy, cx + 0.7 * r * math.cos(t), cy + 0.7 * r * math.sin(t))
+                canvas.rect(cx + 0.7 * r * math.cos(t) - 3, cy + 0.7 * r * math.sin(t) - 3, 6, 6, fill=1)
+    canvas.showPage()
+
+
+def write_baseline(plan: dict, out: str) -> None:
+    """Write the same cells and pages with openpyxl and reportlab directly (plain files, no checks)."""
+    from openpyxl import Workbook
+    from reportlab.lib.pagesizes import A4
+    from reportlab.pdfgen.canvas import Canvas
+
+    folder = Path(out)
+    folder.mkdir(parents=True, exist_ok=True)
+    combined = Canvas(str(folder / "baseline-orders.pdf"), pagesize=A4)
+    for order in plan["orders"]:
+        single = Canvas(str(folder / order["name"]), pagesize=A4)
+        for i, text in enumerate(order["pages"]):
+            _page(single, text, order["diagrams"], i)
+            _page(combined, text, order["diagrams"], i)
+        single.save()
+    combined.save()
+    book = Workbook(write_only=True)
+    sheet = book.create_sheet("Summary")
+    for row in plan["summary"]:
+        sheet.append(row)
+    book.save(folder / "baseline-summary.xlsx")
+
+
+# -- running and measuring -------------------------------------------------------------------------------------------
+
+def _child(code: str, *args: str) -> tuple[float, float]:
+    result = subprocess.run([sys.executable, "-c", code, *args], capture_output=True, text=True, timeout=3600)
+    if result.returncode != 0:
+        raise SystemExit(f"child failed ({result.returncode}): {result.stderr.strip()[-800:]}")
+    line = [ln for ln in result.stderr.splitlines() if "peak-kB" in ln][-1].split()
+    elapsed = float(line[line.index("elapsed") + 1]) if "elapsed" in line else math.nan
+    return elapsed, int(line[line.index("peak-kB") + 1]) / 1024
+
+
+def time_batch(rotors: int, runs: int, fmt: str) -> bool:
+    import pickle
+
+    with tempfile.TemporaryDirectory() as tmp:
+        tmp = Path(tmp)
+        sheet = planner(tmp / f"planner.{fmt}", rotors)
+        ours_out, base_out = tmp / "ours", tmp / "baseline"
+        _child(CHILD_BATCH, str(sheet), str(ours_out))  # warm-up, and the output the baseline copies
+        plan = plan_from_output(ours_out)
+        pages = sum(len(o["pages"]) for o in plan["orders"])
+        plan_file = tmp / "plan.pickle"
+        plan_file.write_bytes(pickle.dumps(plan))
+        t_ours, t_base = [], []
+        for _ in range(runs):
+            t_ours.append(_child(CHILD_BATCH, str(sheet), str(ours_out))[0])
+            shutil.rmtree(base_out, ignore_errors=True)
+            t_base.append(_child(CHILD_BASELINE, str(plan_file), str(base_out), str(Path(__file__).parent))[0])
+        a, b = statistics.median(t_ours), statistics.median(t_base)
+    ratio = a / b
+    verdict = "meets" if ratio <= 1.5 else "MISSES"
+    print(f"batch of {rotors:,} rotors ({fmt}; {len(plan['orders']):,} orders, {pages:,} pages each in the "
+          f"per-rotor and combined PDFs, {len(plan['summary']):,} summary rows)")
+    print(f"  counterpoise batch {a:8.2f} s   plain openpyxl + reportlab {b:8.2f} s   ratio {ratio:5.2f}  "
+          f"(target <= 1.5: {verdict})")
+    return ratio <= 1.5
+
+
+def memory_batch(rows: int, fmt: str) -> bool:
+    with tempfile.TemporaryDirectory() as tmp:
+        tmp = Path(tmp)
+        sheet = planner(tmp / f"planner.{fmt}", rows)
+        elapsed, peak = _child(CHILD_BATCH, str(sheet), str(tmp / "out"))
+        _none, floor = _child(CHILD_FLOOR)
+    verdict = "meets" if peak < 500 else "MISSES"
+    print(f"peak memory, batch of {rows:,} rows ({fmt}): {peak:7.1f} MB  (imports alone {floor:6.1f} MB; "
+          f"{elapsed:.1f} s; target < 500 MB: {verdict})")
+    return peak < 500
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--rotors", type=int, default=1000)
+    parser.add_argument("--runs", type=int, default=3)
+    parser.add_argument("--memory-rows", type=int, default=10_000, help="0 to skip the memory run")
+    parser.add_argument("--format", choices=("xlsx", "csv"), default="xlsx")
+    args = parser.parse_args(argv)
+    print(f"python {sys.version.split()[0]}; median of {args.runs} runs, alternating; invented rotors")
+    ok = [time_batch(args.rotors, args.runs, args.format)]
+    if args.memory_rows:
+        ok.append(memory_batch(args.memory_rows, args.format))
+    return 0 if all(ok) else 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())
