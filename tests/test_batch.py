@@ -164,3 +164,39 @@ def test_summary_is_readable_by_a_plain_csv_comparison(tmp_path):
     with open(EXAMPLES / "planner.csv", encoding="utf-8") as handle:
         orders = [r["order"] for r in csv.DictReader(io.StringIO(handle.read()))]
     assert [r["Order"] for r in rows] == orders
+
+
+@pytest.mark.parametrize("column, char", [("order", "\x00"), ("rotor", "\x1f")])
+def test_control_characters_fail_the_row_not_the_batch(tmp_path, column, char):
+    header, good = _good_rows()
+    row = list(good[0])
+    row[header.index(column)] += char + "z"
+    sheet = tmp_path / "ctl.csv"
+    _write_csv(sheet, header, [row, good[1]])
+    result = run_batch(sheet, tmp_path / "out")
+    assert result.done == 1 and result.failures[0][0] == 2
+    assert "contains a control character" in result.failures[0][1]
+    rows, _ = _summary(tmp_path / "out" / "ctl-summary.xlsx")
+    assert rows[0]["Status"] == "failed" and "?z" in rows[0][header[0].capitalize()] + rows[0]["Rotor"]
+
+
+def test_a_small_workbook_that_unpacks_huge_is_refused(tmp_path):
+    import zipfile
+
+    base = tmp_path / "base.xlsx"
+    wb = openpyxl.Workbook()
+    wb.active.append(["order", "rotor"])
+    wb.save(base)
+    sheet = tmp_path / "bomb.xlsx"
+    with zipfile.ZipFile(base) as src, zipfile.ZipFile(sheet, "w", zipfile.ZIP_DEFLATED) as dst:
+        for item in src.infolist():
+            data = src.read(item.filename)
+            if item.filename == "xl/worksheets/sheet1.xml":
+                head, tail = data.split(b"</sheetData>")
+                data = head + b'<row r="2"><c r="A2" t="inlineStr"><is><t>' + b"A" * 30_000_000 + \
+                    b"</t></is></c></row></sheetData>" + tail
+            dst.writestr(item.filename, data)
+    assert sheet.stat().st_size < 1_000_000
+    with pytest.raises(BadInput, match=r"bomb.xlsx: part xl/worksheets/sheet1.xml unpacks to \d+ bytes"):
+        run_batch(sheet, tmp_path / "out")
+    assert not (tmp_path / "out").exists()

@@ -149,3 +149,12 @@ def test_reading_units_are_interchangeable(grams, angle):
     for amount, a in values:
         assert amount.m_as("g*mm") == pytest.approx(grams * 300.0, rel=1e-6)
         assert a == pytest.approx(angle % 360.0, abs=1e-9)
+
+
+def test_control_characters_in_text_are_refused():
+    bad = EXAMPLE.replace('number = "INV-0001"', 'number = "INV\\u001f0001"')
+    with pytest.raises(JobError, match=r"line 3, order.number: 'INV\\x1f0001' contains a control character "
+                                       r"\(U\+001F\); remove it"):
+        parse_job(bad)
+    # tab and line feed are ordinary text
+    assert parse_job(EXAMPLE.replace('rotor = "invented test rotor"', 'rotor = "invented\\ttest\\nrotor"'))

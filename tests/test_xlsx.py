@@ -146,3 +146,10 @@ def test_write_refuses_to_overwrite(tmp_path):
     assert path.read_bytes() == before
     xlsx.write_xlsx(example_order("OTHER"), path, force=True)
     assert openpyxl.load_workbook(path)[xlsx.SHEET]["A1"].value.endswith("OTHER")
+
+
+def test_characters_a_workbook_cannot_hold_are_replaced():
+    order = dataclasses.replace(example_order(), ident=Identification("WO\x1f2026", "rotor\x00x"))
+    ws = _load(order)[xlsx.SHEET]
+    assert ws["A1"].value == "Balancing work order WO?2026"
+    _find(ws, "rotor?x")

@@ -174,9 +174,32 @@ def _csv_rows(path: Path, origin: str):
             raise BadInput(f"{origin}, row {reader.line_num}: {exc}") from None
 
 
+#: Largest uncompressed part of a planner workbook, and the largest compression ratio of a big part. A
+#: 10,000-row sheet is a few tens of MB of XML compressed about 10:1; a part far beyond either is refused
+#: before it is read (a small file that unpacks to hundreds of MB).
+MAX_PART_BYTES = 200_000_000
+MAX_RATIO = 100
+
+
+def _check_package(path: Path, origin: str) -> None:
+    import zipfile
+
+    try:
+        with zipfile.ZipFile(path) as package:
+            for item in package.infolist():
+                ratio = item.file_size / max(item.compress_size, 1)
+                if item.file_size > MAX_PART_BYTES or (item.file_size > 10_000_000 and ratio > MAX_RATIO):
+                    raise BadInput(f"{origin}: part {item.filename} unpacks to {item.file_size} bytes "
+                                   f"({ratio:.0f} times its packed size); a planner sheet is refused beyond "
+                                   f"{MAX_PART_BYTES} bytes or {MAX_RATIO}:1")
+    except zipfile.BadZipFile:
+        raise BadInput(f"{origin}: not a workbook (.xlsx is a zip package); save the sheet as .xlsx or .csv") from None
+
+
 def _xlsx_rows(path: Path, origin: str):
     from openpyxl import load_workbook
 
+    _check_package(path, origin)
     try:
         wb = load_workbook(path, read_only=True, data_only=True)
     except Exception as exc:  # openpyxl raises several kinds for a damaged or foreign file
@@ -350,15 +373,19 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
         if not order.passed:
             failing.append(order.ident.number)
 
-    if first is not None:
-        for number, cells in _chain(first, rows):
-            count += 1
-            one(number, cells)
-            bar.show(count, len(failures))
-    bar.show(count, len(failures), final=True)
-    if combined.orders:
-        files.append(str(write_atomic(combined_path, combined.finish(), force=force)))
-    files.append(str(write_atomic(summary_path, summary.finish(), force=force)))
+    try:
+        if first is not None:
+            for number, cells in _chain(first, rows):
+                count += 1
+                one(number, cells)
+                bar.show(count, len(failures))
+        bar.show(count, len(failures), final=True)
+        if combined.orders:
+            files.append(str(write_atomic(combined_path, combined.finish(), force=force)))
+        files.append(str(write_atomic(summary_path, summary.finish(), force=force)))
+    except BaseException:
+        summary.discard()
+        raise
     return BatchResult(str(sheet), count, count - len(failures), tuple(failures), tuple(failing), tuple(files),
                        time.perf_counter() - start)
 
@@ -396,8 +423,9 @@ class _Summary:
     def _text(self, value):
         from openpyxl.cell import WriteOnlyCell
 
-        from toolkit.workorder.xlsx import FORMULA_START
+        from toolkit.workorder.xlsx import FORMULA_START, clean_text
 
+        value = clean_text(value) if isinstance(value, str) else value
         cell = WriteOnlyCell(self.ws, value=value)
         if isinstance(value, str) and value.startswith(FORMULA_START):
             cell.data_type = "s"
@@ -425,6 +453,14 @@ class _Summary:
     def failed(self, number: int, cells: dict, reason: str):
         self.ws.append([number, self._text(cells.get("order", "")), self._text(cells.get("rotor", "")),
                         "failed", None, *([None] * 7 * MAX_PLANES), self._text(reason)])
+
+    def discard(self) -> None:
+        """Close the half-written sheet when a batch stops early (otherwise openpyxl complains on stderr
+        when the unsaved sheet is collected)."""
+        try:
+            self.ws.close()
+        except Exception:  # already closed or never started: nothing to discard
+            pass
 
     def finish(self) -> bytes:
         from io import BytesIO

@@ -323,6 +323,9 @@ def _shown(value) -> str:
 
 
 _MISSING = object()
+#: Control characters a printed or spreadsheet work order cannot hold (tab, line feed and carriage return
+#: are allowed).
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]")
 
 
 def _table(ck: _Checker, data: Mapping, path: tuple, required: bool = True) -> Mapping:
@@ -354,6 +357,10 @@ def _text(ck: _Checker, table: Mapping, path: tuple, required: bool = False, def
         return default
     if required and not value.strip():
         ck.add(path, "is empty; give it as text in quotes")
+        return default
+    control = _CONTROL.search(value)
+    if control:
+        ck.add(path, f"{_shown(value)} contains a control character (U+{ord(control.group()):04X}); remove it")
         return default
     if len(value) > _TEXT_LIMIT:
         ck.add(path, f"is {len(value)} characters long; at most {_TEXT_LIMIT} are allowed")

@@ -16,12 +16,14 @@ formula.
 
 from __future__ import annotations
 
+import re
 from io import BytesIO
 from pathlib import Path
 
 from toolkit.workorder.model import Formatter, WorkOrder
 
-__all__ = ["workbook", "to_bytes", "write_xlsx", "STATUS_CHOICES", "SHEET", "safe_text", "FORMULA_START"]
+__all__ = ["workbook", "to_bytes", "write_xlsx", "STATUS_CHOICES", "SHEET", "safe_text", "clean_text",
+           "FORMULA_START"]
 
 SHEET = "Work order"
 #: The values the Status column accepts (a list validation in the sheet).
@@ -29,7 +31,19 @@ STATUS_CHOICES = ("open", "done", "skipped", "on hold")
 #: Leading characters that would make a spreadsheet read text as a formula.
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\n")
 _COLUMNS = 9
+#: Characters a workbook cannot hold (control characters other than tab, line feed, carriage return);
+#: the same set as openpyxl's ILLEGAL_CHARACTERS_RE. Shown as "?" if they reach an exporter.
+_ILLEGAL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f]")
 _WIDTHS = (7, 16, 44, 10, 14, 16, 12, 12, 22)
+
+
+def clean_text(text) -> str:
+    """User text with the characters a workbook cannot hold replaced by ``?``.
+
+    >>> clean_text("WO\x1f2026")
+    'WO?2026'
+    """
+    return _ILLEGAL.sub("?", "" if text is None else str(text))
 
 
 def safe_text(cell, text: str) -> None:
@@ -39,7 +53,7 @@ def safe_text(cell, text: str) -> None:
     >>> c = Workbook().active["A1"]; safe_text(c, "=1+1"); (c.value, c.data_type, c.quotePrefix)
     ('=1+1', 's', True)
     """
-    text = "" if text is None else str(text)
+    text = clean_text(text)
     cell.value = text
     if text.startswith(FORMULA_START):
         cell.data_type = "s"
@@ -48,7 +62,7 @@ def safe_text(cell, text: str) -> None:
 
 def _hf(text: str) -> str:
     """Escape user text for a header or footer (``&`` starts a control code there)."""
-    return str(text).replace("&", "&&")[:120]
+    return clean_text(text).replace("&", "&&")[:120]
 
 
 class _Sheet:
