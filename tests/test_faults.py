@@ -556,7 +556,6 @@ def test_subprocess_non_utf8_file_and_locale(tmp_path):
 
 # -- cases found by the generated tests above, kept as fixed checks ----------------------------------------------
 
-@pytest.mark.xfail(strict=True, reason="issue 5 still open: openpyxl IllegalCharacterError on NUL in job text")
 def test_nul_character_in_job_text(tmp_path):
     # TOML allows "\u0000" in a string; a spreadsheet cell cannot hold it. One line and exit 2, or the
     # character dropped from the work order: never an internal error.
@@ -678,12 +677,10 @@ def test_spoiled_planner_csv(rows, tail):
         _run_batch(sheet, tmp)
 
 
-@pytest.mark.xfail(strict=True, reason="issue 5 still open: a control character in a planner cell ends in "
-                                       "openpyxl's IllegalCharacterError")
 @pytest.mark.parametrize("column, char", [("order", "\x00"), ("rotor", "\x1f"), ("plane1_name", "\x0b")])
 def test_control_characters_in_planner_cells(tmp_path, column, char):
-    # seen while writing this file: exit 3 (IllegalCharacterError), and openpyxl's write-only generator then prints
-    # "Exception ignored ... Traceback" on stderr when it is collected
+    # found by this file: exit 3 (IllegalCharacterError), and openpyxl's write-only generator then printed
+    # "Exception ignored ... Traceback" when it was collected
     rows = _planner_rows()
     rows[1] = list(rows[1])
     rows[1][rows[0].index(column)] += f"{char}z"
@@ -778,7 +775,6 @@ MEASURE = ("import resource, sys\nfrom toolkit.cli import main\nrc = main(sys.ar
            "print('peak-kB', resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)\nsys.exit(rc)\n")
 
 
-@pytest.mark.xfail(strict=True, reason="issue 5 still open: a 300 MB cell is read whole (about 680 MB peak)")
 def test_zip_bomb_sheet_is_refused_within_memory(tmp_path):
     sheet = tmp_path / "planner.xlsx"
     _xlsx_with_huge_cell(sheet, 300)

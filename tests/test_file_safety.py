@@ -272,9 +272,7 @@ def test_output_folder_that_is_a_file(tmp_path):
 
 HOSTILE_NUMBERS = ["../../escape", "/etc/passwd", "..", ".", "~root", "a/b\\c", "C:\\Windows\\win.ini", "CON",
                    "nul", "  ", "-rf", ".hidden", "\u202eexe.pdf", "ÄÖÜ-2026", "x" * 500, "WO 2026/117",
-                   pytest.param("WO\x1f2026", marks=pytest.mark.xfail(
-                       strict=True, reason="issue 5 still open: a control character in job text ends in "
-                                           "openpyxl's IllegalCharacterError"))]
+                   "WO\x1f2026"]
 
 
 @pytest.mark.parametrize("number", HOSTILE_NUMBERS, ids=range(len(HOSTILE_NUMBERS)))
