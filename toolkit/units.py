@@ -78,11 +78,39 @@ def _build_registry():
         return pint.UnitRegistry()
 
 
+def _remember_unit_parses(ureg):
+    """Keep the registry's parses of unit strings ("g*mm", "mm") for reuse.
+
+    pint parses a unit string on every ``Quantity(value, "g*mm")`` and ``q.m_as("mm")`` by trying each
+    prefix and suffix on each name; in a batch of work orders that was a third of the time. The parse of a
+    given string never changes (the package defines no units after the registry is built), so it is kept;
+    anything unusual (an argument that cannot be a key) goes straight to pint.
+    """
+    parse = ureg.parse_units_as_container
+    seen: dict = {}
+
+    def parse_units_as_container(input_string, as_delta=None, case_sensitive=None):
+        key = (input_string, as_delta, case_sensitive)
+        try:
+            return seen[key]
+        except KeyError:
+            pass
+        except TypeError:
+            return parse(input_string, as_delta, case_sensitive)
+        result = parse(input_string, as_delta, case_sensitive)
+        if len(seen) < 4096:
+            seen[key] = result
+        return result
+
+    ureg.parse_units_as_container = parse_units_as_container
+    return ureg
+
+
 def registry():
     """The package's one pint ``UnitRegistry`` (built on first use)."""
     global _REGISTRY
     if _REGISTRY is None:
-        _REGISTRY = _build_registry()
+        _REGISTRY = _remember_unit_parses(_build_registry())
     return _REGISTRY
 
 
