@@ -6,8 +6,8 @@
    repeated with their own order numbers and readings varied) is timed end to end in a child process. The
    baseline, run alternately in the same session, writes the same output with openpyxl and reportlab
    directly: the same cells in the summary workbook (read back from our summary), and, for every work order,
-   the same number of pages carrying the same text (extracted from our PDFs with pypdf) and the same polar
-   diagrams' worth of vector drawing, both as one PDF per rotor and as the combined PDF. The baseline
+   the same pages carrying the same text runs at the same places and sizes (extracted from our PDFs with
+   pypdf) and a polar diagram's worth of vector drawing per plane (rings, 36 ticks, labels, 4 vectors), both as one PDF per rotor and as the combined PDF. The baseline
    parses nothing, computes nothing and lays nothing out: it is the floor of writing these files. Target:
    ours at most 1.5x the baseline (issue 6), median of ``--runs``.
 2. Memory. ``counterpoise batch`` on a ``--memory-rows`` sheet in a child process that reports its own peak
@@ -117,35 +117,46 @@ def plan_from_output(out: Path) -> dict:
         if pdf.name.endswith("-orders.pdf"):
             continue
         reader = PdfReader(pdf)
-        pages = [page.extract_text() or "" for page in reader.pages]
-        planes = sum(text.count("Plane ") for text in pages[:1]) or 2
-        orders.append({"name": pdf.name, "pages": pages, "diagrams": min(planes, 2)})
+        pages = []
+        for page in reader.pages:
+            runs: list = []
+
+            def visit(text, cm, tm, font, size, runs=runs):
+                if text.strip():
+                    runs.append((tm[4] * cm[0] + cm[4], tm[5] * cm[3] + cm[5], abs(size * tm[3]) or 8.0,
+                                 text.strip("\n")))
+
+            page.extract_text(visitor_text=visit)
+            pages.append(runs)
+        first = " ".join(r[3] for r in pages[0]) if pages else ""
+        orders.append({"name": pdf.name, "pages": pages, "diagrams": min(first.count("Plane ") or 2, 2)})
     return {"summary": cells, "orders": orders}
 
 
-def _page(canvas, text: str, diagrams: int, page_number: int) -> None:
-    from reportlab.lib.pagesizes import A4
-
-    width, height = A4
-    canvas.setFont("Helvetica", 8)
-    y = height - 40
-    for line in text.splitlines():
-        canvas.drawString(36, y, line[:160])
-        y -= 10
-        if y < 40:
-            break
+def _page(canvas, runs: list, diagrams: int, page_number: int) -> None:
+    """One page: every text run of our page at its place and size, then the diagrams' vector drawing."""
+    current = None
+    for x, y, size, text in runs:
+        size = min(max(size, 4.0), 24.0)
+        if size != current:  # a font change only where the size changes, as a careful writer would
+            canvas.setFont("Helvetica", size)
+            current = size
+        canvas.drawString(x, y, text)
     if page_number == 0:
-        for k in range(diagrams):  # a polar diagram: rings, spokes, ticks, vectors, labels
+        canvas.setFont("Helvetica", 6.5)
+        for k in range(diagrams):  # a polar diagram: rings, ticks, labels, vectors (one path for the ticks)
             cx, cy, r = 150 + 260 * k, 200, 90
             canvas.circle(cx, cy, r)
             canvas.circle(cx, cy, r * 0.4)
+            ticks = canvas.beginPath()
             for a in range(0, 360, 10):
                 t = math.radians(a)
                 inner = r * (0.92 if a % 30 else 0.85)
-                canvas.line(cx + inner * math.cos(t), cy + inner * math.sin(t), cx + r * math.cos(t),
-                            cy + r * math.sin(t))
+                ticks.moveTo(cx + inner * math.cos(t), cy + inner * math.sin(t))
+                ticks.lineTo(cx + r * math.cos(t), cy + r * math.sin(t))
                 if a % 30 == 0:
                     canvas.drawString(cx + (r + 6) * math.cos(t), cy + (r + 6) * math.sin(t), f"{a}°")
+            canvas.drawPath(ticks)
             for a in (40, 130, 220, 310):
                 t = math.radians(a)
                 canvas.line(cx, cy, cx + 0.7 * r * math.cos(t), cy + 0.7 * r * math.sin(t))
@@ -164,9 +175,9 @@ def write_baseline(plan: dict, out: str) -> None:
     combined = Canvas(str(folder / "baseline-orders.pdf"), pagesize=A4)
     for order in plan["orders"]:
         single = Canvas(str(folder / order["name"]), pagesize=A4)
-        for i, text in enumerate(order["pages"]):
-            _page(single, text, order["diagrams"], i)
-            _page(combined, text, order["diagrams"], i)
+        for i, runs in enumerate(order["pages"]):
+            _page(single, runs, order["diagrams"], i)
+            _page(combined, runs, order["diagrams"], i)
         single.save()
     combined.save()
     book = Workbook(write_only=True)
