@@ -1,0 +1,73 @@
+"""Start-up time of the command line against plain baselines, measured in the same run.
+
+    python benchmarks/bench_startup.py [--runs 15]
+
+Targets (ratios of medians):
+- ``counterpoise --help`` and an argument error: at most 4x ``python -c pass``;
+- a calculator command (``tolerance``, ``drill``): at most 1.15x the floor
+  ``python -c "import pint; pint.UnitRegistry(cache_folder=':auto:')"``.
+
+Each command is run alternately with its baseline, so that drifts in machine load hit both alike.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import shutil
+import statistics
+import subprocess
+import sys
+import time
+
+PASS = [sys.executable, "-c", "pass"]
+PINT_FLOOR = [sys.executable, "-c", "import pint; pint.UnitRegistry(cache_folder=':auto:')"]
+
+
+def counterpoise() -> list[str]:
+    script = shutil.which("counterpoise", path=os.path.dirname(sys.executable)) or shutil.which("counterpoise")
+    return [script] if script else [sys.executable, "-m", "toolkit"]
+
+
+def elapsed(cmd: list[str]) -> float:
+    start = time.perf_counter()
+    subprocess.run(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, check=False)
+    return time.perf_counter() - start
+
+
+def compare(label: str, cmd: list[str], baseline: list[str], runs: int, target: float) -> bool:
+    for _ in range(2):  # warm the file cache and pint's registry cache
+        elapsed(cmd), elapsed(baseline)
+    ours, base = [], []
+    for _ in range(runs):
+        ours.append(elapsed(cmd))
+        base.append(elapsed(baseline))
+    a, b = statistics.median(ours), statistics.median(base)
+    ratio = a / b
+    verdict = "meets" if ratio <= target else "MISSES"
+    print(f"{label:<44} {a * 1000:7.1f} ms  baseline {b * 1000:7.1f} ms  ratio {ratio:5.2f}  "
+          f"(target <= {target}: {verdict})")
+    return ratio <= target
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--runs", type=int, default=15)
+    args = parser.parse_args(argv)
+    cp = counterpoise()
+    print(f"python {sys.version.split()[0]}; command: {' '.join(cp)}; median of {args.runs} runs")
+    checks = [
+        ("counterpoise --help  vs  python -c pass", cp + ["--help"], PASS, 4.0),
+        ("argument error  vs  python -c pass", cp + ["tolerance", "--mass"], PASS, 4.0),
+        ("tolerance  vs  pint registry floor",
+         cp + ["tolerance", "--grade", "G6.3", "--mass", "100 kg", "--speed", "3000 rpm"], PINT_FLOOR, 1.15),
+        ("drill  vs  pint registry floor",
+         cp + ["drill", "--unbalance", "2400 g*mm", "--radius", "150 mm", "--axial", "--diameter", "10 mm",
+               "--material", "steel"], PINT_FLOOR, 1.15),
+    ]
+    ok = [compare(label, cmd, base, args.runs, target) for label, cmd, base, target in checks]
+    return 0 if all(ok) else 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())
