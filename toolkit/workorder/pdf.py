@@ -128,7 +128,28 @@ class _Doc:
             c.drawString(_M, 20, _latin(f"{self.footer}  |  page {n} of {total}"))
             c.drawRightString(_W - _M, 20, "Counterpoise work order")
             Canvas.showPage(c)
+            self._pack(c._doc.Pages.pages[-1])
         self.pending = []
+
+    @staticmethod
+    def _pack(page) -> None:
+        """Compress a finished page's content now rather than at save time.
+
+        reportlab keeps every page's drawing commands as text until the document is saved; a combined
+        document of thousands of orders would hold all of them. The stream is compressed with reportlab's
+        own Flate filter and marked with its ``Filter`` entry, which reportlab honours by not filtering it
+        again, so the bytes written are the same as when it compresses at save time.
+        """
+        from reportlab.pdfbase import pdfdoc
+
+        if page.Contents or not page.stream:
+            return
+        stream = pdfdoc.PDFStream()
+        stream.content = pdfdoc.PDFZCompress.encode(page.stream)
+        stream.dictionary["Filter"] = pdfdoc.PDFArray([pdfdoc.PDFName(pdfdoc.PDFZCompress.pdfname)])
+        stream.__Comment__ = "page stream"
+        page.Contents = stream
+        page.stream = None
 
     def save(self):
         self.c.save()
