@@ -185,3 +185,19 @@ def test_examples_build_and_pass(path):
     assert order.passed
     assert all(p.operations for p in order.planes)
     assert order == order_from_file(path)  # same input, same order
+
+
+def test_trial_run_thresholds_are_overridable_and_reported():
+    path = next(p for p in EXAMPLES if "runs" in p.name)
+    text = path.read_text(encoding="utf-8")
+    default = build_order(parse_job(text, str(path), path.parent))
+    used = {s.name: s for s in default.settings}
+    # common practice [CP]: a trial should change the reading by about 30 % or 30° (DOMAIN.md section 2)
+    assert used["trial run: least change in amplitude"].value == "30 %"
+    assert not used["trial run: least change in amplitude"].given
+    assert not any("trial effect too small" in w for w in default.warnings)
+    strict = build_order(parse_job(text.replace("trials_left_on = false",
+                                                "trials_left_on = false\ntrial_change_pct = 500\n"
+                                                "trial_change_deg = 170"), str(path), path.parent))
+    assert {s.name: s for s in strict.settings}["trial run: least change in phase"].given
+    assert any("trial effect too small" in w for w in strict.warnings)

@@ -360,7 +360,8 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
             if name in seen:
                 raise BadInput(f"order number {order.ident.number!r} gives the same file name as row {seen[name]}")
             seen[name] = number
-            path = write_atomic(out / f"{name}.pdf", pdf.to_bytes(order), force=force)
+            data, pages = pdf.render_order(order)
+            path = write_atomic(out / f"{name}.pdf", data, force=force)
         except CounterpoiseError as exc:
             reason = " ".join(str(exc).split())
             prefix = f"{origin}: "
@@ -368,7 +369,7 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
             summary.failed(number, cells, failures[-1][1])
             return
         files.append(str(path))
-        combined.add(order)
+        combined.add_pages(pages)
         summary.ok(number, order, path.name)
         if not order.passed:
             failing.append(order.ident.number)
@@ -381,11 +382,13 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
                 bar.show(count, len(failures))
         bar.show(count, len(failures), final=True)
         if combined.orders:
-            files.append(str(write_atomic(combined_path, combined.finish(), force=force)))
+            files.append(str(write_atomic(combined_path, combined.write_to, force=force)))
         files.append(str(write_atomic(summary_path, summary.finish(), force=force)))
     except BaseException:
         summary.discard()
         raise
+    finally:
+        combined.close()
     return BatchResult(str(sheet), count, count - len(failures), tuple(failures), tuple(failing), tuple(files),
                        time.perf_counter() - start)
 

@@ -96,8 +96,10 @@ def _initial(job: Job):
     if m.kind == "runs":
         from toolkit.influence import runs_from_dict, solve_runs
 
+        from toolkit.influence import Settings
+
         runset = runs_from_dict(dict(m.runs), f"{job.origin} [measurement]")
-        solution = solve_runs(runset)
+        solution = solve_runs(runset, settings=Settings(**m.thresholds))
         what = (f"trial-mass runs ({len(runset.runs)} runs, {len(runset.sensors)} sensor(s), "
                 f"{runset.method}), solved by influence coefficients")
     else:
@@ -219,6 +221,15 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
     delta = 0.0 if job.error_allowance is None else job.error_allowance.m_as("g*mm")
     out.append(Setting("measurement error allowance ΔU", f"{delta:g} g·mm", "M", job.error_allowance is not None,
                        "[rotor] error_allowance"))
+    if job.measurement.kind == "runs":
+        from toolkit.influence import Settings
+
+        defaults = Settings()
+        for key, label, unit in (("trial_change_pct", "trial run: least change in amplitude", " %"),
+                                 ("trial_change_deg", "trial run: least change in phase", "°")):
+            value = job.measurement.thresholds.get(key, getattr(defaults, key))
+            out.append(Setting(label, f"{value:g}{unit}", "CP", key in job.measurement.thresholds,
+                               f"[measurement] {key}"))
     if any("drill" in p.methods for p in job.planes):
         from dataclasses import fields
 

@@ -72,6 +72,9 @@ CRITERIA = ("iso", "api", "mil-std-167")
 #: Drilling limits a job may override ([shop.drilling]; common practice, see toolkit.fabricate.drilling.Limits).
 DRILLING_KEYS = ("warn_depth_ratio", "max_depth_ratio", "max_depth_mm", "min_wall_mm", "min_wall_ratio",
                  "spacing_ratio", "depth_step_mm", "preferred_depth_ratio", "max_holes")
+#: Trial-run thresholds a job may override ([measurement] with kind "runs"; common practice, see
+#: toolkit.influence.Settings).
+THRESHOLDS = ("trial_change_pct", "trial_change_deg")
 #: What a balancing machine's angle shows.
 SHOWS = ("heavy spot", "add")
 
@@ -220,6 +223,7 @@ class Measurement:
     coefficients: Path | None = None
     original: tuple[str, ...] = ()
     raw: Mapping = field(default_factory=dict)
+    thresholds: Mapping = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -748,9 +752,18 @@ def _measurement(ck: _Checker, meas: Mapping, names: list[str], planes: list[Pla
                 readings[plane.name] = (amount, angle)
         return Measurement("machine", MappingProxyType(readings), shows or "heavy spot", raw=raw)
     if kind == "runs":
-        allowed = ("kind", "sensors", "phase", "run", "weights", "trials_left_on", "method", "speed", "limits")
+        allowed = ("kind", "sensors", "phase", "run", "weights", "trials_left_on", "method", "speed", "limits",
+                   *THRESHOLDS)
         _unknown(ck, meas, path, allowed)
-        data = {k: v for k, v in meas.items() if k in allowed and k != "kind"}
+        thresholds = {}
+        for key in THRESHOLDS:
+            if key in meas:
+                value = meas[key]
+                if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0 < value < 1000:
+                    ck.add(path + (key,), f"{_shown(value)} is not allowed; give a number greater than zero")
+                else:
+                    thresholds[key] = float(value)
+        data = {k: v for k, v in meas.items() if k in allowed and k != "kind" and k not in THRESHOLDS}
         data["planes"] = [p.name for p in planes]
         data["weight_angles"] = sense or "against rotation"
         data["radius"] = {p.name: f"{p.radius.m_as('mm')!r} mm" for p in planes}
@@ -764,7 +777,7 @@ def _measurement(ck: _Checker, meas: Mapping, names: list[str], planes: list[Pla
                 runs_from_dict(data, "\x00")
             except BadInput as exc:
                 ck.add(path + ("run",), str(exc).replace("\x00: ", "", 1))
-        return Measurement("runs", runs=MappingProxyType(data), raw=raw)
+        return Measurement("runs", runs=MappingProxyType(data), raw=raw, thresholds=MappingProxyType(thresholds))
     if kind == "coefficients":
         _unknown(ck, meas, path, ("kind", "coefficients", "original"))
         file_name = meas.get("coefficients")

@@ -29,9 +29,13 @@ from pathlib import Path
 
 from toolkit.workorder.model import Formatter, PlaneOrder, WorkOrder, example_order
 
-__all__ = ["to_bytes", "write_pdf", "render", "Document", "combined_bytes", "write_combined"]
+__all__ = ["to_bytes", "render_order", "write_pdf", "render", "Document", "combined_bytes", "write_combined",
+           "FONTS"]
 
 _W, _H = 595.2756, 841.8898  # A4 in points
+#: The fonts the work order uses (standard Type 1 fonts, no embedding), in the order of their internal
+#: names /F1, /F2, /F3.
+FONTS = ("Helvetica", "Helvetica-Bold", "Helvetica-Oblique")
 _M = 42.0                    # margin
 _INK = (0.10, 0.12, 0.14)
 _ACCENT = (0.05, 0.36, 0.40)
@@ -100,8 +104,11 @@ class _Doc:
 
         self.c = Canvas(buffer, pagesize=(_W, _H), invariant=1, pageCompression=1)
         self.c.setCreator("Counterpoise")
+        for name in FONTS:  # the same internal font names (/F1, /F2, /F3) in every document
+            self.c._doc.getInternalFontName(name)
         self.pending: list[dict] = []
         self.footer = ""
+        self.streams: list[bytes] = []
 
     def start_order(self, footer: str, title: str):
         self.pending = []
@@ -128,11 +135,11 @@ class _Doc:
             c.drawString(_M, 20, _latin(f"{self.footer}  |  page {n} of {total}"))
             c.drawRightString(_W - _M, 20, "Counterpoise work order")
             Canvas.showPage(c)
-            self._pack(c._doc.Pages.pages[-1])
+            self.streams.append(self._pack(c._doc.Pages.pages[-1]))
         self.pending = []
 
     @staticmethod
-    def _pack(page) -> None:
+    def _pack(page) -> bytes:
         """Compress a finished page's content now rather than at save time.
 
         reportlab keeps every page's drawing commands as text until the document is saved; a combined
@@ -143,13 +150,14 @@ class _Doc:
         from reportlab.pdfbase import pdfdoc
 
         if page.Contents or not page.stream:
-            return
+            raise RuntimeError("a page was finished twice or is empty")  # a bug, never user input
         stream = pdfdoc.PDFStream()
         stream.content = pdfdoc.PDFZCompress.encode(page.stream)
         stream.dictionary["Filter"] = pdfdoc.PDFArray([pdfdoc.PDFName(pdfdoc.PDFZCompress.pdfname)])
         stream.__Comment__ = "page stream"
         page.Contents = stream
         page.stream = None
+        return stream.content
 
     def save(self):
         self.c.save()
@@ -602,42 +610,124 @@ def render(doc: _Doc, order: WorkOrder) -> None:
     doc.end_order()
 
 
-def to_bytes(order: WorkOrder) -> bytes:
-    """The PDF of one work order as bytes (deterministic for the same order)."""
+def render_order(order: WorkOrder) -> tuple[bytes, tuple[bytes, ...]]:
+    """Draw one work order: its PDF file, and its pages' compressed content streams (for
+    :class:`Document`)."""
     buffer = BytesIO()
     with _binary_streams():
         doc = _Doc(buffer)
         render(doc, order)
+        mapping = dict(doc.c._doc.fontMapping)
         doc.save()
-    return buffer.getvalue()
+    expected = {name: f"/F{n}" for n, name in enumerate(FONTS, start=1)}
+    if mapping != expected:  # a font added to the layout must be added to FONTS as well
+        raise RuntimeError(f"unexpected fonts in the work order: {mapping}")
+    return buffer.getvalue(), tuple(doc.streams)
+
+
+def to_bytes(order: WorkOrder) -> bytes:
+    """The PDF of one work order as bytes (deterministic for the same order)."""
+    return render_order(order)[0]
 
 
 class Document:
     """Several work orders in one PDF, added one at a time (a batch's combined document).
 
-    >>> doc = Document(); doc.add(example_order("A")); doc.add(example_order("B")); doc.orders
+    The pages go to a temporary file as they come (their content already compressed), so memory does
+    not grow with the number of orders; :meth:`write_to` then writes the file: header, the pages, the page
+    tree, the three standard fonts, the cross-reference table and the trailer (PDF 1.4, ISO 32000-1
+    structure). Each order keeps the page numbers of its own file.
+
+    >>> doc = Document(); files = [doc.add(example_order(n)) for n in ("A", "B")]; doc.orders
     2
-    >>> doc.finish()[:5]
-    b'%PDF-'
+    >>> out = BytesIO(); doc.write_to(out); out.getvalue()[:8]
+    b'%PDF-1.4'
     """
 
+    _FIXED = 6  # objects 1..6: catalog, page tree, resources, three fonts; info is the last object
+
     def __init__(self):
-        self._buffer = BytesIO()
-        with _binary_streams():
-            self._doc = _Doc(self._buffer)
+        import tempfile
+
+        self._body = tempfile.TemporaryFile()
+        self._offsets: list[int] = []   # of objects 7, 8, ... within the body
+        self._pages: list[int] = []     # object numbers of the page objects
         self.orders = 0
 
-    def add(self, order: WorkOrder) -> None:
-        with _binary_streams():
-            render(self._doc, order)
+    def _object(self, data: bytes) -> int:
+        number = self._FIXED + len(self._offsets) + 1
+        self._offsets.append(self._body.tell())
+        self._body.write(b"%d 0 obj\n" % number + data + b"\nendobj\n")
+        return number
+
+    def add(self, order: WorkOrder) -> bytes:
+        """Add one order; returns its own PDF file (the same bytes as :func:`to_bytes`)."""
+        data, streams = render_order(order)
+        self.add_pages(streams)
+        return data
+
+    def add_pages(self, streams) -> None:
+        """Add the compressed page streams of one order (from :func:`render_order`)."""
+        for content in streams:
+            stream = self._object(b"<< /Filter /FlateDecode /Length %d >>\nstream\n" % len(content) + content
+                                  + b"\nendstream")
+            page = self._object(b"<< /Type /Page /Parent 2 0 R /MediaBox [0 0 %s %s] /Resources 3 0 R "
+                                b"/Contents %d 0 R >>" % (_num(_W), _num(_H), stream))
+            self._pages.append(page)
         self.orders += 1
 
+    def write_to(self, handle) -> None:
+        """Write the finished PDF to a binary file object (call once)."""
+        header = b"%PDF-1.4\n%\xe2\xe3\xcf\xd3\n"
+        handle.write(header)
+        offsets = [len(header) + o for o in self._offsets]
+        self._body.seek(0)
+        while True:
+            chunk = self._body.read(1 << 20)
+            if not chunk:
+                break
+            handle.write(chunk)
+        position = len(header) + self._body.tell()
+        fixed = [
+            b"<< /Type /Catalog /Pages 2 0 R >>",
+            b"<< /Type /Pages /Count %d /Kids [%s] >>" % (len(self._pages),
+                                                          b" ".join(b"%d 0 R" % p for p in self._pages)),
+            b"<< /Font << /F1 4 0 R /F2 5 0 R /F3 6 0 R >> /ProcSet [/PDF /Text] >>",
+            *(b"<< /Type /Font /Subtype /Type1 /BaseFont /%s /Name /F%d /Encoding /WinAnsiEncoding >>"
+              % (name.encode("ascii"), n) for n, name in enumerate(FONTS, start=1)),
+        ]
+        fixed_offsets = []
+        for number, data in enumerate(fixed, start=1):
+            fixed_offsets.append(position)
+            block = b"%d 0 obj\n" % number + data + b"\nendobj\n"
+            handle.write(block)
+            position += len(block)
+        info_number = self._FIXED + len(self._offsets) + 1
+        info = (b"%d 0 obj\n<< /Title (Work orders) /Creator (Counterpoise) /Producer (Counterpoise) >>\nendobj\n"
+                % info_number)
+        handle.write(info)
+        all_offsets = fixed_offsets + offsets + [position]
+        position += len(info)
+        xref = [b"xref\n0 %d\n0000000000 65535 f \n" % (info_number + 1)]
+        xref += [b"%010d 00000 n \n" % o for o in all_offsets]
+        handle.write(b"".join(xref))
+        handle.write(b"trailer\n<< /Size %d /Root 1 0 R /Info %d 0 R >>\nstartxref\n%d\n%%%%EOF\n"
+                     % (info_number + 1, info_number, position))
+        self._body.close()
+
     def finish(self) -> bytes:
-        """The finished PDF (call once)."""
-        with _binary_streams():
-            self._doc.c.setTitle("Work orders")
-            self._doc.save()
-        return self._buffer.getvalue()
+        """The finished PDF as bytes (small documents; a batch uses :meth:`write_to`)."""
+        out = BytesIO()
+        self.write_to(out)
+        return out.getvalue()
+
+    def close(self) -> None:
+        """Drop the temporary pages (when a batch stops early)."""
+        self._body.close()
+
+
+def _num(x: float) -> bytes:
+    return (b"%.4f" % x).rstrip(b"0").rstrip(b".")
 
 
 def combined_bytes(orders) -> bytes:
