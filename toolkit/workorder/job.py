@@ -8,33 +8,37 @@ A job file has these tables (``examples/job-*.toml`` are complete, invented exam
 ``[rotor]``
     ``mass`` (required, e.g. ``"412 kg"``), ``service_speed`` (required: the maximum service speed),
     ``balancing_speed`` (default: the service speed), ``grade`` (``"G 6.3"`` or ``"6.3 mm/s"``; default
-    ``G 6.3``), ``material`` (default ``"carbon steel"``), ``criterion`` (``"iso"``, default, or
-    ``"api"``/``"mil"`` where the tolerance module offers them).
+    ``G 6.3`` [CP]), ``material`` (default ``"carbon steel"`` [CP]), ``criterion`` (``"iso"``, default,
+    ``"api"`` or ``"mil-std-167"``), ``error_allowance`` (ΔU, an unbalance; default 0 [M]).
 ``[geometry]``
     ``bearing_span`` and ``centre_of_mass`` (measured from bearing A towards bearing B), both required;
-    ``static_share`` (optional, a fraction, for narrow rotors; passed to the tolerance module).
+    ``min_share`` (the lever rule's bound, default 0.3 [M]); ``static_share`` (narrow rotors).
 ``[[plane]]`` (one or two)
     ``name``, ``position`` (from bearing A towards B; may lie outside the span), ``radius`` (correction
     radius), ``surface`` (``outer``, ``inner`` or ``face``), ``methods`` (a list in order of preference,
-    from ``drill``, ``plate``, ``washers``), optional ``fixed_positions`` (angles in degrees where the mass
-    must go, such as blades or tapped holes), ``max_depth`` (a length: deepest hole allowed),
-    ``max_length`` (a length: longest plate that fits), ``material`` (default: the rotor's).
+    from ``drill``, ``plate``, ``washers``); optional ``fixed_positions`` (angles in degrees where the mass
+    must go, such as blades or tapped holes), ``max_depth`` (deepest hole tip), ``max_length`` (longest
+    plate that fits), ``width`` (the plate seat's width; required when plates are allowed), ``wall``
+    (material under a hole), ``plate_shape`` (``flat``, ``rolled``, ``face``), ``hole_orientation``
+    (``axial``, ``radial``), ``washer_size`` (e.g. ``"M10"``), ``material`` (default: the rotor's).
 ``[angles]``
-    ``reference`` (what marks 0°, e.g. ``"keyway"``; required), ``sense`` (how angles on the rotor are
-    counted: ``"against rotation"`` or ``"with rotation"``; required), ``readings`` (for trial runs: the
-    sense of the instrument's phase angles, same words; default: the same as ``sense``).
+    ``reference`` (what marks 0°, e.g. ``"keyway"``) and ``sense`` (how angles on the rotor are counted:
+    ``"against rotation"`` or ``"with rotation"``), both required.
 ``[measurement]``
     ``kind`` = ``"machine"``: per-plane values read from a balancing machine in ``[measurement.readings]``,
     ``PLANE = "AMOUNT@ANGLE"`` with the amount as an unbalance (``"1820 g*mm@40"``) or as a mass at the
     correction radius (``"5.9 g@40"``); ``shows`` says what the machine's angle is: ``"heavy spot"``
-    (default) or ``"add"`` (where mass is to be added). ``kind`` = ``"runs"``: trial-mass runs in
-    ``[[measurement.run]]`` tables, in the same form as the ``solve`` runs file. ``kind`` =
-    ``"coefficients"``: ``coefficients`` (a path, relative to the job file, to stored influence
-    coefficients) and one original run in ``[measurement.original]``.
+    (default) or ``"add"`` (where mass is to be added). ``kind`` = ``"runs"``: ``phase`` (``"lag"`` or
+    ``"lead"``), ``sensors`` and ``[[measurement.run]]`` tables in the same form as the ``solve`` runs
+    file (planes, radii and the weight-angle sense come from the job), optional ``trial_change_pct`` and
+    ``trial_change_deg`` [CP]. ``kind`` = ``"coefficients"``: ``coefficients`` (a path, relative to the
+    job file, to stored influence coefficients) and ``original`` (one reading per sensor).
 ``[shop]``
-    ``units`` (``metric``/``imperial``), ``drills`` and ``plate_stock`` (``"builtin"`` or a path to a shop's
-    own table), ``angle_step`` (marking resolution, default 1°) and ``mass_step`` (weighing resolution,
-    default 0.1 g); both defaults are common practice and printed as used.
+    ``units`` (``metric``/``imperial``), ``drills`` (``"metric"``, ``"inch"`` or a CSV path),
+    ``plate_stock`` (``"plate_stock"`` or a CSV path), ``angle_step`` (marking resolution, 1° [CP]),
+    ``mass_step`` (weighing resolution, 0.1 g [CP]), ``plate_step`` (1 mm [CP]), ``point_angle`` (118°),
+    and a ``[shop.drilling]`` table of drilling rules of thumb [CP]. Every default is printed on the work
+    order as used.
 
 Validation collects every problem before it stops; each names the file, the line, the key, the value
 given and what is allowed. ``tomllib`` gives no line numbers, so :func:`key_lines` finds them in the text.
