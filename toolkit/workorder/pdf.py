@@ -381,7 +381,8 @@ def _diagram(c, plane: PlaneOrder, fmt: Formatter, order: WorkOrder, x0: float, 
     c.line(xa, ya, xb, yb)
     c.setFillColorRGB(*_ACCENT)
     c.setFont("Helvetica-Bold", 7.5)
-    c.drawCentredString(cx, yb + 3, _latin(f"0° = {order.angle_reference}"))
+    c.drawRightString(cx - 4, yb + 2, _latin(f"0° = {order.angle_reference}"))  # left of the tick: an
+    # operation at 0° is labelled to its right
     # angle sense arrow (angles grow counter-clockwise on the page)
     _arc_arrow(c, cx, cy, rim + 26, 305, 340, ccw=True, color=_ACCENT)
     tx, ty = at(300, rim + 30)
