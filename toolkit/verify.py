@@ -155,10 +155,9 @@ def verify_residual(test_unbalance, readings, angles=None, *, allowed=None,
             warnings.append(f"the readings vary more than any residual and test unbalance can explain "
                             f"(q = {q:.3f} > 0.5); the result is not reliable")
         q = 0.5
-    if q > 0:
-        x = (1 - math.sqrt(max(0.0, 1 - 4 * q * q))) / (2 * q)
-    else:
-        x = 0.0
+    # (1 - sqrt(1 - 4q^2))/(2q) rewritten as 2q/(1 + sqrt(1 - 4q^2)): the same root without the
+    # cancellation that returns 0 for a residual below about 1e-8 of the test unbalance
+    x = 2 * q / (1 + math.sqrt(max(0.0, 1 - 4 * q * q)))
     residual = test * x
     angle = math.degrees(math.atan2(c, b)) % 360.0 if amp > 0 else 0.0
     sensitivity = math.sqrt(amp / (2 * test * residual)) if residual > 0 else math.sqrt(a) / test
