@@ -240,7 +240,9 @@ def test_absolute_depth_cap_and_wall():
     r = drill_correction("1000 g*mm", radius="100 mm", diameter="8 mm", material="steel", wall="20 mm")
     # wall under the tip at least max(2 mm, 0.5 d) = 4 mm (common practice)
     assert all(20 - h.tip_depth_mm >= 4 - 1e-9 for h in r.holes)
-    assert any("wall left under the tip" in w for w in r.warnings)
+    # a wall that is thick enough is reported as a fact, not as a warning
+    assert r.wall_left_mm == pytest.approx(20 - r.tip_depth_mm)
+    assert "wall left under the tip" in r.wall_note() and not r.warnings
     with pytest.raises(Infeasible, match="no room"):
         drill_correction("1000 g*mm", radius="100 mm", diameter="8 mm", material="steel", wall="5 mm")
 

@@ -125,6 +125,8 @@ def run_drill(args) -> int:
     lines += [f"  {op.description}" for op in plan.operations]
     if r.pattern():
         lines.append(f"  pattern        {r.pattern()}")
+    if r.wall_note():
+        lines.append(f"  wall           {r.wall_note()}")
     lines += [f"  removed mass   {_mass(r.removed_mass_g, args)}",
               *_achieved(plan, args),
               f"  material       {r.material or 'as given'}, {r.density_kg_m3:g} kg/m³ ({r.density_source})",

@@ -355,6 +355,7 @@ class DrillResult:
     warnings: tuple[str, ...] = ()
     method: str = "exact hole geometry (DOMAIN.md section 3: axial V = π r² (L + h/3); radial first moment)"
     cautions: tuple[str, ...] = CAUTIONS
+    wall_mm: float | None = None
 
     @property
     def depth_mm(self) -> float:
@@ -367,6 +368,19 @@ class DrillResult:
     @property
     def removed_mass_g(self) -> float:
         return sum(h.mass_g for h in self.holes)
+
+    @property
+    def wall_left_mm(self) -> float | None:
+        """Material left under the deepest tip, when the wall thickness was given."""
+        return None if self.wall_mm is None else self.wall_mm - self.tip_depth_mm
+
+    def wall_note(self) -> str:
+        """The wall left under the tip against the rule of thumb, in words (empty without a wall)."""
+        if self.wall_mm is None:
+            return ""
+        need = max(self.limits.min_wall_mm, self.limits.min_wall_ratio * self.diameter_mm)
+        return (f"{self.wall_left_mm:.1f} mm of the {self.wall_mm:g} mm wall left under the tip "
+                f"(at least {need:.1f} mm required [CP])")
 
     def pattern(self) -> str:
         """The hole pattern in words (empty for one hole)."""
@@ -399,6 +413,7 @@ class DrillResult:
             "error_g_mm": self.error_g_mm,
             "angle_offsets_deg": [h.offset_deg for h in self.holes],
             "pitch_deg": self.pitch_deg, "pattern": self.pattern(),
+            "wall_mm": self.wall_mm, "wall_left_mm": self.wall_left_mm,
             "fixed_positions_deg": list(self.fixed_positions) if self.fixed_positions else None,
             "density_kg_m3": self.density_kg_m3, "material": self.material,
             "density_source": self.density_source, "limits_used": self.limits.to_dict(),
@@ -603,9 +618,6 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
     if tip > limits.warn_depth_ratio * d:
         warnings.append(f"tip depth {tip:.1f} mm is beyond {limits.warn_depth_ratio:g}·d "
                         f"({limits.warn_depth_ratio * d:.1f} mm): drill in pecks and check for drift [CP]")
-    if wall_mm is not None:
-        warnings.append(f"wall left under the tip: {wall_mm - tip:.1f} mm "
-                        f"(at least {max(limits.min_wall_mm, limits.min_wall_ratio * d):.1f} mm required) [CP]")
     if fixed and len(holes) == 1 and abs(holes[0].offset_deg) > 1e-9:
         warnings.append(f"the share for the other fixed position is below half of what one {d:g} mm hole's point "
                         f"removes; drilled at {holes[0].angle_deg:g}° only (see the achieved angle)")
@@ -621,7 +633,7 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
     return DrillResult(orientation, R, drill.size, d, angle, tuple(holes), U, remove_angle, action, given,
                        achieved, ach_angle, abs(total - want), dens.kg_m3,
                        dens.material.name if dens.material else None, dens.source, limits, pitch, fixed,
-                       tuple(warnings))
+                       tuple(warnings), wall_mm=wall_mm)
 
 
 def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed) -> str:

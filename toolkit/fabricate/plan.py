@@ -135,7 +135,8 @@ def _ops_drill(r: drilling.DrillResult, say: _Say | None = None) -> tuple[Operat
              "radius_mm": r.radius_mm},
             f"hole {i} of {len(r.holes)}: drill {r.orientation} {r.drill} ({r.point_angle_deg:g}° point) at "
             f"{h.angle_deg:g}° on {say.dim(r.radius_mm)} {where}, {say.len(h.depth_mm)} deep to the shoulder "
-            f"({say.len(h.tip_depth_mm)} to the tip); removes {say.mass(h.mass_g)}"))
+            f"({say.len(h.tip_depth_mm)} to the tip); removes {say.mass(h.mass_g)}"
+            + (f"; {say.len(r.wall_mm - h.tip_depth_mm)} of wall left under the tip" if r.wall_mm else "")))
     return tuple(ops)
 
 
