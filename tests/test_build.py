@@ -201,3 +201,31 @@ def test_trial_run_thresholds_are_overridable_and_reported():
                                                 "trial_change_deg = 170"), str(path), path.parent))
     assert {s.name: s for s in strict.settings}["trial run: least change in phase"].given
     assert any("trial effect too small" in w for w in strict.warnings)
+
+
+def test_weld_convexity_and_fillet_from_the_job_reach_the_plate(tmp_path):
+    # DOMAIN.md section 3: fillet cross-section z²/2 plus 10–30 % convexity, the convexity from memory [M],
+    # so a job must be able to set it and the work order must say which value was used
+    from toolkit.workorder.build import build_order, demo_job
+    from toolkit.workorder.job import parse_job
+    from importlib import resources
+
+    text = resources.files("toolkit.workorder").joinpath("demo.toml").read_text(encoding="utf-8")
+    base = build_order(demo_job())
+    shop = "[shop]\nweld_convexity = 0.3\nfillet = \"6 mm\"\n"
+    if "[shop]" in text:
+        text = text.replace("[shop]\n", shop, 1)
+    else:
+        text += "\n" + shop
+    changed = build_order(parse_job(text, origin="demo-changed.toml"))
+    used = {s.name: s for s in changed.settings}
+    assert used["weld convexity allowance"].value == "0.3" and used["weld convexity allowance"].given
+    assert used["fillet weld leg"].value == "6 mm" and used["fillet weld leg"].given
+    base_used = {s.name: s for s in base.settings}
+    assert base_used["weld convexity allowance"].value == "0.2" and not base_used["weld convexity allowance"].given
+
+    def plate_text(order):
+        return next(op for p in order.planes for op in p.operations if op.kind == "plate").description
+
+    assert "with 6 mm fillets" in plate_text(changed)
+    assert "with 6 mm fillets" not in plate_text(base)

@@ -145,7 +145,8 @@ def _plan(job: Job, plane, u0: float, a0: float, allowance: float, method: str, 
                                  surface=plane.surface if plane.surface in ("outer", "inner") else "outer",
                                  width=plane.width, stock=job.shop.plate_stock,
                                  stock_unit="in" if job.shop.units == "imperial" else "mm",
-                                 step=job.shop.plate_step or "1 mm", max_length=plane.max_length, **common)]
+                                 step=job.shop.plate_step or "1 mm", max_length=plane.max_length,
+                                 fillet=job.shop.fillet, convexity=job.shop.weld_convexity, **common)]
     else:
         orientation = "axial" if plane.surface == "face" else "radial"
         surface = plane.surface if plane.surface in ("outer", "inner") else "outer"
@@ -248,6 +249,14 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
         step = job.shop.plate_step.m_as("mm") if job.shop.plate_step is not None else 1.0
         out.append(Setting("plate size step", f"{step:g} mm", "CP", job.shop.plate_step is not None,
                            "[shop] plate_step"))
+        from toolkit.fabricate.plates import DEFAULT_CONVEXITY
+
+        convexity = DEFAULT_CONVEXITY if job.shop.weld_convexity is None else job.shop.weld_convexity
+        out.append(Setting("weld convexity allowance", f"{convexity:g}", "M", job.shop.weld_convexity is not None,
+                           "[shop] weld_convexity"))
+        fillet = ("minimum for the plate thickness (AWS D1.1 table [H])" if job.shop.fillet is None
+                  else f"{job.shop.fillet.m_as('mm'):g} mm")
+        out.append(Setting("fillet weld leg", fillet, "H", job.shop.fillet is not None, "[shop] fillet"))
     return tuple(out)
 
 

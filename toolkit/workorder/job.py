@@ -37,7 +37,8 @@ A job file has these tables (``examples/job-*.toml`` are complete, invented exam
     ``units`` (``metric``/``imperial``), ``drills`` (``"metric"``, ``"inch"`` or a CSV path),
     ``plate_stock`` (``"plate_stock"`` or a CSV path), ``angle_step`` (marking resolution, 1° [CP]),
     ``mass_step`` (weighing resolution, 0.1 g [CP]), ``plate_step`` (1 mm [CP]), ``point_angle`` (118°),
-    and a ``[shop.drilling]`` table of drilling rules of thumb [CP]. Every default is printed on the work
+    ``weld_convexity`` (fraction added to a fillet's z²/2, 0.2 [M]), ``fillet`` (weld leg; default the
+    minimum for the plate thickness [H]), and a ``[shop.drilling]`` table of drilling rules of thumb [CP]. Every default is printed on the work
     order as used.
 
 Validation collects every problem before it stops; each names the file, the line, the key, the value
@@ -243,6 +244,8 @@ class ShopSettings:
     point_angle_deg: float = 118.0
     drilling: Mapping = field(default_factory=dict)
     given: tuple[str, ...] = ()
+    weld_convexity: float | None = None
+    fillet: Any = None
 
 
 @dataclass(frozen=True)
@@ -622,7 +625,7 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     # [shop]
     shop_t = _table(ck, data, ("shop",), required=False)
     _unknown(ck, shop_t, ("shop",), ("units", "drills", "plate_stock", "angle_step", "mass_step", "plate_step",
-                                      "point_angle", "drilling"))
+                                      "point_angle", "drilling", "weld_convexity", "fillet"))
     units = _choice(ck, shop_t, ("shop", "units"), ("metric", "imperial"), default="metric")
     for key in ("units", "angle_step", "mass_step"):
         if key not in shop_t:
@@ -660,6 +663,16 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
                 ck.add(("shop", "angle_step"), f"{_shown(raw)} is not allowed; give a step between 0 and 45 degrees")
             else:
                 step_deg = angle
+    fillet = _quantity(ck, shop_t, ("shop", "fillet"), "length", positive=True)
+    convexity = None
+    if "weld_convexity" in shop_t:
+        raw = shop_t["weld_convexity"]
+        if isinstance(raw, bool) or not isinstance(raw, (int, float)) or not math.isfinite(raw) \
+                or not 0 <= raw <= 1:
+            ck.add(("shop", "weld_convexity"), f"{_shown(raw)} is not allowed; give a fraction from 0 to 1 "
+                                                 "(0.2 adds 20 % to the fillet's z²/2 cross-section)")
+        else:
+            convexity = float(raw)
     mass_step = _quantity(ck, shop_t, ("shop", "mass_step"), "mass", positive=True)
     if mass_step is None:
         from toolkit.units import Q_
@@ -671,7 +684,7 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     return Job(origin, MappingProxyType(order), mass, service, balancing, grade, criterion or "iso", material,
                span, com, share, min_share, error_allowance, tuple(planes), reference, sense, measurement,
                ShopSettings(units or "metric", drills, stock, step_deg, mass_step, plate_step, point_angle,
-                            MappingProxyType(drilling), tuple(k for k in shop_t)),
+                            MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet),
                tuple(defaults_used))
 
 
