@@ -348,7 +348,7 @@ def _diagram(c, plane: PlaneOrder, fmt: Formatter, order: WorkOrder, x0: float, 
              size: float):
     """One polar diagram in the box with lower-left corner (x0, y0), ``width`` wide and ``size`` high; the
     circle sits in the left square, the legend to its right."""
-    cx, cy = x0 + size * 0.5, y0 + size * 0.48
+    cx, cy = x0 + size * 0.5 + 14, y0 + size * 0.48  # room on the left for operation labels
     rim = size * 0.30
 
     def at(angle_deg: float, radius: float) -> tuple[float, float]:
@@ -416,15 +416,17 @@ def _diagram(c, plane: PlaneOrder, fmt: Formatter, order: WorkOrder, x0: float, 
     for op in plane.operations:
         _marker(c, op.kind, op.angle_deg, at, rim)
         lx, ly = at(op.angle_deg, rim + 20)
-        label = f"{op.number}: {_kind_word(op.kind)}, {op.action} {fmt.mass(op.mass_g)}"
+        lines = [_latin(f"{op.number}: {_kind_word(op.kind)},"), _latin(f"{op.action} {fmt.mass(op.mass_g)}")]
         c.setFillColorRGB(*_INK)
         c.setFont("Helvetica-Bold", 7)
-        if lx >= cx:
-            c.drawString(lx + 2, ly - 2, _latin(label))
-        else:
-            c.drawRightString(lx - 2, ly - 2, _latin(label))
+        widest = max(c.stringWidth(line, "Helvetica-Bold", 7) for line in lines)
+        for k, line in enumerate(lines):
+            if lx >= cx:
+                c.drawString(min(lx + 2, x0 + width - widest), ly - 2 - 8 * k, line)
+            else:  # right-aligned to the left of the rim, never past the left margin
+                c.drawRightString(max(lx - 2, x0 + widest), ly - 2 - 8 * k, line)
     # legend, in words
-    lx = x0 + size + 28
+    lx = x0 + size + 36
     ly = y0 + size * 0.82
     c.setFont("Helvetica", 7)
     entries = [
