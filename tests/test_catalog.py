@@ -58,7 +58,7 @@ def test_non_utf8_and_missing_and_huge_files(tmp_path):
     big = tmp_path / "big.csv"
     with open(big, "wb") as handle:
         handle.truncate(catalog.MAX_TABLE_BYTES + 1)
-    with pytest.raises(BadInput, match="too large for a table"):
+    with pytest.raises(BadInput, match="too large for a table file"):
         catalog.load(big, {"name": catalog.text})
 
 

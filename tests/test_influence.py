@@ -397,7 +397,7 @@ def test_load_runs_malformed_toml_names_line_and_column(tmp_path):
     path.write_text('sensors = ["a"]\nplanes = ["p"\n')
     with pytest.raises(BadInput, match=r"runs\.toml: not valid TOML: .*line 3, column 1, the end of the file"):
         load_runs(path)
-    with pytest.raises(BadInput, match="no such file"):
+    with pytest.raises(BadInput, match="no such runs file"):
         load_runs(tmp_path / "missing.toml")
 
 

@@ -134,22 +134,9 @@ def _read_builtin(name: str) -> str:
 
 
 def _read_file(path: Path) -> str:
-    try:
-        size = path.stat().st_size
-    except FileNotFoundError:
-        raise BadInput(f"{path}: no such table file") from None
-    except OSError as exc:
-        raise BadInput(f"{path}: cannot read ({exc.strerror})") from None
-    if not path.is_file():
-        raise BadInput(f"{path}: not a file")
-    if size > MAX_TABLE_BYTES:
-        raise BadInput(f"{path}: {size} bytes is too large for a table (at most {MAX_TABLE_BYTES})")
-    raw = path.read_bytes()
-    try:
-        return raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = raw[: exc.start].count(b"\n") + 1
-        raise BadInput(f"{path}, line {line}: not UTF-8 text") from None
+    from toolkit.fileio import read_text
+
+    return read_text(path, "table file", MAX_TABLE_BYTES)
 
 
 def parse(content: str, schema: Mapping[str, Converter], origin: str, name: str = "") -> Table:

@@ -111,13 +111,12 @@ def _names(value, field: str) -> tuple[str, ...]:
 
 def load_coefficients(path) -> Coefficients:
     """Read a coefficients file; every error names the file and the field."""
+    from toolkit.fileio import read_text
+
     p = Path(path)
+    text = read_text(p, "coefficients file", 1_000_000)
     try:
-        data = json.loads(p.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise BadInput(f"{p}: no such file") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise BadInput(f"{p}: cannot read ({exc})") from None
+        data = json.loads(text)
     except json.JSONDecodeError as exc:
         raise BadInput(f"{p}: not valid JSON (line {exc.lineno}, column {exc.colno}): {exc.msg}") from None
     if not isinstance(data, dict) or data.get("format") != FORMAT:

@@ -15,9 +15,9 @@ import unicodedata
 from pathlib import Path
 from typing import Callable, BinaryIO
 
-from toolkit.errors import OutputError
+from toolkit.errors import BadInput, OutputError
 
-__all__ = ["write_atomic", "check_writable", "safe_filename"]
+__all__ = ["write_atomic", "check_writable", "safe_filename", "read_text", "parse_toml"]
 
 _REASONS = {
     errno.ENOSPC: "the disk is full",
@@ -123,3 +123,54 @@ def safe_filename(text: str, default: str = "order", max_length: int = 80) -> st
 
 
 _RESERVED = {"CON", "PRN", "AUX", "NUL", *(f"COM{i}" for i in range(1, 10)), *(f"LPT{i}" for i in range(1, 10))}
+
+
+def read_text(path: str | Path, what: str, max_bytes: int) -> str:
+    """The UTF-8 text of an input file (a table, a job, a runs or coefficients file), read without
+    changing it.
+
+    Refused with :class:`BadInput` naming the file: missing, a folder, unreadable, larger than
+    ``max_bytes`` (checked before reading, so a huge file cannot exhaust memory), or not UTF-8 (with the
+    line of the first bad byte). A byte-order mark is allowed. ``what`` names the kind of file in messages.
+    """
+    path = Path(path)
+    try:
+        size = path.stat().st_size
+    except FileNotFoundError:
+        raise BadInput(f"{path}: no such {what}") from None
+    except OSError as exc:
+        raise BadInput(f"{path}: cannot read ({_reason(exc)})") from None
+    if not path.is_file():
+        raise BadInput(f"{path}: not a file; give a {what}")
+    if size > max_bytes:
+        raise BadInput(f"{path}: {size} bytes is too large for a {what} (at most {max_bytes})")
+    try:
+        raw = path.read_bytes()
+    except OSError as exc:
+        raise BadInput(f"{path}: cannot read ({_reason(exc)})") from None
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = raw[: exc.start].count(b"\n") + 1
+        raise BadInput(f"{path}, line {line}: not UTF-8 text; save the {what} as UTF-8") from None
+
+
+def parse_toml(text: str, origin: str) -> dict:
+    r"""Parse TOML text; a syntax error becomes :class:`BadInput` naming ``origin``, the line and column.
+
+    >>> parse_toml("a = 1\nb = = 2\n", "runs.toml")
+    Traceback (most recent call last):
+    ...
+    toolkit.errors.BadInput: runs.toml: not valid TOML: Invalid value (at line 2, column 5)
+    """
+    import tomllib
+
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        message = str(exc)
+        if "end of document" in message:  # name the line and column of the end of the file
+            lines = text.split("\n")
+            message = message.replace("end of document", f"line {len(lines)}, column {len(lines[-1]) + 1}, "
+                                                         f"the end of the file")
+        raise BadInput(f"{origin}: not valid TOML: {message}") from None

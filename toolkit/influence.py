@@ -415,32 +415,19 @@ def runs_from_dict(data: dict, origin: str) -> RunSet:
                   method=method, speed_rpm=speed)
 
 
+#: A runs file larger than this is refused before it is read (a real one is a few kilobytes).
+MAX_RUNS_BYTES = 1_000_000
+
+
 def load_runs(path) -> RunSet:
     """Read a runs file (TOML) into a :class:`RunSet`; errors name the file, the run and the field, and
     malformed TOML names the line and column."""
-    import tomllib
     from pathlib import Path
 
+    from toolkit.fileio import parse_toml, read_text
+
     p = Path(path)
-    try:
-        text = p.read_bytes().decode("utf-8")
-    except FileNotFoundError:
-        raise BadInput(f"{p}: no such file") from None
-    except IsADirectoryError:
-        raise BadInput(f"{p}: is a folder, not a runs file") from None
-    except UnicodeDecodeError:
-        raise BadInput(f"{p}: not UTF-8 text; save the runs file as UTF-8") from None
-    except OSError as exc:
-        raise BadInput(f"{p}: cannot read ({exc.strerror})") from None
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        message = str(exc)
-        if "end of document" in message:  # give the line and column of the end of the file
-            lines = text.split("\n")
-            message = message.replace("end of document", f"line {len(lines)}, column {len(lines[-1]) + 1}, "
-                                                         f"the end of the file")
-        raise BadInput(f"{p}: not valid TOML: {message}") from None
+    data = parse_toml(read_text(p, "runs file", MAX_RUNS_BYTES), str(p))
     return runs_from_dict(data, str(p))
 
 

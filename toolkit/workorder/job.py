@@ -840,23 +840,10 @@ def load_job(path: str | Path) -> Job:
 
     Raises :class:`JobError` (a :class:`~toolkit.errors.BadInput`) naming the file and every problem.
     """
+    from toolkit.fileio import read_text
+
     path = Path(path)
-    try:
-        size = path.stat().st_size
-    except FileNotFoundError:
-        raise BadInput(f"{path}: no such job file") from None
-    except OSError as exc:
-        raise BadInput(f"{path}: cannot read ({exc.strerror})") from None
-    if not path.is_file():
-        raise BadInput(f"{path}: not a file; give a job file (.toml)")
-    if size > MAX_JOB_BYTES:
-        raise BadInput(f"{path}: {size} bytes is too large for a job file (at most {MAX_JOB_BYTES})")
-    raw = path.read_bytes()
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = raw[: exc.start].count(b"\n") + 1
-        raise BadInput(f"{path}, line {line}: not UTF-8 text") from None
+    text = read_text(path, "job file (.toml)", MAX_JOB_BYTES)
     return parse_job(text, str(path), path.parent)
 
 
