@@ -168,3 +168,43 @@ def test_work_order_with_a_spoiled_cache(tmp_path):
     assert result.returncode in (0, 1), result.stderr
     files = json.loads(result.stdout)["files"]
     assert files and all(Path(f).stat().st_size > 0 for f in files)
+
+
+# -- the in-process caches of parsed units (toolkit/units.py) ------------------------------------------------
+
+from hypothesis import given, settings, strategies as st  # noqa: E402
+
+UNIT_TEXTS = ["kg", "g", "lb", "oz", "mm", "m", "in", "um", "rpm", "Hz", "g*mm", "oz*in", "kg*m", "mm/s",
+              "in/s", "kg/m**3", "kg/m^3", "lb/in**3", "N", "lbf", "m/s**2", "m/s^2", "deg", "rad", "1/min"]
+
+
+@settings(max_examples=150, deadline=None)
+@given(number=st.one_of(st.integers(min_value=-10**12, max_value=10**12).map(str),
+                        st.floats(min_value=-1e12, max_value=1e12, allow_nan=False).map(repr),
+                        st.sampled_from(["0", "-0", "+5", "5.", ".5", "1e5", "1E-3", "007"])),
+       space=st.sampled_from(["", " ", "  "]), unit=st.sampled_from(UNIT_TEXTS))
+def test_plain_form_reads_like_pint(number, space, unit):
+    # derived here (D): the fast reading of "NUMBER UNIT" must give what pint's own parser gives
+    from toolkit.units import _parse, registry
+
+    text = f"{number}{space}{unit}"
+    ours = _parse(text)
+    theirs = registry().Quantity(text.replace("^", "**"))
+    assert ours.units == theirs.units
+    assert ours.magnitude == pytest.approx(theirs.magnitude, rel=1e-15, abs=0)
+
+
+def test_remembered_unit_parses_equal_fresh_ones():
+    # the registry keeps each unit string's parse; the class's own method parses afresh every time
+    from toolkit.units import registry
+
+    ureg = registry()
+    for text in UNIT_TEXTS + ["gram * millimeter", "kilogram / meter ** 3"]:
+        text = text.replace("^", "**")
+        first = ureg.parse_units_as_container(text)
+        again = ureg.parse_units_as_container(text)
+        fresh = type(ureg).parse_units_as_container(ureg, text)
+        assert first is again and first == fresh, text
+    q = ureg.Quantity(3.5, "oz*in")
+    assert q.m_as("g*mm") == pytest.approx(3.5 * 720.077887375, rel=1e-12)  # 1 oz*in = 720.0779 g*mm (exact
+    # definitions of the ounce and inch, 1959)

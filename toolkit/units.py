@@ -166,7 +166,8 @@ def _normalise(text: str) -> str:
 
 #: "412 kg", "3.5 oz*in", "7850 kg/m**3": a plain number and one unit term, the common case. These are read
 #: as number x cached unit (a pint expression parse costs about 0.1 ms; shops' sheets repeat a few units).
-_PLAIN = re.compile(r"([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([A-Za-z_][A-Za-z0-9_*/^]*)")
+#: (Leading zeros such as "007" are left to pint, which reads them its own way.)
+_PLAIN = re.compile(r"([-+]?(?:(?:0|[1-9]\d*)(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*([A-Za-z_][A-Za-z0-9_*/^]*)")
 _UNITS: dict[str, object] = {}
 
 
