@@ -353,3 +353,62 @@ def test_refused_order_in_a_process_writes_nothing(tmp_path):
     assert len(result.stderr.splitlines()) == 1 and b"Traceback" not in result.stderr
     assert (out / "WO-2026-0117.pdf").read_bytes() == b"signed copy"
     assert sorted(p.name for p in out.iterdir()) == ["WO-2026-0117.pdf"]
+
+
+# -- planner batches --------------------------------------------------------------------------------------------------
+
+def _planner_with(tmp_path: Path, **cells) -> Path:
+    """The invented example planner, its first row changed by column name; the job files it names beside it."""
+    import csv
+
+    with (EXAMPLES / "planner.csv").open(encoding="utf-8", newline="") as handle:
+        rows = list(csv.reader(handle))
+    for column, value in cells.items():
+        rows[1][rows[0].index(column)] = value
+    for job in EXAMPLES.glob("job-*.toml"):
+        (tmp_path / job.name).write_bytes(job.read_bytes())
+    sheet = tmp_path / "planner.csv"
+    with sheet.open("w", encoding="utf-8", newline="") as handle:
+        csv.writer(handle).writerows(rows)
+    return sheet
+
+
+def test_batch_refuses_to_overwrite_without_force(tmp_path):
+    sheet = _planner_with(tmp_path)
+    out = tmp_path / "out"
+    rc, _, err = run_cli(["batch", sheet, "--out", out])
+    assert rc in (0, 1), err
+    before = snapshot(out)
+    rc, _, err = run_cli(["batch", sheet, "--out", out])
+    assert "--force" in one_line_error(rc, err)
+    assert snapshot(out) == before
+
+
+@pytest.mark.parametrize("number", ["../../escape", "/etc/passwd", ".hidden", "CON"])
+def test_batch_order_numbers_stay_in_the_output_folder(tmp_path, number):
+    sheet = _planner_with(tmp_path, order=number)
+    out = tmp_path / "out"
+    rc, text, err = run_cli(["batch", sheet, "--out", out, "--json"])
+    assert rc in (0, 1), err
+    files = [Path(f).resolve() for f in json.loads(text)["files"]]
+    assert files and all(f.parent == out.resolve() and not f.name.startswith(".") for f in files), files
+    assert sorted(p.name for p in tmp_path.iterdir() if p.suffix not in (".toml",)) == ["out", "planner.csv"]
+
+
+def test_batch_summary_never_holds_a_formula_from_the_sheet(tmp_path):
+    from openpyxl import load_workbook
+
+    payloads = {"order": "=1+1", "rotor": '=HYPERLINK("http://example.invalid","x")', "customer": "@SUM(A1)",
+                "notes": "+cmd|' /C calc'!A0"}
+    sheet = _planner_with(tmp_path, **payloads)
+    rc, text, err = run_cli(["batch", sheet, "--out", tmp_path / "out", "--json"])
+    assert rc in (0, 1), err
+    summary = next(Path(f) for f in json.loads(text)["files"] if f.endswith(".xlsx"))
+    found = 0
+    for ws in load_workbook(summary).worksheets:
+        for row in ws.iter_rows():
+            for cell in row:
+                if isinstance(cell.value, str) and any(p in cell.value for p in payloads.values()):
+                    found += 1
+                    assert cell.data_type == "s", (cell.coordinate, cell.value)
+    assert found >= 1  # the order number and rotor reach the summary, as text
