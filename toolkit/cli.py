@@ -42,7 +42,7 @@ class _Parser(argparse.ArgumentParser):
     """An argument parser whose errors are one line on stderr and exit status 2."""
 
     def error(self, message: str):  # noqa: D401 - argparse API
-        self.exit(2, f"{self.prog}: error: {message}\n")
+        self.exit(2, f"{self.prog}: error: {_printable(message)}\n")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -93,6 +93,16 @@ def main(argv: list[str] | None = None) -> int:
         print(f"counterpoise {args.command}: internal error ({type(exc).__name__}: {_one_line(exc)}); "
               "set COUNTERPOISE_DEBUG=1 for details and please report it", file=sys.stderr)
         return 3
+
+
+def _printable(text: str) -> str:
+    r"""``text`` with control characters and line separators (a raw argument may hold them) escaped, so that
+    a message stays one line.
+
+    >>> _printable("unrecognized arguments: a\x85b c")
+    'unrecognized arguments: a\\x85b c'
+    """
+    return "".join(ch if ch.isprintable() else ch.encode("unicode_escape").decode("ascii") for ch in text)
 
 
 def _one_line(exc: BaseException) -> str:
