@@ -158,3 +158,11 @@ def test_control_characters_in_text_are_refused():
         parse_job(bad)
     # tab and line feed are ordinary text
     assert parse_job(EXAMPLE.replace('rotor = "invented test rotor"', 'rotor = "invented\\ttest\\nrotor"'))
+
+
+def test_order_number_is_one_line():
+    # the order number names the files and heads every page: a tab or line break in it is refused
+    bad = EXAMPLE.replace('number = "INV-0001"', 'number = "INV\\n0001"')
+    with pytest.raises(JobError, match=r"order.number: 'INV\\n0001' contains a tab or line break \(U\+000A\); "
+                                       r"write it on one line"):
+        parse_job(bad)

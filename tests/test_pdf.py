@@ -120,3 +120,11 @@ def test_write_refuses_to_overwrite(tmp_path):
     assert path.read_bytes() == before
     pdf.write_pdf(example_order("X"), path, force=True)
     assert path.read_bytes() != before
+
+
+def test_tabs_and_line_breaks_in_text_are_drawn_as_spaces():
+    # a rotor description typed with a line break (allowed in job text) must not break the page drawing
+    order = dataclasses.replace(example_order(), ident=Identification("WO-7", "fan\trotor\nsecond line",
+                                                                      "Works\r\nLtd"))
+    text = _flat(" ".join(_pages(pdf.to_bytes(order))))
+    assert "fan rotor second line" in text

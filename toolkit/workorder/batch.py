@@ -164,10 +164,11 @@ def _csv_rows(path: Path, origin: str):
         reader = csv.reader(handle)
         try:
             header = _header(next(reader, []), origin)
-            for cells in reader:
+            # rows counted as a spreadsheet shows them: a quoted cell with a line break stays in its row
+            for number, cells in enumerate(reader, start=2):
                 if not any(c.strip() for c in cells):
                     continue
-                yield reader.line_num, {h: _cell_text(c) for h, c in zip(header, cells) if h}
+                yield number, {h: _cell_text(c) for h, c in zip(header, cells) if h}
         except UnicodeDecodeError:
             raise BadInput(f"{origin}, after row {reader.line_num}: not UTF-8 text") from None
         except csv.Error as exc:

@@ -337,6 +337,8 @@ _MISSING = object()
 #: Control characters a printed or spreadsheet work order cannot hold (tab, line feed and carriage return
 #: are allowed).
 _CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]")
+#: The order number (a file name, and the header of every page) refuses tabs and line breaks as well.
+_CONTROL_OR_BREAK = re.compile(r"[\x00-\x1f\x7f]")
 
 
 def _table(ck: _Checker, data: Mapping, path: tuple, required: bool = True) -> Mapping:
@@ -357,7 +359,8 @@ def _unknown(ck: _Checker, table: Mapping, path: tuple, allowed: tuple[str, ...]
             ck.add(path + (key,), f"unknown key; allowed keys here: {', '.join(allowed)}")
 
 
-def _text(ck: _Checker, table: Mapping, path: tuple, required: bool = False, default: str = "") -> str:
+def _text(ck: _Checker, table: Mapping, path: tuple, required: bool = False, default: str = "",
+          one_line: bool = False) -> str:
     value = table.get(path[-1], _MISSING)
     if value is _MISSING:
         if required:
@@ -369,9 +372,14 @@ def _text(ck: _Checker, table: Mapping, path: tuple, required: bool = False, def
     if required and not value.strip():
         ck.add(path, "is empty; give it as text in quotes")
         return default
-    control = _CONTROL.search(value)
+    control = (_CONTROL_OR_BREAK if one_line else _CONTROL).search(value)
     if control:
-        ck.add(path, f"{_shown(value)} contains a control character (U+{ord(control.group()):04X}); remove it")
+        if control.group() in "\t\n\r":
+            ck.add(path, f"{_shown(value)} contains a tab or line break (U+{ord(control.group()):04X}); "
+                         "write it on one line")
+        else:
+            ck.add(path, f"{_shown(value)} contains a control character (U+{ord(control.group()):04X}); "
+                         "remove it")
         return default
     if len(value) > _TEXT_LIMIT:
         ck.add(path, f"is {len(value)} characters long; at most {_TEXT_LIMIT} are allowed")
@@ -503,7 +511,7 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     order_t = _table(ck, data, ("order",))
     _unknown(ck, order_t, ("order",), ("number", "rotor", "customer", "drawing", "serial", "date", "notes"))
     order = {
-        "number": _text(ck, order_t, ("order", "number"), required=True),
+        "number": _text(ck, order_t, ("order", "number"), required=True, one_line=True),
         "rotor": _text(ck, order_t, ("order", "rotor"), required=True),
     }
     for key in ("customer", "drawing", "serial", "date", "notes"):

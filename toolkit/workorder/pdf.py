@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import functools
 import math
+import re
 import unicodedata
 from contextlib import contextmanager
 from io import BytesIO
@@ -49,9 +50,13 @@ _FOLD = {"Ł": "L", "ł": "l", "Đ": "D", "đ": "d", "Ħ": "H", "ħ": "h", "Œ":
          "→": "->", "←": "<-", "…": "..."}
 
 
+_CONTROLS = re.compile(r"[\x00-\x1f\x7f-\x9f]")
+
+
 def _latin(text) -> str:
-    """Text the standard PDF fonts can show: characters outside Latin-1 are folded or replaced."""
-    text = "" if text is None else str(text)
+    """Text the standard PDF fonts can show on one line: control characters (tabs, line breaks) become
+    spaces, characters outside Latin-1 are folded or replaced."""
+    text = "" if text is None else _CONTROLS.sub(" ", str(text))
     try:
         text.encode("latin-1")
         return text
