@@ -121,7 +121,10 @@ def _initial(job: Job):
         grams = c.mass.m_as("g")
         heavy = c.angle_deg if c.action == "remove" else (c.angle_deg + 180.0) % 360.0
         out[c.plane] = (grams * radius[c.plane], heavy)
-    return out, what, list(solution.warnings), [solution.source], list(solution.cautions)
+    # the solver's predicted residual at the sensors is for the exact corrections; the work order predicts
+    # its own residual per plane after the quantised operations, so that line would only mislead here
+    warnings = [w for w in solution.warnings if not w.startswith("predicted residual after the corrections")]
+    return out, what, warnings, [solution.source], list(solution.cautions)
 
 
 def _plan(job: Job, plane, u0: float, a0: float, allowance: float, method: str, step: float):
