@@ -570,9 +570,9 @@ def test_nul_character_in_job_text(tmp_path):
         assert "\x00" not in json.dumps(json.loads(out)["files"])
 
 
-@pytest.mark.xfail(strict=True, reason="issue 4 still open: ZeroDivisionError for a 1e-300 mm drill")
 @pytest.mark.parametrize("diameter", ["1e-300", "5e-324"])
 def test_absurdly_small_drill_in_shop_table(tmp_path, diameter):
+    # found by test_spoiled_shop_tables: once a ZeroDivisionError (exit 3)
     table = tmp_path / "drills.csv"
     table.write_text(f"size,diameter,unit,source\ntiny,{diameter},mm,invented example\n", encoding="utf-8")
     rc, out, err = check(["drill", "--unbalance", "2400 g*mm", "--radius", "150 mm", "--axial", "--material",
@@ -580,7 +580,6 @@ def test_absurdly_small_drill_in_shop_table(tmp_path, diameter):
     assert rc == 2
 
 
-@pytest.mark.xfail(strict=True, reason="issue 4 still open: wrong reason for fixed positions beyond 5·d")
 def test_fixed_positions_beyond_the_limit_give_the_true_reason():
     # 3000 g·mm split onto 340° and 20° needs about 1596 g·mm per 8 mm hole at 100 mm, more than one hole
     # removes at 5·d (derived here (D) from the drill command's own figure, 1515 g·mm); the refusal must say
@@ -589,6 +588,16 @@ def test_fixed_positions_beyond_the_limit_give_the_true_reason():
                           "8 mm", "--density", "7850 kg/m^3", "--positions", "340,20"])
     assert rc == 2
     assert "less than" not in err, err
+    # the most the pair removes is one hole's limit over the larger share, times the whole: 3000 * 1515 / 1596
+    assert "is more than the 8 mm holes can remove" in err, err
+
+
+@pytest.mark.parametrize("radius", ["1e300 mm", "1e-300 mm"])
+def test_absurd_radius_for_holes(radius):
+    # found while fixing the case above: a pitch that rounds to nothing divided by zero
+    rc, out, err = check(["drill", "--unbalance", "2400 g*mm", "--radius", radius, "--axial", "--material",
+                          "steel"])
+    assert rc == 2
 
 
 @pytest.mark.parametrize("field, value", [

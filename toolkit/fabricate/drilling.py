@@ -433,7 +433,10 @@ def _depth_for(orientation: str, U1: float, d: float, R: float, rho: float, angl
     """Exact shoulder depth L for one hole removing U1, or None when out of [minimum, top]."""
     r, h = d / 2.0, _h(d, angle)
     if orientation == "axial":
-        L = U1 / (rho * math.pi * r * r * R) - h / 3.0
+        per_mm = rho * math.pi * r * r * R  # unbalance per mm of depth; 0 or inf for absurd sizes
+        if not (per_mm > 0 and math.isfinite(per_mm)):
+            return None
+        L = U1 / per_mm - h / 3.0
         return L if 0.0 <= L <= top + 1e-12 else None
     lo = _radial_min_depth(R, r)
     hi = min(top, R - h)
@@ -494,7 +497,10 @@ def _design(orientation, U, d, R, rho, angle, limits, wall, ratio, fixed, remove
         if n > 1:
             if pitch is None or (n - 1) * pitch > 180.0:
                 return None
-            factor = math.sin(math.radians(n * pitch / 2)) / math.sin(math.radians(pitch / 2))
+            half = math.sin(math.radians(pitch / 2))
+            if not half > 0:  # the pitch rounds to nothing on this radius: holes would coincide
+                return None
+            factor = math.sin(math.radians(n * pitch / 2)) / half
         else:
             factor = 1.0
         L = _depth_for(orientation, U / factor, d, R, rho, angle, top)
@@ -600,7 +606,8 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
         if chosen:
             break
     if chosen is None:
-        raise Infeasible(_nearest(orientation, U, R, rho, angle, limits, wall_mm, candidates, fixed))
+        raise Infeasible(_nearest(orientation, U, R, rho, angle, limits, wall_mm, candidates, fixed,
+                                  remove_angle))
     drill, (plan, pitch) = chosen
     d = drill.diameter_mm
     holes = []
@@ -636,7 +643,7 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
                        tuple(warnings), wall_mm=wall_mm)
 
 
-def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed) -> str:
+def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed, remove_angle=0.0) -> str:
     """The reason a request cannot be drilled and the nearest feasible alternative."""
     big = candidates[-1].diameter_mm
     small = candidates[0].diameter_mm
@@ -652,11 +659,14 @@ def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed) -> 
         one = rho * _radial_moment(R, big / 2, min(top_big, R - _h(big, angle)), _h(big, angle))
     pitch = _pitch_deg(big, R, limits)
     n = limits.max_holes
-    if pitch is not None and not fixed:
+    if fixed:  # each fixed position takes its own share: the larger share decides
+        share = max(u for _, u in _split_fixed(U, remove_angle, fixed))
+        most = one * U / share if share > 0 else one
+    elif pitch is not None and math.sin(math.radians(pitch / 2)) > 0:
         n = max(1, min(n, int(180.0 // pitch) + 1))
         most = one * math.sin(math.radians(n * pitch / 2)) / math.sin(math.radians(pitch / 2))
     else:
-        most = one * (1 if not fixed else 2)
+        most = one
     if U > most:
         reason = (f"{_fmt(U)} g·mm is more than {f'{n} ×' if not fixed else 'the'} {big:g} mm holes can remove within "
                   f"the limits (at most about {_fmt(most)} g·mm at {limits.max_depth_ratio:g}·d); nearest: remove "
