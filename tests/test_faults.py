@@ -251,6 +251,23 @@ def test_random_words(words):
         assert rc == 2
 
 
+def _every_option_value():
+    for command, bases in sorted(BASES.items()):
+        for b, pairs in enumerate(bases):
+            for i, (opt, value) in enumerate(pairs):
+                if value is not None:
+                    yield pytest.param(command, b, i, id=f"{command}-{b}-{opt or 'positional'}-{i}")
+
+
+@pytest.mark.parametrize("command, base, index", list(_every_option_value()))
+def test_double_dash_as_every_value(command, base, index):
+    # "--opt=--" hands the program an empty list instead of a string (argparse strips the "--")
+    pairs = list(BASES[command][base])
+    opt, _value = pairs[index]
+    argv = [command] + flatten(pairs[:index]) + ([f"{opt}=--"] if opt else ["--"]) + flatten(pairs[index + 1:])
+    check(argv)
+
+
 # -- demo, order: command lines that write files ---------------------------------------------------------------
 
 ORDER_VALUES = st.one_of(VALUE, st.sampled_from(["xlsx", "pdf", "xlsx,pdf", "pdf,xlsx,pdf", "docx", "XLSX",
@@ -494,6 +511,9 @@ def test_malformed_toml_names_line_and_column(tmp_path, command):
     (["verify", "--test", "200 g*mm", "--reading", "44.88@0", "--reading", "53.63@60"], ["--reading"]),
     (["solve", "--original", "4.2@285", "--trial", "10 g@0", "--with-trial", "6.12 mm/s@251.5"],
      ["--original", "no unit"]),
+    # found by this file: "--reading=--" reached the library as an empty list (argparse dropped the "--")
+    (["verify", "--test", "200 g*mm", "--reading=--", "--reading", "53.63@60", "--reading", "58.64@120"],
+     ["--reading 1"]),
     # found by this file: a stray argument holding a line separator (U+0085) split the usage error in two
     (["split", "25 g@100", "--at", "90,135", "a\x85b"], ["unrecognized arguments", "a\\x85b"]),
     (["no\u2028such"], ["invalid choice", "no\\u2028such"]),
@@ -817,3 +837,13 @@ def test_zip_bomb_sheet_is_refused_within_memory(tmp_path):
     assert result.returncode == 2, err
     assert len(err.splitlines()) == 1 and "Traceback" not in err, err
     assert peak_mb < 500, peak_mb  # issue 6: well under the 500 MB a 10,000-row sheet may use
+
+
+@pytest.mark.parametrize("bad", [[], (1.0,), ("1", 30), (float("nan"), 30), (-1.0, 30), (True, 30), None])
+def test_verify_refuses_malformed_reading_pairs(bad):
+    # found by this file through "--reading=--", which once reached verify_residual as [] (IndexError)
+    from toolkit import BadInput
+    from toolkit.verify import verify_residual
+
+    with pytest.raises(BadInput, match=r"--reading 1: .* is not a reading"):
+        verify_residual("200 g*mm", [bad, "53.63@60", "58.64@120"])

@@ -44,6 +44,15 @@ class _Parser(argparse.ArgumentParser):
     def error(self, message: str):  # noqa: D401 - argparse API
         self.exit(2, f"{self.prog}: error: {_printable(message)}\n")
 
+    def _get_values(self, action, arg_strings):
+        # Python 3.11's argparse drops an option value of exactly "--" ("--mass=--") and hands the command
+        # an empty list; keep it as the text it is, so that the command refuses it in its own words
+        if action.option_strings and action.nargs is None and arg_strings == ["--"]:
+            value = self._get_value(action, "--")
+            self._check_value(action, value)
+            return value
+        return super()._get_values(action, arg_strings)
+
 
 def build_parser() -> argparse.ArgumentParser:
     from toolkit import __version__

@@ -97,8 +97,15 @@ def _readings(readings, angles) -> tuple[np.ndarray, np.ndarray]:
                 raise BadInput(f"--reading {i + 1}: {r!r} must be a finite number, zero or more")
             pairs.append((float(r), parse_angle(a, f"--reading {i + 1} angle")))
     else:
-        pairs = [parse_vector(r, None, f"--reading {i + 1}") if isinstance(r, str)
-                 else (float(r[0]), parse_angle(r[1], f"--reading {i + 1} angle")) for i, r in enumerate(items)]
+        pairs = []
+        for i, r in enumerate(items):
+            if isinstance(r, str):
+                pairs.append(parse_vector(r, None, f"--reading {i + 1}"))
+                continue
+            if not isinstance(r, (tuple, list)) or len(r) != 2 or isinstance(r[0], bool) \
+                    or not isinstance(r[0], (int, float)) or not math.isfinite(r[0]) or r[0] < 0:
+                raise BadInput(f"--reading {i + 1}: {r!r} is not a reading; write AMOUNT@ANGLE, e.g. '61.35@0'")
+            pairs.append((float(r[0]), parse_angle(r[1], f"--reading {i + 1} angle")))
     distinct = {round(a, 6) % 360.0 for _r, a in pairs}
     if len(distinct) < 3:
         raise BadInput(f"--reading: {len(pairs)} reading(s) at {len(distinct)} different angle(s); the fit "
