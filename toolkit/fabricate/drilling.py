@@ -394,11 +394,9 @@ class DrillResult:
 
     def placement(self, unb=None) -> str:
         """Where the correction goes, in words; ``unb`` formats an unbalance in g·mm (default metric)."""
-        unb = unb or (lambda x: f"{_fmt(x)} g·mm")
-        if self.given_action == "add":
-            return (f"correction given as add {unb(self.requested_g_mm)} at {self.given_angle_deg:g}°: "
-                    f"remove it at the heavy spot, {self.remove_angle_deg:g}° (= {self.given_angle_deg:g}° + 180°)")
-        return f"remove {unb(self.requested_g_mm)} at the heavy spot, {self.remove_angle_deg:g}°"
+        return describe_placement("remove", self.given_action, self.requested_g_mm, self.given_angle_deg,
+                                  self.remove_angle_deg, "remove it at the heavy spot,", "at the heavy spot, ",
+                                  unb)
 
     def to_dict(self) -> dict:
         return {
@@ -419,6 +417,23 @@ class DrillResult:
             "density_source": self.density_source, "limits_used": self.limits.to_dict(),
             "warnings": list(self.warnings), "method": self.method, "cautions": list(self.cautions),
         }
+
+
+def describe_placement(method_action: str, given_action: str, requested_g_mm: float, given_angle_deg: float,
+                       target_angle_deg: float, opposite: str, where: str = "", unb=None) -> str:
+    """Where a correction goes, in words, saying so when the method works opposite to how the correction was
+    given (holes remove at the heavy spot; plates and washers add opposite it).
+
+    >>> describe_placement("remove", "add", 2400.0, 131.0, 311.0, "remove it at the heavy spot,")
+    'correction given as add 2400 g·mm at 131°: remove it at the heavy spot, 311° (= 131° + 180°)'
+    >>> describe_placement("add", "add", 2400.0, 131.0, 131.0, "weld the plate opposite, at")
+    'add 2400 g·mm at 131°'
+    """
+    unb = unb or (lambda x: f"{_fmt(x)} g·mm")
+    if given_action != method_action:
+        return (f"correction given as {given_action} {unb(requested_g_mm)} at {given_angle_deg:g}°: "
+                f"{opposite} {target_angle_deg:g}° (= {given_angle_deg:g}° + 180°)")
+    return f"{method_action} {unb(requested_g_mm)} at {where}{target_angle_deg:g}°"
 
 
 def _norm(a: float) -> float:

@@ -16,7 +16,7 @@ from dataclasses import dataclass, asdict
 
 from toolkit.errors import BadInput, Infeasible
 from toolkit.fabricate import stock as _stock
-from toolkit.fabricate.drilling import correction_g_mm, _norm
+from toolkit.fabricate.drilling import correction_g_mm, describe_placement, _norm
 from toolkit.fabricate.materials import resolve_density
 from toolkit.units import format_number as _fmt, magnitude
 from toolkit.vectors import parse_angle
@@ -97,11 +97,8 @@ class WasherStack:
 
     def placement(self, unb=None) -> str:
         """Where the correction goes, in words; ``unb`` formats an unbalance in g·mm (default metric)."""
-        unb = unb or (lambda x: f"{_fmt(x)} g·mm")
-        if self.given_action == "remove":
-            return (f"correction given as remove {unb(self.requested_g_mm)} at {self.given_angle_deg:g}°: "
-                    f"add the washers opposite, at {self.add_angle_deg:g}° (= {self.given_angle_deg:g}° + 180°)")
-        return f"add {unb(self.requested_g_mm)} at {self.add_angle_deg:g}°"
+        return describe_placement("add", self.given_action, self.requested_g_mm, self.given_angle_deg,
+                                  self.add_angle_deg, "add the washers opposite, at", unb=unb)
 
     def to_dict(self) -> dict:
         out = asdict(self)
