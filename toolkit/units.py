@@ -86,7 +86,9 @@ def _remember_unit_parses(ureg):
     given string never changes (the package defines no units after the registry is built), so it is kept;
     anything unusual (an argument that cannot be a key) goes straight to pint.
     """
-    parse = ureg.parse_units_as_container
+    parse = getattr(ureg, "parse_units_as_container", None)
+    if parse is None:  # a pint without this hook: keep its own behaviour (slower, same results)
+        return ureg
     seen: dict = {}
 
     def parse_units_as_container(input_string, as_delta=None, case_sensitive=None):
