@@ -124,7 +124,7 @@ def run_drill(args) -> int:
              f"{_length(r.radius_mm, args)} {'pitch' if r.orientation == 'axial' else 'surface'} radius"]
     lines += [f"  {op.description}" for op in plan.operations]
     if r.pattern():
-        lines.append(f"  pattern        {r.pattern()}")
+        lines.append(f"  pattern        {r.pattern(lambda x: _length(x, args))}")
     if r.wall_note():
         lines.append(f"  wall           {r.wall_note()}")
     lines += [f"  removed mass   {_mass(r.removed_mass_g, args)}",

@@ -382,15 +382,17 @@ class DrillResult:
         return (f"{self.wall_left_mm:.1f} mm of the {self.wall_mm:g} mm wall left under the tip "
                 f"(at least {need:.1f} mm required [CP])")
 
-    def pattern(self) -> str:
-        """The hole pattern in words (empty for one hole)."""
+    def pattern(self, length=None) -> str:
+        """The hole pattern in words (empty for one hole); ``length`` formats a length in mm (default
+        metric)."""
         if self.pitch_deg is None:
             return ""
+        length = length or (lambda x: f"{x:.1f} mm")
         surface = self.radius_mm
         chord = 2 * surface * math.sin(math.radians(self.pitch_deg) / 2)
         return (f"{len(self.holes)} holes at {self.pitch_deg:g}° pitch, symmetric about {self.remove_angle_deg:g}°; "
-                f"centres {chord:.1f} mm apart on the {surface:g} mm radius (at least "
-                f"{self.limits.spacing_ratio:g}·d = {self.limits.spacing_ratio * self.diameter_mm:.1f} mm)")
+                f"centres {length(chord)} apart on the {length(surface)} radius (at least "
+                f"{self.limits.spacing_ratio:g}·d = {length(self.limits.spacing_ratio * self.diameter_mm)})")
 
     def placement(self, unb=None) -> str:
         """Where the correction goes, in words; ``unb`` formats an unbalance in g·mm (default metric)."""
