@@ -229,3 +229,18 @@ def test_weld_convexity_and_fillet_from_the_job_reach_the_plate(tmp_path):
 
     assert "with 6 mm fillets" in plate_text(changed)
     assert "with 6 mm fillets" not in plate_text(base)
+
+
+def test_error_allowance_shown_in_the_jobs_units():
+    # an imperial job shows its ΔU in oz·in on the "values used" list (1 oz·in = 720.0779 g·mm, international
+    # ounce and inch definitions)
+    from pathlib import Path
+
+    from toolkit.workorder.build import build_order
+    from toolkit.workorder.job import parse_job
+
+    path = Path(__file__).resolve().parent.parent / "examples" / "job-blower-imperial.toml"
+    text = path.read_text(encoding="utf-8").replace("[rotor]\n", '[rotor]\nerror_allowance = "0.05 oz*in"\n', 1)
+    order = build_order(parse_job(text, origin=str(path), base=path.parent))
+    used = {s.name: s for s in order.settings}["measurement error allowance ΔU"]
+    assert used.given and used.value.endswith("oz·in") and used.value.startswith("0.05")

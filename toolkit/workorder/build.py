@@ -29,7 +29,7 @@ from pathlib import Path
 
 from toolkit.errors import BadInput, Infeasible
 from toolkit.workorder.job import DEFAULTS, Job, load_job, parse_job
-from toolkit.workorder.model import (Identification, Operation, PlaneOrder, Setting, Tolerance, WorkOrder,
+from toolkit.workorder.model import (Formatter, Identification, Operation, PlaneOrder, Setting, Tolerance, WorkOrder,
                                      effect, polar, vector)
 
 __all__ = ["build_order", "order_from_file", "demo_job", "demo_order", "GENERAL_CAUTIONS"]
@@ -223,7 +223,8 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
     out.append(Setting("lever-rule share bounds", f"{share:g} to {1 - share:g}", "M",
                        job.min_share is not None, "[geometry] min_share"))
     delta = 0.0 if job.error_allowance is None else job.error_allowance.m_as("g*mm")
-    out.append(Setting("measurement error allowance ΔU", f"{delta:g} g·mm", "M", job.error_allowance is not None,
+    shown = Formatter(job.shop.units, job.angle_reference, job.angle_sense).unbalance(delta) if delta else "0"
+    out.append(Setting("measurement error allowance ΔU", shown, "M", job.error_allowance is not None,
                        "[rotor] error_allowance"))
     if job.measurement.kind == "runs":
         from toolkit.influence import Settings
