@@ -847,3 +847,28 @@ def test_verify_refuses_malformed_reading_pairs(bad):
 
     with pytest.raises(BadInput, match=r"--reading 1: .* is not a reading"):
         verify_residual("200 g*mm", [bad, "53.63@60", "58.64@120"])
+
+
+@pytest.mark.parametrize("surface", ["outer", "inner"])
+@pytest.mark.parametrize("radius", ["36028797018964.0m", "1e300 mm"])
+def test_rolled_plate_on_an_absurd_radius(radius, surface):
+    # found by test_spoiled_command_lines[plate] with 800 examples: Ro² - R² cancelled to 0, then 0/0
+    check(["plate", "--unbalance", "38 g@307", "--radius", radius, "--width", "40 mm", "--material", "steel",
+           "--shape", "rolled", "--surface", surface])
+
+
+def test_rolled_plate_centroid_unchanged_on_shop_radii():
+    # derived here (D): the factored centroid formula equals the textbook |Ro³ - R³| / |Ro² - R²| form for
+    # shop-sized plates (annular sector centroid, 2/3·sin(a)/a·(Ro³ - R³)/(Ro² - R²))
+    import math
+
+    from toolkit.fabricate.plates import _plate_kernel
+
+    for R, t, w, b, surface in [(620.0, 6.0, 40.0, 34.0, "outer"), (150.0, 3.0, 20.0, 60.0, "inner"),
+                                (2000.0, 25.0, 80.0, 300.0, "outer")]:
+        Ro = R + t if surface == "outer" else R - t
+        alpha = b / (2 * R)
+        textbook = (2 / 3) * math.sin(alpha) / alpha * abs(Ro ** 3 - R ** 3) / abs(Ro ** 2 - R ** 2)
+        mass, rbar = _plate_kernel("rolled", surface, R, t, w, b, 0.00785)
+        assert rbar == pytest.approx(textbook, rel=1e-12)
+        assert mass == pytest.approx(0.00785 * w * alpha * abs(Ro ** 2 - R ** 2), rel=1e-12)

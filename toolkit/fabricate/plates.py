@@ -70,10 +70,14 @@ def _plate_kernel(shape: str, surface: str, R: float, t: float, w: float, b: flo
     """(mass [g], centroid radius [mm]) of the plate alone; lengths mm, rho g/mm³."""
     if shape == "rolled":
         alpha = b / (2 * R)
-        Ro = R + t if surface == "outer" else R - t
-        area2 = abs(Ro * Ro - R * R)
+        s = t if surface == "outer" else -t
+        Ro = R + s
+        # |Ro² - R²| = t·|2R + s| and |Ro³ - R³| / |Ro² - R²| = (Ro² + Ro·R + R²) / |2R + s|, written so that
+        # no difference of nearly equal numbers is taken (a huge radius once gave 0/0)
+        area2 = t * abs(2 * R + s)
         m = rho * w * alpha * area2
-        rbar = (2.0 / 3.0) * (math.sin(alpha) / alpha) * abs(Ro ** 3 - R ** 3) / area2
+        spread = math.sin(alpha) / alpha if alpha > 0 else 1.0
+        rbar = (2.0 / 3.0) * spread * (Ro * Ro + Ro * R + R * R) / abs(2 * R + s)
         return m, rbar
     m = rho * t * w * b
     if shape == "face":
