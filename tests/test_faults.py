@@ -511,6 +511,8 @@ def test_malformed_toml_names_line_and_column(tmp_path, command):
     (["verify", "--test", "200 g*mm", "--reading", "44.88@0", "--reading", "53.63@60"], ["--reading"]),
     (["solve", "--original", "4.2@285", "--trial", "10 g@0", "--with-trial", "6.12 mm/s@251.5"],
      ["--original", "no unit"]),
+    # found by this file (1,500 examples): omega ** 2 overflowed (OverflowError, exit 3)
+    (["solve", "--bearing-mass", "1e-300 kg", "--radius", "1e300 mm", "--speed", "1e300 rpm"], ["speed"]),
     # found by this file: "--reading=--" reached the library as an empty list (argparse dropped the "--")
     (["verify", "--test", "200 g*mm", "--reading=--", "--reading", "53.63@60", "--reading", "58.64@120"],
      ["--reading 1"]),
@@ -890,3 +892,11 @@ def test_rolled_plate_centroid_unchanged_on_shop_radii():
         mass, rbar = _plate_kernel("rolled", surface, R, t, w, b, 0.00785)
         assert rbar == pytest.approx(textbook, rel=1e-12)
         assert mass == pytest.approx(0.00785 * w * alpha * abs(Ro ** 2 - R ** 2), rel=1e-12)
+
+
+def test_trial_suggestion_at_a_huge_speed():
+    # found by test_spoiled_command_lines[solve] with 1,500 examples: 1.3e155 r/min squared overflowed; the
+    # answer is a tiny but computable trial mass (exit 0), never an internal error
+    rc, out, err = check(["solve", "--bearing-mass", "200 kg", "--radius", "150 mm", "--speed", "1.3e155 rpm",
+                          "--json"])
+    assert rc == 0

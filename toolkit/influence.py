@@ -875,6 +875,9 @@ def suggest_trial_mass(bearing_mass, radius, speed, fraction: float | None = Non
             raise BadInput(f"fraction: {fraction!r} must be a number above 0 and at most 0.5")
         used, mark = float(fraction), "given by the user"
     omega = n * 2 * math.pi / 60
-    grams = used * m * 9.80665 / (r * omega ** 2) * 1000
+    grams = used * m * 9.80665 / (r * omega) / omega * 1000  # divided twice: omega ** 2 overflows first
+    if not (grams > 0 and math.isfinite(grams)):
+        raise BadInput(f"speed, radius, bearing_mass: {n:g} r/min at {r * 1000:g} mm for {m:g} kg gives a trial "
+                       f"mass out of the computable range; check the values and their units")
     return TrialSuggestion(Q_(grams, "g"), used, m, r * 1000, n,
                            "centrifugal force of the trial = fraction x static load on the nearer bearing", mark)
