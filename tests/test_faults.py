@@ -268,6 +268,28 @@ def test_double_dash_as_every_value(command, base, index):
     check(argv)
 
 
+EXTREMES = ("1e300", "1e-300", "1.3e155", "7.7e-155", "1.7976931348623157e308")
+
+
+def _every_magnitude():
+    for command, bases in sorted(BASES.items()):
+        for b, pairs in enumerate(bases):
+            for i, (opt, value) in enumerate(pairs):
+                if value is not None and re.match(r"^[A-Za-z]*=?-?[\d.]+ ?[A-Za-z]", value):
+                    yield pytest.param(command, b, i, id=f"{command}-{b}-{opt or 'positional'}-{i}")
+
+
+@pytest.mark.parametrize("command, base, index", list(_every_magnitude()))
+def test_extreme_magnitudes_in_every_quantity(command, base, index):
+    # every number-with-unit of every base, scaled to the edges of the float range (squares and cubes of
+    # these overflow or underflow): an answer or a one-line refusal, never an internal error
+    pairs = list(BASES[command][base])
+    opt, value = pairs[index]
+    for extreme in EXTREMES:
+        pairs[index] = (opt, re.sub(r"-?[\d.]+", extreme, value, count=1))
+        check([command] + flatten(pairs))
+
+
 # -- demo, order: command lines that write files ---------------------------------------------------------------
 
 ORDER_VALUES = st.one_of(VALUE, st.sampled_from(["xlsx", "pdf", "xlsx,pdf", "pdf,xlsx,pdf", "docx", "XLSX",

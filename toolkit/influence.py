@@ -811,7 +811,11 @@ def four_run(original, trial_mass, runs, *, consistency_band: tuple[float, float
     m = np.column_stack([np.ones_like(th), 2 * np.cos(th), 2 * np.sin(th)])
     if np.linalg.matrix_rank(m) < 3:
         raise BadInput("runs: the trial angles must include at least three different positions")
-    rhs = np.array(amps) ** 2 - a0 ** 2
+    with np.errstate(all="ignore"):
+        rhs = np.square(np.array(amps, dtype=float)) - np.square(a0)
+    if not np.all(np.isfinite(rhs)):
+        raise BadInput("original, runs: amplitudes out of the range the four-run method can compute; check the "
+                       "values and their units")
     (p, c, s), *_ = np.linalg.lstsq(m, rhs, rcond=None)
     if p <= 0:
         raise BadInput("runs: the amplitudes do not fit a linear rotor (trial effect p <= 0); check the readings")

@@ -167,7 +167,8 @@ def verify_residual(test_unbalance, readings, angles=None, *, allowed=None,
     x = 2 * q / (1 + math.sqrt(max(0.0, 1 - 4 * q * q)))
     residual = test * x
     angle = math.degrees(math.atan2(c, b)) % 360.0 if amp > 0 else 0.0
-    sensitivity = math.sqrt(amp / (2 * test * residual)) if residual > 0 else math.sqrt(a) / test
+    spread = 2 * test * residual  # 0 when the product underflows (absurdly small test unbalance)
+    sensitivity = math.sqrt(amp / spread) if spread > 0 else math.sqrt(a) / test
     shortcut = test * (r.max() - r.min()) / (r.max() + r.min())
     n = len(r)
     if n == 3:

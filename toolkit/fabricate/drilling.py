@@ -460,7 +460,7 @@ def _depth_for(orientation: str, U1: float, d: float, R: float, rho: float, angl
     if hi <= lo:
         return None
     f = lambda L: rho * _radial_moment(R, r, L, h) - U1  # noqa: E731
-    if f(lo) > 0 or f(hi) < 0:
+    if not f(lo) <= 0 <= f(hi):  # also None when a size out of the float range gives NaN
         return None
     return solve_bracketed(f, lo, hi, 1e-12)
 

@@ -195,6 +195,9 @@ def _solve_length(shape, surface, R, t, w, U1, rho, z, conv, run):
 
     hi = 0.95 * math.pi * R if shape != "face" else 1e7
     lo = 1e-9
+    if not (math.isfinite(total(hi)) and math.isfinite(total(lo))):
+        raise BadInput(f"radius {R:g} mm, thickness {t:g} mm, width {w:g} mm, fillet {z:g} mm: out of the range "
+                       f"the plate formulas can compute; check the values and their units")
     if total(hi) < U1:
         return None, total
     if total(lo) > U1:
