@@ -397,6 +397,28 @@ def test_spoiled_job_files(data, which):
         check(["order", str(job), "--out", str(tmp / "out"), "--format", "xlsx", "--json"])
 
 
+_JOB_QUANTITY = re.compile(r'^(\s*[\w" .-]+=\s*")(-?[\d.]+)(\s*[A-Za-z][^"]*".*)$')
+
+
+@pytest.mark.parametrize("source", JOBS, ids=lambda p: p.name)
+def test_extreme_magnitudes_in_every_job_quantity(source, tmp_path):
+    # every "NUMBER unit" value of every example job at the edges of the float range, one at a time
+    lines = source.read_text(encoding="utf-8").splitlines()
+    _copy_companions(source, tmp_path)
+    job = tmp_path / "job.toml"
+    count = 0
+    for i, line in enumerate(lines):
+        match = _JOB_QUANTITY.match(line)
+        if not match:
+            continue
+        for extreme in ("1e300", "1e-300", "1.3e155"):
+            count += 1
+            changed = lines[:i] + [match.group(1) + extreme + match.group(3)] + lines[i + 1:]
+            job.write_text("\n".join(changed) + "\n", encoding="utf-8")
+            check(["order", str(job), "--out", str(tmp_path / f"out{count}"), "--format", "xlsx"])
+    assert count >= 6  # the sweep did reach the job's quantities
+
+
 @SETTINGS
 @given(data=st.data(), which=st.integers(min_value=0, max_value=len(RUNS) - 1))
 def test_spoiled_runs_files(data, which):
@@ -922,3 +944,11 @@ def test_trial_suggestion_at_a_huge_speed():
     rc, out, err = check(["solve", "--bearing-mass", "200 kg", "--radius", "150 mm", "--speed", "1.3e155 rpm",
                           "--json"])
     assert rc == 0
+
+
+@pytest.mark.parametrize("radius", ["1 mm", "1e-300 mm"])
+def test_radial_holes_on_a_radius_smaller_than_every_drill(radius):
+    # found by an extreme-magnitude sweep of the example jobs: no drill fitted, then an IndexError (exit 3)
+    rc, out, err = check(["drill", "--unbalance", "2400 g*mm", "--radius", radius, "--radial", "--material",
+                          "steel"])
+    assert rc == 2 and "smaller than the" in err

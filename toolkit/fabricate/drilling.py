@@ -607,6 +607,9 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
         candidates = [_stock.Drill(f"{d:g} mm", d, "given")]
     else:
         candidates = [c for c in _stock.drills(drills) if orientation == "axial" or c.diameter_mm < R]
+        if not candidates:
+            raise Infeasible(f"no drill in the set is smaller than the {R:g} mm radius, as a radial hole needs; "
+                             "drill axial holes in a face, or use a plate or washers")
     chosen = None
     ratios = [limits.warn_depth_ratio, limits.max_depth_ratio]
     if diameter is None:
