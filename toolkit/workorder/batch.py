@@ -197,6 +197,10 @@ def _check_package(path: Path, origin: str) -> None:
         raise BadInput(f"{origin}: not a workbook (.xlsx is a zip package); save the sheet as .xlsx or .csv") from None
 
 
+#: The key of the one cell yielded for a row that could not be read at all (its value is the reason).
+_DAMAGED = "\x00damaged"
+
+
 def _xlsx_rows(path: Path, origin: str):
     from openpyxl import load_workbook
 
@@ -208,8 +212,23 @@ def _xlsx_rows(path: Path, origin: str):
     try:
         ws = wb.worksheets[0]
         rows = ws.iter_rows(values_only=True)
-        header = _header(next(rows, ()), origin)
-        for number, cells in enumerate(rows, start=2):
+        try:
+            header = _header(next(rows, ()), origin)
+        except BadInput:
+            raise
+        except Exception as exc:  # damaged XML in the first row: the sheet as a whole cannot be read
+            raise BadInput(f"{origin}: cannot read the first row ({type(exc).__name__})") from None
+        number = 1
+        while True:
+            try:
+                cells = next(rows)
+            except StopIteration:
+                break
+            except Exception as exc:  # damaged XML further down: report that row, keep what was read
+                yield number + 1, {_DAMAGED: f"the workbook is damaged from this row on ({type(exc).__name__}); "
+                                             "the rows after it were not read"}
+                break
+            number += 1
             if cells is None or all(c is None or _cell_text(c) == "" for c in cells):
                 continue
             yield number, {h: _cell_text(c) for h, c in zip(header, cells) if h}
@@ -356,6 +375,8 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
     def one(number: int, cells: dict) -> None:
         origin = f"{sheet}, row {number}"
         try:
+            if _DAMAGED in cells:
+                raise BadInput(cells[_DAMAGED])
             order = build_order(row_job(cells, origin, base))
             name = safe_filename(order.ident.number)
             if name in seen:
