@@ -15,6 +15,7 @@ import argparse
 import importlib
 import os
 import sys
+import warnings
 
 from toolkit.errors import CounterpoiseError
 
@@ -87,7 +88,11 @@ def main(argv: list[str] | None = None) -> int:
     except SystemExit as exc:  # --help, --version, or a usage error already printed
         return int(exc.code or 0) if not isinstance(exc.code, str) else 2
     try:
-        return int(args.run(args) or 0)
+        with warnings.catch_warnings():
+            # a shop user gets one line or a result, never a Python warning: numeric edge cases are checked
+            # by the library itself (results out of range are refused with a message)
+            warnings.simplefilter("ignore")
+            return int(args.run(args) or 0)
     except CounterpoiseError as exc:
         print(f"counterpoise {args.command}: error: {_one_line(exc)}", file=sys.stderr)
         return 2
