@@ -48,11 +48,15 @@ def run_cli(argv: list[str]) -> tuple[int, str, str]:
     cannot hide behind the once-per-location default. Paths in ``argv`` must be absolute."""
     out, err = io.StringIO(), io.StringIO()
     # in a scratch working folder: a generated "demo" without --out writes there, not into the project
-    with warnings.catch_warnings(), tempfile.TemporaryDirectory() as scratch, contextlib.chdir(scratch):
+    with warnings.catch_warnings(record=True) as caught, tempfile.TemporaryDirectory() as scratch, \
+            contextlib.chdir(scratch):
         warnings.simplefilter("always")
         with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
             rc = main(argv)
-    return rc, out.getvalue(), err.getvalue()
+    # recorded, not printed (pytest records warnings itself): shown on stderr as a user would see them
+    ours = [w for w in caught if "toolkit" in str(w.filename)]
+    text = "".join(warnings.formatwarning(w.message, w.category, w.filename, w.lineno) for w in ours)
+    return rc, out.getvalue(), err.getvalue() + text
 
 
 def assert_clean(argv, rc: int, out: str, err: str) -> None:

@@ -511,7 +511,7 @@ def correct(o: np.ndarray, a: np.ndarray, w: np.ndarray, method: str = "least sq
         raise BadInput("run: singular data: the planes' effects cannot be told apart at the sensors (two planes "
                        "act alike, or fewer sensors than planes); use fewer planes, or more sensors or speeds")
     x = _minmax(o, a, w) if method == "min-max" else _weighted_lsq(o, a, w)
-    if limits is None or np.all(np.abs(x) <= limits * (1 + 1e-9)):
+    if limits is None or np.all(np.abs(x) / (1 + 1e-9) <= limits):  # divided: no overflow near the float maximum
         return x, 0.0
     if method != "least squares":
         raise BadInput("limits: per-plane mass limits work with the least-squares method only")
@@ -602,7 +602,8 @@ def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings 
                            f"or use a larger trial)")
         enough = False
         for i in range(len(runset.sensors)):
-            amp_change = abs(abs(now[i]) - abs(ref[i])) / abs(ref[i]) * 100 if abs(ref[i]) > 0 else math.inf
+            was, is_ = float(abs(ref[i])), float(abs(now[i]))  # Python floats: inf, not a numpy warning
+            amp_change = abs(is_ - was) / was * 100 if was > 0 else math.inf
             if amp_change >= settings.trial_change_pct or _phase_diff(ref[i], now[i]) >= settings.trial_change_deg:
                 enough = True
         if not enough:

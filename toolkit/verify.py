@@ -169,7 +169,8 @@ def verify_residual(test_unbalance, readings, angles=None, *, allowed=None,
     angle = math.degrees(math.atan2(c, b)) % 360.0 if amp > 0 else 0.0
     spread = 2 * test * residual  # 0 when the product underflows (absurdly small test unbalance)
     sensitivity = math.sqrt(amp / spread) if spread > 0 else math.sqrt(a) / test
-    shortcut = test * (r.max() - r.min()) / (r.max() + r.min())
+    top, bottom = float(r.max()), float(r.min())  # Python floats: inf, not a numpy warning, at absurd sizes
+    shortcut = test * ((top - bottom) / (top + bottom)) if top + bottom > 0 else 0.0
     n = len(r)
     if n == 3:
         warnings.append("three positions leave no redundancy: the fit is exact and the consistency cannot be "
