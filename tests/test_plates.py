@@ -169,3 +169,10 @@ def test_inner_rolled_plate_sits_inside_the_radius():
     g = plate_geometry("rolled", "400 mm", "8 mm", "40 mm", f"{p.length_mm} mm", "7850 kg/m^3", surface="inner")
     assert p.mass_g == pytest.approx(g["mass_g"])
     assert p.achieved_g_mm > g["unbalance_g_mm"]  # the weld metal adds to it
+
+
+def test_plate_thicker_than_the_bore_radius_is_refused_with_the_reason():
+    # geometry (derived here): a rolled plate of thickness t inside a bore of radius R needs t < R
+    with pytest.raises(Infeasible, match=r"no plate thinner than the 5 mm bore radius is available"):
+        weld_plate("38 g", radius="5 mm", width="40 mm", thickness="8 mm", shape="rolled", surface="inner",
+                   material="steel")

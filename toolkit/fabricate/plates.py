@@ -342,6 +342,9 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
 
 
 def _nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, run) -> str:
+    if shape == "rolled" and surface == "inner" and all(o.thickness_mm >= R for o in options):
+        return (f"no plate thinner than the {R:g} mm bore radius is available (thinnest "
+                f"{options[0].label}); nearest: drilled holes or washers, or a plate on the outer surface")
     t = options[-1].thickness_mm
     z = fillet_mm if fillet_mm is not None else min(min_fillet_mm(t), t)
     if room is not None:
