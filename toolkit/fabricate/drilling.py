@@ -239,13 +239,7 @@ def axial_hole(diameter, depth, pitch_radius, density, point_angle_deg: float = 
     >>> g = axial_hole("10 mm", "10 mm", "100 mm", "7850 kg/m^3"); round(g.unbalance_g_mm, 2), round(g.mass_g, 4)
     (678.28, 6.7828)
     """
-    d = magnitude(diameter, "length", "mm", "diameter", positive=True)
-    L = magnitude(depth, "length", "mm", "depth", nonnegative=True)
-    R = magnitude(pitch_radius, "length", "mm", "radius", positive=True)
-    rho = resolve_density(density=density).g_mm3
-    a = _angle(point_angle_deg)
-    _check_geometry("axial", d, L, R, a)
-    return _geometry("axial", d, L, R, rho, a)
+    return _hole("axial", diameter, depth, pitch_radius, density, point_angle_deg)
 
 
 def radial_hole(diameter, depth, surface_radius, density, point_angle_deg: float = 118.0) -> HoleGeometry:
@@ -258,13 +252,18 @@ def radial_hole(diameter, depth, surface_radius, density, point_angle_deg: float
     >>> g = radial_hole("10 mm", "10 mm", "100 mm", "7850 kg/m^3"); round(g.unbalance_g_mm, 2)
     638.89
     """
+    return _hole("radial", diameter, depth, surface_radius, density, point_angle_deg)
+
+
+def _hole(orientation: str, diameter, depth, radius, density, point_angle_deg) -> HoleGeometry:
+    """Convert a hole's inputs once, check them and compute its geometry (axial or radial)."""
     d = magnitude(diameter, "length", "mm", "diameter", positive=True)
     L = magnitude(depth, "length", "mm", "depth", nonnegative=True)
-    R = magnitude(surface_radius, "length", "mm", "radius", positive=True)
+    R = magnitude(radius, "length", "mm", "radius", positive=True)
     rho = resolve_density(density=density).g_mm3
     a = _angle(point_angle_deg)
-    _check_geometry("radial", d, L, R, a)
-    return _geometry("radial", d, L, R, rho, a)
+    _check_geometry(orientation, d, L, R, a)
+    return _geometry(orientation, d, L, R, rho, a)
 
 
 def correction_g_mm(amount, radius=None, name: str = "--unbalance") -> float:
