@@ -13,7 +13,7 @@ from toolkit import units
 from toolkit.units import Q_, magnitude, quantity, speed_rpm
 
 
-# Conversion factors from the definitions of the international inch and avoirdupois ounce and pound.
+# Conversion factors; source: the definitions of the international inch and avoirdupois ounce and pound.
 def test_ounce_inch_in_gram_millimetre():
     # 1 oz = 28.349523125 g, 1 in = 25.4 mm (international definitions, 1959) -> 720.0779 g*mm
     assert magnitude("1 oz*in", "unbalance", "g*mm") == pytest.approx(720.0779, rel=1e-6)
