@@ -60,9 +60,14 @@ def safe_text(cell, text: str) -> None:
         cell.quotePrefix = True
 
 
-def _hf(text: str) -> str:
-    """Escape user text for a header or footer (``&`` starts a control code there)."""
-    return clean_text(text).replace("&", "&&")[:120]
+def _hf(text: str, limit: int = 120) -> str:
+    """Escape user text for a header or footer: ``&`` starts a control code there (``&P`` page, ``&"font"``,
+    ``&12`` size), so each one is doubled; the text is cut first, so a doubled ``&&`` is never split.
+
+    >>> _hf("A&B &P"), _hf("&" * 80, limit=5)
+    ('A&&B &&P', '&&&&&&&&&&')
+    """
+    return clean_text(text).replace("\n", " ").replace("\r", " ")[:limit].replace("&", "&&")
 
 
 class _Sheet:
@@ -356,9 +361,58 @@ def _nf(x: float) -> str:
 
 def to_bytes(order: WorkOrder) -> bytes:
     """The .xlsx file of a work order as bytes."""
+    return save_bytes(workbook(order))
+
+
+def save_bytes(wb) -> bytes:
+    """A workbook's .xlsx file as bytes, made in memory.
+
+    openpyxl's own ``save`` writes each sheet to a temporary file in the system's temporary folder first
+    (outside our atomic write: a full temporary folder failed there, and a killed run left ``openpyxl.*``
+    files); here every sheet is serialised into memory. A write-only sheet must have been started with
+    :func:`in_memory` for the same reason.
+    """
+    import datetime
+    import zipfile
+
+    from openpyxl.drawing.spreadsheet_drawing import SpreadsheetDrawing
+    from openpyxl.worksheet._writer import WorksheetWriter
+    from openpyxl.writer.excel import ExcelWriter
+
+    class _InMemory(ExcelWriter):
+        def write_worksheet(self, ws):
+            ws._drawing = SpreadsheetDrawing()
+            ws._drawing.charts = ws._charts
+            ws._drawing.images = ws._images
+            if self.workbook.write_only:
+                if not ws.closed:
+                    ws.close()
+                writer = ws._writer
+            else:
+                writer = WorksheetWriter(ws, out=BytesIO())
+                writer.write()
+            if not isinstance(writer.out, BytesIO):  # a write-only sheet not started with in_memory
+                raise RuntimeError("a write-only sheet must be started with xlsx.in_memory")
+            ws._rels = writer._rels
+            self._archive.writestr(ws.path[1:], writer.out.getvalue())
+            self.manifest.append(ws)
+
+    if wb.write_only and not wb.worksheets:
+        wb.create_sheet()
     buffer = BytesIO()
-    workbook(order).save(buffer)
+    archive = zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED, allowZip64=True)
+    wb.properties.modified = datetime.datetime.now(tz=datetime.timezone.utc).replace(tzinfo=None)
+    _InMemory(wb, archive).save()
     return buffer.getvalue()
+
+
+def in_memory(ws) -> None:
+    """Start a write-only sheet whose rows are kept in memory instead of a temporary file (see
+    :func:`save_bytes`); call it before the first row is appended."""
+    from openpyxl.worksheet._writer import WorksheetWriter
+
+    ws._writer = WorksheetWriter(ws, out=BytesIO())
+    ws._writer.write_top()
 
 
 def write_xlsx(order: WorkOrder, path: str | Path, *, force: bool = False) -> Path:
