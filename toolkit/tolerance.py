@@ -118,9 +118,9 @@ GRADE_SCHEMA = {"grade_mm_s": catalog.number, "machinery": catalog.text, "mark":
 def grades(table: str = "grades") -> tuple[Grade, ...]:
     """The balance quality grades of ISO 21940-11:2016 (table ``tables/grades.csv``), finest first.
 
-    Each row carries its source: the series is confirmed in a reproduction of the standard's table for
-    G 16 to G 4000 [H] and recalled for the finer grades [M]. ``table`` may name a shop's own CSV file with
-    the same columns.
+    Each row carries its source: every grade of the series, G 0.4 to G 4000, is confirmed in secondary
+    reproductions of the standard's table [H] (G 0.4 to G 6.3 in tooling makers' catalogues that quote
+    ISO 1940-1 / ISO 21940-11). ``table`` may name a shop's own CSV file with the same columns.
 
     >>> [g.label for g in grades()][:4]
     ['G 0.4', 'G 1', 'G 2.5', 'G 6.3']

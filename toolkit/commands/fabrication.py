@@ -27,8 +27,9 @@ def _add_correction(parser, default_action: str) -> None:
     parser.add_argument("--materials", metavar="FILE", default="materials",
                         help="a shop's materials CSV with the built-in columns")
     parser.add_argument("--allowance", metavar="AMOUNT",
-                        help="allowed residual of this correction ('50 g*mm'); exit 1 when the rounded result "
-                             "misses it")
+                        help="allowed residual of this correction ('50 g*mm'): any rounded result within it is "
+                             "taken (even the smallest plate, hole or washer when the request is smaller); "
+                             "exit 1 when the nearest result misses it")
     add_units(parser)
     add_json(parser)
 
@@ -205,7 +206,8 @@ def configure_washers(parser) -> None:
     _add_correction(parser, "add")
     parser.add_argument("--size", metavar="SIZE", help="washer size to use (M10, 1/2); default: chosen")
     parser.add_argument("--series", metavar="SERIES",
-                        help="washer series: 'ISO 7089' (default), 'ISO 7093', 'inch SAE'")
+                        help="washer series: 'ISO 7089' (default, also with --size alone), 'ISO 7093', "
+                             "'inch SAE' (an inch --size alone takes it, and the output says so)")
     parser.add_argument("--radial", action="store_true",
                         help="the bolt is radial (the stack grows away from its seat at --radius)")
     parser.add_argument("--surface", choices=("outer", "inner"), default="outer",

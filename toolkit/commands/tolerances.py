@@ -74,15 +74,17 @@ def run_grades(args) -> int:
     from toolkit.tolerance import grades
 
     rows = grades()
-    data = {"grades": [g.to_dict() for g in rows],
-            "marks": {"H": "grade value confirmed in a reproduction of the standard's table",
-                      "M": "from memory, not confirmed against the standard"}}
+    legend = {"S": "grade value as stated in the standard", "H": "grade value confirmed in a reproduction "
+              "of the standard's table", "M": "from memory, not confirmed against the standard",
+              "D": "derived", "CP": "common practice", "custom": "given by the user"}
+    used = [m for m in legend if any(g.mark == m for g in rows)]
+    data = {"grades": [g.to_dict() for g in rows], "marks": {m: legend[m] for m in used}}
     lines = ["Balance quality grades (ISO 21940-11:2016); G = e_per x Omega in mm/s.",
              "Machine kinds are typical uses in our own words; the rotor maker's specification comes first.", ""]
     lines += _table([["grade", "mark", "typical machinery"]] +
                     [[g.label, g.mark, g.machinery] for g in rows])
-    lines += ["", "marks: H = value confirmed in a reproduction of the standard's table; M = from memory, "
-                  "not confirmed.", "sources: the source column of tables/grades.csv (counterpoise grades --json)."]
+    lines += ["", "marks: " + "; ".join(f"{m} = {legend[m]}" for m in used) + ".",
+              "sources: the source column of tables/grades.csv (counterpoise grades --json)."]
     emit(args.json, data, "\n".join(lines))
     return 0
 

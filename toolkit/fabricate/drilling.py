@@ -563,7 +563,7 @@ def _split_fixed(U: float, theta: float, positions: tuple[float, ...]) -> list[t
 def drill_correction(correction, *, radius, orientation: str = "axial", angle_deg=0.0, action: str = "remove",
                      material=None, density=None, diameter=None, drills="metric", point_angle_deg: float = 118.0,
                      limits: Limits | None = None, wall=None, fixed_positions=None,
-                     materials_table: str = "materials") -> DrillResult:
+                     materials_table: str = "materials", allowance=None) -> DrillResult:
     """Holes that remove a required unbalance, drilled with the shop's drills, depths rounded to the step.
 
     correction : Quantity [mass·length] (``"2400 g*mm"``) or [mass] with ``radius`` (``"38 g"``).
@@ -577,6 +577,11 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
 
     Drill choice: the smallest drill of the set whose holes stay within the preferred depth ratio, with as
     few holes as possible; failing that, within the refusal limit (with a warning beyond 3·d).
+
+    allowance : Quantity [mass·length] or None, the residual allowed for this correction. A request
+    smaller than the smallest drill's point alone removes is refused, unless the point alone (one hole
+    drilled to the shoulder and no deeper) leaves a residual within the allowance: then that hole is
+    taken and a warning gives its residual.
 
     >>> r = drill_correction("2400 g*mm", radius="150 mm", orientation="axial", diameter="10 mm",
     ...                      material="steel")
@@ -624,9 +629,17 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
                     break
         if chosen:
             break
+    allow = None if allowance is None else float(magnitude(allowance, "unbalance", "g*mm", "allowance",
+                                                             nonnegative=True))
+    point_only = None
+    if chosen is None and allow is not None and not fixed:
+        point_only = _point_only(orientation, U, R, rho, angle, limits, wall_mm, candidates[0], remove_angle,
+                                 allow)
+        if point_only is not None:
+            chosen = point_only
     if chosen is None:
         raise Infeasible(_nearest(orientation, U, R, rho, angle, limits, wall_mm, candidates, fixed,
-                                  remove_angle))
+                                  remove_angle, allow))
     drill, (plan, pitch) = chosen
     d = drill.diameter_mm
     holes = []
@@ -641,6 +654,11 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
         holes.append(Hole(ang, round(off, 6) + 0.0, d, Lr, g.tip_depth_mm, g.mass_g, g.unbalance_g_mm))
         total += g.unbalance_g_mm * complex(math.cos(math.radians(ang)), math.sin(math.radians(ang)))
     tip = max(h.tip_depth_mm for h in holes)
+    if point_only is not None:
+        warnings.append(f"{_fmt(U)} g·mm is less than one {d:g} mm hole removes with its point alone "
+                        f"({_fmt(holes[0].unbalance_g_mm)} g·mm); it leaves "
+                        f"{_fmt(abs(holes[0].unbalance_g_mm - U))} g·mm, within the allowance of {_fmt(allow)} "
+                        "g·mm: taken (drill to the shoulder only)")
     if tip > limits.warn_depth_ratio * d:
         warnings.append(f"tip depth {tip:.1f} mm is beyond {limits.warn_depth_ratio:g}·d "
                         f"({limits.warn_depth_ratio * d:.1f} mm): drill in pecks and check for drift [CP]")
@@ -662,7 +680,27 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
                        tuple(warnings), wall_mm=wall_mm)
 
 
-def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed, remove_angle=0.0) -> str:
+def _point_only(orientation, U, R, rho, angle, limits, wall, drill, remove_angle, allow):
+    """The shallowest hole of the smallest drill, as a chosen design, when the request is smaller than it
+    removes and its residual is within ``allow`` [g·mm]; else None."""
+    d = drill.diameter_mm
+    if orientation == "radial" and d >= R:
+        return None
+    least = _least(orientation, d, R, rho, angle)
+    if not (math.isfinite(least) and U < least):  # the request is not below what the point removes
+        return None
+    depth = _round_depth(0.0 if orientation == "axial" else _radial_min_depth(R, d / 2), limits.depth_step_mm,
+                         orientation, d, R)
+    least = _geometry(orientation, d, depth, R, rho, angle).unbalance_g_mm
+    if not (U < least and least - U <= allow + 1e-9):
+        return None
+    if _top(d, angle, limits, wall, limits.max_depth_ratio) < depth - 1e-9:
+        return None
+    return drill, ([(remove_angle, 0.0, depth)], None)
+
+
+def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed, remove_angle=0.0,
+             allow=None) -> str:
     """The reason a request cannot be drilled and the nearest feasible alternative."""
     big = candidates[-1].diameter_mm
     small = candidates[0].diameter_mm
@@ -694,6 +732,9 @@ def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed, rem
     else:
         least = _least(orientation, small, R, rho, angle)
         reason = (f"{_fmt(U)} g·mm is less than the smallest {small:g} mm drill removes with its point alone "
-                  f"({_fmt(least)} g·mm at {R:g} mm); nearest: drill at a smaller radius, use a smaller drill, "
+                  f"({_fmt(least)} g·mm at {R:g} mm"
+                  + ("" if allow is None else f", which leaves {_fmt(least - U)} g·mm, more than the allowance "
+                                              f"of {_fmt(allow)} g·mm")
+                  + "); nearest: drill at a smaller radius, use a smaller drill, "
                   "or leave it if within tolerance")
     return reason

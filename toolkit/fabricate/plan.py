@@ -2,7 +2,10 @@
 rounding, and whether the predicted residual stays within an allowance.
 
 The predicted residual is the vector difference between the requested correction and what the rounded
-operations achieve (D). If it exceeds the allowance, finer options are tried in order before giving up:
+operations achieve (D). Any rounded result whose residual is within the allowance is a good result and is
+taken, even the smallest plate, hole or washer when the request is smaller than it (the allowance is
+passed to the fabrication functions, which otherwise refuse such a request). If the residual exceeds the
+allowance, finer options are tried in order before giving up:
 smaller drills of the set (drilling), thinner stock and then finer size steps down to 0.1 mm (plates).
 For washers the stack chooser already takes the nearest size and count of the series; with a fixed size
 there is no finer option. A plan that still misses says so in ``reason``; it is returned, not
@@ -220,7 +223,7 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
         return _summarise(ops, U, angle, action)[2]
 
     common = dict(radius=radius, angle_deg=angle, action=action, material=material, density=density,
-                  materials_table=materials_table)
+                  materials_table=materials_table, allowance=None if allow is None else Q_(allow, "g*mm"))
     if method == "drill":
         kw = dict(common, orientation=orientation, drills=drills, point_angle_deg=point_angle_deg,
                   limits=limits, wall=wall, fixed_positions=fixed_positions)

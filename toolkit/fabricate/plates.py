@@ -210,7 +210,7 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
                fillet=None, convexity: float | None = None, weld_run: str = "all-round", stock="plate_stock",
                stock_unit: str = "mm", max_length=None, seat_offset_deg: float | None = None,
                aspect: float = DEFAULT_ASPECT, include_weld: bool = True, ce: float | None = None,
-               materials_table: str = "materials") -> PlateResult:
+               materials_table: str = "materials", allowance=None) -> PlateResult:
     """A weld-on plate that adds ``correction``, sized to stock thickness and rounded to ``step``.
 
     correction : Quantity [mass·length] or [mass] with ``radius``. radius : Quantity [length] (surface
@@ -218,7 +218,10 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     on a cylinder, radial width on a face). thickness : Quantity [length] or None (thinnest stock whose
     length stays within ``aspect`` × width and ``max_length``). step : Quantity [length], size rounding.
     fillet : leg [length] (default AWS D1.1 minimum [H]); convexity : fraction (default 0.2 [M]).
-    A plate shorter than max(10 mm, 2 fillet legs) [CP] is refused with washers or a hole suggested.
+    A plate shorter than max(10 mm, 2 fillet legs) [CP] is refused with washers or a hole suggested,
+    unless ``allowance`` (Quantity [mass·length], the residual allowed for this correction) is given and
+    the smallest plate's residual (what it adds beyond the request) is within it: then that plate is
+    taken and a warning gives its residual.
     max_length : the seat's room along the arc; if the plate does not fit and ``seat_offset_deg`` is given,
     the correction is split onto two seats at angle ± offset (each U / (2 cos offset)), else refused.
     Materials marked not weldable are refused with another method suggested. ce : the rotor's IIW carbon
@@ -310,17 +313,36 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
                     break
         if chosen:
             break
+    allow = None if allowance is None else float(magnitude(allowance, "unbalance", "g*mm", "allowance",
+                                                             nonnegative=True))
+    smallest_taken = False
+    if chosen is None and too_small:
+        t_opt, z, least = min(too_small, key=lambda x: x[2])
+        b_min = max(MIN_LENGTH_MM, 2 * z)
+        b_min = math.ceil(b_min / st - 1e-9) * st
+        m0, r0 = _plate_kernel(shape, surface, R, t_opt.thickness_mm, w, b_min, rho)
+        u0 = m0 * r0 + (_weld_kernel(shape, surface, R, w, b_min, z, conv, weld_run, rho)[1] if include_weld else 0.0)
+        if allow is not None and abs(u0 - U) <= allow + 1e-9 and (room is None or b_min <= room + 1e-9):
+            chosen = (1, (t_opt, z, b_min, None, U))
+            smallest_taken = True
+            warnings.append(f"{_fmt(U)} g·mm is less than the smallest {t_opt.label} plate {w:g} mm wide adds "
+                            f"({b_min:g} mm long with its weld: {_fmt(u0)} g·mm); it leaves {_fmt(abs(u0 - U))} "
+                            f"g·mm, within the allowance of {_fmt(allow)} g·mm: taken")
     if chosen is None and too_small:
         t_opt, z, least = min(too_small, key=lambda x: x[2])
         raise Infeasible(f"{_fmt(U)} g·mm is less than the smallest {t_opt.label} plate {w:g} mm wide adds with its "
-                         f"weld ({max(MIN_LENGTH_MM, 2 * z):g} mm long, {z:g} mm fillets: {_fmt(least)} g·mm); "
-                         "nearest: washers, a drilled hole at the heavy spot, or a narrower plate (--width)")
+                         f"weld ({max(MIN_LENGTH_MM, 2 * z):g} mm long, {z:g} mm fillets: {_fmt(least)} g·mm)"
+                         + ("" if allow is None else f", which leaves {_fmt(least - U)} g·mm, more than the "
+                                                     f"allowance of {_fmt(allow)} g·mm")
+                         + "; nearest: washers, a drilled hole at the heavy spot, or a narrower plate (--width)")
     if chosen is None:
         raise Infeasible(_nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, weld_run))
     seats, (t_opt, z, b_exact, total, U1) = chosen
     t = t_opt.thickness_mm
     b = float(max(st, round(round(b_exact / st) * st, 9)))
-    if room is not None and b > room + 1e-9:
+    if smallest_taken:
+        b = float(b_exact)  # already the shortest plate, on the step
+    elif room is not None and b > room + 1e-9:
         b = round(b - st, 9)
     if shape == "flat":
         gap = R - math.sqrt(max(R * R - (b / 2) ** 2, 0.0)) if surface == "outer" else 0.0

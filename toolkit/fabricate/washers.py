@@ -21,7 +21,10 @@ from toolkit.fabricate.materials import resolve_density
 from toolkit.units import format_number as _fmt, magnitude
 from toolkit.vectors import parse_angle
 
-__all__ = ["WasherStack", "washer_mass", "washer_stack", "CAUTIONS", "DEFAULT_MAX_COUNT"]
+__all__ = ["WasherStack", "washer_mass", "washer_stack", "CAUTIONS", "DEFAULT_MAX_COUNT", "DEFAULT_SERIES"]
+
+#: The washer series used unless another is given (the normal series).
+DEFAULT_SERIES = "ISO 7089"
 
 #: Most washers in one stack (thread engagement and bolt length limit it; common practice [CP], overridable).
 DEFAULT_MAX_COUNT = 6
@@ -110,14 +113,20 @@ class WasherStack:
 def washer_stack(correction, *, radius, orientation: str = "axial", surface: str = "outer", size=None,
                  series=None, angle_deg=0.0, action: str = "add", material=None, density=None,
                  max_count: int = DEFAULT_MAX_COUNT, table: str = "washers",
-                 materials_table: str = "materials") -> WasherStack:
+                 materials_table: str = "materials", allowance=None) -> WasherStack:
     """The washer size and count whose stack comes nearest to ``correction``.
 
     correction : Quantity [mass·length] or [mass] with ``radius``; radius : Quantity [length] (bolt pitch
     radius, or the seat radius of a radial bolt); orientation ``"axial"`` or ``"radial"``; surface
     ``"outer"`` (radial stack grows outward) or ``"inner"``. size / series: restrict the choice (``"M12"``,
-    ``"ISO 7089"``; default series ISO 7089 unless a size is given). Density: steel 7850 kg/m³ unless
-    ``material`` or ``density`` is given. Ties go to fewer washers.
+    ``"ISO 7089"``). The series is ISO 7089 unless one is given; a size that ISO 7089 does not have (an
+    inch size) is taken from the one series that has it, and a warning says which. Density: steel
+    7850 kg/m³ unless ``material`` or ``density`` is given. Ties go to fewer washers.
+
+    allowance : Quantity [mass·length] or None, the residual allowed for this correction. A stack whose
+    residual |achieved − requested| is within it is taken even when the request lies outside the range
+    the series covers (less than half the lightest washer, more than the heaviest full stack); without an
+    allowance, or when the nearest stack misses it, such a request is refused naming the nearest stack.
 
     >>> s = washer_stack("120 g*mm", radius="20 mm", size="M10", series="ISO 7089")
     >>> s.count, round(s.achieved_g_mm, 1)
@@ -142,12 +151,23 @@ def washer_stack(correction, *, radius, orientation: str = "axial", surface: str
     rho = dens.g_mm3
     given = parse_angle(angle_deg, "angle")
     add_angle = _norm(given + 180.0) if action == "remove" else given
+    allow = None if allowance is None else float(magnitude(allowance, "unbalance", "g*mm", "allowance",
+                                                             nonnegative=True))
     all_w = _stock.washers(table)
-    if series is None and size is None:
-        series = "ISO 7089"
+    warnings = []
+    want_size = None if size is None else str(size).strip().lower()
+    if series is None:
+        series = DEFAULT_SERIES
+        if want_size is not None and not any(w.size.lower() == want_size and w.series == DEFAULT_SERIES
+                                             for w in all_w):
+            others = sorted({w.series for w in all_w if w.size.lower() == want_size})
+            if len(others) == 1:
+                series = others[0]
+                warnings.append(f"size {size} is not in the {DEFAULT_SERIES} series (the default); the "
+                                f"{series} series was used")
     pool = [w for w in all_w
-            if (size is None or w.size.lower() == str(size).strip().lower())
-            and (series is None or w.series.lower() == str(series).strip().lower())]
+            if (want_size is None or w.size.lower() == want_size)
+            and w.series.lower() == str(series).strip().lower()]
     if not pool:
         raise BadInput(f"--size/--series: no washer {size or ''} {series or ''} in the table; known: "
                        f"{', '.join(sorted({w.size + ' (' + w.series + ')' for w in all_w}))}")
@@ -162,24 +182,38 @@ def washer_stack(correction, *, radius, orientation: str = "axial", surface: str
             if best is None or key < best[0]:
                 best = (key, w, n, m, u, rc)
     _, w, n, m, u, rc = best
-    warnings = []
+    within = allow is not None and abs(u - U) <= allow + 1e-9
     biggest = max(pool, key=lambda x: _mass(x.d1_mm, x.d2_mm, x.h_mm, rho))
     u_max, _ = _stack_u(max_count, _mass(biggest.d1_mm, biggest.d2_mm, biggest.h_mm, rho), biggest.h_mm, R,
                         orientation, surface)
-    if U > u_max * (1 + 0.5 / max_count):
+    if U > u_max * (1 + 0.5 / max_count) and within:
+        warnings.append(f"{_fmt(U)} g·mm is more than {max_count} {biggest.size} washers add; the full stack "
+                        f"leaves {_fmt(abs(u - U))} g·mm, within the allowance of {_fmt(allow)} g·mm: taken")
+    elif U > u_max * (1 + 0.5 / max_count):
         raise Infeasible(f"{_fmt(U)} g·mm needs more than {max_count} {biggest.size} washers add at {R:g} mm "
-                         f"({_fmt(u_max)} g·mm); nearest: {max_count} × {biggest.size} and the rest by another "
+                         f"({_fmt(u_max)} g·mm){_against(U - u_max, allow)}; nearest: {max_count} × "
+                         f"{biggest.size} and the rest by another "
                          "method (plate), a larger radius, or raise --max-count if the bolt allows")
     smallest = min(pool, key=lambda x: _mass(x.d1_mm, x.d2_mm, x.h_mm, rho))
     u_min, _ = _stack_u(1, _mass(smallest.d1_mm, smallest.d2_mm, smallest.h_mm, rho), smallest.h_mm, R,
                         orientation, surface)
-    if U < 0.5 * u_min:
+    if U < 0.5 * u_min and within:
+        warnings.append(f"{_fmt(U)} g·mm is less than half of one {smallest.size} washer; one washer leaves "
+                        f"{_fmt(abs(u - U))} g·mm, within the allowance of {_fmt(allow)} g·mm: taken")
+    elif U < 0.5 * u_min:
         raise Infeasible(f"{_fmt(U)} g·mm is less than half of one {smallest.size} washer at {R:g} mm "
-                         f"({_fmt(u_min)} g·mm); nearest: a smaller washer or radius, or leave it if within "
-                         "tolerance")
-    if abs(u - U) > 0.1 * U:
+                         f"({_fmt(u_min)} g·mm){_against(u_min - U, allow)}; nearest: a smaller washer or "
+                         "radius, or leave it if within tolerance")
+    if abs(u - U) > 0.1 * U and not within:
         warnings.append(f"the nearest stack is {100 * (u - U) / U:+.0f} % off the request; consider another "
                         "size or method")
     return WasherStack(w.size, w.series, n, m, n * m, w.d1_mm, w.d2_mm, w.h_mm, n * w.h_mm, orientation,
                        surface, R, rc, U, add_angle, action, given, u, abs(u - U), max_count, dens.kg_m3,
                        dens_src, w.source, tuple(warnings))
+
+
+def _against(residual: float, allow: float | None) -> str:
+    """``", which leaves R g·mm, more than the allowance of A g·mm"`` when an allowance was given."""
+    if allow is None:
+        return ""
+    return f", which leaves {_fmt(abs(residual))} g·mm, more than the allowance of {_fmt(allow)} g·mm"

@@ -187,7 +187,9 @@ def _correct_plane(job: Job, plane, u0: float, a0: float, allowance: float, limi
     tried, notes = [], []
     for method in plane.methods:
         try:
-            ops, warnings, cautions, residual = _plan(job, plane, u0, a0, allowance, method, step)
+            # the limit (allowance less the error allowance) is what the plane is checked against: any
+            # quantised result within it is taken, even the smallest plate, hole or washer
+            ops, warnings, cautions, residual = _plan(job, plane, u0, a0, limit, method, step)
         except Infeasible as exc:
             notes.append(f"plane {plane.name}: {method} not possible ({' '.join(str(exc).split())})")
             continue
