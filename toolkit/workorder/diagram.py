@@ -20,7 +20,7 @@ import math
 from dataclasses import dataclass, field
 from typing import Callable
 
-__all__ = ["Box", "Text", "Line", "Marker", "Callout", "Layout", "layout", "overlaps", "segment_hits_box",
+__all__ = ["Box", "Text", "Line", "Marker", "Callout", "Layout", "layout", "overlaps", "segment_hits_box", "circle_meets_box",
            "ASCENT", "DESCENT", "LINE"]
 
 #: Text box extent above and below the baseline, and the line step, as fractions of the font size
@@ -65,6 +65,13 @@ def segment_hits_box(p: tuple[float, float], q: tuple[float, float], b: Box) -> 
         if t0 >= t1:
             return False
     return True
+
+
+def circle_meets_box(cx: float, cy: float, r: float, b: Box) -> bool:
+    """True when the circle of radius ``r`` about (cx, cy) passes through the inside of box ``b``."""
+    near = math.hypot(max(b.x0 - cx, 0, cx - b.x1), max(b.y0 - cy, 0, cy - b.y1))
+    far = max(math.hypot(x - cx, y - cy) for x in (b.x0, b.x1) for y in (b.y0, b.y1))
+    return near < r < far
 
 
 @dataclass(frozen=True)
@@ -170,16 +177,30 @@ def _arc(cx, cy, r, start, end, steps=24):
     return tuple(pts)
 
 
-def _spread(wanted: list[tuple[float, float]], top: float, gap: float) -> list[float]:
+def _spread(wanted: list[tuple[float, float]], gap: float) -> list[float]:
     """Top edges for boxes of the given heights that want the given top edges (in the given order, top
-    first): no box above ``top``, each below the one before with ``gap`` between them, and otherwise where
-    it wants to be (a column grows downwards; it never needs to go up)."""
-    tops = []
-    limit = top
-    for want, h in wanted:
-        t = min(want, limit)
-        tops.append(t)
-        limit = t - h - gap
+    first), each below the one before with ``gap`` between them: boxes that would overlap are merged into
+    a block centred on their wishes (the least squares shift), block by block from the top."""
+    blocks: list[list] = []  # [top, height, members]
+    for k, (want, h) in enumerate(wanted):
+        blocks.append([want, h, [k]])
+        while len(blocks) > 1 and blocks[-2][0] - blocks[-2][1] - gap < blocks[-1][0]:
+            cur = blocks.pop()
+            prev = blocks[-1]
+            members = prev[2] + cur[2]
+            offsets, o = [], 0.0
+            for m in members:
+                offsets.append(o)
+                o += wanted[m][1] + gap
+            prev[0] = sum(wanted[m][0] + off for m, off in zip(members, offsets)) / len(members)
+            prev[1] = o - gap
+            prev[2] = members
+    tops = [0.0] * len(wanted)
+    for top, _h, members in blocks:
+        o = 0.0
+        for m in members:
+            tops[m] = top - o
+            o += wanted[m][1] + gap
     return tops
 
 
@@ -205,21 +226,44 @@ def layout(*, title: str, reference: str, angles_ccw_rotation: bool, callouts: l
     # angle reference, centred above the circle, two lines at most
     rsize = 7.5
     ref_text = f"0° = {reference}"
-    ref_lines = wrap(ref_text, "bold", rsize, min(width, 2 * (rim + 90)))
+    ref_lines = wrap(ref_text, "bold", rsize, 2 * (rim + 38))
     shortened = len(ref_lines) > 2
     if shortened:
         from_wrap = ref_lines[:2]
         last = from_wrap[1]
-        while last and measure(last + "… (see legend)", "bold", rsize) > min(width, 2 * (rim + 90)):
+        while last and measure(last + "… (see legend)", "bold", rsize) > 2 * (rim + 38):
             last = last[:-1]
         ref_lines = (from_wrap[0], last.rstrip() + "… (see legend)")
     keep = rim + 30.0  # keep-out radius: rim, ticks, shapes, arcs and their heads
+    arc_r = rim + 20
     cx = x0 + width / 2
-    ref_top = y
-    ref_base = ref_top - ASCENT * rsize
+    ref_base = y - ASCENT * rsize
     ref = _text(ref_lines, cx, ref_base, "bold", rsize, "centre", "accent", measure, "reference")
     out.texts.append(ref)
-    cy = ref.box.y0 - 4 - keep
+    # label columns left and right of the keep-out circle, placed relative to the circle's centre first
+    gap = 8.0
+    col = (width - 2 * (keep + gap)) / 2
+    callouts = list(callouts) + [Callout(322.5, arc_r, ("angles grow this way",), "accent", "regular"),
+                                 Callout(137.5, arc_r, ("direction of rotation",), "muted", "regular")]
+    csize = 7.0 if len(callouts) <= 24 else 6.0
+    step = csize * LINE
+    sides: dict[str, list] = {"left": [], "right": []}
+    for c in callouts:
+        a = math.radians(c.angle_deg)
+        ax, ay = -c.radius * math.sin(a), c.radius * math.cos(a)
+        side = "right" if ax > 1e-6 or (abs(ax) <= 1e-6 and c.angle_deg < 180) else "left"
+        lines = tuple(line for text in c.lines for line in wrap(text, c.style, csize, col))
+        sides[side].append((ay, ax, c, lines))
+    placed = []
+    for side, items in sides.items():
+        items.sort(key=lambda item: (-item[0], item[1] if side == "right" else -item[1]))
+        wanted = [(ay + (len(lines) * step) / 2, len(lines) * step) for ay, _ax, _c, lines in items]
+        for item, t in zip(items, _spread(wanted, 3.0)):
+            placed.append((side, t, item))
+    highest = max((t for _side, t, _item in placed), default=0.0)
+    # the circle as high as the reference text and the labels allow; no label reaches above the bottom of
+    # the reference text, so that no leader runs through it
+    cy = ref.box.y0 - 4 - max(keep, highest)
     # rotor outline, degree marks and their numbers
     out.circles.append(Circle(cx, cy, rim, "ink", 1.2))
 
@@ -241,13 +285,10 @@ def layout(*, title: str, reference: str, angles_ccw_rotation: bool, callouts: l
                                  "degree"))
     out.lines.append(Line((at(0, rim - 6), at(0, rim + 10)), "accent", 2.0, "tick"))
     # the two arcs: angles grow counter-clockwise on the page (upper right); rotation (lower left)
-    arc_r = rim + 20
     sense = _arc(cx, cy, arc_r, 305, 340)
     out.lines.append(Line(sense, "accent", 0.9, "arc", head=True))
     rot = _arc(cx, cy, arc_r, 120, 155)
     out.lines.append(Line(rot if angles_ccw_rotation else rot[::-1], "muted", 0.9, "arc", head=True))
-    callouts = list(callouts) + [Callout(322.5, arc_r, ("angles grow this way",), "accent", "regular"),
-                                 Callout(137.5, arc_r, ("direction of rotation",), "muted", "regular")]
     # allowance circle and the arrows
     if allowance > 0:
         out.circles.append(Circle(cx, cy, allowance, "accent", 0.9, (3, 2)))
@@ -257,37 +298,22 @@ def layout(*, title: str, reference: str, angles_ccw_rotation: bool, callouts: l
                               filled=False))
     else:
         out.circles.append(Circle(cx, cy, 1.5, "ink", 0, fill=True))
-    # label columns left and right of the keep-out circle
-    gap = 8.0
-    col = (width - 2 * (keep + gap)) / 2
-    csize = 7.0 if len(callouts) <= 24 else 6.0
-    step = csize * LINE
-    sides: dict[str, list] = {"left": [], "right": []}
-    for c in callouts:
-        ax, ay = at(c.angle_deg, c.radius)
-        side = "right" if ax > cx + 1e-6 or (abs(ax - cx) <= 1e-6 and c.angle_deg < 180) else "left"
-        lines = tuple(line for text in c.lines for line in wrap(text, c.style, csize, col))
-        sides[side].append((ay, ax, c, lines))
-    col_top = cy + keep
     lowest = cy - keep
-    for side, items in sides.items():
-        items.sort(key=lambda item: (-item[0], item[1] if side == "right" else -item[1]))
-        wanted = [(ay + (len(lines) * step) / 2, len(lines) * step) for ay, _ax, _c, lines in items]
-        tops = _spread(wanted, col_top, 3.0)
-        for (ay, ax, c, lines), t in zip(items, tops):
-            base = t - ASCENT * csize
-            if side == "right":
-                lx = cx + keep + gap
-                text = _text(lines, lx, base, c.style, csize, "left", c.role, measure, "label")
-                end = (lx - 2, t - len(lines) * step / 2)
-            else:
-                lx = cx - keep - gap
-                text = _text(lines, lx, base, c.style, csize, "right", c.role, measure, "label")
-                end = (lx + 2, t - len(lines) * step / 2)
-            out.texts.append(text)
-            start = at(c.angle_deg, c.radius + (12 if c.radius <= rim else 4))
-            out.lines.append(Line((start, end), "muted", 0.4, "leader"))
-            lowest = min(lowest, text.box.y0)
+    for side, t_rel, (_ay, _ax, c, lines) in placed:
+        t = cy + t_rel
+        base = t - ASCENT * csize
+        if side == "right":
+            lx = cx + keep + gap
+            text = _text(lines, lx, base, c.style, csize, "left", c.role, measure, "label")
+            end = (lx - 2, t - len(lines) * step / 2)
+        else:
+            lx = cx - keep - gap
+            text = _text(lines, lx, base, c.style, csize, "right", c.role, measure, "label")
+            end = (lx + 2, t - len(lines) * step / 2)
+        out.texts.append(text)
+        start = at(c.angle_deg, c.radius + (12 if c.radius <= rim else 4))
+        out.lines.append(Line((start, end), "muted", 0.4, "leader"))
+        lowest = min(lowest, text.box.y0)
     # a degree number under a shape, an arrow or a leader is left out (the tick stays)
     for label in degrees:
         box = label.box.inflate(0.5)
@@ -295,6 +321,8 @@ def layout(*, title: str, reference: str, angles_ccw_rotation: bool, callouts: l
             continue
         if any(segment_hits_box(p, q, box) for line in out.lines if line.kind in ("arrow", "leader")
                for p, q in zip(line.points, line.points[1:])):
+            continue
+        if any(circle_meets_box(c.x, c.y, c.r, box) for c in out.circles):  # the allowance circle
             continue
         out.texts.append(label)
     # legend and scale note below
