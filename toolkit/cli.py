@@ -2,7 +2,8 @@
 
 ``main(argv) -> int`` parses the arguments, runs one subcommand and returns the exit status:
 0 done; 1 done and the rotor is out of tolerance (where the command checks one); 2 bad input or an
-infeasible request, with one line on stderr. Tests call ``main`` directly.
+infeasible request, with one line on stderr (a job file with several problems: a line that counts them,
+then one line per problem). Tests call ``main`` directly.
 
 Each subcommand lives in a module of ``toolkit.commands`` that defines ``configure(parser)`` (adds the
 options and sets ``run``) and imports nothing heavy at module level: numpy and pint are imported by the
@@ -106,7 +107,7 @@ def main(argv: list[str] | None = None) -> int:
             warnings.simplefilter("ignore")
             return int(args.run(args) or 0)
     except CounterpoiseError as exc:
-        print(f"counterpoise {args.command}: error: {_one_line(exc)}", file=sys.stderr)
+        print("\n".join(_error_lines(args.command, exc)), file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print(f"counterpoise {args.command}: interrupted", file=sys.stderr)
@@ -133,6 +134,16 @@ def _printable(text: str) -> str:
 
 def _one_line(exc: BaseException) -> str:
     return " ".join(str(exc).split()) or type(exc).__name__
+
+
+def _error_lines(command: str, exc: CounterpoiseError) -> list[str]:
+    """The lines printed for a refused command: one line; or, when the error lists several problems (a job
+    file), a first line that counts them and then one line per problem, each starting ``  - ``."""
+    problems, head = getattr(exc, "problems", ()), getattr(exc, "head", "")
+    first = f"counterpoise {command}: error: "
+    if len(problems) > 1 and head:
+        return [first + " ".join(head.split())] + ["  - " + (" ".join(str(p).split()) or "?") for p in problems]
+    return [first + _one_line(exc)]
 
 
 def console() -> None:
