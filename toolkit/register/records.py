@@ -273,17 +273,18 @@ def compose_job(reg: Register, type_name: str, over_text: str = "", *, serial: s
 
 
 def record_job(reg: Register, job_text: str, *, origin: str = "job", base=None, type_version_id: int | None = None,
-               allocate: bool = True, by: str = "", extra_warnings: tuple[str, ...] = ()):
+               allocate: bool = True, by: str = "", extra_warnings: tuple[str, ...] = (), job=None):
     """Build the work order of a job text and record it with status ``planned``: one transaction that
     allocates the order number (unless ``allocate`` is false: then the job's own number is kept), stores
     the job text and its SHA-256, the work order (``WorkOrder.to_dict()``) and its planes. Returns
-    ``(order, record)``; the order carries the number and the input hash."""
+    ``(order, record)``; the order carries the number and the input hash. ``job`` is the job already
+    validated from that text (where the text names inputs held elsewhere, such as stored coefficients)."""
     from toolkit.register.schema import job_planes, jobs, job_status
     from toolkit.workorder.build import build_order
     from toolkit.workorder.job import parse_job
 
     job_text = _text(job_text, "job text", MAX_TEXT)
-    job = parse_job(job_text, origin, Path(base) if base else None)
+    job = job or parse_job(job_text, origin, Path(base) if base else None)
     built = build_order(job)
     digest = sha256_text(job_text)
     when = now()
