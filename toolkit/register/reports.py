@@ -254,7 +254,10 @@ def series_statistics(reg: Register, *, type_name=None, status=None, since=None,
         planes = []
         for name, n, mean, low, high, ratio, ops, mass, u_per in per_plane:
             width = (float(high) / BINS) if high else 1.0
-            bucket = func.min(cast(job_planes.c.initial_g_mm / width, Integer), BINS - 1)
+            scaled = job_planes.c.initial_g_mm / width
+            # truncation toward zero: CAST in SQLite; PostgreSQL's CAST rounds, so floor() there
+            whole = cast(func.floor(scaled), Integer) if reg.dialect == "postgresql" else cast(scaled, Integer)
+            bucket = case((whole >= BINS - 1, BINS - 1), else_=whole)
             counts = dict(conn.execute(only(select(bucket, func.count()).where(job_planes.c.plane == name),
                                             job_planes.c.job_id).group_by(bucket)).all())
             points = conn.execute(only(select(job_planes.c.initial_g_mm, job_planes.c.initial_deg)
