@@ -255,7 +255,7 @@ def test_export_import_round_trip_sqlite(capsys, tmp_path):
     _round_trip(capsys, str(tmp_path / "a.sqlite3"), str(tmp_path / "b.sqlite3"), tmp_path)
 
 
-@pytest.mark.skipif(not support.os.environ.get(support.PG_ENV), reason=support.SKIP_PG)
+@pytest.mark.skipif(support.SKIP, reason=support.SKIP_PG)
 @pytest.mark.parametrize("direction", ["sqlite-to-postgresql", "postgresql-to-sqlite"])
 def test_export_import_round_trip_between_sqlite_and_postgresql(capsys, tmp_path, direction):
     pg, cleanup = support.make_location("postgresql", tmp_path)

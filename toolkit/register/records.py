@@ -64,10 +64,23 @@ def _text(value, what: str, limit: int = 2000) -> str:
 
 # -- TOML text of a job (tables as the job loader reads them) ---------------------------------------------
 
+def _toml_string(text: str) -> str:
+    """A TOML basic string: quotes, backslashes and control characters (TOML forbids them raw) escaped."""
+    out = []
+    for ch in text:
+        if ch in '"\\':
+            out.append("\\" + ch)
+        elif ord(ch) < 0x20 or ord(ch) == 0x7F:
+            out.append(f"\\u{ord(ch):04x}")
+        else:
+            out.append(ch)
+    return '"' + "".join(out) + '"'
+
+
 def _toml_key(key: str) -> str:
     import re
 
-    return key if re.fullmatch(r"[A-Za-z0-9_-]+", key) else json.dumps(key, ensure_ascii=False)
+    return key if re.fullmatch(r"[A-Za-z0-9_-]+", key) else _toml_string(key)
 
 
 def _toml_value(value) -> str:
@@ -76,7 +89,7 @@ def _toml_value(value) -> str:
     if isinstance(value, (int, float)):
         return repr(value)
     if isinstance(value, str):
-        return json.dumps(value, ensure_ascii=False)
+        return _toml_string(value)
     if isinstance(value, (list, tuple)):
         return "[" + ", ".join(_toml_value(v) for v in value) + "]"
     if isinstance(value, dict):
