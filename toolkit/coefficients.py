@@ -111,14 +111,10 @@ def _names(value, field: str) -> tuple[str, ...]:
 
 def load_coefficients(path) -> Coefficients:
     """Read a coefficients file; every error names the file and the field."""
-    from toolkit.fileio import read_text
+    from toolkit.fileio import parse_json, read_text
 
     p = Path(path)
-    text = read_text(p, "coefficients file", 1_000_000)
-    try:
-        data = json.loads(text)
-    except json.JSONDecodeError as exc:
-        raise BadInput(f"{p}: not valid JSON (line {exc.lineno}, column {exc.colno}): {exc.msg}") from None
+    data = parse_json(read_text(p, "coefficients file", 1_000_000), str(p))
     if not isinstance(data, dict) or data.get("format") != FORMAT:
         raise BadInput(f"{p}: format: not a counterpoise influence-coefficient file")
     if data.get("version") != 1:

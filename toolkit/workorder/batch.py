@@ -267,9 +267,8 @@ def _put(data: dict, path: tuple, value) -> None:
 def row_job(cells: dict, origin: str, base: Path):
     """Validate one planner row and return its :class:`~toolkit.workorder.job.Job` (problems name the
     column)."""
-    import tomllib
-
-    from toolkit.workorder.job import job_from_data, load_job
+    from toolkit.fileio import parse_toml, read_text
+    from toolkit.workorder.job import MAX_JOB_BYTES, job_from_data, load_job
 
     data: dict = {}
     columns: dict[tuple, str] = {}
@@ -277,7 +276,7 @@ def row_job(cells: dict, origin: str, base: Path):
     if template:
         file = (base / template) if not Path(template).is_absolute() else Path(template)
         load_job(file)  # its own problems, with line numbers
-        data = tomllib.loads(file.read_text(encoding="utf-8-sig"))
+        data = parse_toml(read_text(file, "job file (.toml)", MAX_JOB_BYTES), str(file))
         base = file.parent
     else:
         data["measurement"] = {"kind": "machine"}
