@@ -96,12 +96,60 @@ def _chosen(argv: list[str]) -> str | None:
 
 def main(argv: list[str] | None = None) -> int:
     """Run the command line with ``argv`` (default ``sys.argv[1:]``); return the exit status."""
+    restore = _plain_streams()
+    try:
+        return _main(argv)
+    finally:
+        restore()
+
+
+class _Stopped(KeyboardInterrupt):
+    """SIGTERM or SIGHUP, raised where the program is so that it cleans up as after Ctrl-C."""
+
+    def __init__(self, signum: int):
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _stop(signum, frame):
+    raise _Stopped(signum)
+
+
+def _catch_stops() -> dict:
+    """Make SIGTERM and SIGHUP stop the command like Ctrl-C (temporary files removed, half-made files
+    discarded); returns the handlers to put back."""
+    import signal
+
+    old = {}
+    for name in ("SIGTERM", "SIGHUP"):
+        number = getattr(signal, name, None)
+        if number is None:
+            continue
+        try:
+            old[number] = signal.signal(number, _stop)
+        except (ValueError, OSError):  # not the main thread: leave the handlers alone
+            break
+    return old
+
+
+def _restore_stops(old: dict) -> None:
+    import signal
+
+    for number, handler in old.items():
+        try:
+            signal.signal(number, handler)
+        except (ValueError, OSError, TypeError):
+            pass
+
+
+def _main(argv) -> int:
     argv = sys.argv[1:] if argv is None else list(argv)
     parser = build_parser(_chosen(argv))
     try:
         args = parser.parse_args(argv)
     except SystemExit as exc:  # --help, --version, or a usage error already printed
         return int(exc.code or 0) if not isinstance(exc.code, str) else 2
+    stops = _catch_stops()
     try:
         with warnings.catch_warnings():
             # a shop user gets one line or a result, never a Python warning: numeric edge cases are checked
@@ -111,17 +159,109 @@ def main(argv: list[str] | None = None) -> int:
     except CounterpoiseError as exc:
         print("\n".join(_error_lines(args.command, exc)), file=sys.stderr)
         return 2
-    except KeyboardInterrupt:
-        print(f"counterpoise {args.command}: interrupted", file=sys.stderr)
-        return 130
+    except KeyboardInterrupt as exc:
+        signum = getattr(exc, "signum", None)
+        if signum is None:
+            print(f"counterpoise {args.command}: interrupted", file=sys.stderr)
+            return 130
+        import signal
+
+        print(f"counterpoise {args.command}: stopped by {signal.Signals(signum).name}", file=sys.stderr)
+        return 128 + signum
     except BrokenPipeError:
         return 0
+    except OSError as exc:  # the system refused something (a library's scratch file, a device): one line
+        from toolkit.fileio import _reason
+
+        where = f"{exc.filename}: " if getattr(exc, "filename", None) else ""
+        print(f"counterpoise {args.command}: error: {_printable(where + _reason(exc))}", file=sys.stderr)
+        return 2
     except Exception as exc:  # a bug: still one line, never a traceback, unless asked for
         if os.environ.get("COUNTERPOISE_DEBUG"):
             raise
         print(f"counterpoise {args.command}: internal error ({type(exc).__name__}: {_one_line(exc)}); "
               "set COUNTERPOISE_DEBUG=1 for details and please report it", file=sys.stderr)
         return 3
+    finally:
+        _restore_stops(stops)
+
+
+#: Plain equivalents of the characters our output uses, for a terminal or file whose encoding lacks them
+#: (ASCII, cp1252, latin-1, cp437). Only characters the stream cannot encode are replaced.
+PLAIN = {
+    "θ": "theta", "Θ": "Theta", "ω": "omega", "π": "pi", "α": "alpha", "β": "beta", "φ": "phi", "ε": "epsilon",
+    "Δ": "Delta", "δ": "delta", "Σ": "Sum", "µ": "u", "μ": "u", "Ω": "Ohm",
+    "≥": ">=", "≤": "<=", "≠": "!=", "≈": "~", "±": "+/-", "×": "x", "·": "*", "⋅": "*", "÷": "/", "−": "-",
+    "–": "-", "—": "-", "‑": "-", "‐": "-", "→": "->", "←": "<-", "↔": "<->", "…": "...", "•": "*",
+    "°": "deg", "′": "'", "″": '"', "‘": "'", "’": "'", "“": '"', "”": '"', "√": "sqrt", "∠": "angle",
+    "²": "^2", "³": "^3", "¹": "^1", "⁻": "^-", "⁴": "^4", "½": "1/2", "¼": "1/4", "¾": "3/4",
+    "\u00a0": " ", "\u2009": " ", "\u202f": " ", "\u2007": " ", "Ø": "dia.", "ø": "dia.",
+}
+
+
+def plain(text: str, encoding: str = "ascii") -> str:
+    """``text`` with every character that ``encoding`` cannot hold replaced by its plain equivalent.
+
+    >>> plain("θ = 30° ≥ 3 mm³ – 2 g·mm × 1.5")
+    'theta = 30deg >= 3 mm^3 - 2 g*mm x 1.5'
+    >>> plain("± 2 °C", "latin-1")
+    '± 2 °C'
+    """
+    _register()
+    return text.encode(encoding, errors=_PLAIN_ERRORS).decode(encoding)
+
+
+_PLAIN_ERRORS = "counterpoise-plain"
+
+
+def _replace_unencodable(exc):
+    if not isinstance(exc, UnicodeEncodeError):
+        raise exc
+    import unicodedata
+
+    out = []
+    for ch in exc.object[exc.start:exc.end]:
+        if ch in PLAIN:
+            out.append(PLAIN[ch])
+            continue
+        folded = unicodedata.normalize("NFKD", ch).encode("ascii", "ignore").decode("ascii")
+        out.append(folded if folded.isprintable() and folded else "?")
+    return "".join(out), exc.end
+
+
+def _register() -> None:
+    import codecs
+
+    try:
+        codecs.lookup_error(_PLAIN_ERRORS)
+    except LookupError:
+        codecs.register_error(_PLAIN_ERRORS, _replace_unencodable)
+
+
+def _plain_streams():
+    """Let stdout and stderr degrade to plain equivalents where their encoding lacks a character (instead
+    of UnicodeEncodeError); returns the function that puts the streams back as they were."""
+    _register()
+    undo = []
+    for stream in (sys.stdout, sys.stderr):
+        reconfigure = getattr(stream, "reconfigure", None)
+        errors = getattr(stream, "errors", None)
+        if reconfigure is None or errors not in ("strict", None):
+            continue
+        try:
+            reconfigure(errors=_PLAIN_ERRORS)
+        except (ValueError, OSError, TypeError):
+            continue
+        undo.append((stream, errors or "strict"))
+
+    def restore():
+        for stream, errors in undo:
+            try:
+                stream.reconfigure(errors=errors)
+            except (ValueError, OSError, TypeError):
+                pass
+
+    return restore
 
 
 def _printable(text: str) -> str:

@@ -98,6 +98,8 @@ def check_writable(path: str | Path, force: bool = False) -> Path:
             raise OutputError(f"{path} already exists; give --force to overwrite it")
         if exists and path.is_dir():
             raise OutputError(f"{path} is a folder, not a file")
+    except OutputError:
+        raise
     except OSError as exc:
         raise output_error(path, exc) from None
     return path
@@ -209,6 +211,28 @@ class _FolderLock:
         return False
 
 
+_STOPS = ("SIGINT", "SIGTERM", "SIGHUP")
+
+
+def _hold_signals():
+    """Block Ctrl-C, SIGTERM and SIGHUP for the moment the files of a set are put in place; returns the
+    mask to restore (None where signals cannot be blocked)."""
+    try:
+        import signal
+
+        stops = {getattr(signal, name) for name in _STOPS if hasattr(signal, name)}
+        return signal.pthread_sigmask(signal.SIG_BLOCK, stops)
+    except (ImportError, AttributeError, ValueError, OSError):
+        return None
+
+
+def _release_signals(mask) -> None:
+    if mask is not None:
+        import signal
+
+        signal.pthread_sigmask(signal.SIG_SETMASK, mask)
+
+
 def _prepare(folder: Path, target: Path) -> None:
     try:
         folder.mkdir(parents=True, exist_ok=True)
@@ -232,6 +256,8 @@ def _temporary(folder: Path, target: Path, data) -> str:
             os.fsync(handle.fileno())
         done, tmp_name = tmp_name, None
         return done
+    except OutputError:
+        raise
     except OSError as exc:
         raise output_error(target, exc) from None
     finally:
@@ -300,6 +326,7 @@ def write_together(items, *, force: bool = False) -> list[Path]:
             temps.append(_temporary(folder, path, data))
         folders = sorted({os.path.abspath(p.parent if str(p.parent) else ".") for p, _ in items})
         locks = [_FolderLock(Path(f)) for f in folders]
+        held = _hold_signals()  # a stop signal waits until the set is in place (or rolled back)
         for lock in locks:
             lock.__enter__()
         try:
@@ -308,6 +335,8 @@ def write_together(items, *, force: bool = False) -> list[Path]:
             for n, (path, _) in enumerate(items):
                 try:
                     _commit(temps[n], path, force)
+                except OutputError:
+                    raise
                 except OSError as exc:
                     raise output_error(path, exc) from None
                 temps[n] = None
@@ -320,6 +349,7 @@ def write_together(items, *, force: bool = False) -> list[Path]:
         finally:
             for lock in reversed(locks):
                 lock.__exit__()
+            _release_signals(held)
         for path in placed:
             try:
                 os.chmod(path, 0o644 & ~_umask())

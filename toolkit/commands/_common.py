@@ -40,9 +40,23 @@ def _clean(value):
 def emit(as_json: bool, data: dict, text: str | None = None) -> None:
     """Print ``data`` as one JSON object (``as_json``) or ``text`` (or a plain rendering of ``data``)."""
     if as_json:
-        sys.stdout.write(json.dumps(_clean(data), indent=2, ensure_ascii=False) + "\n")
+        text = json.dumps(_clean(data), indent=2, ensure_ascii=False)
+        if not _encodable(sys.stdout, text):  # a legacy encoding: \u escapes keep every value exact
+            text = json.dumps(_clean(data), indent=2, ensure_ascii=True)
+        sys.stdout.write(text + "\n")
     else:
         print_text(text if text is not None else "\n".join(f"{k}: {v}" for k, v in data.items()))
+
+
+def _encodable(stream, text: str) -> bool:
+    encoding = getattr(stream, "encoding", None)
+    if not encoding:
+        return True
+    try:
+        text.encode(encoding)
+    except (UnicodeEncodeError, LookupError):
+        return False
+    return True
 
 
 def print_text(text: str) -> None:

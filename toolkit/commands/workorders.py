@@ -165,7 +165,7 @@ def run_batch(args) -> int:
     try:
         result = batch(args.sheet, out, force=args.force, progress=progress, carry_on=args.carry_on)
     except OutputError as exc:
-        if not args.carry_on and "already exists" in str(exc) and "-batch.json" in str(exc):
+        if not args.carry_on and "already exists" in str(exc) and any(out.glob("*-batch.json")):
             raise OutputError(f"{exc}, or --carry-on to continue the batch it records") from None
         raise
     kept = f", {len(result.kept)} kept from the earlier run" if result.kept else ""
