@@ -181,6 +181,26 @@ BASES: dict[str, list[list[tuple]]] = {
     ],
     "washers": [_pairs(("--unbalance", "2400 g*mm@131"), ("--radius", "150 mm"), ("--size", "M10"),
                        ("--action", "remove"), ("--json", None))],
+    "key": [
+        _pairs(("--width", "14 mm"), ("--height", "9 mm"), ("--shaft-depth", "5.5 mm"), ("--hub-depth", "3.8 mm"),
+               ("--shaft-diameter", "50 mm"), ("--keyway-length", "70 mm"), ("--hub-length", "56 mm"),
+               ("--hub-start", "14 mm"), ("--keyway-angle", "90"), ("--plane", "I=-40 mm"), ("--plane", "II=200 mm"),
+               ("--allowance", "120 g*mm"), ("--material", "steel"), ("--json", None)),
+        _pairs(("--width", "0.25 in"), ("--height", "0.25 in"), ("--shaft-depth", "0.15 in"),
+               ("--shaft-diameter", "1.125 in"), ("--keyway-length", "2 in"), ("--key-length", "1.5 in"),
+               ("--shaft", "full-key"), ("--shaft-fill", "half-key"), ("--half-key-height", "0.1 in"),
+               ("--in-service", "nothing"), ("--keyway-start", "-1 in"), ("--density", "7850 kg/m^3"),
+               ("--fix", "drill"), ("--fix-radius", "0.5 in"), ("--units", "imperial"), ("--json", None)),
+    ],
+    "index": [_pairs(("--reading", "0=300 g*mm@40"), ("--reading", "180=180 g*mm@200"),
+                     ("--allowance", "150 g*mm"), ("--json", None)),
+              _pairs(("--reading", "2 g@40"), ("--reading", "1.5 g@170"), ("--reading", "2.2 g@270"),
+                     ("--radius", "100 mm"), ("--max-spread", "0.2"), ("--units", "imperial"), ("--json", None))],
+    "budget": [_pairs(("--tolerance", "600 g*mm"), ("--part", "impeller=120 g*mm@40"), ("--part", "shaft=95 g*mm"),
+                      ("--fit", "hub=38 kg,clearance 0.02 mm"), ("--key", "key=173 g*mm@90"), ("--json", None)),
+               _pairs(("--grade", "G2.5"), ("--mass", "80 kg"), ("--speed", "2950 rpm"),
+                      ("--fit", "hub=12 kg,runout 0.03 mm@120"), ("--other", "machine=40 g*mm"),
+                      ("--units", "imperial"), ("--json", None))],
 }
 
 # demo/order/batch write files: their bases are built per example with a temporary output folder.
