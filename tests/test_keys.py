@@ -250,3 +250,27 @@ def test_cli_key_errors_name_options(capsys):
     assert "--key-length/--key-start:" in capsys.readouterr().err
     assert main(ARGV + ["--shaft", "quarter-key"]) == 2
     assert "--shaft: 'quarter-key' is not allowed" in capsys.readouterr().err
+
+
+# -- the tour's pasted outputs are real -------------------------------------------------------------------
+
+def test_tour_outputs_are_true(capsys):
+    import re
+    import shlex
+    from pathlib import Path
+
+    text = (Path(__file__).resolve().parents[1] / "docs" / "tour-assembly.md").read_text(encoding="utf-8")
+    blocks = re.findall(r"```\n\$ (counterpoise [^\n]+)\n(.*?)```", text, flags=re.S)
+    assert len(blocks) >= 6
+    for command, shown in blocks:
+        main(shlex.split(command)[1:])
+        out = capsys.readouterr().out
+        assert out.rstrip("\n") == shown.rstrip("\n"), command
+
+
+def test_marking_is_overridable_and_says_so():
+    # the letters are marked from memory as the standard's wording (M), so the user can override them
+    r = key_unbalance(**dict(EXAMPLE, shaft_marking="HK", hub_convention="no-key"))
+    assert r.conventions["shaft"] == {"convention": "half-key", "fill": "half-key", "marking": "HK",
+                                      "marking_given": True}
+    assert r.conventions["hub"]["marking"] == "none" and r.conventions["hub"]["marking_given"] is False
