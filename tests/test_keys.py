@@ -274,3 +274,12 @@ def test_marking_is_overridable_and_says_so():
     assert r.conventions["shaft"] == {"convention": "half-key", "fill": "half-key", "marking": "HK",
                                       "marking_given": True}
     assert r.conventions["hub"]["marking"] == "none" and r.conventions["hub"]["marking_given"] is False
+
+
+def test_cli_warnings_name_options_not_parameters(capsys):
+    assert main(["key", "--width", "8 mm", "--height", "7 mm", "--shaft-depth", "4 mm", "--shaft-diameter", "40 mm",
+                 "--keyway-length", "60 mm", "--hub", "full-key", "--half-key-height", "3 mm"]) == 0
+    out = capsys.readouterr().out
+    assert "warning: --hub: no --hub-length, so no hub" in out
+    assert "warning: --half-key-height: the shaft's half-key was 3 mm high" in out
+    assert "hub_length" not in out and "half_key_height" not in out

@@ -243,7 +243,7 @@ def _len(value, name: str, *, positive=True, signed=False) -> float:
 def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, key_length=None,
                   hub_length=None, hub_depth=None, keyway_start="0 mm", key_start=None, hub_start=None,
                   keyway_angle=0.0, material=None, density=None, shaft_convention="half-key", shaft_fill=None,
-                  hub_convention="half-key", hub_fill=None, half_key_height=None, half_key_length=None,
+                  hub_convention=None, hub_fill=None, half_key_height=None, half_key_length=None,
                   hub_half_key_height=None, hub_half_key_length=None, in_service="key", shaft_marking=None,
                   hub_marking=None, planes=None, allowance=None, fix_method=None, fix_radius=None,
                   fix_options=None, materials_table="materials", units="metric") -> KeyUnbalance:
@@ -350,7 +350,7 @@ def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, 
         if service == "key" and r0 + h > R + t2 + 1e-9:
             raise BadInput(f"height: the key ({h:g} mm) is taller than the two keyways together ({t1:g} + {t2:g} "
                            f"mm); the hub would not go on")
-        h_conv = _choice(hub_convention, CONVENTIONS, "hub_convention")
+        h_conv = _choice("half-key" if hub_convention is None else hub_convention, CONVENTIONS, "hub_convention")
         h_fill = default_fill(h_conv, "hub") if hub_fill is None else _choice(hub_fill, FILLS, "hub_fill")
         hh_h = h / 2.0 if hub_half_key_height is None else _len(hub_half_key_height, "hub_half_key_height")
         hh_L = Lh if hub_half_key_length is None else _len(hub_half_key_length, "hub_half_key_length")
@@ -373,6 +373,14 @@ def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, 
                             f"{h_conv} convention; the assembly carries the difference")
         if service == "key" and (zh >= zk + Lk or zh + Lh <= zk):
             warnings.append("hub_start: the hub does not lie over the key; check the axial positions")
+    if not has_hub:
+        ignored = [n for n, v in (("hub_depth", hub_depth), ("hub_start", hub_start), ("hub_convention", hub_convention),
+                                  ("hub_fill", hub_fill), ("hub_half_key_height", hub_half_key_height),
+                                  ("hub_half_key_length", hub_half_key_length), ("hub_marking", hub_marking))
+                   if v is not None]
+        if ignored:
+            warnings.append(f"{ignored[0]}: no hub_length, so no hub in this case; "
+                            f"{', '.join(ignored)} not used")
     for comp, conv, fill in (("shaft", s_conv, s_fill), ("hub", h_conv, h_fill)):
         if conv is not None and fill != default_fill(conv, comp):
             warnings.append(f"{comp}_fill: a {fill.replace('nothing', 'empty keyway')} while the {comp} was "
@@ -439,7 +447,7 @@ def _parts(bodies: list[KeyBody], rho: float, w: float, key_span, hub_span) -> t
         key = key_span is not None and key_span[0] <= mid <= key_span[1]
         hub = hub_span is not None and hub_span[0] <= mid <= hub_span[1]
         labels = [x.label for x in here]
-        raw.append((_cause(key, hub, labels), a, b, value, labels))
+        raw.append((_cause(key, hub, labels, hub_span is not None), a, b, value, labels))
     # join neighbouring stretches of the same cause
     parts: list[KeyPart] = []
     for cause, a, b, value, labels in raw:
@@ -451,12 +459,12 @@ def _parts(bodies: list[KeyBody], rho: float, w: float, key_span, hub_span) -> t
     return tuple(parts)
 
 
-def _cause(key: bool, hub: bool, labels: list[str]) -> str:
+def _cause(key: bool, hub: bool, labels: list[str], has_hub: bool) -> str:
     shaft_half = any(l.startswith("shaft's half-key") for l in labels)
     shaft_key = any(l.startswith("key in the shaft") for l in labels)
     hub_body = any("hub was balanced" in l for l in labels)
     if key and not hub and shaft_half:
-        return "key protrudes beyond the hub"
+        return "key protrudes beyond the hub" if has_hub else "key without a hub over the shaft's half-key"
     if key and not hub and shaft_key:
         return "key outside the hub, balanced as a full key"
     if not key and (shaft_half or shaft_key) and not hub_body:

@@ -61,6 +61,17 @@ def _option(name: str) -> str:
     return name
 
 
+def _say(warnings) -> list[str]:
+    """Library warnings in the command's terms: the leading parameter name and snake_case names become options."""
+    out = []
+    for w in warnings:
+        head, sep, rest = w.partition(":")
+        if sep and re.fullmatch(r"[a-z][a-z_/ ]*", head):
+            w = "/".join(_option(p) for p in head.split("/")) + sep + rest
+        out.append(re.sub(r"(?<![-\w])([a-z]+(?:_[a-z]+)+)\b", lambda m: _option(m.group(1)), w))
+    return out
+
+
 def _named(text: str, option: str, example: str) -> tuple[str, str]:
     from toolkit.tolerance import parse_named
 
@@ -114,7 +125,7 @@ def configure_key(parser) -> None:
     c.add_argument("--shaft-fill", metavar="WHAT",
                    help="what sat in the shaft keyway while it was balanced: key, half-key or nothing (default: "
                         "what the convention says)")
-    c.add_argument("--hub", default="half-key", metavar="CONVENTION",
+    c.add_argument("--hub", metavar="CONVENTION",
                    help="convention the hub was balanced to: half-key (default), full-key or no-key")
     c.add_argument("--hub-fill", metavar="WHAT", help="what sat in the hub keyway while it was balanced")
     c.add_argument("--half-key-height", metavar="LENGTH", help="height of the shaft's half-key (default half the key)")
@@ -177,6 +188,7 @@ def run_key(args) -> int:
                       fix_options=fix_options, materials_table=args.materials, units=args.units)
     fmt = _fmt(args.units)
     data = r.to_dict()
+    data["warnings"] = _say(data["warnings"])
     data["units"] = fmt.system.name
     emit(args.json, data, None if args.json else _key_text(r, fmt))
     return 1 if r.passed is False or (r.correction.plan is not None and r.correction.plan.within_allowance is False) \
@@ -242,7 +254,7 @@ def _key_text(r, fmt) -> str:
                                                              f" against {U(k.plan.allowance_g_mm)}: "
                                                              + ("within" if k.plan.within_allowance else "MISSES")))
     lines += ["", f"method: {r.method}", f"sources: {r.source}", ""]
-    _warnings(lines, r.warnings)
+    _warnings(lines, _say(r.warnings))
     if k.plan is not None:
         _warnings(lines, k.plan.warnings)
         for c in k.plan.cautions:
@@ -290,6 +302,7 @@ def run_index(args) -> int:
     r = index_separation(readings, indexes or None, radius=args.radius, max_spread=spread, allowance=args.allowance)
     fmt = _fmt(args.units)
     data = r.to_dict()
+    data["warnings"] = _say(data["warnings"])
     data["units"] = fmt.system.name
     emit(args.json, data, None if args.json else _index_text(r, fmt))
     return 1 if r.part_within is False else 0
@@ -314,7 +327,7 @@ def _index_text(r, fmt) -> str:
     if r.allowance_g_mm is not None:
         lines.append(f"  part allowance {U(r.allowance_g_mm)}: " + ("PASS" if r.part_within else "FAIL (exit status 1)"))
     lines += [f"  method         {r.method}", f"  source         {r.source}", ""]
-    _warnings(lines, r.warnings)
+    _warnings(lines, _say(r.warnings))
     lines.append("caution: stop the machine before turning the part on the arbor; secure the part and any trial "
                  "mass before each run, guards closed.")
     return "\n".join(lines)
