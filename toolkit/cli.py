@@ -37,6 +37,9 @@ COMMANDS: tuple[tuple[str, str, str], ...] = (
     ("plate", "toolkit.commands.fabrication", "a weld-on plate that adds a given unbalance"),
     ("washers", "toolkit.commands.fabrication", "a stack of standard washers that adds a given unbalance"),
     ("materials", "toolkit.commands.fabrication", "list materials with densities and sources"),
+    ("key", "toolkit.commands.assembly", "the unbalance a key mismatch leaves in a keyed rotor, and its correction"),
+    ("index", "toolkit.commands.assembly", "separate a part's unbalance from its arbor's (index method)"),
+    ("budget", "toolkit.commands.assembly", "error budget of an assembly: components, fits and keys"),
     ("register", "toolkit.commands.register", "the shop register: rotor types, jobs, check runs, sign-offs, "
                                               "certificates, statistics"),
 )
