@@ -53,7 +53,7 @@ def test_lever_rule_bound_and_its_override():
                                                                     'centre_of_mass = "50 mm"\nmin_share = 0.2')))
     assert [p.tolerance.u_per_g_mm / lowered.u_per_total_g_mm for p in lowered.planes] == pytest.approx([0.8, 0.2])
     used = {s.name: s for s in lowered.settings}["lever-rule share bounds"]
-    assert used.value == "0.2 to 0.8" and used.given and used.mark == "M"
+    assert used.value == "0.2 to 0.8" and used.given and used.mark == "job"  # the job's value, not the default's M
     default = {s.name: s for s in order.settings}["lever-rule share bounds"]
     assert default.value == "0.3 to 0.7" and not default.given
 

@@ -85,17 +85,44 @@ def test_order_file_names_are_made_safe(tmp_path, capsys):
     assert sorted(p.name for p in out.iterdir()) == ["escape_me.pdf", "escape_me.xlsx"]
 
 
-def test_order_bad_job_lists_every_problem_on_one_line(tmp_path, capsys):
+def test_order_bad_job_lists_every_problem_one_per_line(tmp_path, capsys):
     job = tmp_path / "bad.toml"
     text = (EXAMPLES / "job-fan-readings.toml").read_text(encoding="utf-8")
     job.write_text(text.replace('mass = "285 kg"', 'mass = "285"').replace('surface = "outer"', 'surface = "rim"', 1),
                    encoding="utf-8")
     assert main(["order", str(job), "--out", str(tmp_path)]) == 2
-    err = _one_line_error(capsys, "order")
-    assert "bad.toml: 2 problems in the job file" in err
-    assert "line 17, rotor.mass: '285' has no unit" in err
-    assert "line 35, plane[1].surface: 'rim' is not allowed" in err
+    lines = capsys.readouterr().err.splitlines()
+    assert lines[0] == f"counterpoise order: error: {job}: 2 problems in the job file:"
+    assert lines[1].startswith("  - line 17, rotor.mass: '285' has no unit")
+    assert lines[2].startswith("  - line 35, plane[1].surface: 'rim' is not allowed")
+    assert len(lines) == 3
     assert not list(tmp_path.glob("*.pdf"))
+
+
+def test_order_six_problems_arrive_at_once_one_line_each(tmp_path, capsys):
+    job = tmp_path / "six.toml"
+    text = (EXAMPLES / "job-fan-readings.toml").read_text(encoding="utf-8")
+    spoiled = (text.replace('mass = "285 kg"', 'mass = "285"')
+               .replace('service_speed = "1780 rpm"', 'service_speed = "1780 kg"')
+               .replace('surface = "outer"', 'surface = "rim"', 1)
+               .replace('\n[angles]\n', '\n[angles]\ncolour = "red"\n')
+               .replace('\n[order]\n', '\n[order]\nprority = "high"\n')
+               .replace('\n[geometry]\n', '\n[geometry]\nspan = "1 m"\n'))
+    job.write_text(spoiled, encoding="utf-8")
+    assert main(["order", str(job), "--out", str(tmp_path)]) == 2
+    lines = capsys.readouterr().err.splitlines()
+    assert lines[0].startswith("counterpoise order: error: ") and lines[0].endswith("6 problems in the job file:")
+    assert len(lines) == 7 and all(line.startswith("  - line ") for line in lines[1:]), lines
+    assert list(tmp_path.iterdir()) == [job]
+
+
+def test_order_one_problem_stays_on_one_line(tmp_path, capsys):
+    job = tmp_path / "one.toml"
+    text = (EXAMPLES / "job-fan-readings.toml").read_text(encoding="utf-8")
+    job.write_text(text.replace('mass = "285 kg"', 'mass = "285"'), encoding="utf-8")
+    assert main(["order", str(job), "--out", str(tmp_path)]) == 2
+    err = _one_line_error(capsys, "order")
+    assert "one.toml: 1 problem in the job file: line 17, rotor.mass: '285' has no unit" in err
 
 
 def test_order_out_of_tolerance_exits_1(tmp_path, capsys):

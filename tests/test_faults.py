@@ -4,8 +4,9 @@ Hypothesis builds command lines from a valid base for each subcommand and spoils
 units, NaN, infinity, negative or zero values, absurd magnitudes, angles written other ways, empty and very
 long strings, unknown or repeated options), and spoils job, runs, coefficient and table files (bad TOML, bad
 values, non-UTF-8 bytes, truncation). Whatever comes in, the command line must answer with exit status 0, 1
-or 2 (never the internal-error status 3), on 2 exactly one line on stderr, never a traceback, and with
-``--json`` exactly one JSON object on stdout when it answers 0 or 1.
+or 2 (never the internal-error status 3), on 2 exactly one line on stderr (except a job file with several
+problems: a first line that counts them, then exactly that many lines, one per problem), never a traceback,
+and with ``--json`` exactly one JSON object on stdout when it answers 0 or 1.
 
 The contract checked here is DESIGN.md's ("Exit status ... 2 bad input or infeasible request, with one line
 on stderr") and issue 6; the generated values are not published figures, so no value below needs a source.
@@ -59,6 +60,11 @@ def run_cli(argv: list[str]) -> tuple[int, str, str]:
     return rc, out.getvalue(), err.getvalue() + text
 
 
+#: The first line of a refusal that lists a job file's problems one per line below it (the only exit-2 answer
+#: with more than one line on stderr).
+_JOB_PROBLEMS = re.compile(r"^counterpoise [\w-]+: error: .*: (\d+) problems in the job file:$")
+
+
 def assert_clean(argv, rc: int, out: str, err: str) -> None:
     """The promises of the command line, whatever the input."""
     shown = f"argv={argv!r}\nrc={rc}\nstderr={err[:2000]!r}\nstdout={out[:500]!r}"
@@ -67,9 +73,14 @@ def assert_clean(argv, rc: int, out: str, err: str) -> None:
     assert "Warning:" not in err, "a Python warning leaked onto stderr:\n" + shown
     if rc == 2:
         lines = err.splitlines()
-        assert len(lines) == 1, "exit 2 must come with exactly one line on stderr:\n" + shown
-        assert lines[0].startswith("counterpoise"), shown
+        assert lines and lines[0].startswith("counterpoise"), shown
         assert "internal error" not in lines[0], shown
+        listed = _JOB_PROBLEMS.match(lines[0])
+        if listed:  # the one exception: a job file's problems, counted on the first line, then one per line
+            assert int(listed.group(1)) >= 2 and len(lines) == 1 + int(listed.group(1)), shown
+            assert all(line.startswith("  - ") and len(line) > 4 for line in lines[1:]), shown
+        else:
+            assert len(lines) == 1, "exit 2 must come with exactly one line on stderr:\n" + shown
     elif (argv and argv[0] in _NAMES and "--json" in argv
           and not {"--help", "-h", "--version"} & set(argv)):
         data = json.loads(out)  # exactly one JSON object, nothing else on stdout

@@ -264,7 +264,8 @@ def test_output_folder_that_is_a_file(tmp_path):
     blocker = tmp_path / "out"
     blocker.write_text("a file, not a folder")
     rc, _, err = run_cli(["order", JOB, "--out", blocker])
-    assert "cannot write" in one_line_error(rc, err)
+    line = one_line_error(rc, err)
+    assert "--out" in line and "is a file" in line and "give a folder" in line, line  # issue 10: say what it is
     assert blocker.read_text() == "a file, not a folder"
 
 

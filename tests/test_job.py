@@ -166,3 +166,45 @@ def test_order_number_is_one_line():
     with pytest.raises(JobError, match=r"order.number: 'INV\\n0001' contains a tab or line break \(U\+000A\); "
                                        r"write it on one line"):
         parse_job(bad)
+
+
+# -- defaults the order states (issue 11): date, balancing speed, and the mark of a value the job gave ---------
+
+def _used(job_text: str) -> dict:
+    from toolkit.workorder.build import build_order
+
+    order = build_order(parse_job(job_text))
+    return order, {s.name: s for s in order.settings}
+
+
+def test_a_job_without_date_is_dated_today_and_says_so():
+    import datetime
+
+    before = datetime.date.today().isoformat()
+    order, used = _used(EXAMPLE)  # EXAMPLE has no [order] date
+    after = datetime.date.today().isoformat()
+    day = order.ident.date.split()[0]
+    assert day in {before, after}  # the clock's date, whichever side of midnight the build ran
+    assert "today" in order.ident.date and "no date" in order.ident.date
+    assert not used["order date"].given and used["order date"].value.startswith(day)
+    dated, used = _used(EXAMPLE.replace('rotor = "invented test rotor"',
+                                        'rotor = "invented test rotor"\ndate = "2026-11-30"'))
+    assert dated.ident.date == "2026-11-30" and "order date" not in used
+
+
+def test_balancing_speed_default_is_listed_as_the_service_speed():
+    _order, used = _used(EXAMPLE)
+    assert used["balancing speed"].value == "1480 r/min (the service speed; the job gives no balancing speed)"
+    assert not used["balancing speed"].given
+    _order, used = _used(EXAMPLE.replace('service_speed = "1480 rpm"',
+                                         'service_speed = "1480 rpm"\nbalancing_speed = "600 rpm"'))
+    assert used["balancing speed"].value == "600 r/min" and used["balancing speed"].given
+    assert used["balancing speed"].mark == "job"
+
+
+def test_a_grade_from_the_job_is_marked_as_the_jobs_value():
+    _order, used = _used(EXAMPLE)  # grade = "G 6.3" in the job
+    assert used["grade"].given and used["grade"].mark == "job"
+    _order, used = _used(EXAMPLE.replace('grade = "G 6.3"\n', ""))
+    # the default G 6.3 is common practice for general machinery (job.DEFAULTS, marked CP)
+    assert not used["grade"].given and used["grade"].mark == "CP" and used["grade"].value == "G 6.3"

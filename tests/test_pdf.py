@@ -105,10 +105,96 @@ def test_combined_document_numbers_each_order():
     assert "Work order INV-B | page 1 of" in pages[n_one]
 
 
-def test_text_outside_latin1_does_not_break_the_document():
-    order = dataclasses.replace(example_order(), ident=Identification("ŁÓDŹ-1 ✓", "wirnik → test", "Zakład Łódź"))
+#: Texts in four scripts (and a few signs) as a user might type them; each must come back from the PDF.
+SCRIPTS = {"Latin": "Łódź Čech Zakład Müller-Groß", "Greek": "Δ-line θ-Ρότορας", "Cyrillic": "Ротор Щётка",
+           "CJK": "東京 工場 ローター 회전자"}
+
+
+def _scripts_order(number="ŁÓDŹ-1 ✓"):
+    base = example_order()
+    ident = Identification(number, f"{SCRIPTS['Cyrillic']} → {SCRIPTS['Greek']}", SCRIPTS["Latin"],
+                           notes=SCRIPTS["CJK"])
+    return dataclasses.replace(base, ident=ident, angle_reference=f"Δ mark {SCRIPTS['CJK']}")
+
+
+def test_every_script_keeps_every_character():
+    order = _scripts_order()
     text = _flat(" ".join(_pages(pdf.to_bytes(order))))
-    assert "LÓDZ-1" in text  # folded to letters the standard fonts can show
+    for script, sample in SCRIPTS.items():
+        for word in sample.split():
+            assert word in text, (script, word)
+    assert "ŁÓDŹ-1 ✓" in text and "→" in text
+    assert "?" not in text.replace("Work order", "")  # nothing replaced by a question mark
+
+
+def test_the_drilling_sources_keep_theta(demo):
+    order, data = demo
+    assert any("θ" in s for s in order.sources)
+    text = _flat(" ".join(_pages(data)))
+    assert "tan(θ/2)" in text and "tan(?/2)" not in text
+
+
+def test_a_character_no_font_has_prints_as_a_visible_mark():
+    # U+10000 (Linear B syllable B008 A) is in neither shipped font
+    order = dataclasses.replace(example_order(), ident=Identification("WO-\U00010000", "rotor", "Works"))
+    text = _flat(" ".join(_pages(pdf.to_bytes(order))))
+    assert "WO-\ufffd" in text and "WO-?" not in text
+
+
+def test_fonts_are_embedded_unicode_subsets():
+    data = pdf.to_bytes(_scripts_order())
+    fonts = set()
+    for page in PdfReader(io.BytesIO(data)).pages:
+        for font in page["/Resources"]["/Font"].values():
+            font = font.get_object()
+            assert font["/Subtype"] == "/TrueType"
+            assert "/FontFile2" in font["/FontDescriptor"].get_object()  # the glyphs travel with the file
+            assert "/ToUnicode" in font  # so that the text can be searched and copied
+            fonts.add(str(font["/BaseFont"]).split("+", 1)[1])
+    assert fonts == {"DejaVuSansCondensed", "DejaVuSansCondensed-Bold", "DejaVuSansCondensed-Oblique",
+                     "DroidSansFallback"}
+
+
+def test_font_files_and_licences_ship_in_the_package():
+    from importlib.resources import files
+
+    folder = files("toolkit.workorder") / "fonts"
+    for name in ("DejaVuSansCondensed.ttf", "DejaVuSansCondensed-Bold.ttf", "DejaVuSansCondensed-Oblique.ttf",
+                 "DroidSansFallback.ttf"):
+        assert (folder / name).read_bytes()[:4] == b"\x00\x01\x00\x00"  # TrueType outlines (glyf)
+    assert "Bitstream" in (folder / "LICENSE-DejaVu.txt").read_text(encoding="utf-8")
+    assert "Apache License" in (folder / "LICENSE-DroidSansFallback.txt").read_text(encoding="utf-8")
+
+
+def test_deterministic_with_every_script():
+    order = _scripts_order()
+    assert pdf.to_bytes(order) == pdf.to_bytes(order)
+
+
+def test_combined_document_keeps_each_orders_characters():
+    one, two = _scripts_order("ZAMÓWIENIE-Ł"), example_order("PLAIN-2")
+    data = pdf.combined_bytes([one, two, one])
+    pages = [_flat(p) for p in _pages(data)]
+    n_one = len(_pages(pdf.to_bytes(one)))
+    assert "ZAMÓWIENIE-Ł" in pages[0] and "東京" in " ".join(pages[:n_one])
+    assert "PLAIN-2" in pages[n_one]
+    assert "東京" in " ".join(pages[-n_one:])
+    # the third order's fonts are the first one's, written once
+    assert len(data) < len(pdf.to_bytes(one)) * 1.6 + len(pdf.to_bytes(two))
+
+
+@pytest.mark.parametrize("units, paper, size", [
+    ("metric", "", (595.2756, 841.8898)),    # ISO 216 A4, 210 mm x 297 mm in points
+    ("imperial", "", (612, 792)),            # ANSI Letter, 8.5 in x 11 in in points
+    ("metric", "Letter", (612, 792)),
+    ("imperial", "A4", (595.2756, 841.8898)),
+])
+def test_paper(units, paper, size):
+    order = dataclasses.replace(example_order(units=units), paper=paper)
+    for page in PdfReader(io.BytesIO(pdf.to_bytes(order))).pages:
+        box = page.mediabox
+        assert float(box.width) == pytest.approx(size[0], abs=0.01)
+        assert float(box.height) == pytest.approx(size[1], abs=0.01)
 
 
 def test_write_refuses_to_overwrite(tmp_path):

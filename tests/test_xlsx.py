@@ -47,7 +47,7 @@ def test_sections_and_known_values():
     # the allowance of plane 1 sits under its header, in the unit of the header
     head = _find(ws, "Allowance U_per [g·mm]")
     assert ws.cell(head.row + 1, head.column).value == pytest.approx(order.planes[0].tolerance.u_per_g_mm)
-    assert ws.cell(head.row + 1, 9).value == order.planes[0].tolerance.source
+    assert ws.cell(head.row + 1, 7).value == order.planes[0].tolerance.source
     # operation 1: what, action, angle with its sense
     head = _find(ws, "What")
     what = ws.cell(head.row + 1, head.column).value

@@ -2,7 +2,8 @@
 
 ``main(argv) -> int`` parses the arguments, runs one subcommand and returns the exit status:
 0 done; 1 done and the rotor is out of tolerance (where the command checks one); 2 bad input or an
-infeasible request, with one line on stderr. Tests call ``main`` directly.
+infeasible request, with one line on stderr (a job file with several problems: a line that counts them,
+then one line per problem). Tests call ``main`` directly.
 
 Each subcommand lives in a module of ``toolkit.commands`` that defines ``configure(parser)`` (adds the
 options and sets ``run``) and imports nothing heavy at module level: numpy and pint are imported by the
@@ -55,7 +56,10 @@ class _Parser(argparse.ArgumentParser):
         return super()._get_values(action, arg_strings)
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+    """The argument parser. With ``only`` (a subcommand's name) just that subcommand gets its options: the
+    others are not needed to run it, and configuring twelve subcommands costs more start-up time than the
+    one that runs. Without it every subcommand is configured (``--help`` of each, and the tests)."""
     from toolkit import __version__
 
     parser = _Parser(
@@ -70,6 +74,8 @@ def build_parser() -> argparse.ArgumentParser:
     sub.required = True
     modules: dict[str, object] = {}
     for name, module_name, help_text in COMMANDS:
+        if only is not None and name != only:
+            continue
         module = modules.get(module_name) or importlib.import_module(module_name)
         modules[module_name] = module
         configure = getattr(module, "configure_" + name, None)
@@ -80,9 +86,16 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _chosen(argv: list[str]) -> str | None:
+    """The subcommand ``argv`` names, when it starts with one (so only that one needs configuring)."""
+    names = {name for name, _module, _help in COMMANDS}
+    return argv[0] if argv and argv[0] in names else None
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line with ``argv`` (default ``sys.argv[1:]``); return the exit status."""
-    parser = build_parser()
+    argv = sys.argv[1:] if argv is None else list(argv)
+    parser = build_parser(_chosen(argv))
     try:
         args = parser.parse_args(argv)
     except SystemExit as exc:  # --help, --version, or a usage error already printed
@@ -94,7 +107,7 @@ def main(argv: list[str] | None = None) -> int:
             warnings.simplefilter("ignore")
             return int(args.run(args) or 0)
     except CounterpoiseError as exc:
-        print(f"counterpoise {args.command}: error: {_one_line(exc)}", file=sys.stderr)
+        print("\n".join(_error_lines(args.command, exc)), file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print(f"counterpoise {args.command}: interrupted", file=sys.stderr)
@@ -121,6 +134,16 @@ def _printable(text: str) -> str:
 
 def _one_line(exc: BaseException) -> str:
     return " ".join(str(exc).split()) or type(exc).__name__
+
+
+def _error_lines(command: str, exc: CounterpoiseError) -> list[str]:
+    """The lines printed for a refused command: one line; or, when the error lists several problems (a job
+    file), a first line that counts them and then one line per problem, each starting ``  - ``."""
+    problems, head = getattr(exc, "problems", ()), getattr(exc, "head", "")
+    first = f"counterpoise {command}: error: "
+    if len(problems) > 1 and head:
+        return [first + " ".join(head.split())] + ["  - " + (" ".join(str(p).split()) or "?") for p in problems]
+    return [first + _one_line(exc)]
 
 
 def console() -> None:

@@ -33,6 +33,10 @@ def configure_order(parser) -> None:
 def configure_batch(parser) -> None:
     parser.add_argument("sheet", metavar="SHEET", help="planner sheet, .xlsx or .csv (see examples/planner.csv)")
     parser.add_argument("--out", default=".", metavar="DIR", help="folder for the output files (default: .)")
+    parser.add_argument("--carry-on", action="store_true",
+                        help="continue an interrupted batch in the same folder: keep the orders already "
+                             "written from unchanged rows, write the others, then the summary and combined "
+                             "PDF over all of them")
     add_force(parser)
     add_json(parser)
     parser.set_defaults(run=run_batch)
@@ -48,26 +52,45 @@ def _formats(text: str) -> tuple[str, ...]:
     return parts
 
 
-def write_order_files(order, out: str, formats, force: bool) -> list[str]:
-    """Write the chosen files of one work order into ``out``; nothing is written if any target exists
-    (without ``force``)."""
+def out_folder(text) -> "Path":
+    """The ``--out`` folder, refused in one line when it is something else (a file, a device, a dangling or
+    looping link, a name that is too long)."""
     from pathlib import Path
 
-    from toolkit.fileio import check_writable, safe_filename
+    from toolkit.errors import OutputError
+    from toolkit.fileio import describe
+
+    try:
+        kind = describe(text)
+    except OutputError as exc:
+        raise OutputError(f"--out {text}: {str(exc).split(': ', 1)[-1]}") from None
+    if kind is not None:
+        raise OutputError(f"--out {text} is {kind}; give a folder (it is created if missing)")
+    return Path(text)
+
+
+def write_order_files(order, out: str, formats, force: bool) -> list[str]:
+    """Write the chosen files of one work order into ``out``, together: nothing is written if any target
+    exists (without ``force``), and two runs writing the same order never leave a mixed pair."""
+    from pathlib import Path
+
+    from toolkit.fileio import check_writable, output_error, safe_filename, write_together
     from toolkit.workorder import pdf, xlsx
 
+    folder = out_folder(out)
     stem = safe_filename(order.ident.number)
-    paths = {fmt: Path(out) / f"{stem}.{fmt}" for fmt in formats}
+    paths = {fmt: folder / f"{stem}.{fmt}" for fmt in formats}
     for path in paths.values():
         check_writable(path, force)
     data = {}
-    if "xlsx" in paths:
-        data["xlsx"] = xlsx.to_bytes(order)
-    if "pdf" in paths:
-        data["pdf"] = pdf.to_bytes(order)
-    from toolkit.fileio import write_atomic
-
-    return [str(write_atomic(paths[fmt], data[fmt], force=force)) for fmt in formats]
+    for fmt, make in (("xlsx", xlsx.to_bytes), ("pdf", pdf.to_bytes)):
+        if fmt in paths:
+            try:
+                data[fmt] = make(order)
+            except OSError as exc:  # a library's scratch space (a full temporary folder)
+                raise output_error(paths[fmt], exc) from None
+    written = write_together([(paths[fmt], data[fmt]) for fmt in formats], force=force)
+    return [str(Path(p)) for p in written]
 
 
 def summary(order, files: list[str]) -> str:
@@ -127,10 +150,25 @@ def run_batch(args) -> int:
 
     from toolkit.workorder.batch import run_batch as batch
 
+    from pathlib import Path
+
+    from toolkit.errors import BadInput, OutputError
+
+    if Path(args.sheet).is_dir():
+        raise BadInput(f"{args.sheet} is a folder; give a planner sheet (.xlsx or .csv file)")
+    out = out_folder(args.out)
     progress = sys.stderr.isatty() and not args.json
-    result = batch(args.sheet, args.out, force=args.force, progress=progress)
-    lines = [f"Batch {args.sheet}: {result.done} work order(s) written, {len(result.failures)} row(s) failed"]
+    try:
+        result = batch(args.sheet, out, force=args.force, progress=progress, carry_on=args.carry_on)
+    except OutputError as exc:
+        if not args.carry_on and "already exists" in str(exc) and "-batch.json" in str(exc):
+            raise OutputError(f"{exc}, or --carry-on to continue the batch it records") from None
+        raise
+    kept = f", {len(result.kept)} kept from the earlier run" if result.kept else ""
+    lines = [f"Batch {args.sheet}: {result.done - len(result.kept)} work order(s) written{kept}, "
+             f"{len(result.failures)} row(s) failed"]
     lines += [f"  wrote {f}" for f in result.files]
+    lines += [f"  kept {f} (already written from the same row)" for f in result.kept]
     lines += [f"  row {row}: {reason}" for row, reason in result.failures]
     lines += [f"  out of tolerance (predicted): {n}" for n in result.out_of_tolerance]
     emit(args.json, result.to_dict(), "\n".join(lines))

@@ -396,7 +396,7 @@ class DrillResult:
     def placement(self, unb=None) -> str:
         """Where the correction goes, in words; ``unb`` formats an unbalance in g·mm (default metric)."""
         return describe_placement("remove", self.given_action, self.requested_g_mm, self.given_angle_deg,
-                                  self.remove_angle_deg, "remove it at the heavy spot,", "at the heavy spot, ",
+                                  self.remove_angle_deg, "remove it at the heavy spot,", "the heavy spot, ",
                                   unb)
 
     def to_dict(self) -> dict:
@@ -425,10 +425,15 @@ def describe_placement(method_action: str, given_action: str, requested_g_mm: fl
     """Where a correction goes, in words, saying so when the method works opposite to how the correction was
     given (holes remove at the heavy spot; plates and washers add opposite it).
 
+    ``where`` names the place after the word "at" when the correction is carried out as given (e.g.
+    ``"the heavy spot, "``); it must not repeat "at".
+
     >>> describe_placement("remove", "add", 2400.0, 131.0, 311.0, "remove it at the heavy spot,")
     'correction given as add 2400 g·mm at 131°: remove it at the heavy spot, 311° (= 131° + 180°)'
     >>> describe_placement("add", "add", 2400.0, 131.0, 131.0, "weld the plate opposite, at")
     'add 2400 g·mm at 131°'
+    >>> describe_placement("remove", "remove", 2400.0, 131.0, 131.0, "remove it at the heavy spot,", "the heavy spot, ")
+    'remove 2400 g·mm at the heavy spot, 131°'
     """
     unb = unb or (lambda x: f"{_fmt(x)} g·mm")
     if given_action != method_action:

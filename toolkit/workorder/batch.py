@@ -94,12 +94,13 @@ class BatchResult:
     out_of_tolerance: tuple[str, ...]
     files: tuple[str, ...]
     seconds: float = field(default=0.0, compare=False)
+    kept: tuple[str, ...] = ()
 
     def to_dict(self) -> dict:
         return {"sheet": self.sheet, "rows": self.rows, "done": self.done,
                 "failures": [{"row": r, "reason": why} for r, why in self.failures],
                 "out_of_tolerance": list(self.out_of_tolerance), "files": list(self.files),
-                "seconds": round(self.seconds, 3)}
+                "kept": list(self.kept), "seconds": round(self.seconds, 3)}
 
 
 # -- reading the sheet --------------------------------------------------------------------------------
@@ -338,39 +339,144 @@ class _Progress:
         sys.stderr.flush()
 
 
-def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, progress: bool = False
-              ) -> BatchResult:
+#: The batch's own record in the output folder: for each order file, its row, a hash of the row's inputs
+#: and a hash of the file written; used to continue an interrupted batch.
+MANIFEST_FORMAT = "counterpoise-batch"
+#: Seconds between two saves of the record while a batch runs (it is also saved at the end and when the
+#: batch is stopped by a signal).
+MANIFEST_EVERY = 1.0
+
+
+def _digest(data: bytes) -> str:
+    import hashlib
+
+    return hashlib.sha256(data).hexdigest()
+
+
+def _file_digest(path: Path) -> str | None:
+    try:
+        return _digest(path.read_bytes())
+    except OSError:
+        return None
+
+
+def row_inputs(cells: dict, base: Path) -> str:
+    """A hash of what a planner row's order is made from: its cells, the files they name (job template,
+    shop tables) and the program version."""
+    import hashlib
+    import json
+
+    from toolkit import __version__
+
+    h = hashlib.sha256()
+    h.update(json.dumps({"version": __version__, "cells": cells}, sort_keys=True, ensure_ascii=True).encode())
+    for column in ("job", "drills", "plate_stock"):
+        name = cells.get(column, "")
+        if name:
+            file = Path(name) if Path(name).is_absolute() else base / name
+            try:
+                h.update(b"\0" + file.read_bytes())
+            except OSError:
+                h.update(b"\0missing")
+    return h.hexdigest()
+
+
+def _load_manifest(path: Path) -> dict | None:
+    """The record of an earlier batch, or None when there is none; a file of another kind is refused."""
+    import json
+
+    from toolkit.errors import OutputError
+
+    try:
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        return None
+    except OSError as exc:
+        raise OutputError(f"cannot read {path}: {exc.strerror}") from None
+    try:
+        data = json.loads(raw.decode("utf-8"))
+        if data.get("format") != MANIFEST_FORMAT or not isinstance(data.get("orders"), dict):
+            raise ValueError
+    except (ValueError, UnicodeDecodeError, AttributeError, RecursionError):
+        raise OutputError(f"{path} is not the record of a batch, so it is not replaced; move it away, or "
+                          "allow overwriting") from None
+    return data
+
+
+def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, progress: bool = False,
+              carry_on: bool = False) -> BatchResult:
     """Turn every row of a planner sheet into a work order.
 
-    Writes one PDF per rotor, the combined PDF and the summary workbook into ``out`` (atomically; an
-    existing file is replaced only with ``force``). A row that cannot be built is recorded with its row
-    number and reason; the others go on. Raises :class:`~toolkit.errors.BadInput` only for problems of the
-    whole sheet (missing, unreadable, unknown columns) and :class:`~toolkit.errors.OutputError` when the
-    summary or combined files exist without ``force``.
+    Writes one PDF per rotor, the combined PDF, the summary workbook and the batch's record
+    (``<sheet>-batch.json``) into ``out`` (atomically; an existing file is replaced only with ``force``). A
+    row that cannot be built is recorded with its row number and reason; the others go on. A row whose file
+    name is taken by another row or by the batch's own files fails with that reason before anything of it
+    is written.
+
+    ``carry_on`` continues an interrupted batch: a row whose PDF is already in the folder, made from the
+    same inputs (the record's hash) or byte for byte what the row gives now, is kept as it is; the summary
+    and the combined PDF are made over every row, and the batch's own files of the earlier run are replaced.
+
+    Raises :class:`~toolkit.errors.BadInput` only for problems of the whole sheet (missing, unreadable,
+    unknown columns) and :class:`~toolkit.errors.OutputError` when the summary or combined files exist
+    without ``force`` (or, with ``carry_on``, were not made by the recorded batch), or cannot be written.
     """
-    from toolkit.fileio import check_writable, safe_filename, write_atomic
+    import json
+
+    from toolkit.errors import OutputError
+    from toolkit.fileio import check_writable, describe, output_error, safe_filename, write_atomic
     from toolkit.workorder import pdf
     from toolkit.workorder.build import build_order
 
     start = time.perf_counter()
     sheet = Path(sheet)
     out = Path(out)
+    kind = describe(out)
+    if kind is not None:
+        raise OutputError(f"{out} is {kind}; the output must be a folder (it is created if missing)")
     stem = safe_filename(sheet.stem, "planner")
     combined_path = out / f"{stem}-orders.pdf"
     summary_path = out / f"{stem}-summary.xlsx"
-    for path in (combined_path, summary_path):
-        check_writable(path, force)
+    manifest_path = out / f"{stem}-batch.json"
+    own = {p.name.casefold(): p.name for p in (combined_path, summary_path, manifest_path)}
+    earlier = _load_manifest(manifest_path) if (carry_on and not force) else None
+    recorded = earlier.get("orders", {}) if earlier else {}
+    batch_force = force
+    if carry_on and not force:
+        # the batch's own files may be replaced when the record says the recorded batch made them
+        for path, key in ((combined_path, "combined"), (summary_path, "summary")):
+            if path.exists() and (earlier is None or earlier.get(key) != _file_digest(path)):
+                check_writable(path, False)
+        batch_force = earlier is not None
+    for path in (combined_path, summary_path, manifest_path):
+        check_writable(path, batch_force)
     rows = read_rows(sheet)
     first = next(rows, None)  # sheet-level problems surface before anything is written
     bar = _Progress(_count_rows(sheet) if progress else None, progress)
     summary = _Summary()
-    combined = pdf.Document()
+    try:
+        combined = pdf.Document()
+    except OSError as exc:
+        summary.discard()
+        raise output_error(combined_path, exc) from None
     seen: dict[str, int] = {}
     failures: list[tuple[int, str]] = []
     failing: list[str] = []
     files: list[str] = []
+    kept: list[str] = []
+    record: dict[str, dict] = {}
     count = 0
     base = sheet.parent
+    last_save = [time.monotonic()]
+
+    def save_record(final: dict | None = None) -> None:
+        data = {"format": MANIFEST_FORMAT, "version": 1, "sheet": str(sheet), "orders": record,
+                **(final or {"complete": False})}
+        text = json.dumps(data, indent=1, ensure_ascii=True) + "\n"
+        write_atomic(manifest_path, text, force=saved[0] or batch_force)
+        saved[0] = True
+
+    saved = [False]
 
     def one(number: int, cells: dict) -> None:
         origin = f"{sheet}, row {number}"
@@ -379,22 +485,45 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
                 raise BadInput(cells[_DAMAGED])
             order = build_order(row_job(cells, origin, base))
             name = safe_filename(order.ident.number)
-            if name in seen:
-                raise BadInput(f"order number {order.ident.number!r} gives the same file name as row {seen[name]}")
-            seen[name] = number
+            key = f"{name}.pdf".casefold()
+            if key in own:
+                raise BadInput(f"order number {order.ident.number!r} gives the file name {name}.pdf, which is "
+                               f"the batch's own {own[key]}")
+            if key in seen:
+                raise BadInput(f"order number {order.ident.number!r} gives the same file name as row {seen[key]}")
+            seen[key] = number
+            inputs = row_inputs(cells, base)
             data, pages = pdf.render_order(order)
-            path = write_atomic(out / f"{name}.pdf", data, force=force)
+            path = out / f"{name}.pdf"
+            digest = _digest(data)
+            entry = recorded.get(path.name)
+            keep = False
+            if carry_on and path.exists():
+                on_disk = _file_digest(path)
+                keep = on_disk == digest or (entry is not None and entry.get("inputs") == inputs
+                                             and entry.get("pdf") == on_disk)
+            if keep:
+                digest = on_disk
+            else:
+                path = write_atomic(path, data, force=force)
         except CounterpoiseError as exc:
             reason = " ".join(str(exc).split())
             prefix = f"{origin}: "
             failures.append((number, reason[len(prefix):] if reason.startswith(prefix) else reason))
             summary.failed(number, cells, failures[-1][1])
             return
-        files.append(str(path))
-        combined.add_pages(pages)
+        try:
+            combined.add_pages(pages)
+        except OSError as exc:  # the combined document's temporary storage: the batch cannot go on
+            raise output_error(combined_path, exc) from None
+        (kept if keep else files).append(str(path))
+        record[path.name] = {"row": number, "inputs": inputs, "pdf": digest}
         summary.ok(number, order, path.name)
         if not order.passed:
             failing.append(order.ident.number)
+        if time.monotonic() - last_save[0] >= MANIFEST_EVERY:
+            save_record()
+            last_save[0] = time.monotonic()
 
     try:
         if first is not None:
@@ -403,16 +532,27 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
                 one(number, cells)
                 bar.show(count, len(failures))
         bar.show(count, len(failures), final=True)
+        final = {"complete": True, "combined": None, "summary": None}
         if combined.orders:
-            files.append(str(write_atomic(combined_path, combined.write_to, force=force)))
-        files.append(str(write_atomic(summary_path, summary.finish(), force=force)))
+            files.append(str(write_atomic(combined_path, combined.write_to, force=batch_force)))
+            final["combined"] = _file_digest(combined_path)
+        summary_bytes = summary.finish()
+        files.append(str(write_atomic(summary_path, summary_bytes, force=batch_force)))
+        final["summary"] = _digest(summary_bytes)
+        save_record(final)
+        files.append(str(manifest_path))
     except BaseException:
         summary.discard()
+        if record:
+            try:  # what was written so far, so that the batch can be continued
+                save_record()
+            except BaseException:
+                pass
         raise
     finally:
         combined.close()
     return BatchResult(str(sheet), count, count - len(failures), tuple(failures), tuple(failing), tuple(files),
-                       time.perf_counter() - start)
+                       time.perf_counter() - start, tuple(kept))
 
 
 def _chain(first, rest):
@@ -432,6 +572,8 @@ class _Summary:
     def __init__(self):
         from openpyxl import Workbook
 
+        from toolkit.workorder.xlsx import in_memory
+
         self.wb = Workbook(write_only=True)
         self.ws = self.wb.create_sheet("Summary")
         self.ws.freeze_panes = "A2"
@@ -443,6 +585,7 @@ class _Summary:
         self.ws.oddFooter.right.text = "page &P of &N"
         for col, width in zip("ABCDEFGHIJKLMNOPQRST", (6, 16, 30, 16, 9) + (14, 12, 12, 10, 40, 12, 8) * 2 + (30,)):
             self.ws.column_dimensions[col].width = width
+        in_memory(self.ws)  # after the sheet's settings: rows in memory, never in an openpyxl temporary file
         self.ws.append([self._text(h) for h in self.HEADER])
 
     def _text(self, value):
@@ -488,8 +631,6 @@ class _Summary:
             pass
 
     def finish(self) -> bytes:
-        from io import BytesIO
+        from toolkit.workorder.xlsx import save_bytes
 
-        buffer = BytesIO()
-        self.wb.save(buffer)
-        return buffer.getvalue()
+        return save_bytes(self.wb)

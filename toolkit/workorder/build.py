@@ -222,10 +222,29 @@ def _correct_plane(job: Job, plane, u0: float, a0: float, allowance: float, limi
     return method, ops, residual, notes, cautions
 
 
+def _order_date(job: Job) -> str:
+    """The order's date: the job's, or today's (ISO 8601) when the job gives none."""
+    import datetime
+
+    given = job.order.get("date", "").strip()
+    return given or datetime.date.today().isoformat()
+
+
 def _settings(job: Job, report) -> tuple[Setting, ...]:
+    """The values used that the job may set; a value the job gave is marked ``job`` (its default's mark, CP
+    or M, no longer applies)."""
+    from dataclasses import replace
+
     from toolkit.tolerance import DEFAULT_MIN_SHARE
 
     out = []
+    if "order.date" in job.defaults_used:
+        out.append(Setting("order date", f"{_order_date(job)} (the day the order was made; the job gives no date)",
+                           "CP", False, "[order] date"))
+    speed = f"{job.balancing_speed_rpm:g} r/min"
+    out.append(Setting("balancing speed", speed if "rotor.balancing_speed" not in job.defaults_used
+                       else f"{speed} (the service speed; the job gives no balancing speed)", "CP",
+                       "rotor.balancing_speed" not in job.defaults_used, "[rotor] balancing_speed"))
     for key in ("rotor.grade", "rotor.material"):
         _value, mark, _why = DEFAULTS[key]
         section, name = key.split(".")
@@ -282,7 +301,7 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
         fillet = ("minimum for the plate thickness (AWS D1.1 table [H])" if job.shop.fillet is None
                   else f"{job.shop.fillet.m_as('mm'):g} mm")
         out.append(Setting("fillet weld leg", fillet, "H", job.shop.fillet is not None, "[shop] fillet"))
-    return tuple(out)
+    return tuple(replace(s, mark="job") if s.given else s for s in out)
 
 
 _SOURCES = {
@@ -352,7 +371,7 @@ def build_order(job: Job) -> WorkOrder:
     order = job.order
     return WorkOrder(
         ident=Identification(order["number"], order["rotor"], order.get("customer", ""), order.get("drawing", ""),
-                             order.get("serial", ""), order.get("date", ""), order.get("notes", "")),
+                             order.get("serial", ""), _shown_date(job), order.get("notes", "")),
         rotor_mass_kg=job.mass.m_as("kg"), service_speed_rpm=job.service_speed_rpm,
         balancing_speed_rpm=job.balancing_speed_rpm, grade=report.grade.label, criterion=job.criterion,
         material=job.material, u_per_total_g_mm=report.u_per.m_as("g*mm"), angle_reference=job.angle_reference,
@@ -361,6 +380,12 @@ def build_order(job: Job) -> WorkOrder:
         settings=_settings(job, report), warnings=_unique(warnings),
         inputs={"origin": job.origin},
     )
+
+
+def _shown_date(job: Job) -> str:
+    if "order.date" in job.defaults_used:
+        return f"{_order_date(job)} (today; the job gives no date)"
+    return job.order.get("date", "")
 
 
 def _details(kind: str, dims: dict, mass: float, job: Job) -> tuple[tuple[str, str], ...]:

@@ -4,10 +4,11 @@ A job file has these tables (``examples/job-*.toml`` are complete, invented exam
 
 ``[order]``
     ``number`` (required), ``rotor`` (required: what the rotor is), ``customer``, ``drawing``, ``serial``,
-    ``date``, ``notes``. Free text; it is printed, never evaluated.
+    ``date`` (default: the day the order is made, and the order says so), ``notes``. Free text; it is
+    printed, never evaluated.
 ``[rotor]``
     ``mass`` (required, e.g. ``"412 kg"``), ``service_speed`` (required: the maximum service speed),
-    ``balancing_speed`` (default: the service speed), ``grade`` (``"G 6.3"`` or ``"6.3 mm/s"``; default
+    ``balancing_speed`` (default: the service speed, listed as such on the order), ``grade`` (``"G 6.3"`` or ``"6.3 mm/s"``; default
     ``G 6.3`` [CP]), ``material`` (default ``"carbon steel"`` [CP]), ``criterion`` (``"iso"``, default,
     ``"api"`` or ``"mil-std-167"``), ``error_allowance`` (ΔU, an unbalance; default 0 [M]).
 ``[geometry]``
@@ -103,15 +104,17 @@ _TEXT_LIMIT = 2000
 class JobError(BadInput):
     """Every problem found in a job file, reported at once.
 
-    ``problems`` holds one message per problem; ``str()`` joins them on one line.
+    ``problems`` holds one message per problem; ``head`` is the line that introduces them (``"job.toml: 6
+    problems in the job file:"``); ``str()`` joins head and problems on one line. The command line prints
+    the head and then one problem per line.
     """
 
     def __init__(self, origin: str, problems: list[str], what: str = "the job file"):
         self.origin = origin
         self.problems = tuple(problems)
         count = len(problems)
-        head = f"{origin}: {count} problem{'s' if count != 1 else ''} in {what}: "
-        super().__init__(head + "; ".join(problems))
+        self.head = f"{origin}: {count} problem{'s' if count != 1 else ''} in {what}:"
+        super().__init__(self.head + " " + "; ".join(problems))
 
 
 # -- line numbers of keys ------------------------------------------------------------------------
@@ -522,6 +525,8 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     }
     for key in ("customer", "drawing", "serial", "date", "notes"):
         order[key] = _text(ck, order_t, ("order", key))
+    if not order["date"].strip():
+        defaults_used.append("order.date")
     if order["number"] and len(order["number"]) > 80:
         ck.add(("order", "number"), f"{len(order['number'])} characters; an order number has at most 80")
 
@@ -532,6 +537,8 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     mass = _quantity(ck, rotor_t, ("rotor", "mass"), "mass", required=True, positive=True)
     service = _speed(ck, rotor_t, ("rotor", "service_speed"), required=True)
     balancing = _speed(ck, rotor_t, ("rotor", "balancing_speed")) or service
+    if "balancing_speed" not in rotor_t:
+        defaults_used.append("rotor.balancing_speed")
     grade = _grade(ck, rotor_t, ("rotor", "grade"))
     if "grade" not in rotor_t:
         grade = DEFAULTS["rotor.grade"][0]

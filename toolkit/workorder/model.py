@@ -213,11 +213,18 @@ class WorkOrder:
     sources: tuple[str, ...]
     settings: tuple[Setting, ...] = ()
     warnings: tuple[str, ...] = ()
+    #: "A4" or "Letter"; empty: from the unit system (Letter for imperial, A4 for metric).
+    paper: str = ""
     inputs: dict = field(default_factory=dict, compare=False, hash=False)
 
     @property
     def passed(self) -> bool:
         return all(p.passed for p in self.planes)
+
+    @property
+    def paper_name(self) -> str:
+        """The paper the order prints on: its own, or Letter for imperial and A4 for metric units."""
+        return self.paper or ("Letter" if self.units == "imperial" else "A4")
 
     @property
     def operations(self) -> tuple[Operation, ...]:

@@ -9,6 +9,28 @@ memory, with how to override them); warnings; cautions; sources.
 Printing: A4, fitted to one page wide, the title rows repeated on every page, panes frozen under them,
 header and footer with the order number and ``page N of M``.
 
+Row heights. A spreadsheet program does not grow a row for wrapped text when it prints a file it did not
+lay out itself, so every text cell wraps inside its (merged) columns and every row gets a height from
+its text, estimated here (:func:`wrapped_lines`, :func:`row_height`) with a font-width model of our own:
+
+* widths are counted in column-width units (the width of the digit ``0`` in the default font, which is
+  how both Excel and LibreOffice measure a column);
+* each character counts, in those units: lower-case letters 0.95, capitals 1.2, digits 1.0, space 0.5,
+  narrow punctuation ``.,;:'|!()[]-/`` 0.65, East Asian wide characters 1.6, combining marks 0, anything
+  else 1.15; bold text 1.12 times that, and the font size scales it (size / 11). These are at or above
+  the averages of each class in DejaVu Sans and DejaVu Serif, regular and bold (what LibreOffice prints
+  when Calibri is not installed, the widest of the usual substitutes), and so also above Calibri's;
+* a line is the cell's width less 0.6 units of padding; text breaks at spaces (and at line breaks), a
+  word longer than a line is broken where it fills the line;
+* a line takes 1.364 times the font size (15 pt for 11 pt text, Excel's default row) and a row 2 pt more;
+  the row height is the largest of its cells', capped at 409 pt (the largest row a workbook can hold:
+  longer text is cut there, it never runs into the next row).
+
+The model is conservative: it overestimates a line's width, so a printed row is at most somewhat taller
+than its text. ``tests/test_xlsx_print.py`` checks the heights against the published metrics of
+Helvetica and, where LibreOffice is installed, prints the workbook to PDF and checks that no two words
+overlap and none leaves the page.
+
 User text (order number, customer, notes, plane names, descriptions) is always written as text: a value
 that starts with ``=``, ``+``, ``-`` or ``@`` is stored as a string with the quote-prefix flag, never as a
 formula.
@@ -23,7 +45,7 @@ from pathlib import Path
 from toolkit.workorder.model import Formatter, WorkOrder
 
 __all__ = ["workbook", "to_bytes", "write_xlsx", "STATUS_CHOICES", "SHEET", "safe_text", "clean_text",
-           "FORMULA_START"]
+           "FORMULA_START", "text_width", "wrapped_lines", "row_height", "MAX_ROW_HEIGHT"]
 
 SHEET = "Work order"
 #: The values the Status column accepts (a list validation in the sheet).
@@ -34,7 +56,85 @@ _COLUMNS = 9
 #: Characters a workbook cannot hold (control characters other than tab, line feed, carriage return);
 #: the same set as openpyxl's ILLEGAL_CHARACTERS_RE. Shown as "?" if they reach an exporter.
 _ILLEGAL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f]")
-_WIDTHS = (7, 16, 44, 10, 14, 16, 12, 12, 22)
+_WIDTHS = (7, 18, 44, 11, 14, 16, 14, 12, 22)
+#: The largest row height a workbook holds, in points.
+MAX_ROW_HEIGHT = 409.0
+_PADDING = 0.6          # column-width units lost to the cell's left and right padding
+_LINE = 15.0 / 11.0     # line height per point of font size
+_ROW_PAD = 2.0          # points added to every row
+_NARROW = set(".,;:'|!()[]-/")
+#: The longest text a check-run result formula can show (its cell is sized for it).
+_FORMULA_SHOWS = "enter reading"
+
+
+def _char_width(ch: str) -> float:
+    import unicodedata
+
+    if ch.islower():
+        return 0.95
+    if ch.isupper():
+        return 1.2
+    if ch.isdigit():
+        return 1.0
+    if ch == " ":
+        return 0.5
+    if ch in _NARROW:
+        return 0.65
+    if unicodedata.combining(ch):
+        return 0.0
+    if unicodedata.east_asian_width(ch) in ("W", "F"):
+        return 1.6
+    return 1.15
+
+
+def text_width(text: str, size: float = 11.0, bold: bool = False) -> float:
+    """The width of ``text`` on one line, in column-width units, by the module's font-width model.
+
+    >>> text_width("0000000000")
+    10.0
+    >>> round(text_width("Rotor", bold=True), 2)
+    5.6
+    """
+    return sum(_char_width(ch) for ch in text) * (size / 11.0) * (1.12 if bold else 1.0)
+
+
+def wrapped_lines(text: str, width: float, size: float = 11.0, bold: bool = False) -> int:
+    """How many lines ``text`` takes when wrapped in a cell ``width`` column-width units wide (at least 1).
+
+    >>> wrapped_lines("a short line", 20)
+    1
+    >>> wrapped_lines("word " * 20, 20)
+    5
+    """
+    room = max(1.0, width - _PADDING)
+    space = text_width(" ", size, bold)
+    total = 0
+    for paragraph in str(text).split("\n"):
+        lines, used = 1, 0.0
+        for word in paragraph.split(" "):
+            w = text_width(word, size, bold)
+            if used and used + space + w <= room:
+                used += space + w
+                continue
+            if used:
+                lines += 1
+                used = 0.0
+            while w > room:  # a word longer than a line is broken where the line is full
+                lines += 1
+                w -= room
+            used = w
+        total += lines
+    return max(1, total)
+
+
+def row_height(lines: int, size: float = 11.0) -> float:
+    """The row height in points for ``lines`` lines of text of ``size`` points (capped at
+    :data:`MAX_ROW_HEIGHT`).
+
+    >>> row_height(1), row_height(3)
+    (17.0, 47.0)
+    """
+    return min(MAX_ROW_HEIGHT, round(lines * _LINE * size + _ROW_PAD, 1))
 
 
 def clean_text(text) -> str:
@@ -60,9 +160,23 @@ def safe_text(cell, text: str) -> None:
         cell.quotePrefix = True
 
 
-def _hf(text: str) -> str:
-    """Escape user text for a header or footer (``&`` starts a control code there)."""
-    return clean_text(text).replace("&", "&&")[:120]
+#: Characters of user text in a page header or footer section: the left and right sections share one line,
+#: so each keeps to well under half of a landscape page (the full text is in the sheet).
+_HF_CHARS = 45
+
+
+def _hf(text: str, limit: int = 120) -> str:
+    """Escape user text for a header or footer: ``&`` starts a control code there (``&P`` page, ``&"font"``,
+    ``&12`` size), so each one is doubled; the text is shortened with "…" beyond ``limit`` characters first,
+    so a doubled ``&&`` is never split.
+
+    >>> _hf("A&B &P"), _hf("&" * 80, limit=5)
+    ('A&&B &&P', '&&&&&&&&…')
+    """
+    text = " ".join(clean_text(text).split())
+    if len(text) > limit:
+        text = text[:limit - 1].rstrip() + "…"
+    return text.replace("&", "&&")
 
 
 class _Sheet:
@@ -82,7 +196,7 @@ class _Sheet:
 
     def number(self, col, value, fmt="0.0", style=None):
         cell = self.ws.cell(row=self.row, column=col, value=float(value))
-        cell.number_format = fmt
+        cell.number_format = fmt + "_)"  # room of a ")" on the right: the number never touches the next text
         if style:
             self.s.apply(cell, style)
         return cell
@@ -98,11 +212,10 @@ class _Sheet:
             self.text(col, label, "header")
         self.row += 1
 
-    def long(self, text: str, style=None, height_per_line=15, chars_per_line=120):
+    def long(self, text: str, style=None):
+        """A paragraph across the whole width (its row height is set by :func:`_fit_rows`)."""
         self.text(1, text, style or "wrap")
         self.ws.merge_cells(start_row=self.row, start_column=1, end_row=self.row, end_column=_COLUMNS)
-        lines = max(1, -(-len(text) // chars_per_line))
-        self.ws.row_dimensions[self.row].height = height_per_line * lines
         self.row += 1
 
 
@@ -113,12 +226,12 @@ class _Styles:
         thin = Side(style="thin", color="808080")
         self.defs = {
             "title": dict(font=Font(bold=True, size=14)),
-            "sub": dict(font=Font(italic=True, size=9)),
+            "sub": dict(font=Font(italic=True, size=9), alignment=Alignment(wrap_text=True, vertical="top")),
             "section": dict(font=Font(bold=True, size=11, color="FFFFFF"),
                             fill=PatternFill("solid", fgColor="2F4F4F")),
             "header": dict(font=Font(bold=True), fill=PatternFill("solid", fgColor="D9E2E2"),
                            border=Border(bottom=thin), alignment=Alignment(wrap_text=True, vertical="top")),
-            "label": dict(font=Font(bold=True)),
+            "label": dict(font=Font(bold=True), alignment=Alignment(wrap_text=True, vertical="top")),
             "input": dict(fill=PatternFill("solid", fgColor="FFF5CC"), border=Border(top=thin, bottom=thin,
                                                                                     left=thin, right=thin)),
             "wrap": dict(alignment=Alignment(wrap_text=True, vertical="top")),
@@ -189,7 +302,8 @@ def workbook(order: WorkOrder):
     # tolerance
     sh.section("Tolerance per correction plane")
     sh.header(["Plane", "Name", "Method", f"Position [{l_sym}]", f"Radius [{l_sym}]",
-               f"Allowance U_per [{u_sym}]", "", "", "Source"])
+               f"Allowance U_per [{u_sym}]", "Source", "", ""])
+    ws.merge_cells(start_row=sh.row - 1, start_column=7, end_row=sh.row - 1, end_column=_COLUMNS)
     for n, p in enumerate(order.planes, start=1):
         sh.number(1, n, "0")
         sh.text(2, p.name)
@@ -197,7 +311,8 @@ def workbook(order: WorkOrder):
         sh.number(4, fmt.value("length", p.position_mm), "0.0")
         sh.number(5, fmt.value("length", p.radius_mm), "0.0")
         sh.number(6, fmt.value("unbalance", p.tolerance.u_per_g_mm), _nf(fmt.value("unbalance", p.tolerance.u_per_g_mm)))
-        sh.text(9, p.tolerance.source, "wrap")
+        sh.text(7, p.tolerance.source, "wrap")
+        ws.merge_cells(start_row=sh.row, start_column=7, end_row=sh.row, end_column=_COLUMNS)
         sh.row += 1
 
     # initial unbalance
@@ -237,7 +352,6 @@ def workbook(order: WorkOrder):
         cell = sh.text(8, "open", "input")
         status.add(cell)
         sh.text(9, "", "input")
-        ws.row_dimensions[sh.row].height = 15 * max(1, -(-len(str(ws.cell(sh.row, 3).value)) // 48))
         sh.row += 1
     if not order.operations:
         sh.long("No operation: the initial unbalance is already within the allowance.")
@@ -290,10 +404,11 @@ def workbook(order: WorkOrder):
 
     # sign-off
     sh.section("Sign-off")
-    sh.header(["", "Role", "Name", "", "Signature", "", "Date", "", ""])
+    sh.header(["Role", "", "Name", "", "Signature", "", "Date", "", ""])
+    ws.merge_cells(start_row=sh.row - 1, start_column=1, end_row=sh.row - 1, end_column=2)
     for role in ("Operator (balancing)", "Machinist (drilling / welding)", "Inspector (release)"):
-        sh.text(2, role, "label")
-        ws.merge_cells(start_row=sh.row, start_column=2, end_row=sh.row, end_column=2)
+        sh.text(1, role, "label")
+        ws.merge_cells(start_row=sh.row, start_column=1, end_row=sh.row, end_column=2)
         for col in (3, 5, 7):
             styles.apply(ws.cell(row=sh.row, column=col), "input")
         ws.row_dimensions[sh.row].height = 24
@@ -302,13 +417,17 @@ def workbook(order: WorkOrder):
     # settings, warnings, cautions, sources
     if order.settings:
         sh.section("Values used (marked common practice or from memory: override in the job file)")
-        sh.header(["", "Setting", "Value", "Mark", "", "Given by", "", "", "How to override"])
+        sh.header(["Setting", "", "Value", "Mark", "Given by", "How to override", "", "", ""])
+        ws.merge_cells(start_row=sh.row - 1, start_column=1, end_row=sh.row - 1, end_column=2)
+        ws.merge_cells(start_row=sh.row - 1, start_column=6, end_row=sh.row - 1, end_column=_COLUMNS)
         for s in order.settings:
-            sh.text(2, s.name, "wrap")
+            sh.text(1, s.name, "wrap")
+            ws.merge_cells(start_row=sh.row, start_column=1, end_row=sh.row, end_column=2)
             sh.text(3, s.value, "wrap")
             sh.text(4, s.mark)
-            sh.text(6, "job file" if s.given else "default")
-            sh.text(9, s.how, "wrap")
+            sh.text(5, "job file" if s.given else "default")
+            sh.text(6, s.how, "wrap")
+            ws.merge_cells(start_row=sh.row, start_column=6, end_row=sh.row, end_column=_COLUMNS)
             sh.row += 1
     if order.warnings:
         sh.section("Warnings")
@@ -321,6 +440,8 @@ def workbook(order: WorkOrder):
     for source in order.sources:
         sh.long(source)
 
+    _fit_rows(ws)
+
     # print set-up
     ws.page_setup.paperSize = ws.PAPERSIZE_A4
     ws.page_setup.orientation = "landscape"
@@ -328,12 +449,39 @@ def workbook(order: WorkOrder):
     ws.page_setup.fitToHeight = 0
     ws.sheet_properties.pageSetUpPr.fitToPage = True
     ws.print_options.gridLines = False
-    ws.oddHeader.left.text = _hf(f"Work order {order.ident.number}")
-    ws.oddHeader.right.text = _hf(order.ident.rotor)
-    ws.oddFooter.left.text = _hf(f"Work order {order.ident.number}")
+    ws.oddHeader.left.text = _hf(f"Work order {order.ident.number}", _HF_CHARS)
+    ws.oddHeader.right.text = _hf(order.ident.rotor, _HF_CHARS)
+    ws.oddFooter.left.text = _hf(f"Work order {order.ident.number}", _HF_CHARS)
     ws.oddFooter.right.text = "page &P of &N"
     ws.print_area = f"A1:{get_column_letter(_COLUMNS)}{sh.row}"
     return wb
+
+
+def _fit_rows(ws) -> None:
+    """Make every text cell wrap inside its (merged) columns and give every row the height its text
+    needs by the module's font-width model (a row keeps a larger height set before)."""
+    from openpyxl.styles import Alignment
+    from openpyxl.utils import get_column_letter
+
+    last_col = {(r.min_row, r.min_col): r.max_col for r in ws.merged_cells.ranges}
+    widths = {c: ws.column_dimensions[get_column_letter(c)].width for c in range(1, _COLUMNS + 1)}
+    need: dict[int, float] = {}
+    for row in ws.iter_rows(min_row=1, max_row=ws.max_row, max_col=_COLUMNS):
+        for cell in row:
+            if isinstance(cell.value, (int, float)):
+                # a number sits on the first line of its row, beside the text it belongs to
+                cell.alignment = Alignment(vertical="top", horizontal=cell.alignment.horizontal)
+            if not isinstance(cell.value, str) or cell.value == "":
+                continue
+            text = _FORMULA_SHOWS if cell.data_type == "f" else cell.value
+            width = sum(widths[c] for c in range(cell.column, last_col.get((cell.row, cell.column), cell.column) + 1))
+            size = float(cell.font.sz or 11)
+            height = row_height(wrapped_lines(text, width, size, bool(cell.font.b)), size)
+            need[cell.row] = max(need.get(cell.row, 0.0), height)
+            if not cell.alignment.wrap_text or cell.alignment.vertical != "top":
+                cell.alignment = Alignment(wrap_text=True, vertical="top", horizontal=cell.alignment.horizontal)
+    for number, height in need.items():
+        ws.row_dimensions[number].height = max(height, ws.row_dimensions[number].height or 0.0)
 
 
 def _criterion(order: WorkOrder) -> str:
@@ -356,9 +504,58 @@ def _nf(x: float) -> str:
 
 def to_bytes(order: WorkOrder) -> bytes:
     """The .xlsx file of a work order as bytes."""
+    return save_bytes(workbook(order))
+
+
+def save_bytes(wb) -> bytes:
+    """A workbook's .xlsx file as bytes, made in memory.
+
+    openpyxl's own ``save`` writes each sheet to a temporary file in the system's temporary folder first
+    (outside our atomic write: a full temporary folder failed there, and a killed run left ``openpyxl.*``
+    files); here every sheet is serialised into memory. A write-only sheet must have been started with
+    :func:`in_memory` for the same reason.
+    """
+    import datetime
+    import zipfile
+
+    from openpyxl.drawing.spreadsheet_drawing import SpreadsheetDrawing
+    from openpyxl.worksheet._writer import WorksheetWriter
+    from openpyxl.writer.excel import ExcelWriter
+
+    class _InMemory(ExcelWriter):
+        def write_worksheet(self, ws):
+            ws._drawing = SpreadsheetDrawing()
+            ws._drawing.charts = ws._charts
+            ws._drawing.images = ws._images
+            if self.workbook.write_only:
+                if not ws.closed:
+                    ws.close()
+                writer = ws._writer
+            else:
+                writer = WorksheetWriter(ws, out=BytesIO())
+                writer.write()
+            if not isinstance(writer.out, BytesIO):  # a write-only sheet not started with in_memory
+                raise RuntimeError("a write-only sheet must be started with xlsx.in_memory")
+            ws._rels = writer._rels
+            self._archive.writestr(ws.path[1:], writer.out.getvalue())
+            self.manifest.append(ws)
+
+    if wb.write_only and not wb.worksheets:
+        wb.create_sheet()
     buffer = BytesIO()
-    workbook(order).save(buffer)
+    archive = zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED, allowZip64=True)
+    wb.properties.modified = datetime.datetime.now(tz=datetime.timezone.utc).replace(tzinfo=None)
+    _InMemory(wb, archive).save()
     return buffer.getvalue()
+
+
+def in_memory(ws) -> None:
+    """Start a write-only sheet whose rows are kept in memory instead of a temporary file (see
+    :func:`save_bytes`); call it before the first row is appended."""
+    from openpyxl.worksheet._writer import WorksheetWriter
+
+    ws._writer = WorksheetWriter(ws, out=BytesIO())
+    ws._writer.write_top()
 
 
 def write_xlsx(order: WorkOrder, path: str | Path, *, force: bool = False) -> Path:
