@@ -155,3 +155,34 @@ def test_work_order_proceeds_with_the_smallest_plate():
     assert plane.method == "plate" and len(plane.operations) == 1
     assert plane.predicted_g_mm == pytest.approx(smallest_flat_plate_g_mm() - 4657, abs=0.5)
     assert order.passed
+
+
+def test_most_the_holes_remove_is_taken_within_the_allowance():
+    r = drill_correction("600000 g*mm", radius="150 mm", orientation="axial", material="steel",
+                         allowance="300000 g*mm")
+    # derived here (D), apart from the library: each axial hole removes ρ π r² (L + h/3) R at its angle
+    total = 0j
+    for hole in r.holes:
+        h = (hole.diameter_mm / 2) / math.tan(math.radians(59))
+        u = RHO_STEEL * math.pi * (hole.diameter_mm / 2) ** 2 * (hole.depth_mm + h / 3) * 150
+        total += u * complex(math.cos(math.radians(hole.angle_deg)), math.sin(math.radians(hole.angle_deg)))
+        assert hole.tip_depth_mm <= 5 * hole.diameter_mm + 1e-9  # refusal limit 5·d [CP]
+    assert r.achieved_g_mm == pytest.approx(abs(total), rel=1e-9)
+    assert r.error_g_mm == pytest.approx(abs(total - 600000), rel=1e-9) and r.error_g_mm <= 300000
+    assert r.requested_g_mm == 600000 and any("within the allowance" in w for w in r.warnings)
+    with pytest.raises(Infeasible, match="more than the allowance of 100.0 g·mm"):
+        drill_correction("600000 g*mm", radius="150 mm", orientation="axial", material="steel",
+                         allowance="100 g*mm")
+
+
+def test_largest_plate_is_taken_within_the_allowance():
+    p = weld_plate("600000 g*mm", radius="310 mm", width="45 mm", max_length="100 mm", material="steel",
+                   allowance="400000 g*mm")
+    # the thickest stock (25 mm [H]) over the whole 100 mm room, 8 mm fillets (AWS D1.1 minimum above 20 mm [H])
+    expected = smallest_flat_plate_g_mm(t=25.0, b=100.0, z=8.0)  # derived here (D)
+    assert (p.thickness_mm, p.length_mm) == (25.0, 100.0)
+    assert p.achieved_g_mm == pytest.approx(expected, rel=1e-6)
+    assert p.error_g_mm == pytest.approx(600000 - expected, rel=1e-6)
+    with pytest.raises(Infeasible, match="needs more than the thickest plate"):
+        weld_plate("600000 g*mm", radius="310 mm", width="45 mm", max_length="100 mm", material="steel",
+                   allowance="10 g*mm")

@@ -12,7 +12,10 @@ Sources (DOMAIN.md section 2):
   ASME J. Eng. Ind. 86:273–277, 1964) [S], solved with numpy's SVD-based ``lstsq`` (never the normal
   equations); a min-max option minimises the largest weighted residual (Lawson's iteratively reweighted
   least squares, D); per-plane mass limits add the penalty λ‖S⁻¹W‖ with the smallest λ that keeps every
-  plane within its limit (D).
+  plane within its limit (D). Min-max with plane mass limits is a convex problem (minimise t with
+  |w_i (O + A·W)_i| <= t and |W_j| <= S_j): solved as a linear programme with each circle written as a
+  polygon (``scipy.optimize.linprog``, HiGHS; the mass limits by inscribed polygons so they always hold),
+  then polished on the exact circles (``scipy.optimize.minimize``, SLSQP) [D].
 * amplitude only, original plus three or more trial positions: A_k² − A0² = p + 2c cos θ_k + 2s sin θ_k,
   correction m_t·A0/√p at 180° + atan2(s, c), consistency κ = √(c² + s²)/(A0 √p) [D; graphical form in
   McMillan, *Rotating Machinery: Practical Solutions to Unbalance and Misalignment*, ch. 6].
@@ -493,13 +496,98 @@ def _minmax(o, a, w, iterations: int = 5000):
     return best_x
 
 
+#: Facets of the polygons that stand for the circles |r| <= t and |x| <= S in the min-max linear programme
+#: (relative error 1 - cos(pi/K) = 1.5e-4 before the exact polish) [D].
+MINMAX_FACETS = 180
+
+
+def _worst(o, a, w, x) -> float:
+    return float(np.abs(w * (o + a @ x)).max())
+
+
+def minmax_limited(o: np.ndarray, a: np.ndarray, w: np.ndarray, limits: np.ndarray,
+                   facets: int = MINMAX_FACETS) -> np.ndarray:
+    """min over x of max_i |w_i (o + a x)_i| subject to |x_j| <= limits_j (``inf`` for no limit) [D].
+
+    A convex problem (second-order cone). Step 1, a linear programme in (Re x, Im x, t) with each circle
+    replaced by a regular polygon of ``facets`` sides: Re(e^{-i phi_k} r_i) <= t for the residuals (the
+    circumscribed polygon) and Re(e^{-i phi_k} x_j) <= S_j cos(pi/K) for the mass limits (the inscribed one,
+    so the limits hold exactly), solved by ``scipy.optimize.linprog`` (HiGHS). Step 2, a polish on the
+    exact circles by ``scipy.optimize.minimize`` (SLSQP) from that point; kept only if it is feasible and
+    better. Returns x (complex grams per plane).
+
+    >>> x = minmax_limited(np.array([4.2j]), np.array([[0.35 + 0j]]), np.array([1.0]), np.array([6.0]))
+    >>> round(float(abs(x[0])), 6), round(float(abs(4.2j + 0.35 * x[0])), 4)
+    (6.0, 2.1)
+    """
+    from scipy.optimize import linprog, minimize
+
+    m, p = a.shape
+    aw = a * w[:, None]
+    ow = o * w
+    phi = 2 * np.pi * np.arange(facets) / facets
+    c, s_ = np.cos(phi), np.sin(phi)
+    # residual r_i = ow_i + aw_i . x with x = xr + i xi; Re(e^{-i phi} r) = c Re r + s Im r
+    ar, ai = aw.real, aw.imag
+    rows, rhs = [], []
+    for i in range(m):
+        # Re r = ow.re + ar xr - ai xi ; Im r = ow.im + ai xr + ar xi
+        coef_xr = c[:, None] * ar[i] + s_[:, None] * ai[i]
+        coef_xi = -c[:, None] * ai[i] + s_[:, None] * ar[i]
+        rows.append(np.hstack([coef_xr, coef_xi, -np.ones((facets, 1))]))
+        rhs.append(-(c * ow[i].real + s_ * ow[i].imag))
+    cos_half = math.cos(math.pi / facets)
+    for j in range(p):
+        if not math.isfinite(limits[j]):
+            continue
+        block = np.zeros((facets, 2 * p + 1))
+        block[:, j], block[:, p + j] = c, s_
+        rows.append(block)
+        rhs.append(np.full(facets, limits[j] * cos_half))
+    scale = max(float(np.abs(ow).max()), 1e-300)
+    cost = np.zeros(2 * p + 1)
+    cost[-1] = 1.0
+    bounds = [(None, None)] * (2 * p) + [(0, None)]
+    res = linprog(cost, A_ub=np.vstack(rows) / scale, b_ub=np.concatenate(rhs) / scale, bounds=bounds,
+                  method="highs")
+    if res.status != 0:
+        raise BadInput(f"limits: the constrained min-max found no solution ({res.message})")
+    x_lp = res.x[:p] + 1j * res.x[p:2 * p]
+    best, best_val = x_lp, _worst(o, a, w, x_lp)
+    finite = [j for j in range(p) if math.isfinite(limits[j])]
+
+    def unpack(v):
+        return v[:p] + 1j * v[p:2 * p]
+
+    cons = [{"type": "ineq", "fun": lambda v: (v[-1] ** 2 - np.abs(ow + aw @ unpack(v)) ** 2) / scale ** 2}]
+    if finite:
+        cons.append({"type": "ineq",
+                     "fun": lambda v: (limits[finite] ** 2 - np.abs(unpack(v)[finite]) ** 2) / scale ** 2})
+    start = np.concatenate([x_lp.real, x_lp.imag, [best_val]])
+    try:
+        pol = minimize(lambda v: v[-1] / scale, start, jac=lambda v: np.eye(2 * p + 1)[-1] / scale,
+                       constraints=cons, method="SLSQP", options={"maxiter": 200, "ftol": 1e-14})
+        x_pol = unpack(pol.x)
+        if np.all(np.isfinite(x_pol)) and np.all(np.abs(x_pol)[finite] <= limits[finite] * (1 + 1e-12)):
+            val = _worst(o, a, w, x_pol)
+            if val < best_val:
+                best, best_val = x_pol, val
+    except (ValueError, ArithmeticError):  # the polish is optional: keep the linear programme's answer
+        pass
+    over = np.abs(best) > limits
+    if np.any(over):  # rounding at the last digit: pull back onto the circle
+        best = np.where(over, best / np.abs(best) * limits, best)
+    return best
+
+
 def correct(o: np.ndarray, a: np.ndarray, w: np.ndarray, method: str = "least squares",
             limits: np.ndarray | None = None):
     """The correction x (complex grams per plane, add) minimising the weighted residual o + a·x.
 
     ``method`` "least squares" (Goodman 1964, SVD solver) or "min-max" (largest weighted residual, Lawson's
-    algorithm). ``limits`` (grams per plane, ``inf`` for none) adds the penalty λ‖S⁻¹x‖ with the smallest λ
-    that keeps every plane within its limit, found by bisection [D]. Returns (x, λ).
+    algorithm). ``limits`` (grams per plane, ``inf`` for none): with least squares, the penalty λ‖S⁻¹x‖
+    with the smallest λ that keeps every plane within its limit, found by bisection [D]; with min-max, the
+    constrained min-max of :func:`minmax_limited` (λ reported as 0). Returns (x, λ).
 
     >>> x, lam = correct(np.array([4.2j]), np.array([[0.35 + 0j]]), np.array([1.0])); complex(x[0]), lam
     (-12j, 0.0)
@@ -513,8 +601,8 @@ def correct(o: np.ndarray, a: np.ndarray, w: np.ndarray, method: str = "least sq
     x = _minmax(o, a, w) if method == "min-max" else _weighted_lsq(o, a, w)
     if limits is None or np.all(np.abs(x) / (1 + 1e-9) <= limits):  # divided: no overflow near the float maximum
         return x, 0.0
-    if method != "least squares":
-        raise BadInput("limits: per-plane mass limits work with the least-squares method only")
+    if method == "min-max":
+        return minmax_limited(o, a, w, np.asarray(limits, dtype=float)), 0.0
     s_inv = np.diag(1.0 / limits).astype(complex)
     scale = float(np.linalg.norm(a * w[:, None], 2))
     lo, hi = 0.0, scale
@@ -648,10 +736,18 @@ def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings 
     except BadInput as exc:
         raise BadInput(f"{origin}: {exc}") from None
     if penalty > 0:
-        capped = [p for j, p in enumerate(runset.planes) if abs(abs(x[j]) - lim[j]) <= 1e-6 * lim[j]]
+        capped = [p for j, p in enumerate(runset.planes)
+                  if math.isfinite(lim[j]) and abs(abs(x[j]) - lim[j]) <= 1e-6 * lim[j]]
         warnings.append(f"corrections held within the plane mass limits ({', '.join(capped) or 'all planes'} "
                         f"at its limit; penalty {penalty:.3g}): the predicted residual is larger than without "
                         f"limits")
+    elif method == "min-max" and lim is not None:
+        capped = [p for j, p in enumerate(runset.planes)
+                  if math.isfinite(lim[j]) and abs(abs(x[j]) - lim[j]) <= 1e-6 * lim[j]]
+        if capped:
+            warnings.append(f"corrections held within the plane mass limits ({', '.join(capped)} at its limit; "
+                            f"min-max with the limits as constraints): the largest predicted residual is larger "
+                            f"than without limits")
 
     left = u[-1] if runset.trials_left_on else np.zeros(len(runset.planes), dtype=complex)
     return finish_solution(runset, o, a, x, w, left=left, method=method, settings=settings, warnings=warnings,

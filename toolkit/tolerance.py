@@ -12,6 +12,12 @@ secondary reproduction, M from memory, D derived here by statics or algebra, CP 
 * Transfer from the bearing planes to correction planes at any axial position: rigid-body statics [D]. It
   gives the lever rule for planes at the bearings and the d/b reduction of Bloch & Geitner for planes
   outside them.
+* One correction plane (a narrow, disc-like rotor, ISO 21940-11:2016, 4.5.2): the whole U_per is that
+  plane's tolerance (ISO 21940-11:2016, 7.1 and 8.2, clause numbers from the standard's contents; the rule
+  as stated in secondary notes on disc-shaped rotors [H]). The statics transfer is kept as a stricter
+  option (``one_plane_rule="statics"``). When the one-plane conditions are doubtful (a long rotor, a plane
+  far from the centre of mass) the report carries :class:`OnePlaneDoubt` records naming the parameters to
+  check; the limits used are rules of thumb [CP], overridable.
 * Static and couple tolerances for narrow or overhung rotors: the rule to use them is Bloch & Geitner
   ch. 6 [S]; the split formula is statics [D]. No figure here is the standard's own for that case.
 * API 4W/N per plane: API Std 617, 7th ed., Annex B [S]; SI form 6350 W/N [H, D].
@@ -61,6 +67,10 @@ __all__ = [
     "check_residuals",
     "ToleranceReport",
     "tolerance_report",
+    "ONE_PLANE_RULES",
+    "OnePlane",
+    "OnePlaneDoubt",
+    "one_plane_allowance",
     "parse_named",
 ]
 
@@ -454,6 +464,155 @@ def _transfer(ua: float, ub: float, d: float, z: list[float]) -> list[float]:
     return [lam * wi for wi in w]
 
 
+# -- one correction plane ------------------------------------------------------------------------
+
+_ONE_PLANE_SOURCE = ("ISO 21940-11:2016, 7.1 and 8.2 (clause numbers from the standard's contents); the rule as "
+                     "stated in secondary notes on disc-shaped rotors [H]")
+
+#: The rules for the tolerance of a single correction plane: name -> (method, source).
+ONE_PLANE_RULES = {
+    "whole": ("one correction plane: the whole U_per is that plane's tolerance", _ONE_PLANE_SOURCE),
+    "statics": ("one correction plane: the bearing-plane shares transferred to the plane by " + _STATICS
+                + " (stricter than the standard's one-plane rule)", _STATICS),
+}
+
+#: A one-plane rotor is taken as narrow when its length is at most this fraction of the correction
+#: diameter (rule of thumb, common practice [CP]; overridable with ``one_plane_length_ratio``).
+ONE_PLANE_LENGTH_RATIO = 0.5
+#: Without the rotor's length, a bearing span longer than this many correction diameters makes the
+#: one-plane conditions doubtful (rule of thumb [CP]).
+ONE_PLANE_SPAN_RATIO = 2.0
+#: A correction plane farther from the centre of mass than this fraction of the bearing span makes the
+#: one-plane conditions doubtful: a correction there adds a couple (rule of thumb [CP]).
+ONE_PLANE_OFFSET_RATIO = 0.2
+
+
+@dataclass(frozen=True)
+class OnePlaneDoubt:
+    """A reason to doubt that one correction plane is enough, with the parameters to check.
+
+    ``template`` names the parameters as ``{name}`` fields (library names such as ``rotor_length``,
+    ``bearing_span``, ``plane_position``, ``com_from_a``, ``correction_diameter``, ``one_plane_rule``);
+    the face that shows it words them in the user's own terms (an option or a job key) with
+    :meth:`text`.
+    """
+
+    check: str
+    template: str
+    parameters: tuple[str, ...]
+
+    def text(self, names: Mapping[str, str] | None = None) -> str:
+        """The warning with each parameter named by ``names`` (default: the library's own names)."""
+        names = dict(names or {})
+        return self.template.format(**{p: names.get(p, p) for p in self.parameters})
+
+    def to_dict(self, names: Mapping[str, str] | None = None) -> dict:
+        return {"check": self.check, "parameters": list(self.parameters), "text": self.text(names)}
+
+
+@dataclass(frozen=True)
+class OnePlane:
+    """The tolerance of a single correction plane by both rules, the one used and the doubts found."""
+
+    plane: str
+    rule: str
+    whole: object      # Quantity [g*mm]: the whole U_per (ISO 21940-11 one-plane rule)
+    statics: object    # Quantity [g*mm]: the bearing shares transferred by statics
+    method: str
+    source: str
+    doubts: tuple[OnePlaneDoubt, ...] = ()
+
+    @property
+    def used(self):
+        return self.whole if self.rule == "whole" else self.statics
+
+    @property
+    def other_rule(self) -> str:
+        return "statics" if self.rule == "whole" else "whole"
+
+    @property
+    def other(self):
+        return self.statics if self.rule == "whole" else self.whole
+
+    def to_dict(self, names: Mapping[str, str] | None = None) -> dict:
+        return {"plane": self.plane, "rule": self.rule, "u_per_g_mm": self.used.m_as(_G_MM),
+                "whole_g_mm": self.whole.m_as(_G_MM), "statics_g_mm": self.statics.m_as(_G_MM),
+                "other_rule": self.other_rule, "method": self.method, "source": self.source,
+                "doubts": [d.to_dict(names) for d in self.doubts]}
+
+
+def _one_plane_doubts(span: float, com: float, z: float, length: float | None, diameter: float | None,
+                      length_ratio: float, rule: str) -> list[OnePlaneDoubt]:
+    doubts = []
+    stricter = ", or the stricter rule ({one_plane_rule} statics)" if rule == "whole" else ""
+    rule_param = ("one_plane_rule",) if rule == "whole" else ()
+    if length is not None and diameter is not None and length > length_ratio * diameter:
+        doubts.append(OnePlaneDoubt(
+            "long rotor",
+            f"one correction plane: the rotor is {length:g} mm long against a {diameter:g} mm correction "
+            f"diameter (more than {length_ratio:g} of it, a rule of thumb [CP]): check {{rotor_length}} and "
+            f"{{correction_diameter}}; a rotor this long may need two planes" + stricter,
+            ("rotor_length", "correction_diameter") + rule_param))
+    elif length is None and diameter is not None and span > ONE_PLANE_SPAN_RATIO * diameter:
+        doubts.append(OnePlaneDoubt(
+            "long rotor",
+            f"one correction plane: the bearing span {span:g} mm is more than {ONE_PLANE_SPAN_RATIO:g} "
+            f"correction diameters ({diameter:g} mm; a rule of thumb [CP]): check that the rotor body is "
+            f"narrow (give {{rotor_length}} to check it) and {{bearing_span}}; a long rotor may need two "
+            f"planes" + stricter, ("rotor_length", "bearing_span") + rule_param))
+    offset = abs(z - com)
+    if offset > ONE_PLANE_OFFSET_RATIO * span:
+        doubts.append(OnePlaneDoubt(
+            "plane far from the centre of mass",
+            f"one correction plane: the plane is {offset:g} mm from the centre of mass, more than "
+            f"{ONE_PLANE_OFFSET_RATIO:g} of the bearing span (a rule of thumb [CP]): a correction there adds "
+            f"a couple; check {{plane_position}} and {{com_from_a}}" + stricter,
+            ("plane_position", "com_from_a") + rule_param))
+    return doubts
+
+
+def one_plane_allowance(u_per, u_a, u_b, bearing_span, com_from_a, position, *, rule: str = "whole",
+                        plane: str = "I", rotor_length=None, correction_diameter=None,
+                        length_ratio: float = ONE_PLANE_LENGTH_RATIO) -> OnePlane:
+    """The tolerance of a single correction plane, by the standard's one-plane rule or by statics.
+
+    ``rule="whole"`` (default): the whole U_per is the plane's tolerance (ISO 21940-11:2016, 7.1 and 8.2,
+    for a rotor that needs one correction plane, 4.5.2 [H]). ``rule="statics"``: the bearing-plane
+    allowances u_a, u_b transferred to the plane by statics (:func:`transfer_to_planes`, [D]), stricter
+    unless the plane is at the centre of mass. Both values are in the result; ``doubts`` lists the reasons
+    to check that one plane suffices: the rotor's length against the correction diameter (more than
+    ``length_ratio``, default 0.5 [CP]), or without the length the bearing span against it (more than
+    2 [CP]), and the plane's distance from the centre of mass (more than 0.2 of the span [CP]).
+
+    Parameters: u_per, u_a, u_b : Quantity [mass*length]; bearing_span, com_from_a, position : Quantity
+    [length] from bearing A towards B; rotor_length, correction_diameter : Quantity [length] or None.
+
+    >>> r = one_plane_allowance("307.5 g*mm", "153.75 g*mm", "153.75 g*mm", "400 mm", "200 mm", "224.5 mm")
+    >>> round(r.used.m_as("g*mm"), 1), round(r.statics.m_as("g*mm")), r.doubts
+    (307.5, 274, ())
+    """
+    if rule not in ONE_PLANE_RULES:
+        raise BadInput(f"one_plane_rule: {rule!r} is not known; use {' or '.join(ONE_PLANE_RULES)}")
+    if isinstance(length_ratio, bool) or not isinstance(length_ratio, (int, float)) \
+            or not math.isfinite(length_ratio) or length_ratio <= 0:
+        raise BadInput(f"one_plane_length_ratio: {length_ratio!r} must be a number greater than zero (default "
+                       f"{ONE_PLANE_LENGTH_RATIO:g})")
+    u = magnitude(u_per, "unbalance", _G_MM, "u_per", positive=True)
+    ua = magnitude(u_a, "unbalance", _G_MM, "u_a", positive=True)
+    ub = magnitude(u_b, "unbalance", _G_MM, "u_b", positive=True)
+    d = magnitude(bearing_span, "length", "mm", "bearing_span", positive=True)
+    com = magnitude(com_from_a, "length", "mm", "com_from_a")
+    z = magnitude(position, "length", "mm", "plane position")
+    length = None if rotor_length is None else magnitude(rotor_length, "length", "mm", "rotor_length",
+                                                         positive=True)
+    diameter = None if correction_diameter is None else magnitude(correction_diameter, "length", "mm",
+                                                                  "correction_diameter", positive=True)
+    statics, = _transfer(ua, ub, d, [z])
+    method, source = ONE_PLANE_RULES[rule]
+    return OnePlane(plane, rule, Q_(u, _G_MM), Q_(statics, _G_MM), method, source,
+                    tuple(_one_plane_doubts(d, com, z, length, diameter, float(length_ratio), rule)))
+
+
 # -- static and couple tolerances ------------------------------------------------------------------
 
 @dataclass(frozen=True)
@@ -756,6 +915,7 @@ class ToleranceReport:
     warnings: tuple[str, ...]
     method: str = f"U_per = 1000*G*m/Omega ({_ISO_SOURCE})"
     source: str = _ISO_SOURCE
+    one_plane: OnePlane | None = None  # one correction plane: both rules, the one used, the doubts
 
     @property
     def passed(self) -> bool | None:
@@ -782,6 +942,7 @@ class ToleranceReport:
             "planes": [p.to_dict() for p in self.planes],
             "criteria": [c.to_dict(strictest) for c in self.criteria],
             "static_couple": None if self.static_couple is None else self.static_couple.to_dict(),
+            "one_plane": None if self.one_plane is None else self.one_plane.to_dict(),
             "checks": [c.to_dict() for c in self.checks], "passed": self.passed,
             "warnings": list(self.warnings),
         }
@@ -804,7 +965,9 @@ def _as_pairs(items, kind: str, option: str) -> list[tuple[str, object]]:
 def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_span=None, com_from_a=None,
                      planes=None, static_share: float | None = None, criteria: Iterable[str] = ("iso",),
                      journal_loads=None, min_share: float = DEFAULT_MIN_SHARE, residuals=None,
-                     error_allowance=None, check_stage: str = "after-balancing") -> ToleranceReport:
+                     error_allowance=None, check_stage: str = "after-balancing", one_plane_rule: str = "whole",
+                     rotor_length=None, correction_diameter=None,
+                     one_plane_length_ratio: float = ONE_PLANE_LENGTH_RATIO) -> ToleranceReport:
     """The tolerance of one rotor, per plane, by one or more criteria, with optional residual checks.
 
     Whole rotor: U_per and e_per (ISO 21940-11:2016, 6.3.3). Bearing planes A and B: ISO by the bounded
@@ -812,8 +975,14 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
     each journal load (or loads from the geometry by statics); MIL-STD-167-1 per plane with the rotor
     weight. Correction planes (``planes``, name -> position from bearing A towards B): each criterion's
     bearing-plane allowances transferred by statics (:func:`transfer_to_planes`). The strictest criterion
-    per plane governs (``report.planes``). With ``static_share``, static and couple tolerances from the
-    governing bearing-plane allowances.
+    per plane governs (``report.planes``). One correction plane: by ISO the whole U_per is its tolerance
+    (``one_plane_rule="whole"``, default; ISO 21940-11:2016, 7.1 and 8.2 [H]) or, as a stricter option,
+    the statics transfer (``"statics"``); ``report.one_plane`` has both values and the doubts about the
+    one-plane conditions (see :func:`one_plane_allowance`; ``rotor_length`` and ``correction_diameter``
+    feed its length check). With ``static_share`` (two planes), static and couple tolerances from the
+    governing bearing-plane allowances, and they govern the plane allowances: each plane's allowance is
+    the largest T with 2T within the static part and T(|z1 - z_s| + |z2 - z_s|)/b within the couple part
+    per plane, so residuals within T in both planes keep both parts within their tolerances [D].
 
     Parameters: grade, mass [mass], speed [1/time] as in :func:`permissible_unbalance`; bearing_span,
     com_from_a : Quantity [length]; planes : mapping or ``"NAME=POSITION"`` strings; journal_loads : mapping
@@ -942,10 +1111,27 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
         plane_names = ["A", "B"]
         per_criterion = {k: list(ab) for k, ab in at_bearings.items()}
 
+    one_plane = None
+    if len(positions) == 1 and at_bearings.get("iso") is not None:
+        ab = at_bearings["iso"]
+        one_plane = one_plane_allowance(u_per, Q_(ab[0], _G_MM), Q_(ab[1], _G_MM), span, com, positions[0],
+                                        rule=one_plane_rule, plane=plane_names[0], rotor_length=rotor_length,
+                                        correction_diameter=correction_diameter,
+                                        length_ratio=one_plane_length_ratio)
+        per_criterion["iso"] = [one_plane.used.m_as(_G_MM)]
+    elif one_plane_rule not in ONE_PLANE_RULES:
+        raise BadInput(f"one_plane_rule: {one_plane_rule!r} is not known; use {' or '.join(ONE_PLANE_RULES)}")
+
     results = []
     for key in names:
         label, source = CRITERIA[key]
         values = per_criterion.get(key)
+        if key == "iso" and one_plane is not None:
+            results.append(CriterionResult(key, label, f"{one_plane.method} ({one_plane.rule} rule)",
+                                           one_plane.source if one_plane.rule == "whole"
+                                           else f"{_ISO_SOURCE}; transfer {_STATICS}",
+                                           ((plane_names[0], one_plane.used),), notes[key]))
+            continue
         plane_list = tuple((p, Q_(v, _G_MM)) for p, v in zip(plane_names, values)) if values else ()
         if not plane_list:  # no planes known: the whole-rotor ISO figure, the per-plane figure of others
             plane_list = (("rotor", u_per),) if key == "iso" else (("each plane", Q_(at_bearings[key][0], _G_MM)),)
@@ -970,9 +1156,11 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
         ua, ub = min(x[0] for x in ab), min(x[1] for x in ab)
         sc = static_couple_allowance(Q_(ua, _G_MM), Q_(ub, _G_MM), span, com, positions, static_share,
                                      names=tuple(plane_names))
+        governing = _governed_by_static_couple(governing, sc, [p.m_as("mm") for p in positions],
+                                               com.m_as("mm"))
 
     report = ToleranceReport(g, m, n, e_per, u_per, span, com, bearings, tuple(results), tuple(governing), sc,
-                             (), tuple(warnings))
+                             (), tuple(warnings), one_plane=one_plane)
     if g.custom:
         report = _replace(report, warnings=report.warnings + (
             f"custom grade G {g.mm_s:g} mm/s: not a grade of the ISO 21940-11 series",))
@@ -982,6 +1170,25 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
                                  error_allowance=error_allowance, stage=check_stage)
         report = _replace(report, checks=checks)
     return report
+
+
+def _governed_by_static_couple(governing, sc: StaticCouple, z: list[float], zs: float) -> list:
+    """Plane allowances from static and couple tolerances [D]: residuals U1, U2 within T in both planes give
+    a static part |U1 + U2| <= 2T and a couple |U1 (z1 - z_s) + U2 (z2 - z_s)| <= T (|z1 - z_s| + |z2 - z_s|),
+    so T = min(S/2, U_c b / (|z1 - z_s| + |z2 - z_s|)) keeps both within their tolerances."""
+    b = abs(z[1] - z[0])
+    s = sc.static.m_as(_G_MM)
+    uc = sc.couple_per_plane.m_as(_G_MM)
+    t = min(s / 2.0, uc * b / (abs(z[0] - zs) + abs(z[1] - zs)))
+    method = (f"from the static and couple tolerances (static share {sc.static_share:g}): T = min(S/2, "
+              f"U_c*b/(|z1 - z_s| + |z2 - z_s|)), so residuals within T in both planes keep the static part "
+              f"within {_fmt_g_mm(s)} and the couple part within {_fmt_g_mm(uc)} per plane ({_STATICS})")
+    return [PlaneAllowance(p.name, Q_(t, _G_MM), p.criterion, method, sc.source, p.position, p.by_criterion)
+            for p in governing]
+
+
+def _fmt_g_mm(value: float) -> str:
+    return f"{value:.4g} g*mm"
 
 
 def _replace(obj, **changes):

@@ -108,6 +108,15 @@ def configure_tolerance(parser) -> None:
     parser.add_argument("--static-share", metavar="FRACTION",
                         help="state the tolerance as static and couple parts, the static part this fraction "
                              "of U_per (for narrow or overhung rotors)")
+    parser.add_argument("--one-plane-rule", choices=("whole", "statics"), default="whole",
+                        help="with one correction plane: whole (default) gives it the whole U_per, the "
+                             "standard's one-plane rule; statics transfers the bearing shares to it (stricter)")
+    parser.add_argument("--show-other-rule", action="store_true",
+                        help="with one correction plane, show the other rule's allowance beside the one used")
+    parser.add_argument("--rotor-length", metavar="LENGTH",
+                        help="axial length of the rotor body, to check that one correction plane suffices")
+    parser.add_argument("--correction-diameter", metavar="LENGTH",
+                        help="diameter at the correction plane, to check that one correction plane suffices")
     parser.add_argument("--criterion", action="append", default=[], metavar="NAME",
                         help="iso (default), api or mil-std-167; repeat to compare (the strictest per plane "
                              "governs)")
@@ -143,14 +152,35 @@ def run_tolerance(args) -> int:
         bearing_span=args.bearing_span, com_from_a=args.com_from_a, planes=args.plane or None,
         static_share=static_share, criteria=args.criterion or ("iso",), journal_loads=args.journal_load or None,
         min_share=DEFAULT_MIN_SHARE if min_share is None else min_share,
-        residuals=args.residual or None, error_allowance=args.error_allowance, check_stage=args.check_stage)
+        residuals=args.residual or None, error_allowance=args.error_allowance, check_stage=args.check_stage,
+        one_plane_rule=args.one_plane_rule,
+        rotor_length=None if args.rotor_length is None else quantity(args.rotor_length, "length", "--rotor-length",
+                                                                     positive=True),
+        correction_diameter=None if args.correction_diameter is None else quantity(
+            args.correction_diameter, "length", "--correction-diameter", positive=True))
+    if report.one_plane is None and (args.rotor_length or args.correction_diameter or args.show_other_rule
+                                     or args.one_plane_rule != "whole"):
+        from toolkit.errors import BadInput
+
+        raise BadInput("--one-plane-rule, --show-other-rule, --rotor-length and --correction-diameter apply to one "
+                       "correction plane: give --plane NAME=POSITION once with --bearing-span and --com-from-a")
+    doubts = [] if report.one_plane is None else [d.text(OPTION_NAMES) for d in report.one_plane.doubts]
     data = report.to_dict()
     data["units"] = fmt.system.name
-    emit(args.json, data, None if args.json else _tolerance_text(report, fmt))
+    if report.one_plane is not None:
+        data["one_plane"] = report.one_plane.to_dict(OPTION_NAMES)
+        data["warnings"] = data["warnings"] + doubts
+    emit(args.json, data, None if args.json else _tolerance_text(report, fmt, args.show_other_rule, doubts))
     return 1 if report.passed is False else 0
 
 
-def _tolerance_text(report, fmt: _Fmt) -> str:
+#: The tolerance library's parameter names as this command's options, for warnings that name what to check.
+OPTION_NAMES = {"rotor_length": "--rotor-length", "correction_diameter": "--correction-diameter",
+                "bearing_span": "--bearing-span", "com_from_a": "--com-from-a", "plane_position": "--plane",
+                "one_plane_rule": "--one-plane-rule"}
+
+
+def _tolerance_text(report, fmt: _Fmt, show_other: bool = False, doubts=()) -> str:
     g = report.grade
     lines = [f"Permissible residual unbalance, {report.method}",
              f"  grade       {g.label}  ({g.machinery}; source mark {g.mark})",
@@ -172,7 +202,10 @@ def _tolerance_text(report, fmt: _Fmt) -> str:
                 cells.append(fmt.unb(by[key]) + (" *" if key == p.criterion and len(names) > 1 else ""))
             cells.append(f"{fmt.unb(p.u_per)}")
             rows.append(cells)
-        lines += ["", "Allowance per plane" + (" (* strictest criterion, it governs)" if len(names) > 1 else "")]
+        head_note = " (* strictest criterion, it governs)" if len(names) > 1 else ""
+        if report.static_couple is not None:
+            head_note += " (the allowance column is set by the static and couple tolerances below)"
+        lines += ["", "Allowance per plane" + head_note]
         lines += _table(rows)
     else:
         lines += ["", "Figures without plane geometry (per-plane allowances need --bearing-span and "
@@ -184,6 +217,13 @@ def _tolerance_text(report, fmt: _Fmt) -> str:
         lines.append(f"    source: {c.source}")
         for note in c.notes:
             lines.append(f"    note: {note}")
+    op = report.one_plane
+    if op is not None:
+        lines.append(f"  one correction plane ({op.plane}): the {op.rule} rule was used, {fmt.unb(op.used)} "
+                     f"({ONE_PLANE_TEXT[op.rule]})")
+        if show_other:
+            lines.append(f"    the {op.other_rule} rule would give {fmt.unb(op.other)} "
+                         f"(--one-plane-rule {op.other_rule}): {ONE_PLANE_TEXT[op.other_rule]}")
     if report.bearings is not None and len(report.criteria) > 0:
         b = report.bearings
         lines.append(f"  bearing shares (ISO): A {b.share_a:.3f}, B {b.share_b:.3f} (lever rule gave "
@@ -195,7 +235,10 @@ def _tolerance_text(report, fmt: _Fmt) -> str:
                   f"  couple, in each of planes {sc.planes[0]} and {sc.planes[1]} (opposite angles)  "
                   f"{fmt.unb(sc.couple_per_plane)}",
                   f"  static share {sc.static_share:g} (largest possible {sc.max_static_share:.3f}); "
-                  f"source: {sc.source}"]
+                  f"source: {sc.source}",
+                  f"  allowance in each plane  {fmt.unb(report.planes[0].u_per)}: T = min(S/2, U_c*b/(|z1 - z_s| + "
+                  f"|z2 - z_s|)), so residuals within T in both planes keep the static and couple parts within "
+                  f"their tolerances (derived here [D]); the residual check uses it"]
     if report.checks:
         rule = report.checks[0].rule
         lines += ["", f"Residual check (rule: {rule})"]
@@ -208,9 +251,13 @@ def _tolerance_text(report, fmt: _Fmt) -> str:
         lines.append("  result: " + ("all planes within tolerance" if report.passed
                                      else "OUT OF TOLERANCE (exit status 1)"))
     lines.append("")
-    _warnings(lines, report.warnings)
+    _warnings(lines, list(report.warnings) + list(doubts))
     lines.append(f"note: {_CAUTION_NOTE}")
     return "\n".join(lines)
+
+
+ONE_PLANE_TEXT = {"whole": "the whole U_per, the standard's rule for one correction plane",
+                  "statics": "the bearing shares transferred to the plane by statics, stricter"}
 
 
 # -- verify ---------------------------------------------------------------------------------------------

@@ -675,8 +675,35 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
         if point_only is not None:
             chosen = point_only
     if chosen is None:
-        raise Infeasible(_nearest(orientation, U, R, rho, angle, limits, wall_mm, candidates, fixed,
-                                  remove_angle, allow))
+        reason = _nearest(orientation, U, R, rho, angle, limits, wall_mm, candidates, fixed, remove_angle, allow)
+        most = None if allow is None else _most_removed(orientation, U, R, rho, angle, limits, wall_mm,
+                                                          candidates, fixed, remove_angle)
+        if most is not None and U > most and U - most <= allow:
+            # the most the drills can remove leaves a residual within the allowance: take it
+            try:
+                got = drill_correction(
+                    f"{most * (1 - 1e-6)!r} g*mm", radius=f"{R!r} mm", orientation=orientation,
+                    angle_deg=remove_angle, action="remove", density=f"{dens.kg_m3!r} kg/m^3",
+                    diameter=diameter, drills=drills, point_angle_deg=point_angle_deg, limits=limits,
+                    wall=None if wall_mm is None else f"{wall_mm!r} mm", fixed_positions=fixed)
+            except Infeasible:
+                got = None
+            if got is not None:
+                want = U * complex(math.cos(math.radians(remove_angle)), math.sin(math.radians(remove_angle)))
+                ach = got.achieved_g_mm * complex(math.cos(math.radians(got.achieved_angle_deg)),
+                                                  math.sin(math.radians(got.achieved_angle_deg)))
+                err = abs(ach - want)
+                if err <= allow + 1e-9:
+                    import dataclasses
+
+                    note = (f"{_fmt(U)} g·mm is more than the holes can remove within the limits; the most they "
+                            f"remove ({_fmt(got.achieved_g_mm)} g·mm) leaves {_fmt(err)} g·mm, within the "
+                            f"allowance of {_fmt(allow)} g·mm: taken")
+                    return dataclasses.replace(
+                        got, requested_g_mm=U, given_action=action, given_angle_deg=given, error_g_mm=err,
+                        density_source=dens.source, material=dens.material.name if dens.material else None,
+                        warnings=got.warnings + (note,))
+        raise Infeasible(reason)
     drill, (plan, pitch) = chosen
     d = drill.diameter_mm
     holes = []
@@ -736,6 +763,27 @@ def _point_only(orientation, U, R, rho, angle, limits, wall, drill, remove_angle
     return drill, ([(remove_angle, 0.0, depth)], None)
 
 
+def _most_removed(orientation, U, R, rho, angle, limits, wall, candidates, fixed, remove_angle):
+    """About the most [g·mm] the largest drill removes within the limits (as :func:`_nearest` counts it),
+    or None when it has no room."""
+    big = candidates[-1].diameter_mm
+    top_big = _top(big, angle, limits, wall, limits.max_depth_ratio)
+    if top_big < 0:
+        return None
+    if orientation == "axial":
+        one = rho * _axial_volume(big / 2, top_big, _h(big, angle)) * R
+    else:
+        one = rho * _radial_moment(R, big / 2, min(top_big, R - _h(big, angle)), _h(big, angle))
+    pitch = _pitch_deg(big, R, limits)
+    if fixed:
+        share = max(u for _, u in _split_fixed(U, remove_angle, fixed))
+        return one * U / share if share > 0 else one
+    if pitch is not None and math.sin(math.radians(pitch / 2)) > 0:
+        n = max(1, min(limits.max_holes, int(180.0 // pitch) + 1))
+        return one * math.sin(math.radians(n * pitch / 2)) / math.sin(math.radians(pitch / 2))
+    return one
+
+
 def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed, remove_angle=0.0,
              allow=None) -> str:
     """The reason a request cannot be drilled and the nearest feasible alternative."""
@@ -763,7 +811,10 @@ def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed, rem
         most = one
     if U > most:
         reason = (f"{_fmt(U)} g·mm is more than {f'{n} ×' if not fixed else 'the'} {big:g} mm holes can remove within "
-                  f"the limits (at most about {_fmt(most)} g·mm at {limits.max_depth_ratio:g}·d); nearest: remove "
+                  f"the limits (at most about {_fmt(most)} g·mm at {limits.max_depth_ratio:g}·d"
+                  + ("" if allow is None else f", which leaves about {_fmt(U - most)} g·mm, more than the allowance "
+                                              f"of {_fmt(allow)} g·mm")
+                  + "); nearest: remove "
                   f"{_fmt(most)} g·mm here and the rest in another plane or by another method, or raise "
                   "--max-depth-ratio if the rotor maker allows")
     else:

@@ -341,7 +341,31 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
                                                      f"allowance of {_fmt(allow)} g·mm")
                          + "; nearest: washers, a drilled hole at the heavy spot, or a narrower plate (--width)")
     if chosen is None:
-        raise Infeasible(_nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, weld_run))
+        reason = _nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, weld_run)
+        most = None if allow is None else _most_plate(R, w, options, room, shape, surface, rho, fillet_mm, conv,
+                                                      weld_run)
+        if most is not None and U > most and U - most <= allow:
+            # the largest plate that fits leaves a residual within the allowance: take it
+            try:
+                got = weld_plate(f"{most * (1 - 1e-6)!r} g*mm", radius=radius, width=f"{w!r} mm",
+                                 thickness=f"{options[-1].thickness_mm!r} mm", shape=shape, surface=surface,
+                                 angle_deg=add_angle, action="add", density=f"{dens.kg_m3!r} kg/m^3", step=step,
+                                 fillet=fillet, convexity=convexity, weld_run=weld_run, max_length=max_length,
+                                 aspect=aspect, include_weld=include_weld)
+            except Infeasible:
+                got = None
+            if got is not None and abs(got.achieved_g_mm - U) <= allow + 1e-9:
+                import dataclasses
+
+                note = (f"{_fmt(U)} g·mm is more than the largest plate adds; it adds {_fmt(got.achieved_g_mm)} "
+                        f"g·mm and leaves {_fmt(abs(got.achieved_g_mm - U))} g·mm, within the allowance of "
+                        f"{_fmt(allow)} g·mm: taken")
+                return dataclasses.replace(
+                    got, thickness_label=options[-1].label, requested_g_mm=U, given_action=action,
+                    given_angle_deg=given, error_g_mm=abs(got.achieved_g_mm - U), density_source=dens.source,
+                    material=dens.material.name if dens.material else None,
+                    warnings=tuple(warnings) + got.warnings + (note,))
+        raise Infeasible(reason)
     seats, (t_opt, z, b_exact, total, U1) = chosen
     t = t_opt.thickness_mm
     b = float(max(st, round(round(b_exact / st) * st, 9)))
@@ -366,6 +390,20 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     return PlateResult(shape, surface, R, t, t_opt.label, w, b, seats, angles, m, mw, z, fillet_src, conv,
                        conv_src, weld_run, rbar, U, add_angle, action, given, achieved, abs(achieved - U), st,
                        dens.kg_m3, dens.material.name if dens.material else None, dens.source, tuple(warnings))
+
+
+def _most_plate(R, w, options, room, shape, surface, rho, fillet_mm, conv, run) -> float | None:
+    """About the most [g·mm] the thickest plate adds on one seat (within ``room``, else 0.95 π R long), as
+    :func:`_nearest` counts it; None when it cannot be said (a face plate without a room, no plate fits)."""
+    if shape == "rolled" and surface == "inner" and all(o.thickness_mm >= R for o in options):
+        return None
+    t = options[-1].thickness_mm
+    z = fillet_mm if fillet_mm is not None else min(min_fillet_mm(t), t)
+    b = room if room is not None else (0.95 * math.pi * R if shape != "face" else None)
+    if b is None:
+        return None
+    m, rbar = _plate_kernel(shape, surface, R, t, w, b, rho)
+    return m * rbar + _weld_kernel(shape, surface, R, w, b, z, conv, run, rho)[1]
 
 
 def _nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, run) -> str:

@@ -63,26 +63,40 @@ def _round_angle(angle: float, step: float) -> float:
 def _tolerances(job: Job):
     from toolkit.tolerance import DEFAULT_MIN_SHARE, tolerance_report
 
+    one = job.planes[0] if len(job.planes) == 1 else None
     report = tolerance_report(
         job.grade, job.mass, _q(job.service_speed_rpm, "rpm"), bearing_span=job.bearing_span,
         com_from_a=job.centre_of_mass, planes={p.name: p.position for p in job.planes},
         static_share=job.static_share, criteria=(job.criterion,),
-        min_share=DEFAULT_MIN_SHARE if job.min_share is None else job.min_share)
+        min_share=DEFAULT_MIN_SHARE if job.min_share is None else job.min_share,
+        one_plane_rule=job.one_plane_rule, rotor_length=job.rotor_length,
+        correction_diameter=None if one is None else 2 * one.radius)
     by_name = {p.name: p for p in report.planes}
     tolerances = {}
     for plane in job.planes:
         record = by_name[plane.name]
         tolerances[plane.name] = Tolerance(record.u_per.m_as("g*mm"), record.method, record.source)
     notes = list(report.warnings)
+    fmt = Formatter(job.shop.units, job.angle_reference, job.angle_sense)
     if report.static_couple is not None:
-        notes.append(f"static and couple tolerances: {_describe_static_couple(report.static_couple)}")
+        sc = report.static_couple
+        notes.append(f"static and couple tolerances ([geometry] static_share {sc.static_share:g}): static part "
+                     f"{fmt.unbalance(sc.static.m_as('g*mm'))} at the centre-of-mass plane, couple part "
+                     f"{fmt.unbalance(sc.couple_per_plane.m_as('g*mm'))} in each plane; they set each plane's "
+                     f"allowance ({fmt.unbalance(report.planes[0].u_per.m_as('g*mm'))})")
+    op = report.one_plane
+    if op is not None:
+        notes.append(f"one correction plane: allowance {fmt.unbalance(op.used.m_as('g*mm'))} by the {op.rule} rule "
+                     f"([geometry] one_plane_rule); the {op.other_rule} rule would give "
+                     f"{fmt.unbalance(op.other.m_as('g*mm'))}")
+        notes.extend(d.text(JOB_KEYS) for d in op.doubts)
     return report, tolerances, notes
 
 
-def _describe_static_couple(sc) -> str:
-    data = sc.to_dict()
-    parts = [f"{k.replace('_', ' ')} {v:.4g}" for k, v in data.items() if isinstance(v, (int, float))]
-    return "; ".join(parts[:4])
+#: The tolerance library's parameter names as job keys, for warnings that name what to check.
+JOB_KEYS = {"rotor_length": "[geometry] rotor_length", "correction_diameter": "[[plane]] radius",
+            "bearing_span": "[geometry] bearing_span", "com_from_a": "[geometry] centre_of_mass",
+            "plane_position": "[[plane]] position", "one_plane_rule": "[geometry] one_plane_rule ="}
 
 
 def _initial(job: Job):
@@ -243,6 +257,11 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
     share = DEFAULT_MIN_SHARE if job.min_share is None else job.min_share
     out.append(Setting("lever-rule share bounds", f"{share:g} to {1 - share:g}", "M",
                        job.min_share is not None, "[geometry] min_share"))
+    if report.one_plane is not None:
+        rule = report.one_plane.rule
+        out.append(Setting("one-plane allowance rule", "whole U_per (ISO 21940-11)" if rule == "whole"
+                           else "statics transfer (stricter)", "H" if rule == "whole" else "D",
+                           job.one_plane_rule != "whole", "[geometry] one_plane_rule"))
     delta = 0.0 if job.error_allowance is None else job.error_allowance.m_as("g*mm")
     shown = Formatter(job.shop.units, job.angle_reference, job.angle_sense).unbalance(delta) if delta else "0"
     out.append(Setting("measurement error allowance ΔU", shown, "M", job.error_allowance is not None,

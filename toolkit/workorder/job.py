@@ -13,7 +13,11 @@ A job file has these tables (``examples/job-*.toml`` are complete, invented exam
     ``"api"`` or ``"mil-std-167"``), ``error_allowance`` (ΔU, an unbalance; default 0 [M]).
 ``[geometry]``
     ``bearing_span`` and ``centre_of_mass`` (measured from bearing A towards bearing B), both required;
-    ``min_share`` (the lever rule's bound, default 0.3 [M]); ``static_share`` (narrow rotors).
+    ``min_share`` (the lever rule's bound, default 0.3 [M]); ``static_share`` (two planes of a narrow or
+    overhung rotor: static and couple tolerances, which then set both planes' allowances; refused with one
+    plane); ``one_plane_rule`` (one plane: ``"whole"``, default, the whole U_per by ISO 21940-11, or
+    ``"statics"``, the stricter transfer of the bearing shares); ``rotor_length`` (the rotor body's axial
+    length, to check that one plane suffices against the plane's correction diameter).
 ``[[plane]]`` (one or two)
     ``name``, ``position`` (from bearing A towards B; may lie outside the span), ``radius`` (correction
     radius), ``surface`` (``outer``, ``inner`` or ``face``), ``methods`` (a list in order of preference,
@@ -283,6 +287,8 @@ class Job:
     defaults_used: tuple[str, ...] = ()
     #: SHA-256 (hex) of the UTF-8 job text, set by :func:`parse_job` ("" for a job built from data)
     input_sha256: str = ""
+    one_plane_rule: str = "whole"
+    rotor_length: Any = None
 
     @property
     def number(self) -> str:
@@ -566,7 +572,8 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
 
     # [geometry]
     geo_t = _table(ck, data, ("geometry",))
-    _unknown(ck, geo_t, ("geometry",), ("bearing_span", "centre_of_mass", "static_share", "min_share"))
+    _unknown(ck, geo_t, ("geometry",), ("bearing_span", "centre_of_mass", "static_share", "min_share",
+                                         "one_plane_rule", "rotor_length"))
     span = _quantity(ck, geo_t, ("geometry", "bearing_span"), "length", required=True, positive=True)
     com = _quantity(ck, geo_t, ("geometry", "centre_of_mass"), "length", required=True)
     share = geo_t.get("static_share")
@@ -574,6 +581,8 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
                               or not 0 < share < 1):
         ck.add(("geometry", "static_share"), f"{_shown(share)} is not allowed; give a fraction between 0 and 1")
         share = None
+    one_plane_rule = _choice(ck, geo_t, ("geometry", "one_plane_rule"), ("whole", "statics"), default="whole")
+    rotor_length = _quantity(ck, geo_t, ("geometry", "rotor_length"), "length", positive=True)
     min_share = geo_t.get("min_share")
     if min_share is not None and (isinstance(min_share, bool) or not isinstance(min_share, (int, float))
                                   or not 0 <= min_share <= 0.5):
@@ -638,6 +647,13 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
             planes.append(PlaneSpec(name, position, radius, surface, methods, tuple(sorted(fixed)), max_depth,
                                     max_length, plane_material, width, wall, plate_shape, orientation,
                                     washer_size))
+    if share is not None and len(planes_raw) == 1:
+        ck.add(("geometry", "static_share"), "a static share needs two correction planes (static and couple "
+                                             "tolerances); this job has one plane, whose allowance is set by "
+                                             "one_plane_rule: remove static_share")
+    if len(planes_raw) == 2 and ("one_plane_rule" in geo_t or "rotor_length" in geo_t):
+        key = "one_plane_rule" if "one_plane_rule" in geo_t else "rotor_length"
+        ck.add(("geometry", key), "applies to a job with one correction plane; this job has two: remove it")
     if len(planes) == 2 and span is not None:
         gap = abs((planes[0].position - planes[1].position).m_as("mm"))
         if gap == 0:
@@ -730,7 +746,7 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
                span, com, share, min_share, error_allowance, tuple(planes), reference, sense, measurement,
                ShopSettings(units or "metric", drills, stock, step_deg, mass_step, plate_step, point_angle,
                             MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet),
-               tuple(defaults_used))
+               tuple(defaults_used), one_plane_rule or "whole", rotor_length)
 
 
 def _speed(ck: _Checker, table: Mapping, path: tuple, required: bool = False) -> float | None:
