@@ -19,7 +19,7 @@ from toolkit.errors import BadInput
 from toolkit.register.store import DEFAULT_STALE_DAYS, Register, now
 
 __all__ = ["STATUSES", "TRANSITIONS", "ROLES", "save_type", "list_types", "type_info", "template",
-           "compose_job", "record_job", "add_files", "list_jobs", "job_detail", "set_status", "record_check",
+           "compose_job", "record_job", "store_order", "add_files", "list_jobs", "job_detail", "set_status", "record_check",
            "record_signoff", "record_marks", "store_coefficients", "coefficient_history", "latest_coefficients",
            "trim_coefficients", "stale_warnings", "sha256_text", "toml_text"]
 
@@ -292,17 +292,24 @@ def record_job(reg: Register, job_text: str, *, origin: str = "job", base=None, 
     the job text and its SHA-256, the work order (``WorkOrder.to_dict()``) and its planes. Returns
     ``(order, record)``; the order carries the number and the input hash. ``job`` is the job already
     validated from that text (where the text names inputs held elsewhere, such as stored coefficients)."""
-    from toolkit.register.schema import job_planes, jobs, job_status
     from toolkit.workorder.build import build_order
     from toolkit.workorder.job import parse_job
 
     job_text = _text(job_text, "job text", MAX_TEXT)
     job = job or parse_job(job_text, origin, Path(base) if base else None)
-    built = build_order(job)
+    return store_order(reg, build_order(job), job_text, dict(job.order), type_version_id=type_version_id,
+                       allocate=allocate, by=by, extra_warnings=extra_warnings)
+
+
+def store_order(reg: Register, built, job_text: str, order_data: dict, *, type_version_id: int | None = None,
+                allocate: bool = True, by: str = "", extra_warnings: tuple[str, ...] = ()):
+    """The recording transaction of :func:`record_job` for a work order already built from ``job_text``."""
+    from toolkit.register.schema import job_planes, jobs, job_status
+
     digest = sha256_text(job_text)
     when = now()
     with reg.write() as conn:
-        number = reg.allocate_number(conn) if allocate else job.number
+        number = reg.allocate_number(conn) if allocate else built.ident.number
         order = replace(built, ident=replace(built.ident, number=number, input_sha256=digest),
                         warnings=built.warnings + tuple(extra_warnings))
         data = order.to_dict()
@@ -313,7 +320,7 @@ def record_job(reg: Register, job_text: str, *, origin: str = "job", base=None, 
                            "the register number it)")
         job_id = conn.execute(jobs.insert().values(
             order_number=number, type_version_id=type_version_id, serial=order.ident.serial,
-            customer=order.ident.customer, order_data=json.dumps(dict(job.order), ensure_ascii=False),
+            customer=order.ident.customer, order_data=json.dumps(order_data, ensure_ascii=False),
             job_text=job_text, job_sha256=digest, workorder=json.dumps(data, ensure_ascii=False),
             predicted_pass=int(order.passed), status="planned", created=when, created_by=_by(by))
             .returning(jobs.c.id)).scalar_one()
@@ -321,7 +328,7 @@ def record_job(reg: Register, job_text: str, *, origin: str = "job", base=None, 
             {"job_id": job_id, "idx": n, "plane": p.name, "u_per_g_mm": p.tolerance.u_per_g_mm,
              "limit_g_mm": p.limit, "initial_g_mm": p.initial_g_mm, "initial_deg": p.initial_deg,
              "predicted_g_mm": p.predicted_g_mm, "operations": len(p.operations),
-             "mass_g": sum(op.mass_g for op in p.operations)}
+             "mass_g": sum(op.mass_g for op in p.operations), "created": when}
             for n, p in enumerate(order.planes, start=1)])
         conn.execute(job_status.insert().values(job_id=job_id, status="planned", at=when, by=_by(by),
                                                 source="recorded", note=""))

@@ -240,12 +240,11 @@ def series_statistics(reg: Register, *, type_name=None, status=None, since=None,
         by_status = dict(conn.execute(only(select(jobs.c.status, func.count()), jobs.c.id)
                                       .group_by(jobs.c.status)).all())
         total = sum(by_status.values())
-        flags = only(select(job_status.c.job_id,
-                            func.max(case((job_status.c.status == "rework", 1), else_=0)).label("rework"),
-                            func.max(case((job_status.c.status.in_(("checked", "rework")), 1), else_=0)).label("tried"))
-                     , job_status.c.job_id).group_by(job_status.c.job_id).subquery()
-        tried, reworked = conn.execute(select(func.coalesce(func.sum(flags.c.tried), 0),
-                                              func.coalesce(func.sum(flags.c.rework), 0))).one()
+        def jobs_with(statuses):
+            return conn.execute(only(select(func.count(func.distinct(job_status.c.job_id)))
+                                     .where(job_status.c.status.in_(statuses)), job_status.c.job_id)).scalar()
+
+        tried, reworked = jobs_with(("checked", "rework")), jobs_with(("rework",))
         per_plane = conn.execute(only(select(
             job_planes.c.plane, func.count(), func.avg(job_planes.c.initial_g_mm), func.min(job_planes.c.initial_g_mm),
             func.max(job_planes.c.initial_g_mm), func.avg(job_planes.c.initial_g_mm / job_planes.c.u_per_g_mm),
@@ -272,10 +271,9 @@ def series_statistics(reg: Register, *, type_name=None, status=None, since=None,
                               "counts": [int(counts.get(k, 0)) for k in range(BINS)]},
                 "scatter": [{"g_mm": float(a), "deg": float(d)} for a, d in points],
             })
-        month = func.substr(jobs.c.created, 1, 7)
-        trend_rows = conn.execute(only(select(month, func.count(func.distinct(jobs.c.id)),
-                                              func.avg(job_planes.c.initial_g_mm))
-                                       .join(job_planes, job_planes.c.job_id == jobs.c.id), jobs.c.id)
+        month = func.substr(job_planes.c.created, 1, 7)
+        trend_rows = conn.execute(only(select(month, func.count(func.distinct(job_planes.c.job_id)),
+                                              func.avg(job_planes.c.initial_g_mm)), job_planes.c.job_id)
                                   .group_by(month).order_by(month)).all()
         ops_total = conn.execute(only(select(func.sum(job_planes.c.operations)), job_planes.c.job_id)).scalar() or 0
     tried, reworked = int(tried or 0), int(reworked or 0)

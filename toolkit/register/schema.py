@@ -64,14 +64,15 @@ jobs = Table(
     Column("type_version_id", Integer, ForeignKey("rotor_type_versions.id"), nullable=True),
     Column("serial", Text, nullable=False),
     Column("customer", Text, nullable=False),
-    Column("order_data", Text, nullable=False),
-    Column("job_text", Text, nullable=False),
     Column("job_sha256", Text, nullable=False),
-    Column("workorder", Text, nullable=False),
     Column("predicted_pass", Integer, nullable=False),
     Column("status", Text, nullable=False),
     Column("created", Text, nullable=False),
     Column("created_by", Text, nullable=False),
+    # the long texts last: a scan of the short columns does not walk their overflow pages (SQLite)
+    Column("order_data", Text, nullable=False),
+    Column("job_text", Text, nullable=False),
+    Column("workorder", Text, nullable=False),
 )
 
 job_planes = Table(
@@ -87,6 +88,7 @@ job_planes = Table(
     Column("predicted_g_mm", Float, nullable=False),
     Column("operations", Integer, nullable=False),
     Column("mass_g", Float, nullable=False),
+    Column("created", Text, nullable=False),       # the job's, repeated here for the monthly trend
     UniqueConstraint("job_id", "idx", name="uq_job_plane"),
 )
 
@@ -169,12 +171,16 @@ _V1 = (settings, counters, rotor_types, type_versions, jobs, job_planes, job_fil
 _V1_INDEXES = (
     Index("ix_jobs_type_version", jobs.c.type_version_id),
     Index("ix_job_planes_job", job_planes.c.job_id),
+    Index("ix_job_planes_plane", job_planes.c.plane, job_planes.c.job_id, job_planes.c.initial_g_mm,
+          job_planes.c.initial_deg),
     Index("ix_job_status_job", job_status.c.job_id),
+    Index("ix_job_status_status", job_status.c.status, job_status.c.job_id),
     Index("ix_check_runs_job", check_runs.c.job_id),
     Index("ix_signoffs_job", signoffs.c.job_id),
     Index("ix_operation_marks_job", operation_marks.c.job_id),
     Index("ix_job_files_job", job_files.c.job_id),
     Index("ix_jobs_created", jobs.c.created),
+    Index("ix_jobs_status", jobs.c.status),
 )
 _V2_INDEXES = (
     Index("ix_coefficient_sets_type", coefficient_sets.c.type_id),
