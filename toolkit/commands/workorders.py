@@ -16,6 +16,7 @@ def _order_options(parser, out: str, run) -> None:
                         help=f"folder for the work-order files (default: ./{out.strip('.')})".replace("./)", ".)"))
     parser.add_argument("--format", default="xlsx,pdf", metavar="LIST",
                         help="which files to write: xlsx, pdf or both (default xlsx,pdf)")
+    _paper_option(parser)
     add_force(parser)
     add_json(parser)
     parser.set_defaults(run=run)
@@ -33,9 +34,34 @@ def configure_order(parser) -> None:
 def configure_batch(parser) -> None:
     parser.add_argument("sheet", metavar="SHEET", help="planner sheet, .xlsx or .csv (see examples/planner.csv)")
     parser.add_argument("--out", default=".", metavar="DIR", help="folder for the output files (default: .)")
+    _paper_option(parser)
     add_force(parser)
     add_json(parser)
     parser.set_defaults(run=run_batch)
+
+
+def _paper_option(parser) -> None:
+    parser.add_argument("--paper", metavar="SIZE", help="A4 or Letter (default: the job's [shop] paper, else "
+                                                         "Letter for imperial units and A4 for metric)")
+
+
+def _paper_name(args) -> str | None:
+    from toolkit.errors import BadInput
+
+    if args.paper is None:
+        return None
+    paper = {"a4": "A4", "letter": "Letter"}.get(str(args.paper).strip().lower())
+    if paper is None:
+        raise BadInput(f"--paper: {args.paper!r} is not allowed; give A4 or Letter")
+    return paper
+
+
+def _paper(order, args):
+    """The order on the paper given by --paper (unchanged without it)."""
+    from toolkit.workorder.model import with_paper
+
+    paper = _paper_name(args)
+    return order if paper is None else with_paper(order, paper, "command line")
 
 
 def _formats(text: str) -> tuple[str, ...]:
@@ -108,7 +134,7 @@ def run_demo(args) -> int:
     from toolkit.workorder.build import demo_order
 
     formats = _formats(args.format)
-    order = demo_order()
+    order = _paper(demo_order(), args)
     files = write_order_files(order, args.out, formats, args.force)
     return _finish(args, order, files)
 
@@ -117,7 +143,7 @@ def run_order(args) -> int:
     from toolkit.workorder.build import order_from_file
 
     formats = _formats(args.format)
-    order = order_from_file(args.job)
+    order = _paper(order_from_file(args.job), args)
     files = write_order_files(order, args.out, formats, args.force)
     return _finish(args, order, files)
 
@@ -128,7 +154,7 @@ def run_batch(args) -> int:
     from toolkit.workorder.batch import run_batch as batch
 
     progress = sys.stderr.isatty() and not args.json
-    result = batch(args.sheet, args.out, force=args.force, progress=progress)
+    result = batch(args.sheet, args.out, force=args.force, progress=progress, paper=_paper_name(args))
     lines = [f"Batch {args.sheet}: {result.done} work order(s) written, {len(result.failures)} row(s) failed"]
     lines += [f"  wrote {f}" for f in result.files]
     lines += [f"  row {row}: {reason}" for row, reason in result.failures]

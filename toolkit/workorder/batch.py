@@ -338,8 +338,8 @@ class _Progress:
         sys.stderr.flush()
 
 
-def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, progress: bool = False
-              ) -> BatchResult:
+def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, progress: bool = False,
+              paper: str | None = None) -> BatchResult:
     """Turn every row of a planner sheet into a work order.
 
     Writes one PDF per rotor, the combined PDF and the summary workbook into ``out`` (atomically; an
@@ -351,6 +351,7 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
     from toolkit.fileio import check_writable, safe_filename, write_atomic
     from toolkit.workorder import pdf
     from toolkit.workorder.build import build_order
+    from toolkit.workorder.model import with_paper
 
     start = time.perf_counter()
     sheet = Path(sheet)
@@ -378,6 +379,8 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
             if _DAMAGED in cells:
                 raise BadInput(cells[_DAMAGED])
             order = build_order(row_job(cells, origin, base))
+            if paper:
+                order = with_paper(order, paper, "command line")
             name = safe_filename(order.ident.number)
             if name in seen:
                 raise BadInput(f"order number {order.ident.number!r} gives the same file name as row {seen[name]}")

@@ -322,7 +322,7 @@ def workbook(order: WorkOrder):
         sh.long(source)
 
     # print set-up
-    ws.page_setup.paperSize = ws.PAPERSIZE_A4
+    ws.page_setup.paperSize = ws.PAPERSIZE_LETTER if order.paper_name == "Letter" else ws.PAPERSIZE_A4
     ws.page_setup.orientation = "landscape"
     ws.page_setup.fitToWidth = 1
     ws.page_setup.fitToHeight = 0
