@@ -214,3 +214,17 @@ def test_tabs_and_line_breaks_in_text_are_drawn_as_spaces():
                                                                       "Works\r\nLtd"))
     text = _flat(" ".join(_pages(pdf.to_bytes(order))))
     assert "fan rotor second line" in text
+
+
+def test_output_does_not_depend_on_what_was_drawn_before(demo):
+    order, data = demo
+    pdf.to_bytes(_scripts_order())  # other characters, the fallback font read
+    assert pdf.to_bytes(order) == data
+
+
+def test_plate_orientation_in_words(demo):
+    _order, data = demo
+    text = _flat(" ".join(_pages(data)))
+    # the plate's operation says which size is which, and the diagram's label and legend repeat it
+    assert "sizes read width × length: the width runs across the seat, the length along the rim" in text
+    assert "length along the rim, width across the seat" in text

@@ -36,8 +36,7 @@ _ROLES = {"ink": _INK, "accent": _ACCENT, "muted": _MUTED, "warn": _WARN}
 #: Font styles by the names the layout used (the page writer picks the font per run of characters).
 _STYLE = {"Helvetica": "regular", "Helvetica-Bold": "bold", "Helvetica-Oblique": "italic"}
 #: How a weld-on plate lies, in words (on the operations list and in the diagram's legend).
-PLATE_ORIENTATION = ("plate sizes read width × length: the width runs across the seat (along the shaft "
-                     "axis on a rim, radially on a face), the length along the rim (round the circumference)")
+PLATE_ORIENTATION = "sizes read width × length: the width runs across the seat, the length along the rim"
 
 
 def _wrap(text: str, font: str, size: float, width: float) -> tuple[str, ...]:
