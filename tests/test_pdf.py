@@ -5,10 +5,12 @@ import dataclasses
 import io
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from pypdf import PdfReader
 
 from toolkit.errors import OutputError
-from toolkit.workorder import pdf
+from toolkit.workorder import pdf, pdfpage
 from toolkit.workorder.build import demo_order
 from toolkit.workorder.model import Identification, example_order
 
@@ -228,3 +230,14 @@ def test_plate_orientation_in_words(demo):
     # the plate's operation says which size is which, and the diagram's label and legend repeat it
     assert "sizes read width × length: the width runs across the seat, the length along the rim" in text
     assert "length along the rim, width across the seat" in text
+
+
+@settings(max_examples=150, deadline=None)
+@given(text=st.text(alphabet=st.sampled_from("ab XY-Łźθ東京の1234567890"), max_size=200),
+       limit=st.floats(20, 400), style=st.sampled_from(["regular", "bold", "italic"]))
+def test_wrapped_lines_fit_and_keep_every_character(text, limit, style):
+    # derived here (D): a property of our wrapping, not a published number
+    lines = pdfpage.wrap(text, style, 8.0, limit)
+    for line in lines:
+        assert pdfpage.width(line, style, 8.0) <= limit + 1e-9 or len(line) == 1
+    assert "".join(lines).replace(" ", "") == text.replace(" ", "")

@@ -182,24 +182,30 @@ def wrap(text: str, style: str, size: float, limit: float) -> tuple[str, ...]:
     if words:
         words.pop()
     lines: list[str] = []
-    line = ""
+    line, used = "", 0.0  # widths add up: no kerning between characters
     pending = ""  # the separator before the next word
+    space = width(" ", style, size)
     for token in words:
         if token in (" ", "\0"):
             pending = " " if token == " " else ""
             continue
-        candidate = line + pending + token if line else token
-        if width(candidate, style, size) <= limit:
-            line = candidate
+        w = width(token, style, size)
+        gap = (space if pending else 0.0) if line else 0.0
+        if used + gap + w <= limit:
+            line, used = (line + pending + token, used + gap + w) if line else (token, w)
         else:
             if line:
                 lines.append(line)
-            line = ""
-            for ch in token:  # a word wider than the line is cut between characters
-                if line and width(line + ch, style, size) > limit:
-                    lines.append(line)
-                    line = ""
-                line += ch
+            line, used = "", 0.0
+            if w <= limit:
+                line, used = token, w
+            else:
+                for ch in token:  # a word wider than the line is cut between characters
+                    cw = width(ch, style, size)
+                    if line and used + cw > limit:
+                        lines.append(line)
+                        line, used = "", 0.0
+                    line, used = line + ch, used + cw
         pending = ""
     if line or not lines:
         lines.append(line)
