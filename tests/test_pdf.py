@@ -5,10 +5,12 @@ import dataclasses
 import io
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from pypdf import PdfReader
 
 from toolkit.errors import OutputError
-from toolkit.workorder import pdf
+from toolkit.workorder import pdf, pdfpage
 from toolkit.workorder.build import demo_order
 from toolkit.workorder.model import Identification, example_order
 
@@ -214,3 +216,28 @@ def test_tabs_and_line_breaks_in_text_are_drawn_as_spaces():
                                                                       "Works\r\nLtd"))
     text = _flat(" ".join(_pages(pdf.to_bytes(order))))
     assert "fan rotor second line" in text
+
+
+def test_output_does_not_depend_on_what_was_drawn_before(demo):
+    order, data = demo
+    pdf.to_bytes(_scripts_order())  # other characters, the fallback font read
+    assert pdf.to_bytes(order) == data
+
+
+def test_plate_orientation_in_words(demo):
+    _order, data = demo
+    text = _flat(" ".join(_pages(data)))
+    # the plate's operation says which size is which, and the diagram's label and legend repeat it
+    assert "sizes read width × length: the width runs across the seat, the length along the rim" in text
+    assert "length along the rim, width across the seat" in text
+
+
+@settings(max_examples=150, deadline=None)
+@given(text=st.text(alphabet=st.sampled_from("ab XY-Łźθ東京の1234567890"), max_size=200),
+       limit=st.floats(20, 400), style=st.sampled_from(["regular", "bold", "italic"]))
+def test_wrapped_lines_fit_and_keep_every_character(text, limit, style):
+    # derived here (D): a property of our wrapping, not a published number
+    lines = pdfpage.wrap(text, style, 8.0, limit)
+    for line in lines:
+        assert pdfpage.width(line, style, 8.0) <= limit + 1e-9 or len(line) == 1
+    assert "".join(lines).replace(" ", "") == text.replace(" ", "")

@@ -16,6 +16,7 @@ def _order_options(parser, out: str, run) -> None:
                         help=f"folder for the work-order files (default: ./{out.strip('.')})".replace("./)", ".)"))
     parser.add_argument("--format", default="xlsx,pdf", metavar="LIST",
                         help="which files to write: xlsx, pdf or both (default xlsx,pdf)")
+    _paper_option(parser)
     add_force(parser)
     add_json(parser)
     parser.set_defaults(run=run)
@@ -40,9 +41,34 @@ def configure_batch(parser) -> None:
                         help="continue an interrupted batch in the same folder: keep the orders already "
                              "written from unchanged rows, write the others, then the summary and combined "
                              "PDF over all of them")
+    _paper_option(parser)
     add_force(parser)
     add_json(parser)
     parser.set_defaults(run=run_batch)
+
+
+def _paper_option(parser) -> None:
+    parser.add_argument("--paper", metavar="SIZE", help="A4 or Letter (default: the job's [shop] paper, else "
+                                                         "Letter for imperial units and A4 for metric)")
+
+
+def _paper_name(args) -> str | None:
+    from toolkit.errors import BadInput
+
+    if args.paper is None:
+        return None
+    paper = {"a4": "A4", "letter": "Letter"}.get(str(args.paper).strip().lower())
+    if paper is None:
+        raise BadInput(f"--paper: {args.paper!r} is not allowed; give A4 or Letter")
+    return paper
+
+
+def _paper(order, args):
+    """The order on the paper given by --paper (unchanged without it)."""
+    from toolkit.workorder.model import with_paper
+
+    paper = _paper_name(args)
+    return order if paper is None else with_paper(order, paper, "command line")
 
 
 def _formats(text: str) -> tuple[str, ...]:
@@ -134,7 +160,7 @@ def run_demo(args) -> int:
     from toolkit.workorder.build import demo_order
 
     formats = _formats(args.format)
-    order = demo_order()
+    order = _paper(demo_order(), args)
     files = write_order_files(order, args.out, formats, args.force)
     return _finish(args, order, files)
 
@@ -143,7 +169,7 @@ def run_order(args) -> int:
     from toolkit.commands.register import order_for, record_files
 
     formats = _formats(args.format)
-    order = order_for(args)  # the job file alone, or recorded in / composed from the shop register
+    order = _paper(order_for(args), args)  # the job file alone, or recorded in / composed from the shop register
     files = write_order_files(order, args.out, formats, args.force)
     record_files(args, order, files)
     return _finish(args, order, files)
@@ -163,7 +189,8 @@ def run_batch(args) -> int:
     out = out_folder(args.out)
     progress = sys.stderr.isatty() and not args.json
     try:
-        result = batch(args.sheet, out, force=args.force, progress=progress, carry_on=args.carry_on)
+        result = batch(args.sheet, out, force=args.force, progress=progress, carry_on=args.carry_on,
+                       paper=_paper_name(args))
     except OutputError as exc:
         if not args.carry_on and "already exists" in str(exc) and any(out.glob("*-batch.json")):
             raise OutputError(f"{exc}, or --carry-on to continue the batch it records") from None

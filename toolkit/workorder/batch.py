@@ -403,7 +403,7 @@ def _load_manifest(path: Path) -> dict | None:
 
 
 def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, progress: bool = False,
-              carry_on: bool = False) -> BatchResult:
+              carry_on: bool = False, paper: str | None = None) -> BatchResult:
     """Turn every row of a planner sheet into a work order.
 
     Writes one PDF per rotor, the combined PDF, the summary workbook and the batch's record
@@ -426,6 +426,7 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
     from toolkit.fileio import check_writable, describe, output_error, safe_filename, write_atomic
     from toolkit.workorder import pdf
     from toolkit.workorder.build import build_order
+    from toolkit.workorder.model import with_paper
 
     start = time.perf_counter()
     sheet = Path(sheet)
@@ -483,6 +484,8 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
             if _DAMAGED in cells:
                 raise BadInput(cells[_DAMAGED])
             order = build_order(row_job(cells, origin, base))
+            if paper:
+                order = with_paper(order, paper, "command line")
             name = safe_filename(order.ident.number)
             key = f"{name}.pdf".casefold()
             if key in own:

@@ -30,7 +30,7 @@ from pathlib import Path
 from toolkit.errors import BadInput, Infeasible
 from toolkit.workorder.job import DEFAULTS, Job, load_job, parse_job
 from toolkit.workorder.model import (Formatter, Identification, Operation, PlaneOrder, Setting, Tolerance, WorkOrder,
-                                     effect, polar, vector)
+                                     effect, paper_setting, polar, vector)
 
 __all__ = ["build_order", "order_from_file", "demo_job", "demo_order", "GENERAL_CAUTIONS"]
 
@@ -378,7 +378,9 @@ def build_order(job: Job) -> WorkOrder:
         material=job.material, u_per_total_g_mm=report.u_per.m_as("g*mm"), angle_reference=job.angle_reference,
         angle_sense=job.angle_sense, units=job.shop.units, planes=tuple(planes), measurement=measured_by,
         cautions=_unique(all_cautions, words=5), sources=_unique(s for s in sources if s),
-        settings=_settings(job, report), warnings=_unique(warnings),
+        settings=_settings(job, report) + (paper_setting(job.shop.paper, job.shop.units,
+                                                         "job file" if job.shop.paper else ""),),
+        warnings=_unique(warnings), paper=job.shop.paper or ("Letter" if job.shop.units == "imperial" else "A4"),
         inputs={"origin": job.origin},
     )
 

@@ -43,7 +43,8 @@ A job file has these tables (``examples/job-*.toml`` are complete, invented exam
     ``plate_stock`` (``"plate_stock"`` or a CSV path), ``angle_step`` (marking resolution, 1° [CP]),
     ``mass_step`` (weighing resolution, 0.1 g [CP]), ``plate_step`` (1 mm [CP]), ``point_angle`` (118°),
     ``weld_convexity`` (fraction added to a fillet's z²/2, 0.2 [M]), ``fillet`` (weld leg; default the
-    minimum for the plate thickness [H]), and a ``[shop.drilling]`` table of drilling rules of thumb [CP]. Every default is printed on the work
+    minimum for the plate thickness [H]), ``paper`` (``"A4"`` or ``"Letter"``; default Letter for imperial
+    units, A4 for metric), and a ``[shop.drilling]`` table of drilling rules of thumb [CP]. Every default is printed on the work
     order as used.
 
 Validation collects every problem before it stops; each names the file, the line, the key, the value
@@ -257,6 +258,7 @@ class ShopSettings:
     given: tuple[str, ...] = ()
     weld_convexity: float | None = None
     fillet: Any = None
+    paper: str = ""  # "A4" or "Letter"; empty: from the unit system
 
 
 @dataclass(frozen=True)
@@ -673,11 +675,12 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     # [shop]
     shop_t = _table(ck, data, ("shop",), required=False)
     _unknown(ck, shop_t, ("shop",), ("units", "drills", "plate_stock", "angle_step", "mass_step", "plate_step",
-                                      "point_angle", "drilling", "weld_convexity", "fillet"))
+                                      "point_angle", "drilling", "weld_convexity", "fillet", "paper"))
     units = _choice(ck, shop_t, ("shop", "units"), ("metric", "imperial"), default="metric")
     for key in ("units", "angle_step", "mass_step"):
         if key not in shop_t:
             defaults_used.append(f"shop.{key}")
+    paper = {"a4": "A4", "letter": "Letter", None: ""}[_choice(ck, shop_t, ("shop", "paper"), ("a4", "letter"))]
     drills = _table_ref(ck, shop_t, ("shop", "drills"), base, ("metric", "inch"),
                         "inch" if units == "imperial" else "metric")
     stock = _table_ref(ck, shop_t, ("shop", "plate_stock"), base, ("plate_stock",), "plate_stock")
@@ -745,7 +748,7 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     return Job(origin, MappingProxyType(order), mass, service, balancing, grade, criterion or "iso", material,
                span, com, share, min_share, error_allowance, tuple(planes), reference, sense, measurement,
                ShopSettings(units or "metric", drills, stock, step_deg, mass_step, plate_step, point_angle,
-                            MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet),
+                            MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet, paper),
                tuple(defaults_used), one_plane_rule or "whole", rotor_length)
 
 

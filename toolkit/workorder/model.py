@@ -189,6 +189,28 @@ class Setting:
     how: str
 
 
+#: The paper sizes a work order prints on, in words.
+PAPERS = {"A4": "A4 (210 mm × 297 mm)", "Letter": "Letter (8.5 in × 11 in)"}
+
+
+def paper_setting(paper: str, units: str, given_by: str = "") -> Setting:
+    """The values-used entry for the paper: ``paper`` (empty: the unit system's default) and who chose it
+    (``given_by``, e.g. "job file"; empty: the default)."""
+    name = paper or ("Letter" if units == "imperial" else "A4")
+    why = f"from the {given_by}" if given_by else f"the default for {units} units"
+    return Setting("paper", f"{PAPERS[name]}, {why}", "CP", bool(given_by), '[shop] paper = "A4" or "Letter"')
+
+
+def with_paper(order: "WorkOrder", paper: str, given_by: str) -> "WorkOrder":
+    """The order printed on another paper ("A4" or "Letter"), its values-used list saying who chose it."""
+    import dataclasses
+
+    if paper not in PAPERS:
+        raise BadInput(f"paper {paper!r} is not allowed; give A4 or Letter")
+    settings = tuple(s for s in order.settings if s.name != "paper") + (paper_setting(paper, order.units, given_by),)
+    return dataclasses.replace(order, paper=paper, settings=settings)
+
+
 @dataclass(frozen=True)
 class WorkOrder:
     """A finished work order. Exporters only read it.

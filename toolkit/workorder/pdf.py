@@ -36,8 +36,7 @@ _ROLES = {"ink": _INK, "accent": _ACCENT, "muted": _MUTED, "warn": _WARN}
 #: Font styles by the names the layout used (the page writer picks the font per run of characters).
 _STYLE = {"Helvetica": "regular", "Helvetica-Bold": "bold", "Helvetica-Oblique": "italic"}
 #: How a weld-on plate lies, in words (on the operations list and in the diagram's legend).
-PLATE_ORIENTATION = ("plate sizes read width × length: the width runs across the seat (along the shaft "
-                     "axis on a rim, radially on a face), the length along the rim (round the circumference)")
+PLATE_ORIENTATION = "sizes read width × length: the width runs across the seat, the length along the rim"
 
 
 def _wrap(text: str, font: str, size: float, width: float) -> tuple[str, ...]:
@@ -414,12 +413,18 @@ def _diagrams(w: _Writer, fmt: Formatter):
         w.y -= lay.height + 12
 
 
+def _given_by(s) -> str:
+    if not s.given:
+        return "default"
+    return "command line" if s.value.endswith("from the command line") else "job file"  # the paper's entry
+
+
 def _closing(w: _Writer):
     order = w.order
     if order.settings:
         w.heading("Values used")
         w.table([("Setting", 0.24), ("Value", 0.2), ("Mark", 0.07), ("Given by", 0.11), ("How to override", 0.38)],
-                [[s.name, s.value, s.mark, "job file" if s.given else "default", s.how] for s in order.settings])
+                [[s.name, s.value, s.mark, _given_by(s), s.how] for s in order.settings])
         w.paragraph("Marks: S published standard; H handbook or secondary source; M from memory; D derived here; "
                     "CP common practice. Values marked M or CP can be overridden in the job file.", 7.5, _MUTED)
     if order.warnings:

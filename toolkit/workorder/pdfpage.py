@@ -54,9 +54,54 @@ def _font(style: str):
     from reportlab.pdfbase.ttfonts import TTFont
 
     name, filename = FONT_FILES[style]
-    font = TTFont(name, str(_FONT_DIR / filename))
+    font = _subclass(TTFont)(name, str(_FONT_DIR / filename))
     pdfmetrics.registerFont(font)
     return font
+
+
+@functools.lru_cache(maxsize=None)
+def _subclass(base):
+    """reportlab's TTFont whose subsets' width arrays are written as one preformatted array: reportlab
+    formats each width through its general number formatter, a tenth of the time of an order."""
+    from reportlab.pdfbase import pdfdoc
+    from reportlab.pdfbase.ttfonts import SUBSETN, makeToUnicodeCMap
+
+    class Raw(pdfdoc.PDFObject):
+        def __init__(self, data: bytes):
+            self.data = data
+
+        def format(self, document):
+            return self.data
+
+    class Font(base):
+        def addObjects(self, doc):  # as reportlab 4's TTFont.addObjects, the Widths array preformatted
+            try:
+                state = self.state[doc]
+            except KeyError:
+                state = self.state[doc] = base.State(self._asciiReadable)
+            state.frozen = 1
+            for n, subset in enumerate(state.subsets):
+                internal = self.getSubsetInternalName(n, doc)[1:]
+                basename = (b"".join((SUBSETN(n), b"+", self.face.name, self.face.subfontNameX))).decode("pdfdoc")
+                font = pdfdoc.PDFTrueTypeFont()
+                font.__Comment__ = "Font %s subset %d" % (self.fontName, n)
+                font.Name = internal
+                font.BaseFont = basename
+                font.FirstChar = 0
+                font.LastChar = len(subset) - 1
+                widths = (("%.3f" % w).rstrip("0").rstrip(".") for w in map(self.face.getCharWidth, subset))
+                font.Widths = Raw(("[" + " ".join(widths) + "]").encode("ascii"))
+                cmap = pdfdoc.PDFStream()
+                cmap.content = makeToUnicodeCMap(basename, subset)
+                if doc.compression:
+                    cmap.filters = [pdfdoc.PDFZCompress]
+                font.ToUnicode = doc.Reference(cmap, "toUnicodeCMap:" + basename)
+                font.FontDescriptor = self.face.addSubsetObjects(doc, basename, subset)
+                doc.Reference(font, internal)
+                doc.idToObject["BasicFonts"].dict[internal] = font
+            del self.state[doc]
+
+    return Font
 
 
 def clean(text) -> str:
@@ -137,24 +182,30 @@ def wrap(text: str, style: str, size: float, limit: float) -> tuple[str, ...]:
     if words:
         words.pop()
     lines: list[str] = []
-    line = ""
+    line, used = "", 0.0  # widths add up: no kerning between characters
     pending = ""  # the separator before the next word
+    space = width(" ", style, size)
     for token in words:
         if token in (" ", "\0"):
             pending = " " if token == " " else ""
             continue
-        candidate = line + pending + token if line else token
-        if width(candidate, style, size) <= limit:
-            line = candidate
+        w = width(token, style, size)
+        gap = (space if pending else 0.0) if line else 0.0
+        if used + gap + w <= limit:
+            line, used = (line + pending + token, used + gap + w) if line else (token, w)
         else:
             if line:
                 lines.append(line)
-            line = ""
-            for ch in token:  # a word wider than the line is cut between characters
-                if line and width(line + ch, style, size) > limit:
-                    lines.append(line)
-                    line = ""
-                line += ch
+            line, used = "", 0.0
+            if w <= limit:
+                line, used = token, w
+            else:
+                for ch in token:  # a word wider than the line is cut between characters
+                    cw = width(ch, style, size)
+                    if line and used + cw > limit:
+                        lines.append(line)
+                        line, used = "", 0.0
+                    line, used = line + ch, used + cw
         pending = ""
     if line or not lines:
         lines.append(line)
@@ -171,22 +222,66 @@ def shorten(text: str, style: str, size: float, limit: float) -> str:
     return text.rstrip() + "…"
 
 
+def _num(v: float) -> str:
+    return ("%.2f" % v).rstrip("0").rstrip(".")
+
+
+@functools.lru_cache(maxsize=None)
+def _by_name(name: str):
+    from reportlab.pdfbase.pdfmetrics import getFont
+
+    return getFont(name)
+
+
+def _encode(font, chars: str, doc) -> list[tuple[int, bytes]]:
+    """``chars`` as (subset, codes) chunks of ``font`` in ``doc``: reportlab's ``splitString``, with a
+    fast path for characters the document has already given a code (codes never change once given)."""
+    table = doc.__dict__.setdefault("_counterpoise_codes", {}).setdefault(font.fontName, {})
+    try:
+        codes = [table[ch] for ch in chars]
+    except KeyError:
+        chunks = font.splitString(chars, doc)
+        assigned = font.state[doc].assignments
+        for ch in chars:
+            code = assigned.get(32 if ch == "\xa0" else ord(ch))
+            if code is not None:
+                table[ch] = code
+        return chunks
+    if not codes:
+        return []
+    if max(codes) < 256:
+        return [(0, bytes(codes))]
+    out: list[tuple[int, bytes]] = []
+    for code in codes:
+        subset = code >> 8
+        if out and out[-1][0] == subset:
+            out[-1][1].append(code & 0xFF)
+        else:
+            out.append((subset, bytearray([code & 0xFF])))
+    return [(subset, bytes(data)) for subset, data in out]
+
+
 def draw(c, x: float, y: float, text: str, style: str = "regular", size: float = 8.5, align: str = "left"
          ) -> float:
     """Draw ``text`` on canvas ``c`` with its baseline at ``y``: left-aligned at ``x``, or right-aligned
-    or centred on it (``align`` "right" or "centre"); one text object, fonts switched per run. Returns the
-    width drawn."""
+    or centred on it (``align`` "right" or "centre"), in the current fill colour. One text object; the
+    font switches per run and per 256-character subset, each run starting where the last ended. Returns
+    the width drawn."""
     text = clean(text)
     w = width(text, style, size)
     if align == "right":
         x -= w
     elif align == "centre":
         x -= w / 2
-    t = c.beginText(x, y)
+    doc = c._doc
+    escape = c._escape
+    parts = [f"BT 1 0 0 1 {_num(x)} {_num(y)} Tm"]
     for name, chars in runs(text, style):
-        t.setFont(name, size)
-        t.textOut(chars)
-    c.drawText(t)
+        font = _by_name(name)
+        for subset, data in _encode(font, chars, doc):
+            parts.append(f"{font.getSubsetInternalName(subset, doc)} {_num(size)} Tf ({escape(data)}) Tj")
+    parts.append("ET")
+    c._code.append(" ".join(parts))
     return w
 
 

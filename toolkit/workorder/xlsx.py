@@ -452,7 +452,7 @@ def workbook(order: WorkOrder):
     _fit_rows(ws)
 
     # print set-up
-    ws.page_setup.paperSize = ws.PAPERSIZE_A4
+    ws.page_setup.paperSize = ws.PAPERSIZE_LETTER if order.paper_name == "Letter" else ws.PAPERSIZE_A4
     ws.page_setup.orientation = "landscape"
     ws.page_setup.fitToWidth = 1
     ws.page_setup.fitToHeight = 0
