@@ -328,3 +328,74 @@ def test_the_print_check_finds_rows_without_heights(tmp_path):
     pages = _pages(_print(workbook, tmp_path))
     shown = " ".join(w[4] for _w, _h, words in pages for w in words)
     assert any(_overlaps(words) for _w, _h, words in pages) or "whole rotor" not in shown
+
+
+# -- the planner's summary workbook ------------------------------------------------------------------------------
+
+EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
+
+
+def _batch_summary(tmp_path, units: str | None = None):
+    import csv
+
+    from toolkit.workorder.batch import run_batch
+
+    sheet = EXAMPLES / "planner.csv"
+    if units:
+        with open(sheet, encoding="utf-8") as handle:
+            rows = list(csv.reader(handle))
+        col = rows[0].index("units")
+        for row in rows[1:4]:  # the machine-reading rows; row 5 takes its units from its job file
+            row[col] = units
+        sheet = tmp_path / "planner.csv"
+        shutil.copy(EXAMPLES / "job-fan-runs.toml", tmp_path / "job-fan-runs.toml")
+        with open(sheet, "w", encoding="utf-8", newline="") as handle:
+            csv.writer(handle).writerows(rows)
+    result = run_batch(sheet, tmp_path / "out")
+    assert result.failures == ()
+    return tmp_path / "out" / "planner-summary.xlsx"
+
+
+def test_summary_prints_landscape_one_page_wide_with_title_rows(tmp_path):
+    path = _batch_summary(tmp_path)
+    ws = openpyxl.load_workbook(path)["Summary"]
+    assert ws.page_setup.orientation == "landscape"
+    # paper size codes: 9 = A4, 1 = Letter (ECMA-376 Part 1, 18.3.1.63 pageSetup, paperSize)
+    assert int(ws.page_setup.paperSize) == 9
+    assert ws.page_setup.fitToWidth == 1 and ws.page_setup.fitToHeight == 0
+    assert ws.sheet_properties.pageSetUpPr.fitToPage
+    assert ws.print_title_rows == "$1:$1"
+    assert_rows_fit(ws)
+
+
+def test_summary_of_imperial_rows_prints_on_letter(tmp_path):
+    ws = openpyxl.load_workbook(_batch_summary(tmp_path, "imperial"))["Summary"]
+    assert int(ws.page_setup.paperSize) == 1  # Letter (ECMA-376 Part 1, 18.3.1.63)
+
+
+def test_summary_rows_carry_their_own_angle_convention(tmp_path):
+    ws = openpyxl.load_workbook(_batch_summary(tmp_path))["Summary"]
+    rows = list(ws.iter_rows(values_only=True))
+    header = rows[0]
+    data = [dict(zip(header, r)) for r in rows[1:]]
+    by_order = {r["Order"]: r for r in data}
+    # examples/planner.csv: PL-0003 counts angles with rotation, PL-0001 against it (invented rows)
+    assert by_order["PL-0003"]["Angles from, counted"] == "keyway, with rotation"
+    assert by_order["PL-0001"]["Angles from, counted"] == "keyway, against rotation"
+    assert by_order["PL-0003"]["Operations 1"].endswith("from keyway, with rotation")
+    for r in data:
+        for key in ("Operations 1", "Operations 2"):
+            if r[key] and r[key] != "none":
+                for op in r[key].split("; "):
+                    assert op.endswith("from " + r["Angles from, counted"]), op
+
+
+@needs_office
+def test_summary_printed_by_libreoffice_nothing_overlaps(tmp_path):
+    pdf = _print(_batch_summary(tmp_path), tmp_path)
+    subprocess.run(["pdftoppm", "-r", "80", "-f", "1", "-l", "1", "-png", str(pdf), str(tmp_path / "summary")],
+                   capture_output=True, timeout=120, check=True)
+    for width, height, words in _pages(pdf):
+        for x0, y0, x1, y1, word in words:
+            assert 0 <= x0 and x1 <= width and 0 <= y0 and y1 <= height, word
+        assert not _overlaps(words), _overlaps(words)[:3]
