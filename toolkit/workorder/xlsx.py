@@ -40,6 +40,7 @@ formula.
 
 from __future__ import annotations
 
+import functools
 import re
 from io import BytesIO
 from pathlib import Path
@@ -70,6 +71,7 @@ _WIDEST = set("@%ÆŒæœ—‰…™")
 _FORMULA_SHOWS = "enter reading"
 
 
+@functools.lru_cache(maxsize=4096)
 def _char_width(ch: str) -> float:
     import unicodedata
 
