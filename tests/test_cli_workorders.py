@@ -164,3 +164,34 @@ def test_commands_import_nothing_heavy():
             "print(sorted(m for m in ('numpy', 'pint', 'openpyxl', 'reportlab') if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"
+
+
+def test_demo_jobs_writes_the_example_files_to_edit(tmp_path, capsys):
+    from toolkit.workorder.build import EXAMPLE_FILES
+
+    folder = tmp_path / "my-jobs"
+    assert main(["demo", "--jobs", str(folder)]) == 0
+    out = capsys.readouterr().out
+    assert sorted(p.name for p in folder.iterdir()) == sorted(EXAMPLE_FILES)
+    for name in EXAMPLE_FILES:
+        assert (folder / name).read_bytes() == (EXAMPLES / name).read_bytes()  # the shipped copies, unchanged
+        assert f"wrote {folder / name}" in out
+    assert "invented" in out
+    # a written job file builds as it is, and the planner sheet finds the job file it names beside it
+    assert main(["order", str(folder / "job-fan-readings.toml"), "--out", str(tmp_path / "o")]) == 0
+    assert main(["batch", str(folder / "planner.csv"), "--out", str(tmp_path / "b")]) == 0
+    capsys.readouterr()
+    # never over the user's edits without --force
+    (folder / "job-fan-runs.toml").write_text("# my edits\n", encoding="utf-8")
+    assert main(["demo", "--jobs", str(folder)]) == 2
+    assert "already exists; give --force" in _one_line_error(capsys, "demo")
+    assert (folder / "job-fan-runs.toml").read_text(encoding="utf-8") == "# my edits\n"
+    assert main(["demo", "--jobs", str(folder), "--force", "--json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert len(data["files"]) == len(EXAMPLE_FILES)
+
+
+def test_order_help_points_to_files_a_wheel_user_has(capsys):
+    assert main(["order", "--help"]) == 0
+    text = " ".join(capsys.readouterr().out.split())
+    assert "counterpoise demo --jobs DIR" in text and "examples/" not in text

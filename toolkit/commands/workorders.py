@@ -23,11 +23,15 @@ def _order_options(parser, out: str, run) -> None:
 
 
 def configure_demo(parser) -> None:
+    parser.add_argument("--jobs", metavar="DIR", default=None,
+                        help="instead of the demo order, write the invented example job files (and a planner "
+                             "sheet) into DIR for you to edit")
     _order_options(parser, "counterpoise-demo", run_demo)
 
 
 def configure_order(parser) -> None:
-    parser.add_argument("job", metavar="JOB.toml", help="the job file (see examples/job-*.toml)")
+    parser.add_argument("job", metavar="JOB.toml",
+                        help="the job file (editable examples: counterpoise demo --jobs DIR)")
     _order_options(parser, ".", run_order)
     from toolkit.commands.register import add_order_options  # the shop register's options
 
@@ -35,7 +39,8 @@ def configure_order(parser) -> None:
 
 
 def configure_batch(parser) -> None:
-    parser.add_argument("sheet", metavar="SHEET", help="planner sheet, .xlsx or .csv (see examples/planner.csv)")
+    parser.add_argument("sheet", metavar="SHEET", help="planner sheet, .xlsx or .csv (an example: counterpoise "
+                                                       "demo --jobs DIR)")
     parser.add_argument("--out", default=".", metavar="DIR", help="folder for the output files (default: .)")
     parser.add_argument("--carry-on", action="store_true",
                         help="continue an interrupted batch in the same folder: keep the orders already "
@@ -157,7 +162,14 @@ def _finish(args, order, files) -> int:
 
 
 def run_demo(args) -> int:
-    from toolkit.workorder.build import demo_order
+    from toolkit.workorder.build import demo_order, write_examples
+
+    if args.jobs is not None:
+        files = write_examples(args.jobs, force=args.force)
+        emit(args.json, {"files": files}, "\n".join(["Example files (invented examples) to edit:"]
+                                                     + [f"  wrote {f}" for f in files]
+                                                     + [f"Then: counterpoise order {files[0]}"]))
+        return 0
 
     formats = _formats(args.format)
     order = _paper(demo_order(), args)

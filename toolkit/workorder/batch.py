@@ -563,16 +563,28 @@ def _chain(first, rest):
 
 
 class _Summary:
-    """The summary workbook, written row by row in openpyxl's write-only mode."""
+    """The summary workbook, written row by row in openpyxl's write-only mode.
 
-    HEADER = ("Row", "Order", "Rotor", "Status", "Units",
+    Printing: landscape, fitted to the page width only (as many pages down as the rows need), the header
+    row repeated on every page, A4 unless most of the rotors built are in inch-pound units (then Letter).
+    Every text cell wraps, top-aligned, and every row gets its height from its text (the work order's
+    font-width model, :func:`toolkit.workorder.xlsx.wrapped_lines`). Each row states its own angle
+    reference and sense, and every operation its angle with them: rows of one batch may count angles
+    differently.
+    """
+
+    HEADER = ("Row", "Order", "Rotor", "Status", "Units", "Angles from, counted",
               *(f"{label} {n}" for n in range(1, MAX_PLANES + 1)
                 for label in ("Plane", "Allowance [g·mm]", "Initial [g·mm]", "Initial angle [°]", "Operations",
                               "Predicted [g·mm]", "Result")),
               "File or reason")
+    #: Column widths (units of the digit "0"): narrow, with wrapping, so that the sheet fits one landscape
+    #: page wide at a readable scale.
+    WIDTHS = (5, 11, 16, 11, 8, 14) + (10, 10, 10, 7, 24, 10, 6) * MAX_PLANES + (16,)
 
     def __init__(self):
         from openpyxl import Workbook
+        from openpyxl.utils import get_column_letter
 
         from toolkit.workorder.xlsx import in_memory
 
@@ -584,45 +596,80 @@ class _Summary:
         self.ws.page_setup.fitToWidth = 1
         self.ws.page_setup.fitToHeight = 0
         self.ws.sheet_properties.pageSetUpPr.fitToPage = True
+        self.ws.print_options.gridLines = True
         self.ws.oddFooter.right.text = "page &P of &N"
-        for col, width in zip("ABCDEFGHIJKLMNOPQRST", (6, 16, 30, 16, 9) + (14, 12, 12, 10, 40, 12, 8) * 2 + (30,)):
-            self.ws.column_dimensions[col].width = width
+        for col, width in enumerate(self.WIDTHS, start=1):
+            self.ws.column_dimensions[get_column_letter(col)].width = width
         in_memory(self.ws)  # after the sheet's settings: rows in memory, never in an openpyxl temporary file
-        self.ws.append([self._text(h) for h in self.HEADER])
+        self.rows = 0
+        self.units: list[str] = []
+        self._append([self._text(h) for h in self.HEADER], bold=True)
 
-    def _text(self, value):
+    def _text(self, value, bold: bool = False):
         from openpyxl.cell import WriteOnlyCell
+        from openpyxl.styles import Alignment, Font
 
         from toolkit.workorder.xlsx import FORMULA_START, clean_text
 
         value = clean_text(value) if isinstance(value, str) else value
         cell = WriteOnlyCell(self.ws, value=value)
+        cell.alignment = Alignment(wrap_text=isinstance(value, str), vertical="top")
+        if isinstance(value, (int, float)) and not isinstance(value, bool):
+            # room of a ")" on the right, so that a number never touches the text of the next column
+            cell.number_format = ("0" if isinstance(value, int) else "0.0##") + "_)"
+        if bold:
+            cell.font = Font(bold=True)
         if isinstance(value, str) and value.startswith(FORMULA_START):
             cell.data_type = "s"
         return cell
+
+    def _append(self, values, bold: bool = False) -> None:
+        """Append one row, every value as a top-aligned cell, with the height its wrapped text needs."""
+        from toolkit.workorder.xlsx import row_height, wrapped_lines
+
+        cells, lines = [], 1
+        for width, value in zip(self.WIDTHS, values):
+            cell = value if hasattr(value, "value") else self._text(value, bold)
+            if bold and hasattr(value, "value"):
+                from openpyxl.styles import Font
+
+                cell.font = Font(bold=True)
+            if isinstance(cell.value, str) and cell.value:
+                lines = max(lines, wrapped_lines(cell.value, width, 11.0, bold))
+            cells.append(cell)
+        self.rows += 1
+        self.ws.row_dimensions[self.rows].height = row_height(lines)
+        self.ws.append(cells)
 
     def ok(self, number: int, order, file_name: str):
         from toolkit.workorder.model import Formatter
 
         fmt = Formatter(order.units, order.angle_reference, order.angle_sense)
         status = "ready" if order.passed else "out of tolerance (predicted)"
-        row = [number, self._text(order.ident.number), self._text(order.ident.rotor), status, order.units]
+        row = [number, self._text(order.ident.number), self._text(order.ident.rotor), status, order.units,
+               self._text(f"{order.angle_reference}, {order.angle_sense}")]
         for n in range(MAX_PLANES):
             if n < len(order.planes):
                 p = order.planes[n]
                 ops = "; ".join(f"{op.number}. {op.action} {fmt.mass(op.mass_g)} ({op.kind}) at "
-                                f"{fmt.angle(op.angle_deg)}" for op in p.operations) or "none"
+                                f"{fmt.where(op.angle_deg)}" for op in p.operations) or "none"
                 row += [self._text(p.name), round(p.tolerance.u_per_g_mm, 3), round(p.initial_g_mm, 3),
                         round(p.initial_deg, 2), self._text(ops), round(p.predicted_g_mm, 3),
                         "PASS" if p.passed else "FAIL"]
             else:
                 row += [None] * 7
         row.append(self._text(file_name))
-        self.ws.append(row)
+        self.units.append(order.units)
+        self._append(row)
 
     def failed(self, number: int, cells: dict, reason: str):
-        self.ws.append([number, self._text(cells.get("order", "")), self._text(cells.get("rotor", "")),
-                        "failed", None, *([None] * 7 * MAX_PLANES), self._text(reason)])
+        self._append([number, self._text(cells.get("order", "")), self._text(cells.get("rotor", "")),
+                      "failed", None, None, *([None] * 7 * MAX_PLANES), self._text(reason)])
+
+    def paper(self) -> str:
+        """``"Letter"`` when most of the rotors built are in inch-pound units, else ``"A4"``."""
+        imperial = sum(1 for u in self.units if u == "imperial")
+        return "Letter" if imperial * 2 > len(self.units) else "A4"
 
     def discard(self) -> None:
         """Close the half-written sheet when a batch stops early (otherwise openpyxl complains on stderr
@@ -635,4 +682,8 @@ class _Summary:
     def finish(self) -> bytes:
         from toolkit.workorder.xlsx import save_bytes
 
+        from openpyxl.worksheet.worksheet import Worksheet
+
+        letter = self.paper() == "Letter"
+        self.ws.page_setup.paperSize = Worksheet.PAPERSIZE_LETTER if letter else Worksheet.PAPERSIZE_A4
         return save_bytes(self.wb)

@@ -32,7 +32,7 @@ from toolkit.workorder.job import DEFAULTS, Job, load_job, parse_job
 from toolkit.workorder.model import (Formatter, Identification, Operation, PlaneOrder, Setting, Tolerance, WorkOrder,
                                      effect, paper_setting, polar, vector)
 
-__all__ = ["build_order", "order_from_file", "demo_job", "demo_order", "GENERAL_CAUTIONS"]
+__all__ = ["build_order", "order_from_file", "demo_job", "demo_order", "write_examples", "GENERAL_CAUTIONS"]
 
 #: Cautions every work order carries (DOMAIN.md section 4); the fabrication and solver modules add their own
 #: for the operations used.
@@ -429,6 +429,29 @@ def demo_job() -> Job:
 
     text = resources.files("toolkit.workorder").joinpath("demo.toml").read_text(encoding="utf-8")
     return parse_job(text, "built-in demo job (invented example)")
+
+
+#: The example files :func:`write_examples` writes: the invented job files and the planner sheet that uses
+#: one of them.
+EXAMPLE_FILES = ("job-fan-readings.toml", "job-fan-runs.toml", "job-blower-imperial.toml", "planner.csv")
+
+
+def write_examples(folder: str | Path, *, force: bool = False) -> list[str]:
+    """Write editable copies of the invented example job files (and the planner sheet) into ``folder``.
+
+    Nothing is written if any of the files exists (unless ``force``); each is written atomically. Returns
+    the paths written.
+    """
+    from importlib import resources
+
+    from toolkit.fileio import check_writable, write_atomic
+
+    folder = Path(folder)
+    targets = [folder / name for name in EXAMPLE_FILES]
+    for path in targets:
+        check_writable(path, force)
+    source = resources.files("toolkit.examples")
+    return [str(write_atomic(path, source.joinpath(path.name).read_bytes(), force=force)) for path in targets]
 
 
 def demo_order() -> WorkOrder:

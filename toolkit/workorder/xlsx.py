@@ -15,11 +15,13 @@ its text, estimated here (:func:`wrapped_lines`, :func:`row_height`) with a font
 
 * widths are counted in column-width units (the width of the digit ``0`` in the default font, which is
   how both Excel and LibreOffice measure a column);
-* each character counts, in those units: lower-case letters 0.95, capitals 1.2, digits 1.0, space 0.5,
-  narrow punctuation ``.,;:'|!()[]-/`` 0.65, East Asian wide characters 1.6, combining marks 0, anything
-  else 1.15; bold text 1.12 times that, and the font size scales it (size / 11). These are at or above
-  the averages of each class in DejaVu Sans and DejaVu Serif, regular and bold (what LibreOffice prints
-  when Calibri is not installed, the widest of the usual substitutes), and so also above Calibri's;
+* each character counts, in those units: lower-case letters 1.1 (``m`` and ``w`` 1.55), capitals 1.4
+  (``M`` 1.55, ``W`` 1.75), digits 1.0, space 0.5, narrow punctuation ``.,;:'|!()[]-/`` 0.65,
+  ``@ % Æ Œ æ œ — ‰ … ™`` and East Asian wide characters 1.9, combining marks 0, anything else 1.4; bold
+  text 1.12 times that, and the font size scales it (size / 11). Each is at or above the widest
+  character of its class, relative to the font's digit, in Helvetica (Arial's metrics) and in DejaVu Sans
+  and DejaVu Serif (what LibreOffice prints when Calibri is not installed), regular and bold, and so
+  also above Calibri's: a line of any text is never longer than the model says;
 * a line is the cell's width less 0.6 units of padding; text breaks at spaces (and at line breaks), a
   word longer than a line is broken where it fills the line;
 * a line takes 1.364 times the font size (15 pt for 11 pt text, Excel's default row) and a row 2 pt more;
@@ -38,6 +40,7 @@ formula.
 
 from __future__ import annotations
 
+import functools
 import re
 from io import BytesIO
 from pathlib import Path
@@ -58,24 +61,28 @@ _COLUMNS = 9
 #: Characters a workbook cannot hold (control characters other than tab, line feed, carriage return);
 #: the same set as openpyxl's ILLEGAL_CHARACTERS_RE. Shown as "?" if they reach an exporter.
 _ILLEGAL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f]")
-_WIDTHS = (7, 18, 44, 11, 14, 16, 14, 12, 22)
+_WIDTHS = (7, 20, 42, 11, 14, 16, 14, 12, 22)
 #: The largest row height a workbook holds, in points.
 MAX_ROW_HEIGHT = 409.0
 _PADDING = 0.6          # column-width units lost to the cell's left and right padding
 _LINE = 15.0 / 11.0     # line height per point of font size
 _ROW_PAD = 2.0          # points added to every row
 _NARROW = set(".,;:'|!()[]-/")
+_WIDEST = set("@%ÆŒæœ—‰…™")
 #: The longest text a check-run result formula can show (its cell is sized for it).
 _FORMULA_SHOWS = "enter reading"
 
 
+@functools.lru_cache(maxsize=4096)
 def _char_width(ch: str) -> float:
     import unicodedata
 
+    if ch in _WIDEST:
+        return 1.9
     if ch.islower():
-        return 0.95
+        return 1.55 if ch in "mw" else 1.1
     if ch.isupper():
-        return 1.2
+        return {"M": 1.55, "W": 1.75}.get(ch, 1.4)
     if ch.isdigit():
         return 1.0
     if ch == " ":
@@ -85,8 +92,8 @@ def _char_width(ch: str) -> float:
     if unicodedata.combining(ch):
         return 0.0
     if unicodedata.east_asian_width(ch) in ("W", "F"):
-        return 1.6
-    return 1.15
+        return 1.9
+    return 1.4
 
 
 def text_width(text: str, size: float = 11.0, bold: bool = False) -> float:
@@ -95,7 +102,7 @@ def text_width(text: str, size: float = 11.0, bold: bool = False) -> float:
     >>> text_width("0000000000")
     10.0
     >>> round(text_width("Rotor", bold=True), 2)
-    5.6
+    6.5
     """
     return sum(_char_width(ch) for ch in text) * (size / 11.0) * (1.12 if bold else 1.0)
 
@@ -106,7 +113,7 @@ def wrapped_lines(text: str, width: float, size: float = 11.0, bold: bool = Fals
     >>> wrapped_lines("a short line", 20)
     1
     >>> wrapped_lines("word " * 20, 20)
-    5
+    7
     """
     room = max(1.0, width - _PADDING)
     space = text_width(" ", size, bold)
