@@ -25,7 +25,8 @@ def _vec(amount, angle):
 
 
 def _text(z: complex) -> str:
-    return f"{abs(z)!r} g*mm@{math.degrees(cmath.phase(z)) % 360!r}"
+    # an amount below the reader's smallest unbalance (1e-9 g*mm) is rounding noise of a zero: write 0
+    return f"{abs(z) if abs(z) >= 1e-9 else 0.0!r} g*mm@{math.degrees(cmath.phase(z)) % 360!r}"
 
 
 def reference_separation(readings: list[complex], phi_deg: list[float]):
