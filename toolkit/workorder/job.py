@@ -749,7 +749,7 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
                span, com, share, min_share, error_allowance, tuple(planes), reference, sense, measurement,
                ShopSettings(units or "metric", drills, stock, step_deg, mass_step, plate_step, point_angle,
                             MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet, paper),
-               tuple(defaults_used), one_plane_rule or "whole", rotor_length)
+               tuple(defaults_used), one_plane_rule=one_plane_rule or "whole", rotor_length=rotor_length)
 
 
 def _speed(ck: _Checker, table: Mapping, path: tuple, required: bool = False) -> float | None:
