@@ -192,6 +192,8 @@ BASES: dict[str, list[list[tuple]]] = {
     ],
     "washers": [_pairs(("--unbalance", "2400 g*mm@131"), ("--radius", "150 mm"), ("--size", "M10"),
                        ("--action", "remove"), ("--json", None))],
+    "register": [_pairs((None, "jobs"), ("--register", str(Path(tempfile.gettempdir()) / "cp-fuzz-register.sqlite3")),
+                        ("--status", "planned"), ("--since", "2026-01-01"), ("--limit", "5"), ("--json", None))],
 }
 
 # demo/order/batch write files: their bases are built per example with a temporary output folder.

@@ -37,6 +37,8 @@ COMMANDS: tuple[tuple[str, str, str], ...] = (
     ("plate", "toolkit.commands.fabrication", "a weld-on plate that adds a given unbalance"),
     ("washers", "toolkit.commands.fabrication", "a stack of standard washers that adds a given unbalance"),
     ("materials", "toolkit.commands.fabrication", "list materials with densities and sources"),
+    ("register", "toolkit.commands.register", "the shop register: rotor types, jobs, check runs, sign-offs, "
+                                              "certificates, statistics"),
 )
 
 

@@ -28,6 +28,9 @@ def configure_demo(parser) -> None:
 def configure_order(parser) -> None:
     parser.add_argument("job", metavar="JOB.toml", help="the job file (see examples/job-*.toml)")
     _order_options(parser, ".", run_order)
+    from toolkit.commands.register import add_order_options  # the shop register's options
+
+    add_order_options(parser)
 
 
 def configure_batch(parser) -> None:
@@ -137,11 +140,12 @@ def run_demo(args) -> int:
 
 
 def run_order(args) -> int:
-    from toolkit.workorder.build import order_from_file
+    from toolkit.commands.register import order_for, record_files
 
     formats = _formats(args.format)
-    order = order_from_file(args.job)
+    order = order_for(args)  # the job file alone, or recorded in / composed from the shop register
     files = write_order_files(order, args.out, formats, args.force)
+    record_files(args, order, files)
     return _finish(args, order, files)
 
 

@@ -371,7 +371,8 @@ def build_order(job: Job) -> WorkOrder:
     order = job.order
     return WorkOrder(
         ident=Identification(order["number"], order["rotor"], order.get("customer", ""), order.get("drawing", ""),
-                             order.get("serial", ""), _shown_date(job), order.get("notes", "")),
+                             order.get("serial", ""), _shown_date(job), order.get("notes", ""),
+                             job.input_sha256),
         rotor_mass_kg=job.mass.m_as("kg"), service_speed_rpm=job.service_speed_rpm,
         balancing_speed_rpm=job.balancing_speed_rpm, grade=report.grade.label, criterion=job.criterion,
         material=job.material, u_per_total_g_mm=report.u_per.m_as("g*mm"), angle_reference=job.angle_reference,

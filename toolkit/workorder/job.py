@@ -283,6 +283,8 @@ class Job:
     defaults_used: tuple[str, ...] = ()
     one_plane_rule: str = "whole"
     rotor_length: Any = None
+    #: SHA-256 (hex) of the UTF-8 job text, set by :func:`parse_job` ("" for a job built from data)
+    input_sha256: str = ""
 
     @property
     def number(self) -> str:
@@ -498,7 +500,11 @@ def parse_job(text: str, origin: str = "<job>", base: Path | None = None) -> Job
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise JobError(origin, [f"not valid TOML ({exc})"]) from None
-    return job_from_data(data, origin, base, lines=key_lines(text))
+    import hashlib
+    from dataclasses import replace
+
+    job = job_from_data(data, origin, base, lines=key_lines(text))
+    return replace(job, input_sha256=hashlib.sha256(text.encode("utf-8")).hexdigest())
 
 
 def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None, *,

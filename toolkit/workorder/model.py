@@ -79,6 +79,8 @@ class Identification:
     serial: str = ""
     date: str = ""
     notes: str = ""
+    #: SHA-256 (hex) of the job text the order was built from ("" when built from data without a text)
+    input_sha256: str = ""
 
 
 @dataclass(frozen=True)

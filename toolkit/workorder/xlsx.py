@@ -50,6 +50,8 @@ __all__ = ["workbook", "to_bytes", "write_xlsx", "STATUS_CHOICES", "SHEET", "saf
 SHEET = "Work order"
 #: The values the Status column accepts (a list validation in the sheet).
 STATUS_CHOICES = ("open", "done", "skipped", "on hold")
+#: The sign-off rows in order, as the keys of their defined names ``cp_signoff_KEY_name`` / ``_date``.
+SIGNOFF_ROLES = ("operator", "machinist", "inspector")
 #: Leading characters that would make a spreadsheet read text as a formula.
 FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\n")
 _COLUMNS = 9
@@ -250,7 +252,9 @@ def workbook(order: WorkOrder):
 
     Parameters: ``order`` (:class:`~toolkit.workorder.model.WorkOrder`). Returns the workbook; the sheet
     is :data:`SHEET`. Defined names ``measured_N`` and ``result_N`` (N = 1, 2 for the planes in order) and
-    ``overall_result`` point at the check-run cells.
+    ``overall_result`` point at the check-run cells; ``cp_order_number``, ``cp_input_sha256``,
+    ``cp_measured_angle_N``, ``cp_status_K`` / ``cp_remark_K`` (operation K) and ``cp_signoff_ROLE_name`` /
+    ``_date`` (:data:`SIGNOFF_ROLES`) at the cells the shop register reads back.
     """
     from openpyxl import Workbook
     from openpyxl.utils import get_column_letter
@@ -281,7 +285,7 @@ def workbook(order: WorkOrder):
     sh.section("Identification")
     i = order.ident
     rows = [
-        ("Order number", i.number), ("Customer", i.customer), ("Rotor", i.rotor), ("Drawing", i.drawing),
+        ("Order number", i.number), ("Input SHA-256", i.input_sha256), ("Customer", i.customer), ("Rotor", i.rotor), ("Drawing", i.drawing),
         ("Serial number", i.serial), ("Date", i.date),
         ("Rotor mass", fmt.rotor_mass(order.rotor_mass_kg)),
         ("Service speed (max.)", f"{order.service_speed_rpm:g} r/min"),
@@ -293,6 +297,7 @@ def workbook(order: WorkOrder):
         ("Notes", i.notes),
     ]
     for label, value in rows:
+        _name(wb, {"Order number": "cp_order_number", "Input SHA-256": "cp_input_sha256"}.get(label), 3, sh.row)
         sh.text(1, label, "label")
         ws.merge_cells(start_row=sh.row, start_column=1, end_row=sh.row, end_column=2)
         sh.text(3, value, "wrap")
@@ -351,6 +356,7 @@ def workbook(order: WorkOrder):
         sh.number(7, op.angle_deg, "0.0")
         cell = sh.text(8, "open", "input")
         status.add(cell)
+        _name(wb, f"cp_status_{op.number}", 8, sh.row), _name(wb, f"cp_remark_{op.number}", 9, sh.row)
         sh.text(9, "", "input")
         sh.row += 1
     if not order.operations:
@@ -388,6 +394,7 @@ def workbook(order: WorkOrder):
         result_cells.append(f"G{r}")
         wb.defined_names[f"measured_{n}"] = DefinedName(f"measured_{n}", attr_text=f"'{SHEET}'!$E${r}")
         wb.defined_names[f"result_{n}"] = DefinedName(f"result_{n}", attr_text=f"'{SHEET}'!$G${r}")
+        _name(wb, f"cp_measured_angle_{n}", 6, r)
         sh.row += 1
     r = sh.row
     sh.text(3, "Rotor result (all planes)", "label")
@@ -406,7 +413,9 @@ def workbook(order: WorkOrder):
     sh.section("Sign-off")
     sh.header(["Role", "", "Name", "", "Signature", "", "Date", "", ""])
     ws.merge_cells(start_row=sh.row - 1, start_column=1, end_row=sh.row - 1, end_column=2)
-    for role in ("Operator (balancing)", "Machinist (drilling / welding)", "Inspector (release)"):
+    for key, role in zip(SIGNOFF_ROLES, ("Operator (balancing)", "Machinist (drilling / welding)",
+                                         "Inspector (release)")):
+        _name(wb, f"cp_signoff_{key}_name", 3, sh.row), _name(wb, f"cp_signoff_{key}_date", 7, sh.row)
         sh.text(1, role, "label")
         ws.merge_cells(start_row=sh.row, start_column=1, end_row=sh.row, end_column=2)
         for col in (3, 5, 7):
@@ -482,6 +491,15 @@ def _fit_rows(ws) -> None:
                 cell.alignment = Alignment(wrap_text=True, vertical="top", horizontal=cell.alignment.horizontal)
     for number, height in need.items():
         ws.row_dimensions[number].height = max(height, ws.row_dimensions[number].height or 0.0)
+
+
+def _name(wb, name: str | None, column: int, row: int) -> None:
+    """Give the cell a workbook defined name (``cp_*``: read back by the shop register)."""
+    if name:
+        from openpyxl.utils import get_column_letter
+        from openpyxl.workbook.defined_name import DefinedName
+
+        wb.defined_names[name] = DefinedName(name, attr_text=f"'{SHEET}'!${get_column_letter(column)}${row}")
 
 
 def _criterion(order: WorkOrder) -> str:
