@@ -85,8 +85,10 @@ def test_limits_hold_and_no_feasible_alternative_is_better(seed, frac, m):
     # other allowed corrections: the free min-max pulled onto the limits, the penalised least squares
     clipped = np.where(np.abs(free) > limits, free / np.abs(free) * limits, free)
     penalised, _ = correct(o, a, w, "least squares", limits)
+    scale = float(np.abs(w * o).max())
     for alt in (clipped, penalised, np.zeros(2)):
-        assert ours <= float(np.abs(w * (o + a @ alt)).max()) * (1 + 1e-6) + 1e-12
+        # the polygon programme is exact to 1 - cos(pi/180) = 1.5e-4 of the scale before the polish (D)
+        assert ours <= float(np.abs(w * (o + a @ alt)).max()) * (1 + 1e-6) + 2e-4 * scale
     if frac >= 1.0:  # the limits do not bind: the free min-max value
         assert ours == pytest.approx(float(np.abs(w * (o + a @ free)).max()), rel=1e-5)
 

@@ -522,6 +522,9 @@ def minmax_limited(o: np.ndarray, a: np.ndarray, w: np.ndarray, limits: np.ndarr
     """
     from scipy.optimize import linprog, minimize
 
+    free = _minmax(o, a, w)
+    if np.all(np.abs(free) <= limits):  # the limits do not bind: the free min-max is the answer
+        return free
     m, p = a.shape
     aw = a * w[:, None]
     ow = o * w
@@ -554,6 +557,9 @@ def minmax_limited(o: np.ndarray, a: np.ndarray, w: np.ndarray, limits: np.ndarr
         raise BadInput(f"limits: the constrained min-max found no solution ({res.message})")
     x_lp = res.x[:p] + 1j * res.x[p:2 * p]
     best, best_val = x_lp, _worst(o, a, w, x_lp)
+    clipped = np.where(np.abs(free) > limits, free / np.where(free == 0, 1, np.abs(free)) * limits, free)
+    if _worst(o, a, w, clipped) < best_val:  # the free answer pulled onto the limits, should it be better
+        best, best_val = clipped, _worst(o, a, w, clipped)
     finite = [j for j in range(p) if math.isfinite(limits[j])]
 
     def unpack(v):

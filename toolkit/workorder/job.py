@@ -287,10 +287,10 @@ class Job:
     measurement: Measurement
     shop: ShopSettings
     defaults_used: tuple[str, ...] = ()
-    #: SHA-256 (hex) of the UTF-8 job text, set by :func:`parse_job` ("" for a job built from data)
-    input_sha256: str = ""
     one_plane_rule: str = "whole"
     rotor_length: Any = None
+    #: SHA-256 (hex) of the UTF-8 job text, set by :func:`parse_job` ("" for a job built from data)
+    input_sha256: str = ""
 
     @property
     def number(self) -> str:
