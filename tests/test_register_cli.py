@@ -89,6 +89,11 @@ def test_order_record_allocates_the_number_and_keeps_the_files(capsys, where, tm
     _wb, cell = _cells(next(p for p in data["files"] if p.endswith(".xlsx")))
     assert cell("cp_order_number").value == number
     assert cell("cp_input_sha256").value == shown["job_sha256"]
+    # and the PDF prints the hash
+    from pypdf import PdfReader
+
+    pdf = next(p for p in data["files"] if p.endswith(".pdf"))
+    assert shown["job_sha256"] in PdfReader(pdf).pages[0].extract_text()
 
 
 def test_order_from_a_stored_type_and_serial(capsys, where, tmp_path):

@@ -63,6 +63,8 @@ def resolve(where: str | os.PathLike | None = None):
     if where is None or str(where).strip() == "":
         where = os.environ.get(ENV) or default_path()
     text = str(where).strip()
+    if "\x00" in text or len(text) > 4096:
+        raise BadInput("register: not a file path or URL (a NUL character, or longer than 4096 characters)")
     if "://" not in text:
         return make_url("sqlite://").set(database=str(Path(text).expanduser()))
     try:

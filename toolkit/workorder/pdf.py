@@ -170,6 +170,8 @@ def _first_page(w: _Writer, fmt: Formatter):
     rows = [[a, b, *(pairs[k + half] if k + half < len(pairs) else ("", ""))] for k, (a, b) in
             enumerate(pairs[:half])]
     w.table([("", 0.17), ("", 0.33), ("", 0.19), ("", 0.31)], rows, titles=False)
+    if i.input_sha256:  # the job text this order was built from (the shop register checks it)
+        w.paragraph(f"Job text SHA-256: {i.input_sha256}", 7.5, _MUTED, "Helvetica")
     if i.notes:
         w.paragraph(f"Notes: {i.notes}", 8.5)
 
