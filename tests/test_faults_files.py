@@ -471,6 +471,27 @@ def test_continuing_after_a_change_keeps_the_unchanged_rows_only(tmp_path):
     assert (out / "K-0001.pdf").read_bytes() == before  # nothing replaced without --force
 
 
+def test_continuing_a_batch_stopped_between_its_combined_pdf_and_its_record(tmp_path):
+    # the record still says "not complete" while the combined PDF is already in place: carrying on replaces
+    # it; a combined PDF that a complete record does not know is not replaced
+    sheet = planner(tmp_path, rows=3)
+    out = tmp_path / "out"
+    rc, _, err = run_cli(["batch", sheet, "--out", out])
+    assert rc in (0, 1), err
+    record_path = out / "planner-batch.json"
+    record = json.loads(record_path.read_text(encoding="utf-8"))
+    (out / "planner-summary.xlsx").unlink()
+    record_path.write_text(json.dumps({**record, "complete": False, "combined": None, "summary": None}),
+                           encoding="utf-8")
+    rc, text, err = run_cli(["batch", sheet, "--out", out, "--carry-on", "--json"])
+    assert rc in (0, 1), err
+    assert len(json.loads(text)["kept"]) == 3 and (out / "planner-summary.xlsx").exists()
+    (out / "planner-orders.pdf").write_bytes(b"someone else's document")
+    rc, _, err = run_cli(["batch", sheet, "--out", out, "--carry-on"])
+    assert "planner-orders.pdf already exists" in one_line_error(rc, err)
+    assert (out / "planner-orders.pdf").read_bytes() == b"someone else's document"
+
+
 def test_a_file_of_another_kind_under_the_record_name_is_not_replaced(tmp_path):
     sheet = planner(tmp_path, rows=2)
     out = tmp_path / "out"
