@@ -40,18 +40,30 @@ JOB = EXAMPLES / "job-fan-readings.toml"
 RUNS = EXAMPLES / "runs-two-plane.toml"
 
 
-def run_cli(argv):
-    out, err = io.StringIO(), io.StringIO()
-    with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
-        rc = main([str(a) for a in argv])
-    return rc, out.getvalue(), err.getvalue()
+def _sibling(name: str):
+    """Another test module of this folder, loaded by path (the suite imports tests in importlib mode)."""
+    spec = importlib.util.spec_from_file_location(f"_sibling_{name}", ROOT / "tests" / f"{name}.py")
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
 
 
-def one_line_error(rc, err) -> str:
-    assert rc == 2, err
-    lines = err.splitlines()
-    assert len(lines) == 1 and "Traceback" not in err and "internal error" not in err, err
-    return lines[0]
+_SAFETY = _sibling("test_file_safety")
+run_cli, one_line_error = _SAFETY.run_cli, _SAFETY.one_line_error  # the same helpers as the file-safety tests
+
+
+def writer_argv(command: str, tmp_path: Path, out: Path) -> list:
+    """A valid command line of a command that writes work orders, into ``out``."""
+    return {"demo": ["demo", "--out", out], "order": ["order", JOB, "--out", out],
+            "batch": ["batch", planner(tmp_path), "--out", out],
+            "solve": ["solve", RUNS, "--save-coefficients", out / "c.json"]}[command]
+
+
+def scratch_folders(tmp_path: Path) -> tuple[Path, Path]:
+    """A private temporary folder for a child process, and the output folder (not made yet)."""
+    scratch = tmp_path / "tmp"
+    scratch.mkdir()
+    return scratch, tmp_path / "out"
 
 
 def child_env(tmpdir: Path | None = None) -> dict:
@@ -216,11 +228,8 @@ def _limited(limit_bytes: int):
 
 @pytest.mark.parametrize("command", ["demo", "order", "batch"])
 def test_file_size_limit_is_one_line_and_leaves_nothing(tmp_path, command):
-    scratch = tmp_path / "tmp"
-    scratch.mkdir()
-    out = tmp_path / "out"
-    argv = {"demo": ["demo", "--out", out], "order": ["order", JOB, "--out", out],
-            "batch": ["batch", planner(tmp_path), "--out", out]}[command]
+    scratch, out = scratch_folders(tmp_path)
+    argv = writer_argv(command, tmp_path, out)
     result = subprocess.run([sys.executable, "-m", "toolkit", *map(str, argv)], capture_output=True, text=True,
                             env=child_env(scratch), preexec_fn=_limited(4096), timeout=120)
     line = one_line_error(result.returncode, result.stderr)
@@ -263,10 +272,7 @@ def test_workbooks_never_touch_the_temporary_folder(tmp_path, monkeypatch):
 @pytest.mark.parametrize("shape", ["long-name", "long-path"])
 def test_paths_too_long_are_one_line(tmp_path, command, shape):
     out = tmp_path / ("x" * 256) if shape == "long-name" else tmp_path.joinpath(*["y" * 200] * 25)
-    argv = {"demo": ["demo", "--out", out], "order": ["order", JOB, "--out", out],
-            "batch": ["batch", planner(tmp_path), "--out", out],
-            "solve": ["solve", RUNS, "--save-coefficients", out / "c.json"]}[command]
-    rc, _, err = run_cli(argv)
+    rc, _, err = run_cli(writer_argv(command, tmp_path, out))
     assert "too long" in one_line_error(rc, err)
 
 
@@ -309,9 +315,7 @@ def test_a_temporary_name_that_cannot_be_removed_does_not_fail_a_written_file(tm
 # == standard output in a legacy encoding ====================================================================
 
 def _bases() -> list[list[str]]:
-    spec = importlib.util.spec_from_file_location("_faults_bases", ROOT / "tests" / "test_faults.py")
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
+    module = _sibling("test_faults")
     return [[command, *module.flatten(pairs)] for command, bases in sorted(module.BASES.items())
             for pairs in bases]
 
@@ -377,9 +381,7 @@ def _wait_for(predicate, limit: float = 60.0) -> bool:
 
 @pytest.mark.parametrize("signame", ["SIGTERM", "SIGHUP", "SIGINT"])
 def test_terminating_signals_during_a_batch_leave_nothing(tmp_path, signame):
-    scratch = tmp_path / "tmp"
-    scratch.mkdir()
-    out = tmp_path / "out"
+    scratch, out = scratch_folders(tmp_path)
     sheet = planner(tmp_path, rows=40)
     child = subprocess.Popen([sys.executable, "-m", "toolkit", "batch", str(sheet), "--out", str(out)],
                              stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env=child_env(scratch))
@@ -418,9 +420,7 @@ def test_killed_batches_continue_to_a_complete_result(tmp_path):
     # continues the earlier one (--carry-on), then a last run completes it: every row is written once,
     # the summary and the combined PDF cover all of them, and nothing temporary remains anywhere
     rng = random.Random(10)
-    scratch = tmp_path / "tmp"
-    scratch.mkdir()
-    out = tmp_path / "out"
+    scratch, out = scratch_folders(tmp_path)
     rows = 30
     sheet = planner(tmp_path, rows=rows)
     for n, (signame, base) in enumerate(KILL_POINTS):
@@ -471,6 +471,27 @@ def test_continuing_after_a_change_keeps_the_unchanged_rows_only(tmp_path):
     assert (out / "K-0001.pdf").read_bytes() == before  # nothing replaced without --force
 
 
+def test_continuing_a_batch_stopped_between_its_combined_pdf_and_its_record(tmp_path):
+    # the record still says "not complete" while the combined PDF is already in place: carrying on replaces
+    # it; a combined PDF that a complete record does not know is not replaced
+    sheet = planner(tmp_path, rows=3)
+    out = tmp_path / "out"
+    rc, _, err = run_cli(["batch", sheet, "--out", out])
+    assert rc in (0, 1), err
+    record_path = out / "planner-batch.json"
+    record = json.loads(record_path.read_text(encoding="utf-8"))
+    (out / "planner-summary.xlsx").unlink()
+    record_path.write_text(json.dumps({**record, "complete": False, "combined": None, "summary": None}),
+                           encoding="utf-8")
+    rc, text, err = run_cli(["batch", sheet, "--out", out, "--carry-on", "--json"])
+    assert rc in (0, 1), err
+    assert len(json.loads(text)["kept"]) == 3 and (out / "planner-summary.xlsx").exists()
+    (out / "planner-orders.pdf").write_bytes(b"someone else's document")
+    rc, _, err = run_cli(["batch", sheet, "--out", out, "--carry-on"])
+    assert "planner-orders.pdf already exists" in one_line_error(rc, err)
+    assert (out / "planner-orders.pdf").read_bytes() == b"someone else's document"
+
+
 def test_a_file_of_another_kind_under_the_record_name_is_not_replaced(tmp_path):
     sheet = planner(tmp_path, rows=2)
     out = tmp_path / "out"
@@ -497,9 +518,7 @@ def test_out_that_is_not_a_folder_says_what_it_is(tmp_path, kind, command):
     else:
         out, words = tmp_path / "out", "a link that loops"
         out.symlink_to(tmp_path / "out")
-    argv = {"demo": ["demo", "--out", out], "order": ["order", JOB, "--out", out],
-            "batch": ["batch", planner(tmp_path), "--out", out]}[command]
-    rc, _, err = run_cli(argv)
+    rc, _, err = run_cli(writer_argv(command, tmp_path, out))
     line = one_line_error(rc, err)
     assert f"--out {out} {words}" in line.replace(" is a link", " a link") and "give a folder" in line, line
     assert not (tmp_path / "nowhere").exists()

@@ -443,9 +443,11 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
     recorded = earlier.get("orders", {}) if earlier else {}
     batch_force = force
     if carry_on and not force:
-        # the batch's own files may be replaced when the record says the recorded batch made them
+        # the batch's own files may be replaced when the record says the recorded batch made them, or when
+        # it records a batch that did not finish (it was stopped after writing one of them)
         for path, key in ((combined_path, "combined"), (summary_path, "summary")):
-            if path.exists() and (earlier is None or earlier.get(key) != _file_digest(path)):
+            if path.exists() and (earlier is None or (earlier.get("complete") is not False
+                                                      and earlier.get(key) != _file_digest(path))):
                 check_writable(path, False)
         batch_force = earlier is not None
     for path in (combined_path, summary_path, manifest_path):
