@@ -192,7 +192,7 @@ def test_trial_run_thresholds_are_overridable_and_reported():
     text = path.read_text(encoding="utf-8")
     default = build_order(parse_job(text, str(path), path.parent))
     used = {s.name: s for s in default.settings}
-    # common practice [CP]: a trial should change the reading by about 30 % or 30° (DOMAIN.md section 2)
+    # common practice [CP]: a trial should change the reading by about 30 % or 30° (docs/methods.md §2)
     assert used["trial run: least change in amplitude"].value == "30 %"
     assert not used["trial run: least change in amplitude"].given
     assert not any("trial effect too small" in w for w in default.warnings)
@@ -204,7 +204,7 @@ def test_trial_run_thresholds_are_overridable_and_reported():
 
 
 def test_weld_convexity_and_fillet_from_the_job_reach_the_plate(tmp_path):
-    # DOMAIN.md section 3: fillet cross-section z²/2 plus 10–30 % convexity, the convexity from memory [M],
+    # docs/methods.md §3: fillet cross-section z²/2 plus 10–30 % convexity, the convexity from memory [M],
     # so a job must be able to set it and the work order must say which value was used
     from toolkit.workorder.build import build_order, demo_job
     from toolkit.workorder.job import parse_job

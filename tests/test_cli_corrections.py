@@ -1,6 +1,6 @@
 """Command-line tests for ``counterpoise solve`` and ``counterpoise split``.
 
-Reference numbers are the synthetic cases of /work/shared/references/correction.csv (mark D: they check our
+Reference numbers are synthetic cases (mark D: they check our
 implementation of the published influence-coefficient method, they are not published numbers).
 """
 
@@ -175,7 +175,7 @@ def test_trial_suggestion(capsys):
     code, out, _ = run(capsys, "solve", "--bearing-mass", "200 kg", "--radius", "150 mm", "--speed", "1480 rpm",
                        "--json")
     data = json.loads(out)
-    # DOMAIN.md section 2, common practice [CP, M]: 8.95e7 * M / (r n^2) grams
+    # docs/methods.md §2, common practice [CP, M]: 8.95e7 * M / (r n^2) grams
     assert data["trial_mass_g"] == pytest.approx(8.95e7 * 200 / (150 * 1480**2), rel=2e-3)
     assert data["fraction_source"].startswith("common practice")
 

@@ -178,7 +178,7 @@ def test_add_is_drilled_opposite_and_says_so():
 
 
 def test_several_holes_vector_sum():
-    # DOMAIN.md 3 (D): n holes at pitch p give U_i sin(n p/2)/sin(p/2)
+    # docs/methods.md §3 (D): n holes at pitch p give U_i sin(n p/2)/sin(p/2)
     r = drill_correction("15000 g*mm", radius="150 mm", orientation="axial", diameter="10 mm", material="steel",
                          angle_deg=20)
     n, p = len(r.holes), r.pitch_deg
@@ -310,7 +310,7 @@ def test_rounding_respects_the_wall():
 
 @pytest.mark.parametrize("R, d, L", [(100, 10, 10), (150, 12, 20), (60, 8, 5)])
 def test_radial_volume_close_to_the_approximate_form(R, d, L):
-    # DOMAIN.md section 3 (D): V ~ pi r^2 (L + h/3) - pi r^4/(8R); the neglected terms are of order r^6/R^3,
+    # docs/methods.md §3 (D): V ~ pi r^2 (L + h/3) - pi r^4/(8R); the neglected terms are of order r^6/R^3,
     # so the exact (quadrature) volume agrees to better than 1e-5 for these proportions
     g = radial_hole(f"{d} mm", f"{L} mm", f"{R} mm", "1000 kg/m^3")
     r, h = d / 2, d / 2 / math.tan(math.radians(59))

@@ -1,6 +1,6 @@
 """Tests for toolkit.influence and toolkit.coefficients.
 
-The reference cases come from /work/shared/references/correction.csv. They are synthetic (mark D): readings
+The reference cases are synthetic (mark D): readings
 synthesised from a chosen coefficient and unbalance, so they check our implementation of the published
 influence-coefficient method (Thearle 1934; Yu 2004; Goodman 1964); they are not published numbers.
 Random rotors are checked against their own construction and against numpy's general least-squares solver
@@ -85,7 +85,7 @@ def test_one_plane_reference_trial_left_on():
 
 def test_wrong_sense_gives_mirror_image():
     # correction.csv "one-plane-sense": readings conjugated and not corrected -> 12.000 g@105.00 (mirror image)
-    # derived here (D), DOMAIN.md section 2 (angle sense)
+    # derived here (D), docs/methods.md §2 (angle sense)
     naive = solve_one_plane("4.20 mm/s@75.0", "10 g@0", "6.1237 mm/s@108.51",
                             weight_angles="against rotation", phase="lag").corrections[0]
     assert naive.mass.m_as("g") == pytest.approx(12.0, rel=1e-3)
@@ -411,7 +411,7 @@ def test_bare_numbers_refused_with_a_helpful_message():
 # --- trial mass suggestion -----------------------------------------------------------------------------------
 
 def test_trial_mass_rule():
-    # DOMAIN.md section 2, common practice [CP, M]: m_t [g] ~ 8.95e7 M / (r n^2) at 10 % of the bearing load
+    # docs/methods.md §2, common practice [CP, M]: m_t [g] ~ 8.95e7 M / (r n^2) at 10 % of the bearing load
     s = suggest_trial_mass("200 kg", "150 mm", "1480 rpm")
     assert s.mass.m_as("g") == pytest.approx(8.95e7 * 200 / (150 * 1480**2), rel=2e-3)  # common practice, no source
     assert "common practice" in s.mark

@@ -23,7 +23,7 @@ def test_table_fingerprint():
 
 
 # Nominal compositions (mass fractions): from memory, typical grade chemistry; the check asks only for
-# agreement within 5 % (DOMAIN.md section 3), which nominal compositions easily resolve.
+# agreement within 5 % (docs/methods.md §3), which nominal compositions easily resolve.
 COMPOSITIONS = {
     "carbon steel": {"Fe": 0.985, "Mn": 0.01, "C": 0.002, "Si": 0.003},
     "low-alloy steel": {"Fe": 0.96, "Cr": 0.01, "Mo": 0.002, "Mn": 0.008, "Ni": 0.018, "C": 0.002},
@@ -50,7 +50,7 @@ def _mix_density(fractions):
 
 @pytest.mark.parametrize("name", sorted(COMPOSITIONS))
 def test_density_against_periodictable(name):
-    # periodictable package (CRC Handbook element densities); tolerance 5 % per DOMAIN.md section 3
+    # periodictable package (CRC Handbook element densities); tolerance 5 % per docs/methods.md §3
     assert find(name).density_kg_m3 == pytest.approx(_mix_density(COMPOSITIONS[name]), rel=0.05)
 
 
@@ -60,7 +60,7 @@ def test_every_non_cast_iron_material_is_checked():
 
 
 def test_steel_and_aluminium_reference_rows():
-    # /work/shared/references/fabrication.csv density-steel-vs-fe and density-al-vs-al: within 1 %
+    # derived here (D): steel against iron and aluminium alloy against aluminium, within 1 %
     # (periodictable package, CRC Handbook; EN 1993-1-1 3.2.6)
     assert find("steel").density_kg_m3 == pytest.approx(periodictable.Fe.density * 1000, rel=1e-2)
     assert find("6061").density_kg_m3 == pytest.approx(periodictable.Al.density * 1000, rel=1e-2)

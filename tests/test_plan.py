@@ -11,7 +11,7 @@ from toolkit.fabricate.plan import plan_correction
 
 
 def test_add_request_drilled_opposite_and_achieved_in_the_request_sense():
-    # removing mass at θ equals adding it at θ + 180° (DOMAIN.md section 2, derived; the shop convention of
+    # removing mass at θ equals adding it at θ + 180° (docs/methods.md §2, derived; the shop convention of
     # drilling at the heavy spot is common practice, no source): "add at 131°" is drilled at 311°
     p = plan_correction("2400 g*mm", 131, "drill", radius="150 mm", material="steel", action="add")
     assert all(op.kind == "hole" and op.action == "remove" and op.angle_deg == 311 for op in p.operations)

@@ -55,7 +55,7 @@ def test_flat_and_face_plates():
 
 @pytest.mark.parametrize("t, leg", [(3, 3), (6, 3), (8, 5), (12, 5), (16, 6), (20, 6), (25, 8)])
 def test_minimum_fillet_table(t, leg):
-    # AWS D1.1 minimum fillet size table as reproduced (H), DOMAIN.md section 3
+    # AWS D1.1 minimum fillet size table as reproduced (H), docs/methods.md §3
     assert min_fillet_mm(t) == leg
 
 
@@ -143,7 +143,7 @@ def test_bad_inputs():
 
 def test_plate_stock_fingerprint(tmp_path):
     rows = stock.plate_stock()
-    assert len(rows) == 20  # 11 metric (H) + 9 inch (M), DOMAIN.md section 3
+    assert len(rows) == 20  # 11 metric (H) + 9 inch (M), docs/methods.md §3
     assert sum(t.thickness_mm for t in stock.plate_stock(unit="mm")) == pytest.approx(124)
     assert sum(t.thickness_mm for t in stock.plate_stock(unit="in")) == pytest.approx(4.125 * 25.4)
     bad = tmp_path / "stock.csv"

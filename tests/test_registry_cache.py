@@ -6,7 +6,7 @@ answer as with a clean cache. The suite runs as root, where permissions do not b
 folder on a read-only file system (``/proc``) or below a plain file.
 
 The check value U_per = 2005 g·mm for G 6.3, 100 kg, 3000 r/min is ISO 21940-11:2016, 6.3.3 (formula;
-shared/references/tolerance.csv, row iso-u-per-100kg, 2005.35 g*mm).
+ISO 21940-11:2016, 6.3.3: G 6.3, 100 kg, 3000 r/min gives 2005.35 g*mm).
 """
 
 from __future__ import annotations

@@ -1,6 +1,6 @@
 """Tests for toolkit.vectors: parsing, adding, radius change, splitting, combining, static/couple.
 
-Check values from /work/shared/references/correction.csv are synthetic cases derived here (D): they check our
+Check values are synthetic cases derived here (D): they check our
 implementation of plain vector algebra, they are not published numbers.
 """
 
@@ -25,7 +25,7 @@ def _angle_close(a, b, tol):
     return min(d, 360 - d) <= tol
 
 
-# --- reference cases (source: ../shared/references/correction.csv, mark D) ---------------------------------------------------------
+# --- reference cases (synthetic cases derived here, mark D) ---------------------------------------------------------
 
 def test_split_reference_case():
     # correction.csv "split": 25 g@100 onto 90 and 135 -> 20.279 g@90 + 6.139 g@135, rel 1e-4

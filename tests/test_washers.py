@@ -17,7 +17,7 @@ def test_reference_washer_masses(d1, d2, h, expected, rel):
     assert washer_mass(d1, d2, h).m_as("g") == pytest.approx(expected, rel=rel)
 
 
-# ISO 7089 masses as listed by a fastener supplier (H, DOMAIN.md section 3); tolerance half a unit of the
+# ISO 7089 masses as listed by a fastener supplier (H, docs/methods.md §3); tolerance half a unit of the
 # printed last digit
 SUPPLIER = {"M6": 1.02, "M8": 1.83, "M10": 3.57, "M12": 6.27, "M16": 11.3, "M20": 17.2, "M24": 32.3}
 

@@ -5,7 +5,7 @@ and then corrects each later rotor from its original run alone. After the correc
 well the stored coefficients still describe the rotor; the coefficients are then updated by the
 least-change (Broyden) rank-one update A' = A + (ΔV − A·ΔU)·ΔUᴴ / (ΔUᴴ·ΔU), which reproduces the trim run
 exactly and leaves the response to any correction orthogonal to ΔU unchanged [D]. With one plane this is
-α' = ΔV/ΔU, the one-plane formula of DOMAIN.md section 2.
+α' = ΔV/ΔU, the one-plane formula of docs/methods.md §2.
 
 The file is JSON of our own design (``"format": "counterpoise-influence"``, ``"version": 1``)::
 

@@ -1,6 +1,6 @@
 """Corrections from trial-mass runs: influence-coefficient solvers.
 
-Sources (DOMAIN.md section 2):
+Sources (docs/methods.md §2):
 
 * one plane, one trial run: influence coefficient α = (OT − O)/T, correction W = −O/α (add W); with the
   trial left on, add W − T. The standard trial-mass procedure credited to Thearle, Trans. ASME 1934
@@ -52,7 +52,7 @@ __all__ = [
     "fit_influence", "correct", "finish_solution", "four_run", "suggest_trial_mass", "METHODS",
 ]
 
-#: Cautions every output of this module carries (DOMAIN.md section 4).
+#: Cautions every output of this module carries (docs/methods.md §4).
 CAUTIONS = (
     "Secure trial and correction masses before every run; a loose mass leaves the rotor at speed.",
     "Keep guards closed and people clear of the plane of rotation during runs.",
@@ -80,7 +80,7 @@ def _phase_sense(value, name: str = "phase") -> str:
 
 
 def conjugate_needed(weight_angles: str, phase: str) -> bool:
-    """Whether readings must be conjugated before solving [D, DOMAIN.md section 2].
+    """Whether readings must be conjugated before solving [D, docs/methods.md §2].
 
     Phase lag grows in the same sense as angles measured against rotation.
 
@@ -97,7 +97,7 @@ class Settings:
     """Thresholds for the warnings, each overridable, with where its default comes from.
 
     trial_change_pct, trial_change_deg: a trial run should change the reading by at least this much in
-    amplitude or phase at one sensor or more (about 30 % or 30°) [CP, DOMAIN.md section 2].
+    amplitude or phase at one sensor or more (about 30 % or 30°) [CP, docs/methods.md §2].
     max_condition: condition number of the weighted coefficient matrix above which the planes are said to
     fight (chosen here, no source). max_effort: ratio of the sum of the planes' separate effects to their
     net effect above which the corrections are said to be much larger than what they achieve (chosen here,
@@ -858,7 +858,7 @@ class AmplitudeSolution:
     amplitudes: tuple[float, ...]
     warnings: tuple[str, ...]
     action: str = "add"
-    source: str = ("amplitude-only method, A_k^2 - A0^2 = p + 2c cos(t_k) + 2s sin(t_k) (DOMAIN.md section 2) "
+    source: str = ("amplitude-only method, A_k^2 - A0^2 = p + 2c cos(t_k) + 2s sin(t_k) (docs/methods.md §2) "
                    "[D]; graphical form in McMillan, Rotating Machinery, ch. 6")
     cautions: tuple[str, ...] = CAUTIONS
 
@@ -962,7 +962,7 @@ class TrialSuggestion:
 def suggest_trial_mass(bearing_mass, radius, speed, fraction: float | None = None) -> TrialSuggestion:
     """A trial mass whose centrifugal force is ``fraction`` of the static load on the nearer bearing.
 
-    Source: common shop practice, fraction about 10 % [CP, M] (DOMAIN.md section 2):
+    Source: common shop practice, fraction about 10 % [CP, M] (docs/methods.md §2):
     m_t = fraction · M_bearing · g / (r · Ω²), about 8.95·10⁷ · M [kg] / (r [mm] · n² [r/min]) grams at 10 %.
     Parameters: bearing_mass [mass] carried by the nearer bearing; radius [length] of the trial; speed
     [1/time] of the trial run; fraction, default 0.10, overridable (0 < fraction ≤ 0.5).

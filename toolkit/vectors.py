@@ -4,7 +4,7 @@ A vector is an amount with its unit and an angle in degrees measured on the roto
 ``"38 g@210"``, ``"4.2 mm/s@75"``, ``"12 um@300"``, ``"2400 g*mm @ 131°"``. Internally a vector is a
 complex number ``amount * exp(i * angle)`` in the kind's kernel unit (see :mod:`toolkit.units`).
 
-Helpers here (DOMAIN.md section 2, "Helpers", all [D]: plain vector algebra, checked numerically):
+Helpers here (docs/methods.md §2, "Helpers", all [D]: plain vector algebra, checked numerically):
 adding and scaling vectors, the same unbalance at another radius (m2 = m1 * r1 / r2), splitting one
 correction onto fixed positions (law of sines), combining several weights into one (vector sum of
 m * r * e^{i angle}), and the static/couple decomposition of a two-plane correction.
@@ -209,7 +209,7 @@ def parse_reading(text, name: str = "reading") -> tuple[complex, str, str]:
 def add_vectors(*vectors, kind: str = "mass"):
     """The vector sum of several ``AMOUNT@ANGLE`` vectors of one kind, as ``(quantity, angle_deg)``.
 
-    Source: plain vector addition (DOMAIN.md section 2, helpers) [D].
+    Source: plain vector addition (docs/methods.md §2, helpers) [D].
 
     >>> amount, angle = add_vectors("10 g@0", "15 g@90", "5 g@200"); f"{amount.m_as('g'):.3f} g@{angle:.2f}"
     '14.308 g@68.25'
@@ -266,7 +266,7 @@ class Split:
     angle_deg: float
     positions_deg: tuple[float, ...]
     parts: tuple[tuple[float, float], ...]
-    method: str = "law of sines onto the two neighbouring positions (DOMAIN.md section 2) [D]"
+    method: str = "law of sines onto the two neighbouring positions [D]"
 
     def to_dict(self) -> dict:
         return {"input": {"mass_g": self.mass_g, "angle_deg": self.angle_deg},
@@ -278,7 +278,7 @@ class Split:
 def split_vector(vector, positions: int | None = None, offset=0.0, at=None) -> Split:
     """Split a mass ``AMOUNT@ANGLE`` onto fixed positions (holes, bolts, blade roots).
 
-    Source: law of sines [D] (DOMAIN.md section 2): for positions θa < θ < θb less than 180 degrees apart,
+    Source: law of sines [D] (docs/methods.md §2): for positions θa < θ < θb less than 180 degrees apart,
     m_a = m sin(θb − θ)/sin(θb − θa) and m_b = m sin(θ − θa)/sin(θb − θa). The vector sum of the parts
     equals the input.
 
@@ -380,7 +380,7 @@ class StaticCouple:
     couple_g_mm: float
     couple_angle_deg: float
     plane_distance_mm: float
-    method: str = "resultant U1 + U2; moment U1 z1 + U2 z2 (DOMAIN.md section 2) [D]"
+    method: str = "resultant U1 + U2; moment U1 z1 + U2 z2 [D]"
 
     def to_dict(self) -> dict:
         return dict(self.__dict__)

@@ -1,6 +1,6 @@
 """Drilled holes that remove a required unbalance: geometry, depth for a target, drill choice and limits.
 
-Sources (DOMAIN.md section 3): the drill point is a cone of included angle θ (118° general twist drills,
+Sources (docs/methods.md §3): the drill point is a cone of included angle θ (118° general twist drills,
 135° for hard material, 180° a flat-bottom tool), height h = (d/2)/tan(θ/2) [S: drill makers' technical
 data; D]; a cone's centroid lies h/4 from its base [S: solid geometry]. Depth is to the shoulder (end of
 the full diameter) from first contact; the tip lies h deeper [CP].
@@ -33,7 +33,7 @@ __all__ = ["Limits", "Hole", "DrillResult", "point_height", "axial_hole", "radia
 
 ORIENTATIONS = ("axial", "radial")
 
-#: Short cautions printed with every drilling result (DOMAIN.md section 4).
+#: Short cautions printed with every drilling result (docs/methods.md §4).
 CAUTIONS = (
     "Lock the rotor and isolate its drive (lock-out/tag-out, OSHA 29 CFR 1910.147) before drilling.",
     "Clamp the work; no gloves near a turning spindle.",
@@ -264,7 +264,7 @@ def _check_geometry(orientation: str, d: float, L: float, radius: float, angle: 
 
 
 def axial_hole(diameter, depth, pitch_radius, density, point_angle_deg: float = 118.0) -> HoleGeometry:
-    """Axial hole in a face: V = π r² (L + h/3), U = ρ V R_c (D; DOMAIN.md 3).
+    """Axial hole in a face: V = π r² (L + h/3), U = ρ V R_c (D; docs/methods.md §3).
 
     diameter, depth (to the shoulder), pitch_radius : Quantity [length]; density : Quantity [mass/length³].
 
@@ -275,7 +275,7 @@ def axial_hole(diameter, depth, pitch_radius, density, point_angle_deg: float = 
 
 
 def radial_hole(diameter, depth, surface_radius, density, point_angle_deg: float = 118.0) -> HoleGeometry:
-    """Radial hole into a cylinder, exact first moment (D; DOMAIN.md 3):
+    """Radial hole into a cylinder, exact first moment (D; docs/methods.md §3):
     S = (π r²/2)(R² − y_s²) − π r⁴/8 + (π r² h/3)(y_s − h/4), y_s = R − L, U = ρ S.
 
     Valid for shoulder depth L ≥ R − √(R² − r²) (full diameter below the surface) and a tip short of the
@@ -384,7 +384,7 @@ class DrillResult:
     pitch_deg: float | None
     fixed_positions: tuple[float, ...] | None
     warnings: tuple[str, ...] = ()
-    method: str = "exact hole geometry (DOMAIN.md section 3: axial V = π r² (L + h/3); radial first moment)"
+    method: str = "exact hole geometry (derived here [D]: axial V = π r² (L + h/3); radial first moment)"
     cautions: tuple[str, ...] = CAUTIONS
     wall_mm: float | None = None
 
@@ -577,7 +577,7 @@ def _offset(angle: float, centre: float) -> float:
 
 
 def _split_fixed(U: float, theta: float, positions: tuple[float, ...]) -> list[tuple[float, float]]:
-    """Split U at theta onto the two neighbouring fixed positions (law of sines; DOMAIN.md 2, D)."""
+    """Split U at theta onto the two neighbouring fixed positions (law of sines; docs/methods.md §2, D)."""
     pos = sorted(set(_norm(p) for p in positions))
     for p in pos:
         if abs(_offset(p, theta)) < 1e-9:

@@ -4,7 +4,7 @@ The table is ``tables/materials.csv`` (columns ``name, aliases, density_kg_m3, w
 or a shop's own CSV with the same columns. Names and aliases (grade designations such as ``S355``,
 ``1.4301``, ``6061``) are matched without regard to case, spaces or hyphens.
 
-Densities follow DOMAIN.md section 3 (EN 1993-1-1 3.2.6 for steels, EN 10088-1 for stainless, the CRC
+Densities follow docs/methods.md §3 (EN 1993-1-1 3.2.6 for steels, EN 10088-1 for stainless, the CRC
 Handbook for the elements); cast-iron densities vary between heats and are marked from memory. Weldability
 is common practice, not a normative statement: the welding procedure and the rotor maker decide.
 """

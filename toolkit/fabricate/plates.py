@@ -1,7 +1,7 @@
 """Weld-on plates that add a required unbalance: flat on an outer surface, rolled to the radius (outer or
 inner surface) or flat on a radial face.
 
-Geometry (DOMAIN.md section 3, derived [D]): a flat plate of thickness t touching an outer surface of
+Geometry (docs/methods.md §3, derived [D]): a flat plate of thickness t touching an outer surface of
 radius R at its middle has its centroid at R + t/2 and mass ρ t w b. A plate rolled to the radius is an
 annular sector (arc length b on R, half-angle α = b/(2R), R_o = R + t, or R − t on an inner surface):
 m = ρ w α |R_o² − R²|, centroid r̄ = (2/3)(sin α/α)(R_o³ − R³)/(R_o² − R²). On a flat radial face the
@@ -171,7 +171,7 @@ class PlateResult:
     material: str | None
     density_source: str
     warnings: tuple[str, ...] = ()
-    method: str = "plate and fillet geometry (DOMAIN.md section 3, derived)"
+    method: str = "plate and fillet geometry (derived here [D])"
     cautions: tuple[str, ...] = CAUTIONS
 
     def placement(self, unb=None) -> str:

@@ -34,7 +34,7 @@ from toolkit.workorder.model import (Formatter, Identification, Operation, Plane
 
 __all__ = ["build_order", "order_from_file", "demo_job", "demo_order", "write_examples", "GENERAL_CAUTIONS"]
 
-#: Cautions every work order carries (DOMAIN.md section 4); the fabrication and solver modules add their own
+#: Cautions every work order carries (docs/methods.md §4); the fabrication and solver modules add their own
 #: for the operations used.
 GENERAL_CAUTIONS = (
     "Secure every trial and correction mass before any run (welds finished and inspected, bolts torqued "

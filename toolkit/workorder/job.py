@@ -89,7 +89,7 @@ THRESHOLDS = ("trial_change_pct", "trial_change_deg")
 #: What a balancing machine's angle shows.
 SHOWS = ("heavy spot", "add")
 
-#: Defaults applied when the job file is silent: value, mark (DOMAIN.md marks) and why.
+#: Defaults applied when the job file is silent: value, mark (the marks of docs/methods.md) and why.
 DEFAULTS: Mapping[str, tuple[str, str, str]] = MappingProxyType({
     "rotor.grade": ("G 6.3", "CP", "common practice for general machinery, fans and pumps; set [rotor] grade"),
     "rotor.material": ("carbon steel", "CP", "common practice; set [rotor] material"),

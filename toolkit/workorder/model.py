@@ -50,7 +50,7 @@ def effect(action: str, amount_g_mm: float, angle_deg: float) -> complex:
     """The change of the rotor's unbalance caused by adding or removing ``amount_g_mm`` at ``angle_deg``.
 
     Adding mass puts unbalance at its angle; removing it takes unbalance away there (the same as adding at
-    angle + 180°).  [D, DOMAIN.md section 2, helpers]
+    angle + 180°).  [D, docs/methods.md §2, helpers]
 
     >>> polar(effect("remove", 50.0, 30.0))
     (50.0..., 210.0...)
@@ -179,7 +179,7 @@ class PlaneOrder:
 
 @dataclass(frozen=True)
 class Setting:
-    """A value the order used where DOMAIN.md marks it [M] or [CP]: what, the value, its mark, whether the
+    """A value the order used where docs/methods.md marks it [M] or [CP]: what, the value, its mark, whether the
     job gave it (``given``) or the default was used, and how to override it."""
 
     name: str
