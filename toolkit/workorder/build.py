@@ -361,10 +361,10 @@ def build_order(job: Job) -> WorkOrder:
         correction_angle = a0 if correction_action == "remove" else (a0 + 180.0) % 360.0
         planes.append(PlaneOrder(spec.name, spec.position.m_as("mm"), spec.radius.m_as("mm"), spec.surface, method,
                                  tol, u0, a0, correction_action, u0, correction_angle, tuple(ops), amount, angle,
-                                 (check.rule,), check.limit.m_as("g*mm")))
+                                 (check.rule,), check.limit.m_as("g*mm"), check.rule))
     all_cautions = list(GENERAL_CAUTIONS) + cautions
     sources = [tolerances[p.name].source for p in job.planes] + sources
-    sources.append("Residual check: " + planes[0].notes[0] if planes else "")
+    sources.append("Residual check: " + planes[0].rule if planes else "")
     sources += [_SOURCES[k] for k in ("hole", "plate", "washers") if k in kinds_used]
     sources.append("Safety: lock-out/tag-out OSHA 29 CFR 1910.147; hot work OSHA 29 CFR 1926.352/.354; welding "
                    "procedures ISO 15614-1 or AWS D1.1.")

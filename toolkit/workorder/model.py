@@ -156,6 +156,8 @@ class PlaneOrder:
     predicted_deg: float
     notes: tuple[str, ...] = ()
     limit_g_mm: float | None = None
+    #: The acceptance rule of the check run, in words (the rule that decided ``limit_g_mm``).
+    rule: str = ""
 
     @property
     def limit(self) -> float:
@@ -249,6 +251,13 @@ class WorkOrder:
     def paper_name(self) -> str:
         """The paper the order prints on: its own, or Letter for imperial and A4 for metric units."""
         return self.paper or ("Letter" if self.units == "imperial" else "A4")
+
+    @property
+    def acceptance_rule(self) -> str:
+        """The check-run rule in words, decided once when the order is built: every exporter prints it and
+        compares with each plane's :attr:`PlaneOrder.limit` (the allowance less ΔU where one is given)."""
+        rules = list(dict.fromkeys(p.rule for p in self.planes if p.rule))
+        return "; ".join(rules) or "pass when residual <= allowance"
 
     @property
     def operations(self) -> tuple[Operation, ...]:

@@ -214,10 +214,12 @@ def _first_page(w: _Writer, fmt: Formatter):
     w.ensure(60 + 18 * len(order.planes) + 40 + 3 * 22 + 40)
     w.heading("Check run after correction")
     w.paragraph("Run only with every mass secured, guards closed and people clear of the plane of rotation. "
-                "Pass: measured residual at most the allowance.", 8, _MUTED)
-    w.table([("Plane", 0.16), ("Allowance", 0.18), ("Measured residual", 0.22), ("Angle", 0.16),
+                f"Acceptance rule: {order.acceptance_rule}; the limit is the allowance less the measurement "
+                "error allowance ΔU where one is given.", 8, _MUTED)
+    w.table([("Plane", 0.14), ("Allowance", 0.14), ("Limit", 0.14), ("Measured residual", 0.18), ("Angle", 0.12),
              ("Pass / fail", 0.14), ("Initials", 0.14)],
-            [[p.name, fmt.unbalance(p.tolerance.u_per_g_mm), "", "", "", ""] for p in order.planes],
+            [[p.name, fmt.unbalance(p.tolerance.u_per_g_mm), fmt.unbalance(p.limit), "", "", "", ""]
+             for p in order.planes],
             row_height=18)
 
     w.heading("Sign-off")

@@ -411,8 +411,7 @@ def workbook(order: WorkOrder):
                                       f'IF(COUNTIF({first}:{last},"PASS")={count},"PASS","open"))')
     wb.defined_names["overall_result"] = DefinedName("overall_result", attr_text=f"'{SHEET}'!$G${r}")
     sh.row += 1
-    rule = order.planes[0].notes[0] if order.planes and order.planes[0].notes else \
-        "pass when residual <= allowance"
+    rule = order.acceptance_rule
     sh.long(f"Acceptance rule: {rule}. The limit is the allowance less the measurement error allowance ΔU "
             "(default 0, from memory: ISO 21940-14). The rotor maker's acceptance rules take precedence.", "sub")
 
