@@ -46,7 +46,19 @@ class Operation:
     mass_g: float
     unbalance_g_mm: float
     dimensions: dict
-    description: str
+    #: the sentence in two parts, before and after the place where the angle goes ("... at 57° ...")
+    words: tuple[str, str]
+
+    @property
+    def description(self) -> str:
+        """The whole sentence, with the angle in it (as the calculators print it)."""
+        return f"{self.words[0]} at {self.angle_deg:g}°{self.words[1]}"
+
+    @property
+    def without_angle(self) -> str:
+        """The sentence without the angle, for a work order that prints the angle, with its reference and
+        sense, in a column of its own (and rounds it to the shop's marking step)."""
+        return f"{self.words[0]}{self.words[1]}"
 
     def add_vector(self) -> complex:
         """The operation as an equivalent added unbalance [g·mm] (a removal at φ is an addition at φ+180°)."""
@@ -136,10 +148,10 @@ def _ops_drill(r: drilling.DrillResult, say: _Say | None = None) -> tuple[Operat
             "hole", "remove", h.angle_deg, h.mass_g, h.unbalance_g_mm,
             {"diameter_mm": h.diameter_mm, "depth_mm": h.depth_mm, "tip_depth_mm": h.tip_depth_mm,
              "radius_mm": r.radius_mm},
-            f"hole {i} of {len(r.holes)}: drill {r.orientation} {r.drill} ({r.point_angle_deg:g}° point) at "
-            f"{h.angle_deg:g}° on {say.dim(r.radius_mm)} {where}, {say.len(h.depth_mm)} deep to the shoulder "
-            f"({say.len(h.tip_depth_mm)} to the tip); removes {say.mass(h.mass_g)}"
-            + (f"; {say.len(r.wall_mm - h.tip_depth_mm)} of wall left under the tip" if r.wall_mm else "")))
+            (f"hole {i} of {len(r.holes)}: drill {r.orientation} {r.drill} ({r.point_angle_deg:g}° point)",
+             f" on {say.dim(r.radius_mm)} {where}, {say.len(h.depth_mm)} deep to the shoulder "
+             f"({say.len(h.tip_depth_mm)} to the tip); removes {say.mass(h.mass_g)}"
+             + (f"; {say.len(r.wall_mm - h.tip_depth_mm)} of wall left under the tip" if r.wall_mm else ""))))
     return tuple(ops)
 
 
@@ -153,10 +165,10 @@ def _ops_plate(p: plates.PlateResult, say: _Say | None = None) -> tuple[Operatio
             "plate", "add", a, p.mass_g + p.weld_mass_g, one,
             {"thickness_mm": p.thickness_mm, "width_mm": p.width_mm, "length_mm": p.length_mm,
              "fillet_mm": p.fillet_mm, "centroid_radius_mm": p.centroid_radius_mm},
-            f"plate{'' if p.seats == 1 else f' {i} of 2'}: weld a {p.shape} {p.thickness_label} plate "
-            f"{say.dim(p.width_mm)} × {say.dim(p.length_mm)} ({say.mass(p.mass_g)}, about {say.mass(p.weld_mass_g)} "
-            f"of weld with {say.dim(p.fillet_mm)} fillets) on the "
-            f"{p.surface + ' surface' if p.shape != 'face' else 'face'} at {a:g}°, radius {say.dim(p.radius_mm)}"))
+            (f"plate{'' if p.seats == 1 else f' {i} of 2'}: weld a {p.shape} {p.thickness_label} plate "
+             f"{say.dim(p.width_mm)} × {say.dim(p.length_mm)} ({say.mass(p.mass_g)}, about {say.mass(p.weld_mass_g)} "
+             f"of weld with {say.dim(p.fillet_mm)} fillets) on the "
+             f"{p.surface + ' surface' if p.shape != 'face' else 'face'}", f", radius {say.dim(p.radius_mm)}")))
     return tuple(ops)
 
 
@@ -166,8 +178,8 @@ def _ops_washers(s: washers.WasherStack, say: _Say | None = None) -> tuple[Opera
         "washers", "add", s.add_angle_deg, s.mass_g, s.achieved_g_mm,
         {"size": s.size, "series": s.series, "count": s.count, "stack_height_mm": s.stack_height_mm,
          "centroid_radius_mm": s.centroid_radius_mm},
-        f"washers: stack {s.count} × {s.size} {s.series} ({say.mass(s.mass_g)}) on the {s.orientation} bolt at "
-        f"{s.add_angle_deg:g}°, radius {say.dim(s.radius_mm)}"),)
+        (f"washers: stack {s.count} × {s.size} {s.series} ({say.mass(s.mass_g)}) on the {s.orientation} bolt",
+         f", radius {say.dim(s.radius_mm)}")),)
 
 
 def _summarise(ops, U, angle, action):

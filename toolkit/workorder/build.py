@@ -24,6 +24,8 @@ The result is one immutable :class:`~toolkit.workorder.model.WorkOrder`.
 
 from __future__ import annotations
 
+import math
+
 import re
 from pathlib import Path
 
@@ -148,7 +150,7 @@ def _plan(job: Job, plane, u0: float, a0: float, allowance: float, method: str, 
     from toolkit.fabricate.plan import plan_correction
 
     common = dict(radius=plane.radius, material=plane.material, allowance=_q(allowance, "g*mm"),
-                  materials_table="materials")
+                  materials_table="materials", units=job.shop.units)
     if method == "drill":
         limits = dict(job.shop.drilling)
         if plane.max_depth is not None:
@@ -183,7 +185,7 @@ def _plan(job: Job, plane, u0: float, a0: float, allowance: float, method: str, 
     ops, warnings, cautions = [], [], []
     for p in plans:
         for op in p.operations:
-            text = op.description.replace(f" at {op.angle_deg:g}°", "")
+            text = op.without_angle
             ops.append((_METHOD_KIND[method], op.action, _round_angle(op.angle_deg, step), op.mass_g,
                         op.unbalance_g_mm, dict(op.dimensions), text))
         warnings.extend(p.warnings)
@@ -392,11 +394,16 @@ def _shown_date(job: Job) -> str:
 
 
 def _details(kind: str, dims: dict, mass: float, job: Job) -> tuple[tuple[str, str], ...]:
-    step = job.shop.mass_step.m_as("g")
+    unit = "oz" if job.shop.units == "imperial" else "g"  # the scale's unit follows the job's unit system
+    step = job.shop.mass_step.m_as(unit)
+    if unit == "oz":  # a gram step is no round number of ounces: read to the decade below it (0.1 g: 0.001 oz)
+        step = 10.0 ** math.floor(math.log10(step))
+    shown = mass / 28.349523125 if unit == "oz" else mass
+    weighed = f"{round(shown / step) * step:.{_decimals(step)}f} {unit}"
     if kind == "plate":
-        return (("weigh before welding", f"{round(mass / step) * step:.{_decimals(step)}f} g with weld"),)
+        return (("weigh before welding", f"{weighed} with weld"),)
     if kind == "washers":
-        return (("weigh the stack", f"{round(mass / step) * step:.{_decimals(step)}f} g"),)
+        return (("weigh the stack", weighed),)
     return ()
 
 

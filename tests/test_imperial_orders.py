@@ -1,0 +1,56 @@
+"""An inch-pound job's work order speaks inch-pound in its operations, in both exporters.
+
+Regression for a defect where `examples/job-blower-imperial.toml` gave a row "Mass [oz] 0.797" beside
+"radius 228.6 mm ... (weigh the stack: 22.6 g)": the fabrication planner was called without the job's
+unit system. Unit factors: 1 in = 25.4 mm and 1 oz = 28.349523125 g exactly (international yard and pound
+agreement, 1959).
+"""
+
+from __future__ import annotations
+
+import io
+import re
+from pathlib import Path
+
+import pytest
+
+from toolkit.workorder import pdf, xlsx
+from toolkit.workorder.build import order_from_file
+
+EXAMPLE = Path(__file__).resolve().parents[1] / "examples" / "job-blower-imperial.toml"
+METRIC = re.compile(r"\d\s*(?:mm|g)\b(?!·)|\bg·mm\b")
+
+
+@pytest.fixture(scope="module")
+def order():
+    return order_from_file(EXAMPLE)
+
+
+def test_operations_carry_inch_and_ounce_only(order):
+    assert order.units == "imperial"
+    for op in order.operations:
+        words = op.description + " " + " ".join(f"{k}: {v}" for k, v in op.details)
+        assert not METRIC.search(words), words
+        assert " in" in op.description or " oz" in words
+    # the washer stack's weight reads in ounces: 9 in is 228.6 mm exactly
+    assert any(v.endswith(" oz") for op in order.operations for _k, v in op.details)
+    assert all(op.radius_mm == pytest.approx(9 * 25.4) for op in order.operations)
+
+
+def test_the_pdf_operations_table_has_no_metric_figure(order):
+    from pypdf import PdfReader
+
+    text = " ".join((page.extract_text() or "") for page in PdfReader(io.BytesIO(pdf.to_bytes(order))).pages)
+    operations = text[text.index("OPERATIONS"):text.upper().index("PREDICTED RESIDUAL")]
+    assert not METRIC.search(operations), METRIC.findall(operations)
+
+
+def test_the_workbook_operation_rows_have_no_metric_figure(order):
+    from openpyxl import load_workbook
+
+    ws = load_workbook(io.BytesIO(xlsx.to_bytes(order))).worksheets[0]
+    rows = [" ".join(str(c.value) for c in row if c.value is not None) for row in ws.iter_rows()]
+    ops = [r for r in rows if "washers: stack" in r]
+    assert len(ops) == len(order.operations)
+    for r in ops:
+        assert not METRIC.search(r), r
