@@ -187,10 +187,15 @@ def test_plain_form_reads_like_pint(number, space, unit):
     # derived here (D): the fast reading of "NUMBER UNIT" must give what pint's own parser gives
     from toolkit.units import _parse, registry
 
+    if unit[:1].isdigit() and not space:
+        space = " "  # "01/min" is not a number and a unit: the reader refuses it (tests/test_units.py)
     text = f"{number}{space}{unit}"
     ours = _parse(text)
     theirs = registry().Quantity(text.replace("^", "**"))
     assert ours.units == theirs.units
+    if number == "007":  # pint's expression parser reads "007" as 0; ours reads the digits, 7
+        assert ours.magnitude == 7
+        return
     assert ours.magnitude == pytest.approx(theirs.magnitude, rel=1e-15, abs=0)
 
 

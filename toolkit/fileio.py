@@ -17,7 +17,8 @@ from typing import Callable, BinaryIO
 
 from toolkit.errors import BadInput, OutputError
 
-__all__ = ["write_atomic", "check_writable", "safe_filename", "read_text", "parse_toml"]
+__all__ = ["write_atomic", "check_writable", "safe_filename", "read_text", "parse_toml", "nesting_depth",
+           "MAX_NESTING", "parse_json"]
 
 _REASONS = {
     errno.ENOSPC: "the disk is full",
@@ -155,18 +156,66 @@ def read_text(path: str | Path, what: str, max_bytes: int) -> str:
         raise BadInput(f"{path}, line {line}: not UTF-8 text; save the {what} as UTF-8") from None
 
 
+#: Deepest nesting of arrays and tables (or JSON lists and objects) an input file may have. Our files nest
+#: four deep at most; deeper is a typing error or an attempt to exhaust the reader's recursion.
+MAX_NESTING = 12
+
+
+def nesting_depth(value, limit: int = MAX_NESTING) -> int:
+    """How deep lists and dicts nest in ``value`` (a scalar is 0), counted without recursion and stopping
+    once ``limit`` is exceeded (the result is then ``limit + 1``).
+
+    >>> nesting_depth({"a": [1, [2]]}), nesting_depth(3), nesting_depth([[[[]]]], limit=2)
+    (3, 0, 3)
+    """
+    deepest = 0
+    stack = [(value, 1)]
+    while stack:
+        item, depth = stack.pop()
+        if isinstance(item, dict):
+            children = item.values()
+        elif isinstance(item, list):
+            children = item
+        else:
+            continue
+        deepest = max(deepest, depth)
+        if deepest > limit:
+            return limit + 1
+        stack.extend((child, depth + 1) for child in children)
+    return deepest
+
+
+def _too_deep(origin: str) -> BadInput:
+    return BadInput(f"{origin}: arrays or tables nested more than {MAX_NESTING} deep; this file's values nest "
+                    "a few levels at most")
+
+
+def _shallow(data, origin: str):
+    """``data`` if it nests at most :data:`MAX_NESTING` deep, else BadInput."""
+    if nesting_depth(data) > MAX_NESTING:
+        raise _too_deep(origin)
+    return data
+
+
 def parse_toml(text: str, origin: str) -> dict:
     r"""Parse TOML text; a syntax error becomes :class:`BadInput` naming ``origin``, the line and column.
+
+    Arrays and tables nested more than :data:`MAX_NESTING` deep are refused (the TOML reader would
+    otherwise run out of recursion on a file nested a thousand deep).
 
     >>> parse_toml("a = 1\nb = = 2\n", "runs.toml")
     Traceback (most recent call last):
     ...
     toolkit.errors.BadInput: runs.toml: not valid TOML: Invalid value (at line 2, column 5)
+    >>> parse_toml("a = " + "[" * 1000 + "]" * 1000, "runs.toml")
+    Traceback (most recent call last):
+    ...
+    toolkit.errors.BadInput: runs.toml: arrays or tables nested more than 12 deep; ...
     """
     import tomllib
 
     try:
-        return tomllib.loads(text)
+        data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         message = str(exc)
         if "end of document" in message:  # name the line and column of the end of the file
@@ -174,3 +223,20 @@ def parse_toml(text: str, origin: str) -> dict:
             message = message.replace("end of document", f"line {len(lines)}, column {len(lines[-1]) + 1}, "
                                                          f"the end of the file")
         raise BadInput(f"{origin}: not valid TOML: {message}") from None
+    except RecursionError:
+        raise _too_deep(origin) from None
+    return _shallow(data, origin)
+
+
+def parse_json(text: str, origin: str):
+    """Parse JSON text; a syntax error or nesting deeper than :data:`MAX_NESTING` becomes :class:`BadInput`
+    naming ``origin`` (and the line and column of a syntax error)."""
+    import json
+
+    try:
+        data = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise BadInput(f"{origin}: not valid JSON (line {exc.lineno}, column {exc.colno}): {exc.msg}") from None
+    except RecursionError:
+        raise _too_deep(origin) from None
+    return _shallow(data, origin)

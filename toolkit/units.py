@@ -13,6 +13,31 @@ a cache: slower to start, never broken.
 Speeds: shops write ``rpm`` or ``r/min``. pint treats ``Hz`` as 1/s, so ``50 Hz`` converted naively to rpm
 would give 477 rpm instead of 3000 rpm. :func:`speed_rpm` reads a speed without an angle unit (``Hz``,
 ``1/s``, ``1/min``) as revolutions per that time, which is what a shop means.
+
+The reader of text (the command line, job files, planner cells, runs files and any later form all come
+here) accepts exactly this grammar, and refuses anything else with the reason and the field's name::
+
+    QUANTITY = NUMBER [spaces] UNIT
+    NUMBER   = [+|-] DIGITS [. [DIGITS]] [(e|E) [+|-] DIGITS]  |  [+|-] . DIGITS [exponent]
+               (ASCII digits only; nan and inf are read only to be refused as not finite)
+    UNIT     = ["1/"] TERM { ("*" | "/" | "·") TERM }   (spaces allowed around the operators; left to right)
+    TERM     = NAME [("^" | "**") [-] DIGIT]            (an integer power from 1 to 9)
+    NAME     = a unit name of the registry: letters, then letters, digits or "_"
+
+So ``"412 kg"``, ``"3.5 oz*in"``, ``"7850 kg/m^3"``, ``"kg/m3"`` (read as kg/m³), ``"4.2 mm/s"``, ``"12 µm"``,
+``"50 1/s"``, ``"1480 r/min"`` and ``"1.48e3 rpm"`` are read; ``"1 480 rpm"``, ``"1,480 rpm"``, ``"1'480 rpm"``
+(thousands separators of any kind are refused: write the digits together), ``"1480 rpm 2"``, ``"412 kg@3"``
+(``@`` belongs to vectors only), ``"1480 rpm%"``, ``"9**9**9 kg"`` (no arithmetic on the number) and
+``"412 g mm"`` (a space is not a product) are refused. A single ``.`` is always the decimal point. The text
+never reaches pint's expression parser: each unit name is looked up on its own, so the work is linear in the
+text (at most 200 characters). Our own readings of names: ``mil``/``mils`` is a thousandth of an inch (pint's
+``mil`` is an angle), ``rpm``, ``rps``, ``Hz`` and ``r/min`` are read in any case (``1800 RPM``); scale names
+without a dimension (``percent``, ``ppm``, ``pi``) are refused, and angle units only make sense in a speed.
+
+Each kind (:data:`KINDS`) has a smallest and a largest size, other than zero, that text may give: bounds of
+our own [CP], far beyond any shop's rotor, that keep results finite and clear of subnormal numbers (so
+``"1e308 kg"`` or ``"1e-320 mm"`` is refused at the input with the bound, never turned into ``inf`` later).
+Steps and resolutions have narrower bounds of their own (``bounds=`` of :func:`quantity`).
 """
 
 from __future__ import annotations
@@ -123,37 +148,43 @@ def Q_(value, unit):  # noqa: N802 - pint's own idiom
 
 @dataclass(frozen=True)
 class Kind:
-    """A kind of quantity: its pint dimensionality, the unit the kernels use, and an example for
-    messages."""
+    """A kind of quantity: its pint dimensionality, the unit the kernels use, an example for messages, and
+    the smallest and largest magnitude (other than zero) read from text, in the kernel unit."""
 
     name: str
     dimensionality: str
     kernel_unit: str
     example: str
+    lower: float = 0.0
+    upper: float = math.inf
 
 
 #: The kinds of quantity the toolkit accepts, by name. ``kernel_unit`` is the unit in which the numeric
-#: kernels work for that kind.
+#: kernels work for that kind. ``lower`` and ``upper`` bound the size of a value read from text (zero is
+#: always allowed where the field allows it): bounds of our own [CP], far beyond any shop's rotor, chosen so
+#: that products and quotients of bounded inputs (U_per = G·m/ω, m·r, r²) stay finite and clear of
+#: subnormal numbers. A value outside them is refused with the bound.
 KINDS: dict[str, Kind] = {
     k.name: k
     for k in (
-        Kind("mass", "[mass]", "kg", "412 kg"),
-        Kind("length", "[length]", "mm", "150 mm"),
-        Kind("speed", "1/[time]", "rpm", "1480 rpm"),
-        Kind("unbalance", "[mass]*[length]", "g*mm", "2400 g*mm"),
-        Kind("density", "[mass]/[length]**3", "kg/m**3", "7850 kg/m^3"),
-        Kind("vibration velocity", "[length]/[time]", "mm/s", "4.2 mm/s"),
-        Kind("displacement", "[length]", "um", "12 um"),
-        Kind("acceleration", "[length]/[time]**2", "m/s**2", "3 m/s^2"),
-        Kind("grade", "[length]/[time]", "mm/s", "6.3 mm/s"),
-        Kind("specific unbalance", "[length]", "um", "20 um"),
-        Kind("force", "[force]", "N", "500 N"),
+        Kind("mass", "[mass]", "kg", "412 kg", 1e-9, 1e7),                  # 1 µg to 10,000 t
+        Kind("length", "[length]", "mm", "150 mm", 1e-6, 1e6),              # 1 nm to 1 km
+        Kind("speed", "1/[time]", "rpm", "1480 rpm", 1e-3, 1e7),            # r/min
+        Kind("unbalance", "[mass]*[length]", "g*mm", "2400 g*mm", 1e-9, 1e15),
+        Kind("density", "[mass]/[length]**3", "kg/m**3", "7850 kg/m^3", 1e-2, 1e8),  # materials: 100..25000
+        Kind("vibration velocity", "[length]/[time]", "mm/s", "4.2 mm/s", 1e-9, 1e6),
+        Kind("displacement", "[length]", "um", "12 um", 1e-9, 1e9),
+        Kind("acceleration", "[length]/[time]**2", "m/s**2", "3 m/s^2", 1e-12, 1e7),
+        Kind("grade", "[length]/[time]", "mm/s", "6.3 mm/s", 1e-3, 1e5),
+        Kind("specific unbalance", "[length]", "um", "20 um", 1e-9, 1e9),
+        Kind("force", "[force]", "N", "500 N", 1e-9, 1e12),
     )
 }
 
+
 _REPLACEMENTS = (
-    (re.compile(r"(?<![A-Za-z])r\s*/\s*min\b"), "rpm"),
-    (re.compile(r"(?<![A-Za-z])r\s*/\s*s\b"), "rps"),
+    (re.compile(r"(?<![A-Za-z])r\s*/\s*min\b", re.IGNORECASE), "rpm"),
+    (re.compile(r"(?<![A-Za-z])r\s*/\s*s\b", re.IGNORECASE), "rps"),
     (re.compile(r"[·⋅×]"), "*"),
     (re.compile("µ|μ"), "u"),
     (re.compile(r"\bkg\s*/\s*m3\b"), "kg/m**3"),
@@ -166,15 +197,28 @@ def _normalise(text: str) -> str:
     return text
 
 
-#: "412 kg", "3.5 oz*in", "7850 kg/m**3": a plain number and one unit term, the common case. These are read
-#: as number x cached unit (a pint expression parse costs about 0.1 ms; shops' sheets repeat a few units).
-#: (Leading zeros such as "007" are left to pint, which reads them its own way.)
-_PLAIN = re.compile(r"([-+]?(?:(?:0|[1-9]\d*)(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*([A-Za-z_][A-Za-z0-9_*/^]*)")
+# -- the reader: one grammar for every quantity a user writes (see the module description) ----------------
+
+_NUMBER = re.compile(r"[-+]?(?:(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?|(?i:nan|inf(?:inity)?)(?![A-Za-z]))")
+_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
+_POWER = re.compile(r"(?:\^|\*\*)(-?[1-9])(?![0-9])")
+_OPERATOR = re.compile(r"\s*([*/])\s*")
+_ONE_OVER = re.compile(r"1\s*/\s*")
+#: A number written with thousands separators: "1 480", "1,480", "1'480", "1_480", "1 480" (thin spaces).
+_SEPARATED = re.compile(r"[-+]?[0-9]{1,3}(?:[ ,'_\u00a0\u2009\u202f][0-9]{3})+(?:[.,][0-9]*)?(?![0-9])")
+
+#: Names read our own way, whatever pint's defaults: ``mil``/``mils`` is the thousandth of an inch that
+#: vibration and machining readings use (pint's ``mil`` is an angle); speed names in any case.
+_ALIASES = {"mil": "thou", "mils": "thou"}
+_FOLDED = {"rpm": "rpm", "rps": "rps", "hz": "Hz"}
+
+
 _UNITS: dict[str, object] = {}
 
 
 def _cached_unit(text: str):
-    """``registry().Unit(text)``, parsed once per distinct text."""
+    """``registry().Unit(text)``, parsed once per distinct text (only names and trusted unit strings of
+    the package come here, never a user's whole text)."""
     unit = _UNITS.get(text)
     if unit is None:
         unit = registry().Unit(text)
@@ -183,18 +227,99 @@ def _cached_unit(text: str):
     return unit
 
 
-def _parse(text: str):
-    """Parse a normalised quantity text; the plain form through the unit cache, anything else by pint."""
+class _Unreadable(ValueError):
+    """A text that is not NUMBER UNIT; the message says why, without the field's name."""
+
+
+def _unit_name(name: str):
+    """One unit name as a registry unit (cached), or _Unreadable."""
     ureg = registry()
-    plain = _PLAIN.fullmatch(text)
-    if plain:
-        number, unit = plain.groups()
-        try:
-            value = int(number) if number.lstrip("+-").isdigit() else float(number)
-            return ureg.Quantity(value, _cached_unit(unit.replace("^", "**")))
-        except Exception:  # not a unit on its own: let pint read the whole expression (and word the error)
-            pass
-    return ureg.Quantity(text)
+    name = _ALIASES.get(name, name)
+    try:
+        unit = _cached_unit(name)
+    except Exception:
+        folded = _FOLDED.get(name.lower())
+        if folded is None:
+            raise _Unreadable(f"unit {name!r} is not known") from None
+        unit = _cached_unit(folded)
+    if unit.dimensionless and not _is_angle(unit):  # percent, ppm, dozen, pi: a scale, not a unit
+        raise _Unreadable(f"{name!r} is not a unit of measure")
+    return unit
+
+
+def _is_angle(unit) -> bool:
+    """Whether a unit contains an angle (rad, deg, rev in rad/s, rpm)."""
+    _factor, root = registry().get_root_units(unit)
+    return "radian" in root._units
+
+
+def _read_unit(text: str, start: int):
+    """Parse UNIT from ``text[start:]`` (all of it) into a registry unit."""
+    pos = start
+    unit = None
+    match = _ONE_OVER.match(text, pos)
+    op = "*"
+    if match:
+        unit = _cached_unit("dimensionless")
+        op = "/"
+        pos = match.end()
+    while True:
+        name = _NAME.match(text, pos)
+        if not name:
+            break_at = text[pos:pos + 1] or "the end"
+            raise _Unreadable(f"expected a unit name at {break_at!r}")
+        term = _unit_name(name.group())
+        pos = name.end()
+        power = _POWER.match(text, pos)
+        if power:
+            term = term ** int(power.group(1))
+            pos = power.end()
+        unit = term if unit is None else (unit * term if op == "*" else unit / term)
+        if pos == len(text):
+            return unit
+        operator = _OPERATOR.match(text, pos)
+        if not operator or operator.end() == len(text):
+            rest = text[pos:].strip()
+            raise _Unreadable(f"{rest!r} after the unit; a quantity is one number and one unit")
+        op = operator.group(1)
+        pos = operator.end()
+
+
+def _number(text: str):
+    match = _NUMBER.match(text)
+    if not match:
+        raise _Unreadable("it does not start with a number")
+    digits = match.group()
+    mantissa = re.split("[eE]", digits)[0]
+    value = int(digits) if digits.lstrip("+-").isdigit() else float(digits)
+    if value == 0 and re.search("[1-9]", mantissa):  # "1e-400" is not zero: keep it below every bound
+        value = math.copysign(5e-324, -1.0 if digits.startswith("-") else 1.0)
+    return value, match.end()
+
+
+def _parse(text: str):
+    """A normalised quantity text (NUMBER UNIT, see the grammar above) as a pint quantity.
+
+    Raises :class:`_Unreadable` with the reason. Units are built from their names (each name parsed once
+    and kept); the whole text never goes to pint's expression parser.
+    """
+    if "@" in text or "∠" in text:
+        raise _Unreadable("'@' belongs in a vector (AMOUNT@ANGLE), not in a single quantity")
+    if "%" in text:
+        raise _Unreadable("'%' is not a unit here")
+    if _SEPARATED.match(text):
+        raise _Unreadable("spaces or separators inside the number are not read; write its digits together")
+    value, end = _number(text)
+    rest = text[end:]
+    if rest[:1] in ("*", "^", "/") and (rest[1:2].isdigit() or rest[1:2] in "*(") or rest[:2] == "**":
+        raise _Unreadable("arithmetic on the number is not read; write the number itself, e.g. 1.2e6")
+    stripped = rest.lstrip()
+    if not stripped:
+        raise _Unreadable("it has no unit")
+    if stripped[:1].isdigit() and not _ONE_OVER.match(stripped):
+        raise _Unreadable("spaces inside the number are not read; write its digits together")
+    unit = _read_unit(text, len(text) - len(stripped))
+    return registry().Quantity(value, unit)
 
 
 def _is_bare_number(text: str) -> bool:
@@ -227,13 +352,51 @@ def _check_finite(mag, name: str, shown) -> None:
         raise BadInput(f"{name}: {shown!r} is not a finite number")
 
 
+def _bound_text(value: float, unit: str) -> str:
+    return f"{value:g} {unit.replace('**', '^')}"
+
+
+def _check_bounds(q, k: Kind, name: str, shown, bounds, what: str, zero: bool = True) -> None:
+    """Refuse a scalar whose size (other than zero) lies outside the kind's bounds or ``bounds``."""
+    try:
+        if k.name == "speed":
+            size = abs(float(speed_rpm(q, name, positive=False)))
+            unit = "rpm"
+        else:
+            size = abs(float(q.m_as(_cached_unit(k.kernel_unit))))
+            unit = k.kernel_unit
+    except TypeError:  # an array quantity: its bounds are the caller's
+        return
+    if size == 0.0 and bounds is None:
+        return
+    if bounds is not None:
+        low, high = (quantity(b, k, "bound") for b in bounds)
+        low_m, high_m = (float(magnitude(b, k, unit)) for b in (low, high))
+        if not low_m <= size <= high_m:
+            side = "below the smallest" if size < low_m else "above the largest"
+            limit = bounds[0] if size < low_m else bounds[1]
+            raise BadInput(f"{name}: {shown!s} is {side} {what} accepted, {limit} (a bound of our own [CP]; "
+                           f"give a value from {bounds[0]} to {bounds[1]})")
+        return
+    if not k.lower <= size <= k.upper:
+        side = "below the smallest" if size < k.lower else "above the largest"
+        limit = _bound_text(k.lower if size < k.lower else k.upper, unit)
+        raise BadInput(f"{name}: {shown!s} is {side} {k.name} read, {limit} (a bound of our own [CP]; "
+                       f"give a value from {_bound_text(k.lower, unit)} to {_bound_text(k.upper, unit)}"
+                       f"{', or 0' if zero else ''})")
+
+
 def quantity(value, kind: str | Kind, name: str = "value", *, positive: bool = False,
-             nonnegative: bool = False):
+             nonnegative: bool = False, bounds: tuple[str, str] | None = None, what: str = "value"):
     """Return ``value`` as a pint quantity of the given kind, or raise :class:`BadInput`.
 
     ``value`` is a pint quantity or a string with its unit (``"412 kg"``). A bare number, a number given as a
     string without unit, NaN, infinity, a wrong dimension or an unknown unit is refused with a message that
-    names ``name``, shows the value and gives an example of what is allowed.
+    names ``name``, shows the value and gives an example of what is allowed. Text is read by the grammar
+    in this module's source (one number, one unit; nothing is evaluated) and its size must lie within the
+    kind's bounds (:data:`KINDS`). ``bounds`` (two quantity texts, e.g. ``("0.01 mm", "100 mm")``) narrows
+    the accepted range for any value, text or quantity, and zero too; ``what`` names the value in that
+    message (``"step"``).
 
     >>> quantity("412 kg", "mass", "--mass")
     <Quantity(412, 'kilogram')>
@@ -241,9 +404,14 @@ def quantity(value, kind: str | Kind, name: str = "value", *, positive: bool = F
     Traceback (most recent call last):
     ...
     toolkit.errors.BadInput: --mass: 412 has no unit; give a mass with its unit, e.g. '412 kg'
+    >>> quantity("1 480 rpm", "speed", "--speed")
+    Traceback (most recent call last):
+    ...
+    toolkit.errors.BadInput: --speed: cannot read '1 480 rpm' as a speed: spaces or separators inside the number ...
     """
     k = _kind(kind)
     ureg = registry()
+    text_given = isinstance(value, str)
     if isinstance(value, ureg.Quantity):
         q = value
     elif isinstance(value, bool) or isinstance(value, (int, float)):
@@ -259,11 +427,12 @@ def quantity(value, kind: str | Kind, name: str = "value", *, positive: bool = F
             raise BadInput(f"{name}: {text!r} has no unit; give a {k.name} with its unit, e.g. '{k.example}'")
         try:
             q = _parse(_normalise(text))
+        except _Unreadable as exc:
+            raise BadInput(f"{name}: cannot read {text!r} as a {k.name}: {exc}; write a number and a unit, "
+                           f"e.g. '{k.example}'") from None
         except Exception:
             raise BadInput(f"{name}: cannot read {text!r} as a {k.name}; write a number and a unit, "
                            f"e.g. '{k.example}'") from None
-        if not isinstance(q, ureg.Quantity):
-            raise BadInput(f"{name}: {text!r} has no unit; give a {k.name} with its unit, e.g. '{k.example}'")
     elif hasattr(value, "magnitude") and hasattr(value, "units"):
         # a quantity from another registry: rebuild it in ours from its unit text
         try:
@@ -282,6 +451,9 @@ def quantity(value, kind: str | Kind, name: str = "value", *, positive: bool = F
         shown = value if isinstance(value, str) else f"{q:~P}"
         raise BadInput(f"{name}: {shown!r} is not a {k.name} ({q.dimensionality} given); give e.g. "
                        f"'{k.example}'")
+    if text_given and k.name != "speed" and _is_angle(q.units):
+        raise BadInput(f"{name}: {value!r} holds an angle unit, which a {k.name} has not; give e.g. "
+                       f"'{k.example}'")
     shown = value if isinstance(value, str) else q
     _check_finite(q.magnitude, name, shown)
     if positive or nonnegative:
@@ -292,11 +464,14 @@ def quantity(value, kind: str | Kind, name: str = "value", *, positive: bool = F
             raise BadInput(f"{name}: {shown!s} must be greater than zero")
         if nonnegative and np.any(mag < 0):
             raise BadInput(f"{name}: {shown!s} must not be negative")
+    if text_given or bounds is not None:
+        _check_bounds(q, k, name, shown, bounds, what, zero=not positive)
     return q
 
 
 def magnitude(value, kind: str | Kind, unit: str | None = None, name: str = "value", *,
-              positive: bool = False, nonnegative: bool = False):
+              positive: bool = False, nonnegative: bool = False, bounds: tuple[str, str] | None = None,
+              what: str = "value"):
     """The magnitude of ``value`` in ``unit`` (default: the kind's kernel unit), after the checks of
     :func:`quantity`. Works on scalar and array quantities alike.
 
@@ -305,13 +480,14 @@ def magnitude(value, kind: str | Kind, unit: str | None = None, name: str = "val
     """
     k = _kind(kind)
     if k.name == "speed":
-        rpm = speed_rpm(value, name, positive=positive)
+        rpm = speed_rpm(value, name, positive=positive, bounds=bounds, what=what)
         return rpm if unit in (None, "rpm") else Q_(rpm, "rpm").m_as(unit)
-    q = quantity(value, k, name, positive=positive, nonnegative=nonnegative)
+    q = quantity(value, k, name, positive=positive, nonnegative=nonnegative, bounds=bounds, what=what)
     return q.m_as(_cached_unit(unit or k.kernel_unit))
 
 
-def speed_rpm(value, name: str = "speed", *, positive: bool = True):
+def speed_rpm(value, name: str = "speed", *, positive: bool = True, bounds: tuple[str, str] | None = None,
+              what: str = "value"):
     """A rotational speed in revolutions per minute.
 
     Units with an angle (``rpm``, ``rad/s``, ``deg/s``) are converted exactly; units of plain frequency
@@ -320,7 +496,7 @@ def speed_rpm(value, name: str = "speed", *, positive: bool = True):
     >>> speed_rpm("1480 rpm"), speed_rpm("50 Hz"), round(speed_rpm("314.159 rad/s"), 1)
     (1480.0, 3000.0, 3000.0)
     """
-    q = quantity(value, "speed", name, positive=positive)
+    q = quantity(value, "speed", name, positive=positive, bounds=bounds, what=what)
     ureg = registry()
     _factor, root = ureg.get_root_units(q.units)
     if "radian" in root._units:

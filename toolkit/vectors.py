@@ -26,7 +26,11 @@ __all__ = ["parse_vector", "parse_angle", "to_complex", "polar", "parse_reading"
            "StaticCouple", "READING_KINDS"]
 
 _SEPARATOR = re.compile(r"\s*(?:@|∠)\s*")
-_ANGLE = re.compile(r"^([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(?:°|deg|degrees?)?$")
+_ANGLE = re.compile(r"^([-+]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][-+]?[0-9]+)?)\s*(?:°|deg|degrees?)?$")
+#: A plain amount (a reading in the instrument's own units): ASCII digits, an optional exponent, nothing else.
+_PLAIN_AMOUNT = re.compile(r"[+]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?")
+#: Bounds of our own [CP] on a plain amount other than zero: readings of any instrument lie far inside.
+PLAIN_AMOUNT_BOUNDS = (1e-9, 1e12)
 
 
 def parse_angle(text, name: str = "angle") -> float:
@@ -77,17 +81,35 @@ def parse_vector(text, kind: str | None = None, name: str = "vector"):
         raise BadInput(f"{name}: {text!r} is not a vector; write AMOUNT@ANGLE, e.g. {example}")
     angle = parse_angle(parts[1], name=f"{name} angle")
     if kind is None:
-        try:
-            amount = float(parts[0])
-        except ValueError:
-            raise BadInput(f"{name}: amount {parts[0]!r} is not a number") from None
-        if not math.isfinite(amount) or amount < 0:
-            raise BadInput(f"{name}: amount {parts[0]!r} must be a finite number, zero or more")
-        return amount, angle
+        return _plain_amount(parts[0], name), angle
     from toolkit.units import quantity
 
     amount = quantity(parts[0], kind, name, nonnegative=True)
     return amount, angle
+
+
+def _plain_amount(text: str, name: str) -> float:
+    """A plain non-negative amount, read exactly as written (no separators, no arithmetic) and bounded."""
+    text = text.strip()
+    if not _PLAIN_AMOUNT.fullmatch(text):
+        try:
+            value = float(text)
+        except ValueError:
+            raise BadInput(f"{name}: amount {text!r} is not a number; write digits such as 61.35") from None
+        if not math.isfinite(value) or value < 0:
+            raise BadInput(f"{name}: amount {text!r} must be a finite number, zero or more")
+        raise BadInput(f"{name}: amount {text!r} is not written as plain digits; write it such as 61.35")
+    amount = float(text)
+    low, high = PLAIN_AMOUNT_BOUNDS
+    if not math.isfinite(amount) or amount > high or (amount == 0 and any(c in "123456789" for c in
+                                                                            re.split("[eE]", text)[0])):
+        side = "above the largest" if amount != 0 else "below the smallest"
+        raise BadInput(f"{name}: amount {text!r} is {side} amount read (from {low:g} to {high:g}, or 0; "
+                       "bounds of our own [CP])")
+    if 0 < amount < low:
+        raise BadInput(f"{name}: amount {text!r} is below the smallest amount read (from {low:g} to {high:g}, "
+                       "or 0; bounds of our own [CP])")
+    return amount
 
 
 #: Kinds a vibration reading may have, tried in this order by :func:`parse_reading`.

@@ -43,6 +43,41 @@ CAUTIONS = (
 )
 
 
+#: Bounds of each limit: (smallest other than zero, largest, whether zero is allowed). The ranges are our
+#: own [CP], far beyond shop practice; they keep the hole arithmetic clear of subnormal and huge numbers.
+LIMIT_BOUNDS = {
+    "warn_depth_ratio": (1e-3, 100.0, False),
+    "max_depth_ratio": (1e-3, 100.0, False),
+    "spacing_ratio": (1e-3, 100.0, False),
+    "preferred_depth_ratio": (1e-3, 100.0, False),
+    "depth_step_mm": (1e-9, 100.0, False),  # a tiny step solves the depth exactly (tests do so)
+    "min_wall_mm": (1e-3, 1e6, True),
+    "min_wall_ratio": (1e-3, 100.0, True),
+    "max_depth_mm": (1e-3, 1e6, False),
+}
+
+
+def limit_problem(name: str, value) -> str | None:
+    """What is wrong with a drilling limit's value (None if nothing): the one wording that the command
+    line and job files share.
+
+    >>> limit_problem("max_depth_ratio", -0.0)
+    'must be a number greater than zero (from 0.001 to 100; bounds of our own [CP])'
+    >>> limit_problem("min_wall_mm", 0) is None
+    True
+    """
+    low, high, zero = LIMIT_BOUNDS[name]
+    what = "a number, zero or more" if zero else "a number greater than zero"
+    span = f"(from {low:g} to {high:g}{', or 0' if zero else ''}; bounds of our own [CP])"
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+        return f"must be {what} {span}"
+    if value == 0 and zero:
+        return None
+    if not low <= value <= high:
+        return f"must be {what} {span}"
+    return None
+
+
 @dataclass(frozen=True)
 class Limits:
     """Drilling rules of thumb, all common practice [CP] and all overridable.
@@ -69,17 +104,14 @@ class Limits:
     max_holes: int = 7
 
     def __post_init__(self):
-        for name in ("warn_depth_ratio", "max_depth_ratio", "spacing_ratio", "depth_step_mm",
-                     "preferred_depth_ratio"):
+        for name, (low, high, zero) in LIMIT_BOUNDS.items():
             v = getattr(self, name)
-            if not (isinstance(v, (int, float)) and math.isfinite(v) and v > 0):
-                raise BadInput(f"limit {name}: {v!r} must be a number greater than zero")
-        for name in ("min_wall_mm", "min_wall_ratio"):
-            v = getattr(self, name)
-            if not (isinstance(v, (int, float)) and math.isfinite(v) and v >= 0):
-                raise BadInput(f"limit {name}: {v!r} must be a number, zero or more")
-        if self.max_depth_mm is not None and not (math.isfinite(self.max_depth_mm) and self.max_depth_mm > 0):
-            raise BadInput(f"--max-depth: {self.max_depth_mm!r} must be greater than zero")
+            if name == "max_depth_mm" and v is None:
+                continue
+            problem = limit_problem(name, v)
+            if problem:
+                raise BadInput(f"--max-depth: {v!r} {problem}" if name == "max_depth_mm"
+                               else f"limit {name}: {v!r} {problem}")
         if not (isinstance(self.max_holes, int) and 1 <= self.max_holes <= 36):
             raise BadInput(f"limit max_holes: {self.max_holes!r} must be a whole number from 1 to 36")
 

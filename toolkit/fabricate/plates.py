@@ -205,6 +205,10 @@ def _solve_length(shape, surface, R, t, w, U1, rho, z, conv, run):
     return solve_bracketed(lambda b: total(b) - U1, lo, hi, 1e-12), total
 
 
+#: The rounding step of plate sizes: bounds of our own [CP] (a shear cuts to about 0.5 mm; 100 mm is coarse).
+PLATE_STEP_BOUNDS = ("0.01 mm", "100 mm")
+
+
 def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat", surface: str = "outer",
                angle_deg=0.0, action: str = "add", material=None, density=None, step="1 mm",
                fillet=None, convexity: float | None = None, weld_run: str = "all-round", stock="plate_stock",
@@ -237,7 +241,8 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     R = float(magnitude(radius, "length", "mm", "--radius", positive=True))
     U = correction_g_mm(correction, radius)
     w0 = float(magnitude(width, "length", "mm", "--width", positive=True))
-    st = float(magnitude(step, "length", "mm", "--step", positive=True))
+    st = float(magnitude(step, "length", "mm", "--step", positive=True, bounds=PLATE_STEP_BOUNDS,
+                         what="plate size step"))
     dens = resolve_density(material, density, materials_table)
     require_weldable(dens)
     rho = dens.g_mm3

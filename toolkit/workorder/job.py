@@ -93,6 +93,10 @@ DEFAULTS: Mapping[str, tuple[str, str, str]] = MappingProxyType({
 })
 
 MAX_JOB_BYTES = 1_000_000
+#: Bounds of our own [CP] on the shop's resolutions: the angle marking step in degrees and the weighing step.
+ANGLE_STEP_BOUNDS = (0.01, 45.0)
+MASS_STEP_BOUNDS = ("0.001 g", "1 kg")
+
 _TEXT_LIMIT = 2000
 
 
@@ -388,16 +392,16 @@ def _text(ck: _Checker, table: Mapping, path: tuple, required: bool = False, def
 
 
 @functools.lru_cache(maxsize=4096)
-def _parsed(text: str, kind: str, positive: bool, nonnegative: bool):
+def _parsed(text: str, kind: str, positive: bool, nonnegative: bool, bounds, what):
     """A quantity parsed from text, cached: planner rows repeat the same values ("412 kg", "1480 rpm") and
     parsing is the costly part of validating a row. Errors are not cached (they raise)."""
     from toolkit.units import quantity
 
-    return quantity(text, kind, "\x00", positive=positive, nonnegative=nonnegative)
+    return quantity(text, kind, "\x00", positive=positive, nonnegative=nonnegative, bounds=bounds, what=what)
 
 
 def _quantity(ck: _Checker, table: Mapping, path: tuple, kind: str, required: bool = False,
-              positive: bool = False, nonnegative: bool = False):
+              positive: bool = False, nonnegative: bool = False, bounds=None, what: str = "value"):
     from toolkit.units import quantity
 
     value = table.get(path[-1], _MISSING)
@@ -409,8 +413,8 @@ def _quantity(ck: _Checker, table: Mapping, path: tuple, kind: str, required: bo
         return None
     try:
         if isinstance(value, str):
-            return _parsed(value, kind, positive, nonnegative)
-        return quantity(value, kind, "\x00", positive=positive, nonnegative=nonnegative)
+            return _parsed(value, kind, positive, nonnegative, bounds, what)
+        return quantity(value, kind, "\x00", positive=positive, nonnegative=nonnegative, bounds=bounds, what=what)
     except BadInput as exc:
         ck.add(path, _strip_name(str(exc), value))
         return None
@@ -485,10 +489,17 @@ def parse_job(text: str, origin: str = "<job>", base: Path | None = None) -> Job
     ...
     toolkit.workorder.job.JobError: job.toml: 1 problem in the job file: line 6, rotor.mass: 412 has no unit; ...
     """
+    from toolkit.fileio import MAX_NESTING, nesting_depth
+
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise JobError(origin, [f"not valid TOML ({exc})"]) from None
+    except RecursionError:
+        data = None
+    if data is None or nesting_depth(data) > MAX_NESTING:
+        raise JobError(origin, [f"arrays or tables nested more than {MAX_NESTING} deep; a job file nests a few "
+                                "levels at most"])
     return job_from_data(data, origin, base, lines=key_lines(text))
 
 
@@ -641,7 +652,10 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     drills = _table_ref(ck, shop_t, ("shop", "drills"), base, ("metric", "inch"),
                         "inch" if units == "imperial" else "metric")
     stock = _table_ref(ck, shop_t, ("shop", "plate_stock"), base, ("plate_stock",), "plate_stock")
-    plate_step = _quantity(ck, shop_t, ("shop", "plate_step"), "length", positive=True)
+    from toolkit.fabricate.plates import PLATE_STEP_BOUNDS
+
+    plate_step = _quantity(ck, shop_t, ("shop", "plate_step"), "length", positive=True, bounds=PLATE_STEP_BOUNDS,
+                           what="plate size step")
     point_angle = 118.0
     if "point_angle" in shop_t:
         raw = shop_t["point_angle"]
@@ -656,19 +670,28 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     for key, value in drill_t.items():
         if key not in DRILLING_KEYS:
             ck.add(("shop", "drilling", key), f"unknown key; allowed keys here: {', '.join(DRILLING_KEYS)}")
-        elif isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) \
-                or value < 0 or (key == "max_holes" and not isinstance(value, int)):
-            ck.add(("shop", "drilling", key), f"{_shown(value)} is not allowed; give a number, zero or more"
-                                              + (" (a whole number)" if key == "max_holes" else ""))
+        elif key == "max_holes":
+            if isinstance(value, bool) or not isinstance(value, int) or not 1 <= value <= 36:
+                ck.add(("shop", "drilling", key), f"{_shown(value)} is not allowed; give a whole number from 1 to 36")
+            else:
+                drilling[key] = value
         else:
-            drilling[key] = value
+            from toolkit.fabricate.drilling import limit_problem
+
+            problem = limit_problem(key, value)
+            if problem:  # the same words as the drill command's check of the same limit
+                ck.add(("shop", "drilling", key), f"{_shown(value)} is not allowed; it {problem}")
+            else:
+                drilling[key] = value
     step_deg = 1.0
     if "angle_step" in shop_t:
         raw = shop_t["angle_step"]
         angle = _angle(ck, raw, ("shop", "angle_step"))
         if angle is not None:
-            if not 0 < angle <= 45:
-                ck.add(("shop", "angle_step"), f"{_shown(raw)} is not allowed; give a step between 0 and 45 degrees")
+            if not ANGLE_STEP_BOUNDS[0] <= angle <= ANGLE_STEP_BOUNDS[1]:
+                ck.add(("shop", "angle_step"), f"{_shown(raw)} is not allowed; give a step from "
+                                                f"{ANGLE_STEP_BOUNDS[0]:g} to {ANGLE_STEP_BOUNDS[1]:g} degrees "
+                                                "(bounds of our own [CP])")
             else:
                 step_deg = angle
     fillet = _quantity(ck, shop_t, ("shop", "fillet"), "length", positive=True)
@@ -681,7 +704,8 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
                                                  "(0.2 adds 20 % to the fillet's z²/2 cross-section)")
         else:
             convexity = float(raw)
-    mass_step = _quantity(ck, shop_t, ("shop", "mass_step"), "mass", positive=True)
+    mass_step = _quantity(ck, shop_t, ("shop", "mass_step"), "mass", positive=True, bounds=MASS_STEP_BOUNDS,
+                          what="weighing step")
     if mass_step is None:
         from toolkit.units import Q_
 
@@ -832,13 +856,16 @@ def _reading(ck: _Checker, value, path: tuple, plane: PlaneSpec):
     try:
         amount, angle = parse_vector(value, "unbalance", "\x00")
         return amount, angle
-    except BadInput:
-        pass
+    except BadInput as exc:
+        reason = str(exc)
     try:
         amount, angle = parse_vector(value, "mass", "\x00")
     except BadInput:
-        ck.add(path, f"{_shown(value)} is not a reading; write AMOUNT@ANGLE with an unbalance or a mass, e.g. "
-                     "\"1820 g*mm@40\" or \"5.9 g@40\"")
+        # the reader's own reason when it could not read the amount at all (not merely a wrong dimension)
+        why = ("" if "is not a unbalance (" in reason or "is not a vector" in reason
+               else f" ({reason.replace(chr(0) + ': ', '', 1)})")
+        ck.add(path, f"{_shown(value)} is not a reading{why}; write AMOUNT@ANGLE with an unbalance or a mass, "
+                     "e.g. \"1820 g*mm@40\" or \"5.9 g@40\"")
         return None
     return (amount * plane.radius).to("g*mm"), angle
 
