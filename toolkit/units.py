@@ -247,10 +247,34 @@ def _unit_name(name: str):
     return unit
 
 
+_ANGLE_UNITS: dict = {}
+
+
 def _is_angle(unit) -> bool:
-    """Whether a unit contains an angle (rad, deg, rev in rad/s, rpm)."""
-    _factor, root = registry().get_root_units(unit)
-    return "radian" in root._units
+    """Whether a unit contains an angle (rad, deg, rev in rad/s, rpm); remembered per unit."""
+    known = _ANGLE_UNITS.get(unit)
+    if known is None:
+        _factor, root = registry().get_root_units(unit)
+        known = "radian" in root._units
+        if len(_ANGLE_UNITS) < 512:
+            _ANGLE_UNITS[unit] = known
+    return known
+
+
+_FACTORS: dict = {}
+
+
+def _kernel_factor(unit, k: "Kind") -> float:
+    """How many kernel units (r/min for a speed, read as :func:`speed_rpm` reads it) one ``unit`` is;
+    remembered per unit and kind (every unit of a kind here is a plain multiple of the kernel unit)."""
+    key = (unit, k.name)
+    factor = _FACTORS.get(key)
+    if factor is None:
+        one = registry().Quantity(1.0, unit)
+        factor = float(speed_rpm(one, positive=False) if k.name == "speed" else one.m_as(_cached_unit(k.kernel_unit)))
+        if len(_FACTORS) < 1024:
+            _FACTORS[key] = factor
+    return factor
 
 
 def _read_unit(text: str, start: int):
@@ -318,8 +342,16 @@ def _parse(text: str):
         raise _Unreadable("it has no unit")
     if stripped[:1].isdigit() and not _ONE_OVER.match(stripped):
         raise _Unreadable("spaces inside the number are not read; write its digits together")
-    unit = _read_unit(text, len(text) - len(stripped))
+    unit = _READ.get(stripped)
+    if unit is None:
+        unit = _read_unit(stripped, 0)
+        if len(_READ) < 512:
+            _READ[stripped] = unit
     return registry().Quantity(value, unit)
+
+
+#: Unit texts already read ("g*mm", "kg/m^3"): shops' sheets repeat a few units (errors are not kept).
+_READ: dict[str, object] = {}
 
 
 def _is_bare_number(text: str) -> bool:
@@ -359,16 +391,13 @@ def _bound_text(value: float, unit: str) -> str:
 def _check_bounds(q, k: Kind, name: str, shown, bounds, what: str, zero: bool = True) -> None:
     """Refuse a scalar whose size (other than zero) lies outside the kind's bounds or ``bounds``."""
     try:
-        if k.name == "speed":
-            size = abs(float(speed_rpm(q, name, positive=False)))
-            unit = "rpm"
-        else:
-            size = abs(float(q.m_as(_cached_unit(k.kernel_unit))))
-            unit = k.kernel_unit
+        raw = abs(float(q.magnitude))
     except TypeError:  # an array quantity: its bounds are the caller's
         return
-    if size == 0.0 and bounds is None:
+    if raw == 0.0 and bounds is None:
         return
+    size = raw * _kernel_factor(q.units, k)  # 0.0 when a subnormal magnitude vanishes: below every bound
+    unit = k.kernel_unit
     if bounds is not None:
         low, high = (quantity(b, k, "bound") for b in bounds)
         low_m, high_m = (float(magnitude(b, k, unit)) for b in (low, high))
