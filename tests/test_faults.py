@@ -575,8 +575,9 @@ def test_malformed_toml_names_line_and_column(tmp_path, command):
 @pytest.mark.parametrize("argv, words", [
     (["tolerance", "--grade", "G6.3", "--mass", "nan kg", "--speed", "1480 rpm"], ["--mass", "finite"]),
     (["tolerance", "--grade", "G6.3", "--mass", "412 kg", "--speed", "0 rpm"], ["--speed", "greater than zero"]),
-    # found by this file: an integer beyond the float range once ended in an internal error (OverflowError)
-    (["tolerance", "--grade", "G6.3", "--mass", "2**1024 kg", "--speed", "1480 rpm"], ["--mass", "finite"]),
+    # found by this file: an integer beyond the float range once ended in an internal error (OverflowError);
+    # the reader now refuses arithmetic on the number before any is done
+    (["tolerance", "--grade", "G6.3", "--mass", "2**1024 kg", "--speed", "1480 rpm"], ["--mass", "arithmetic"]),
     (["plate", "--unbalance", "2**1024 kg", "--radius", "620 mm", "--width", "40 mm", "--material", "steel"],
      ["--unbalance"]),
     (["tolerance", "--grade", "G6.3", "--mass", "412", "--speed", "1480 rpm"], ["--mass", "no unit"]),
@@ -592,8 +593,10 @@ def test_malformed_toml_names_line_and_column(tmp_path, command):
     (["verify", "--test", "200 g*mm", "--reading", "44.88@0", "--reading", "53.63@60"], ["--reading"]),
     (["solve", "--original", "4.2@285", "--trial", "10 g@0", "--with-trial", "6.12 mm/s@251.5"],
      ["--original", "no unit"]),
-    # found by this file (1,500 examples): omega ** 2 overflowed (OverflowError, exit 3)
-    (["solve", "--bearing-mass", "1e-300 kg", "--radius", "1e300 mm", "--speed", "1e300 rpm"], ["speed"]),
+    # found by this file (1,500 examples): omega ** 2 overflowed (OverflowError, exit 3); now every one of
+    # the three is outside the reader's bounds and the first is refused with its bound
+    (["solve", "--bearing-mass", "1e-300 kg", "--radius", "1e300 mm", "--speed", "1e300 rpm"],
+     ["bearing_mass", "[CP]"]),
     # found by this file: "--reading=--" reached the library as an empty list (argparse dropped the "--")
     (["verify", "--test", "200 g*mm", "--reading=--", "--reading", "53.63@60", "--reading", "58.64@120"],
      ["--reading 1"]),
@@ -978,13 +981,17 @@ def test_rolled_plate_centroid_unchanged_on_shop_radii():
 
 def test_trial_suggestion_at_a_huge_speed():
     # found by test_spoiled_command_lines[solve] with 1,500 examples: 1.3e155 r/min squared overflowed; the
-    # answer is a tiny but computable trial mass (exit 0), never an internal error
+    # reader now refuses a speed above its bound (1e7 r/min), and at the bound the answer is a tiny but
+    # computable trial mass (exit 0), never an internal error
     rc, out, err = check(["solve", "--bearing-mass", "200 kg", "--radius", "150 mm", "--speed", "1.3e155 rpm",
+                          "--json"])
+    assert rc == 2 and "speed" in err and "1e+07 rpm" in err
+    rc, out, err = check(["solve", "--bearing-mass", "200 kg", "--radius", "150 mm", "--speed", "1e7 rpm",
                           "--json"])
     assert rc == 0
 
 
-@pytest.mark.parametrize("radius", ["1 mm", "1e-300 mm"])
+@pytest.mark.parametrize("radius", ["1 mm", "1e-6 mm"])  # 1e-6 mm: the smallest length the reader takes
 def test_radial_holes_on_a_radius_smaller_than_every_drill(radius):
     # found by an extreme-magnitude sweep of the example jobs: no drill fitted, then an IndexError (exit 3)
     rc, out, err = check(["drill", "--unbalance", "2400 g*mm", "--radius", radius, "--radial", "--material",

@@ -1,6 +1,7 @@
 """Units: parsing, dimension checks, the speed reading, output systems and the registry cache."""
 
 import os
+import re
 import subprocess
 import sys
 from pathlib import Path
@@ -156,3 +157,87 @@ def test_format_number_keeps_significant_figures():
     assert units.format_number(-0.5) == "-0.5000"
     assert units.format_number(float("nan")) == "nan"
     assert units.format_number(2.5e9) == "2.500e+09"
+
+
+# -- the strict reader: one number and one unit ----------------------------------------------------------------
+
+@pytest.mark.parametrize("text, kind, unit, expected", [
+    ("1 mil", "displacement", "um", 25.4),          # 1 mil = 0.001 in, 1 in = 25.4 mm exactly (NIST SP 811, B.8)
+    ("3 mils", "length", "mm", 0.0762),             # same definition
+    ("1 g*in", "unbalance", "g*mm", 25.4),           # 1 in = 25.4 mm exactly (NIST SP 811, B.8)
+    ("2 g·in", "unbalance", "g*mm", 50.8),           # same
+    ("3 m*s**-2", "acceleration", "m/s**2", 3.0),    # derived here (D): the same unit written with a power
+    ("7.85 g/cm^3", "density", "kg/m**3", 7850.0),   # 1 g/cm^3 = 1000 kg/m^3 (SI prefixes, exact)
+    ("007 kg", "mass", "kg", 7.0),                   # derived here (D): digits read as written
+    ("1.48e3 mm", "length", "mm", 1480.0),           # derived here (D)
+    ("+.5 kg", "mass", "kg", 0.5),                   # derived here (D)
+])
+def test_reader_accepts_the_documented_grammar(text, kind, unit, expected):
+    assert magnitude(text, kind, unit) == pytest.approx(expected, rel=1e-12)
+
+
+@pytest.mark.parametrize("text", ["1800 RPM", "1800 Rpm", "1800 R/MIN", "1800 r / min", "30 HZ", "30 rps", "30 RPS"])
+def test_speed_names_in_any_case(text):
+    # 30 rev/s = 1800 r/min (a minute is 60 s)
+    assert speed_rpm(text) == pytest.approx(1800.0, rel=1e-12)
+
+
+@pytest.mark.parametrize("text, reason", [
+    ("1 480 rpm", "separators inside the number"),
+    ("1,480 rpm", "separators inside the number"),
+    ("1'480 rpm", "separators inside the number"),
+    ("1_480 rpm", "separators inside the number"),
+    ("1\u00a0480 rpm", "separators inside the number"),
+    ("1480 rpm 2", "'2' after the unit"),
+    ("1480 rpm@2", "'@' belongs in a vector"),
+    ("1480 rpm%", "'%' is not a unit"),
+    ("1480 percent*rpm", "'percent' is not a unit of measure"),
+    ("9**9**9 rpm", "arithmetic on the number"),
+    ("2*740 rpm", "arithmetic on the number"),
+    ("(9**9)**(9**9) rpm", "does not start with a number"),
+    ("1480 rpm^99", "after the unit"),
+    ("1480 r p m", "unit 'r' is not known"),
+    ("١٤٨٠ rpm", "does not start with a number"),
+])
+def test_reader_refuses_everything_else_with_the_reason(text, reason):
+    with pytest.raises(BadInput, match=r"^--speed: cannot read .*" + re.escape(reason)):
+        speed_rpm(text, "--speed")
+
+
+def test_angle_units_only_in_speeds():
+    with pytest.raises(BadInput, match="angle unit"):
+        quantity("412 kg*deg", "mass", "--mass")
+    assert speed_rpm("360 deg/s") == pytest.approx(60.0, rel=1e-12)  # one turn per second = 60 r/min
+
+
+def test_reader_never_uses_pints_expression_parser(monkeypatch):
+    # the text is read by our grammar alone: with pint's expression parser broken every form still reads
+    ureg = units.registry()
+
+    def broken(*args, **kwargs):
+        raise AssertionError("pint's expression parser was called")
+
+    monkeypatch.setattr(ureg, "parse_expression", broken)
+    assert magnitude("3.5 oz*in", "unbalance", "g*mm") == pytest.approx(3.5 * 720.077887375, rel=1e-12)
+    assert speed_rpm("50 1/s") == pytest.approx(3000.0)
+    with pytest.raises(BadInput):
+        quantity("9**9**9 kg", "mass")
+
+
+@pytest.mark.parametrize("kind", sorted(units.KINDS))
+def test_every_kind_has_bounds_with_room_for_zero(kind):
+    k = units.KINDS[kind]
+    assert 0 < k.lower < 1 < k.upper < 1e300
+    unit = k.kernel_unit.replace("**", "^")
+    assert quantity(f"0 {unit}", kind).magnitude == 0
+    assert quantity(f"{k.lower:g} {unit}", kind) is not None and quantity(f"{k.upper:g} {unit}", kind) is not None
+    with pytest.raises(BadInput, match=r"below the smallest .* \[CP\]"):
+        quantity(f"{k.lower / 10:g} {unit}", kind)
+    with pytest.raises(BadInput, match=r"above the largest .* \[CP\]"):
+        quantity(f"{k.upper * 10:g} {unit}", kind)
+
+
+def test_explicit_bounds_apply_to_quantities_too():
+    with pytest.raises(BadInput, match=r"--step: .* below the smallest step accepted, 0.01 mm"):
+        magnitude(Q_(1e-320, "mm"), "length", "mm", "--step", bounds=("0.01 mm", "100 mm"), what="step")
+    assert magnitude("2 mm", "length", "mm", bounds=("0.01 mm", "100 mm")) == 2

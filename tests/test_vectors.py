@@ -144,3 +144,22 @@ def test_add_vectors_matches_complex_sum(items):
 def test_to_complex_and_polar_round_trip():
     z = to_complex("10 g@90", "mass")
     assert polar(z * 1000) == pytest.approx((10.0, 90.0))
+
+
+@pytest.mark.parametrize("text", ["1_000@0", "1 000@0", "1,5@0", "٣@0", "0x1A@0", "1e400@0", "1e-400@0",
+                                  "4.9e-324@0", "2e12@0", "nan@0", "-3@0"])
+def test_plain_amounts_are_digits_and_bounded(text):
+    with pytest.raises(BadInput, match=r"^--reading: amount"):
+        parse_vector(text, None, "--reading")
+
+
+@pytest.mark.parametrize("text", ["412 kg@3@4", "412 kg 2@30", "1 285 g@30", "9**9**9 g@20", "38 g%@30"])
+def test_vector_amounts_go_through_the_strict_reader(text):
+    with pytest.raises(BadInput):
+        parse_vector(text, "mass", "--unbalance")
+
+
+def test_mil_readings_are_displacement():
+    # 1 mil = 0.001 in = 25.4 um exactly (NIST SP 811, B.8: 1 in = 2.54 cm)
+    z, kind, unit = parse_reading("1.5 mils@0")
+    assert (kind, unit) == ("displacement", "um") and z.real == pytest.approx(38.1, rel=1e-15)

@@ -109,6 +109,14 @@ def _names(value, field: str) -> tuple[str, ...]:
     return tuple(value)
 
 
+#: Bounds of our own [CP] on a stored coefficient's amount other than zero (reading units per gram).
+AMOUNT_BOUNDS = (1e-12, 1e12)
+
+
+def _is_number(value) -> bool:
+    return isinstance(value, (int, float)) and not isinstance(value, bool)
+
+
 def load_coefficients(path) -> Coefficients:
     """Read a coefficients file; every error names the file and the field."""
     from toolkit.fileio import parse_json, read_text
@@ -138,23 +146,34 @@ def load_coefficients(path) -> Coefficients:
             raise BadInput(f"{p}: coefficients[{i + 1}]: need one entry per plane ({len(planes)})")
         out = []
         for j, cell in enumerate(row):
+            where = f"{p}: coefficients[{i + 1}][{j + 1}]"
             try:
-                amount, angle = float(cell["amount"]), float(cell["angle_deg"])
-            except (TypeError, KeyError, ValueError):
-                raise BadInput(f"{p}: coefficients[{i + 1}][{j + 1}]: need amount and angle_deg numbers") from None
+                amount, angle = cell["amount"], cell["angle_deg"]
+            except (TypeError, KeyError):
+                raise BadInput(f"{where}: need amount and angle_deg numbers") from None
+            if not (_is_number(amount) and _is_number(angle)):  # "1_000" or "1e3" as text is not read
+                raise BadInput(f"{where}: need amount and angle_deg numbers")
+            amount, angle = float(amount), float(angle)
             if not (math.isfinite(amount) and math.isfinite(angle)):
-                raise BadInput(f"{p}: coefficients[{i + 1}][{j + 1}]: not finite")
+                raise BadInput(f"{where}: not finite")
+            if not (amount == 0 or AMOUNT_BOUNDS[0] <= abs(amount) <= AMOUNT_BOUNDS[1]) or abs(angle) > 1e6:
+                raise BadInput(f"{where}: amount {amount!r} or angle {angle!r} is out of range (an amount from "
+                               f"{AMOUNT_BOUNDS[0]:g} to {AMOUNT_BOUNDS[1]:g}, or 0, and an angle within ±1e6 "
+                               "degrees: bounds of our own [CP])")
             out.append(amount * complex(math.cos(math.radians(angle)), math.sin(math.radians(angle))))
         matrix.append(tuple(out))
+    from toolkit.units import KINDS
+
+    length, rotation = KINDS["length"], KINDS["speed"]
     radius = data.get("radius_mm") or {}
     if not isinstance(radius, dict) or not all(
-            isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) and v > 0
-            for v in radius.values()):
-        raise BadInput(f"{p}: radius_mm: need a table of plane names and positive radii in mm")
+            _is_number(v) and length.lower <= v <= length.upper for v in radius.values()):
+        raise BadInput(f"{p}: radius_mm: need a table of plane names and positive radii in mm (from "
+                       f"{length.lower:g} to {length.upper:g} mm)")
     speed = data.get("speed_rpm")
-    if speed is not None and (isinstance(speed, bool) or not isinstance(speed, (int, float))
-                              or not math.isfinite(speed) or speed <= 0):
-        raise BadInput(f"{p}: speed_rpm: {speed!r} is not a positive number of r/min")
+    if speed is not None and not (_is_number(speed) and rotation.lower <= speed <= rotation.upper):
+        raise BadInput(f"{p}: speed_rpm: {speed!r} is not a positive number of r/min (from {rotation.lower:g} "
+                       f"to {rotation.upper:g})")
     return Coefficients(sensors=sensors, planes=planes, matrix=tuple(matrix), weight_angles=weight_angles,
                         phase=phase, reading_unit=unit, reading_kind=_KIND_OF_UNIT[unit],
                         speed_rpm=speed, radius_mm=tuple((k, float(v)) for k, v in radius.items()),

@@ -151,7 +151,7 @@ def _grades_from(table) -> tuple[Grade, ...]:
                         key=lambda g: g.mm_s))
 
 
-_GRADE_TEXT = re.compile(r"^G?\s*((?:\d+\.?\d*|\.\d+))\s*(?:mm\s*/\s*s)?$", re.IGNORECASE)
+_GRADE_TEXT = re.compile(r"^G?\s*((?:[0-9]+\.?[0-9]*|\.[0-9]+))\s*(?:mm\s*/\s*s)?$", re.IGNORECASE)
 _GRADE_HELP = "write e.g. 'G6.3', 'G 6.3', '6.3' or '6.3 mm/s'"
 
 
@@ -188,6 +188,10 @@ def parse_grade(value, *, custom: bool = False, table: str = "grades", name: str
         shown = f"{g:g} mm/s"
     if not math.isfinite(g) or g <= 0:
         raise BadInput(f"{name}: {shown!r} must be a finite grade greater than zero; {_GRADE_HELP}")
+    low, high = KINDS["grade"].lower, KINDS["grade"].upper
+    if not low <= g <= high:
+        raise BadInput(f"{name}: {shown!r} is outside the grades read, G {low:g} to G {high:g} (bounds of our "
+                       f"own [CP]); {_GRADE_HELP}")
     series = grades(table)
     for row in series:
         if abs(row.mm_s - g) <= 1e-6 * g:
@@ -447,11 +451,23 @@ def transfer_to_planes(u_a, u_b, bearing_span, positions) -> tuple:
     return tuple(Q_(t, _G_MM) for t in _transfer(ua, ub, d, z))
 
 
+def _planes_together(z1: float, z2: float, d: float) -> str:
+    """Why two plane positions (mm) cannot be told apart on a bearing span d (mm): both printed exactly.
+
+    >>> _planes_together(260.0, 930.0, 1e20)
+    'planes: the correction planes at 260 mm and 930 mm are closer than a billionth of the bearing span (1e+20 mm); give positions further apart or check the span'
+    """
+    if z1 == z2:
+        return f"planes: both correction planes are at {z1:.12g} mm; give two different positions"
+    return (f"planes: the correction planes at {z1:.12g} mm and {z2:.12g} mm are closer than a billionth of the "
+            f"bearing span ({d:.6g} mm); give positions further apart or check the span")
+
+
 def _transfer(ua: float, ub: float, d: float, z: list[float]) -> list[float]:
     if len(z) not in (1, 2):
         raise BadInput(f"planes: {len(z)} correction planes given; a rigid rotor takes one or two")
     if len(z) == 2 and abs(z[0] - z[1]) <= 1e-9 * d:
-        raise BadInput(f"planes: both correction planes are at {z[0]:g} mm; give two different positions")
+        raise BadInput(_planes_together(z[0], z[1], d))
     if len(z) == 1:
         w = [1.0]
     else:
@@ -667,7 +683,7 @@ def static_couple_allowance(u_a, u_b, bearing_span, com_from_a, positions, stati
     z1, z2 = (magnitude(p, "length", "mm", f"plane {i + 1} position") for i, p in enumerate(positions))
     b = abs(z2 - z1)
     if b <= 1e-9 * d:
-        raise BadInput(f"planes: both correction planes are at {z1:g} mm; give two different positions")
+        raise BadInput(_planes_together(z1, z2, d))
     total = ua + ub
     limits = [ua * d / abs(d - zs) if abs(d - zs) > 0 else math.inf, ub * d / abs(zs) if abs(zs) > 0 else math.inf]
     max_share = min(min(limits) / total, 1.0)

@@ -13,6 +13,31 @@ a cache: slower to start, never broken.
 Speeds: shops write ``rpm`` or ``r/min``. pint treats ``Hz`` as 1/s, so ``50 Hz`` converted naively to rpm
 would give 477 rpm instead of 3000 rpm. :func:`speed_rpm` reads a speed without an angle unit (``Hz``,
 ``1/s``, ``1/min``) as revolutions per that time, which is what a shop means.
+
+The reader of text (the command line, job files, planner cells, runs files and any later form all come
+here) accepts exactly this grammar, and refuses anything else with the reason and the field's name::
+
+    QUANTITY = NUMBER [spaces] UNIT
+    NUMBER   = [+|-] DIGITS [. [DIGITS]] [(e|E) [+|-] DIGITS]  |  [+|-] . DIGITS [exponent]
+               (ASCII digits only; nan and inf are read only to be refused as not finite)
+    UNIT     = ["1/"] TERM { ("*" | "/" | "·") TERM }   (spaces allowed around the operators; left to right)
+    TERM     = NAME [("^" | "**") [-] DIGIT]            (an integer power from 1 to 9)
+    NAME     = a unit name of the registry: letters, then letters, digits or "_"
+
+So ``"412 kg"``, ``"3.5 oz*in"``, ``"7850 kg/m^3"``, ``"kg/m3"`` (read as kg/m³), ``"4.2 mm/s"``, ``"12 µm"``,
+``"50 1/s"``, ``"1480 r/min"`` and ``"1.48e3 rpm"`` are read; ``"1 480 rpm"``, ``"1,480 rpm"``, ``"1'480 rpm"``
+(thousands separators of any kind are refused: write the digits together), ``"1480 rpm 2"``, ``"412 kg@3"``
+(``@`` belongs to vectors only), ``"1480 rpm%"``, ``"9**9**9 kg"`` (no arithmetic on the number) and
+``"412 g mm"`` (a space is not a product) are refused. A single ``.`` is always the decimal point. The text
+never reaches pint's expression parser: each unit name is looked up on its own, so the work is linear in the
+text (at most 200 characters). Our own readings of names: ``mil``/``mils`` is a thousandth of an inch (pint's
+``mil`` is an angle), ``rpm``, ``rps``, ``Hz`` and ``r/min`` are read in any case (``1800 RPM``); scale names
+without a dimension (``percent``, ``ppm``, ``pi``) are refused, and angle units only make sense in a speed.
+
+Each kind (:data:`KINDS`) has a smallest and a largest size, other than zero, that text may give: bounds of
+our own [CP], far beyond any shop's rotor, that keep results finite and clear of subnormal numbers (so
+``"1e308 kg"`` or ``"1e-320 mm"`` is refused at the input with the bound, never turned into ``inf`` later).
+Steps and resolutions have narrower bounds of their own (``bounds=`` of :func:`quantity`).
 """
 
 from __future__ import annotations
@@ -146,7 +171,7 @@ KINDS: dict[str, Kind] = {
         Kind("length", "[length]", "mm", "150 mm", 1e-6, 1e6),              # 1 nm to 1 km
         Kind("speed", "1/[time]", "rpm", "1480 rpm", 1e-3, 1e7),            # r/min
         Kind("unbalance", "[mass]*[length]", "g*mm", "2400 g*mm", 1e-9, 1e15),
-        Kind("density", "[mass]/[length]**3", "kg/m**3", "7850 kg/m^3", 1.0, 1e5),
+        Kind("density", "[mass]/[length]**3", "kg/m**3", "7850 kg/m^3", 1e-2, 1e8),  # materials: 100..25000
         Kind("vibration velocity", "[length]/[time]", "mm/s", "4.2 mm/s", 1e-9, 1e6),
         Kind("displacement", "[length]", "um", "12 um", 1e-9, 1e9),
         Kind("acceleration", "[length]/[time]**2", "m/s**2", "3 m/s^2", 1e-12, 1e7),
@@ -172,17 +197,7 @@ def _normalise(text: str) -> str:
     return text
 
 
-# -- the reader: one grammar for every quantity a user writes ------------------------------------------------
-#
-# QUANTITY = NUMBER [spaces] UNIT
-# NUMBER   = [+|-] DIGITS [. DIGITS] [(e|E) [+|-] DIGITS]  |  [+|-] . DIGITS [exponent]   (ASCII digits only;
-#            nan and inf are read so that they can be refused as not finite)
-# UNIT     = ["1/"] TERM { ("*" | "/" | "·") TERM }          (spaces allowed around the operators)
-# TERM     = NAME [("^" | "**") [-] DIGIT]                   (a power from 1 to 9)
-# NAME     = a unit name of the registry (letters, digits after the first, "_")
-#
-# Nothing else: no spaces or separators inside the number, no arithmetic on numbers, no text after the unit.
-# The reader's work is linear in the text (at most 200 characters) and never evaluates an expression.
+# -- the reader: one grammar for every quantity a user writes (see the module description) ----------------
 
 _NUMBER = re.compile(r"[-+]?(?:(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?|(?i:nan|inf(?:inity)?)(?![A-Za-z]))")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
@@ -232,10 +247,34 @@ def _unit_name(name: str):
     return unit
 
 
+_ANGLE_UNITS: dict = {}
+
+
 def _is_angle(unit) -> bool:
-    """Whether a unit contains an angle (rad, deg, rev in rad/s, rpm)."""
-    _factor, root = registry().get_root_units(unit)
-    return "radian" in root._units
+    """Whether a unit contains an angle (rad, deg, rev in rad/s, rpm); remembered per unit."""
+    known = _ANGLE_UNITS.get(unit)
+    if known is None:
+        _factor, root = registry().get_root_units(unit)
+        known = "radian" in root._units
+        if len(_ANGLE_UNITS) < 512:
+            _ANGLE_UNITS[unit] = known
+    return known
+
+
+_FACTORS: dict = {}
+
+
+def _kernel_factor(unit, k: "Kind") -> float:
+    """How many kernel units (r/min for a speed, read as :func:`speed_rpm` reads it) one ``unit`` is;
+    remembered per unit and kind (every unit of a kind here is a plain multiple of the kernel unit)."""
+    key = (unit, k.name)
+    factor = _FACTORS.get(key)
+    if factor is None:
+        one = registry().Quantity(1.0, unit)
+        factor = float(speed_rpm(one, positive=False) if k.name == "speed" else one.m_as(_cached_unit(k.kernel_unit)))
+        if len(_FACTORS) < 1024:
+            _FACTORS[key] = factor
+    return factor
 
 
 def _read_unit(text: str, start: int):
@@ -303,8 +342,16 @@ def _parse(text: str):
         raise _Unreadable("it has no unit")
     if stripped[:1].isdigit() and not _ONE_OVER.match(stripped):
         raise _Unreadable("spaces inside the number are not read; write its digits together")
-    unit = _read_unit(text, len(text) - len(stripped))
+    unit = _READ.get(stripped)
+    if unit is None:
+        unit = _read_unit(stripped, 0)
+        if len(_READ) < 512:
+            _READ[stripped] = unit
     return registry().Quantity(value, unit)
+
+
+#: Unit texts already read ("g*mm", "kg/m^3"): shops' sheets repeat a few units (errors are not kept).
+_READ: dict[str, object] = {}
 
 
 def _is_bare_number(text: str) -> bool:
@@ -344,16 +391,13 @@ def _bound_text(value: float, unit: str) -> str:
 def _check_bounds(q, k: Kind, name: str, shown, bounds, what: str, zero: bool = True) -> None:
     """Refuse a scalar whose size (other than zero) lies outside the kind's bounds or ``bounds``."""
     try:
-        if k.name == "speed":
-            size = abs(float(speed_rpm(q, name, positive=False)))
-            unit = "rpm"
-        else:
-            size = abs(float(q.m_as(_cached_unit(k.kernel_unit))))
-            unit = k.kernel_unit
+        raw = abs(float(q.magnitude))
     except TypeError:  # an array quantity: its bounds are the caller's
         return
-    if size == 0.0 and bounds is None:
+    if raw == 0.0 and bounds is None:
         return
+    size = raw * _kernel_factor(q.units, k)  # 0.0 when a subnormal magnitude vanishes: below every bound
+    unit = k.kernel_unit
     if bounds is not None:
         low, high = (quantity(b, k, "bound") for b in bounds)
         low_m, high_m = (float(magnitude(b, k, unit)) for b in (low, high))

@@ -117,6 +117,21 @@ def _cell_text(value) -> str:
     return str(value).strip()
 
 
+#: Most names a message lists; the rest are counted ("and 999,990 more").
+_LISTED = 10
+
+
+def _some(names: list[str]) -> str:
+    """At most :data:`_LISTED` names (each cut to 40 characters), then how many more.
+
+    >>> _some(["a", "b"]), _some([str(i) for i in range(1_000_000)])[-20:]
+    ('a, b', ', 9 and 999,990 more')
+    """
+    shown = ", ".join(n if len(n) <= 40 else n[:37] + "..." for n in names[:_LISTED])
+    rest = len(names) - _LISTED
+    return shown if rest <= 0 else f"{shown} and {rest:,} more"
+
+
 def _header(cells, origin: str) -> list[str]:
     header = [_cell_text(c).lower().replace(" ", "_") for c in cells]
     while header and not header[-1]:
@@ -126,9 +141,11 @@ def _header(cells, origin: str) -> list[str]:
     known = _known_columns()
     unknown = [h for h in header if h and h not in known]
     if unknown:
-        raise BadInput(f"{origin}, row 1: unknown column(s) {', '.join(unknown)}; see the planner columns in "
+        raise BadInput(f"{origin}, row 1: unknown column(s) {_some(unknown)}; see the planner columns in "
                        "the README (order, rotor, mass, service_speed, ..., plane1_name, plane1_reading, ...)")
-    dupes = sorted({h for h in header if h and header.count(h) > 1})
+    from collections import Counter
+
+    dupes = sorted(h for h, n in Counter(h for h in header if h).items() if n > 1)
     if dupes:
         raise BadInput(f"{origin}, row 1: column {dupes[0]} appears twice")
     missing = [c for c in ("order",) if c not in header]
@@ -210,6 +227,7 @@ def _xlsx_rows(path: Path, origin: str):
         wb = load_workbook(path, read_only=True, data_only=True)
     except Exception as exc:  # openpyxl raises several kinds for a damaged or foreign file
         raise BadInput(f"{origin}: cannot read as a workbook ({type(exc).__name__})") from None
+    formulas = None
     try:
         ws = wb.worksheets[0]
         rows = ws.iter_rows(values_only=True)
@@ -219,10 +237,12 @@ def _xlsx_rows(path: Path, origin: str):
             raise
         except Exception as exc:  # damaged XML in the first row: the sheet as a whole cannot be read
             raise BadInput(f"{origin}: cannot read the first row ({type(exc).__name__})") from None
+        formulas = _formula_rows(path) if _has_formulas(path) else None
         number = 1
         while True:
             try:
                 cells = next(rows)
+                written = next(formulas, None) if formulas is not None else None
             except StopIteration:
                 break
             except Exception as exc:  # damaged XML further down: report that row, keep what was read
@@ -230,9 +250,55 @@ def _xlsx_rows(path: Path, origin: str):
                                              "the rows after it were not read"}
                 break
             number += 1
+            if written and cells:
+                unread = [h for h, c, f in zip(header, cells, written) if h and c is None and f]
+                if unread:
+                    yield number, {_DAMAGED: f"column {unread[0]}: the cell holds a formula with no stored value "
+                                             "(the workbook was saved without calculating it); open the sheet in "
+                                             "a spreadsheet program and save it, so that each formula's value is "
+                                             "stored, or type the value in"}
+                    continue
             if cells is None or all(c is None or _cell_text(c) == "" for c in cells):
                 continue
             yield number, {h: _cell_text(c) for h, c in zip(header, cells) if h}
+    finally:
+        if formulas is not None:
+            formulas.close()
+        wb.close()
+
+
+def _has_formulas(path: Path) -> bool:
+    """Whether any worksheet of the package holds a formula (an ``<f>`` element), read in chunks."""
+    import zipfile
+
+    try:
+        with zipfile.ZipFile(path) as package:
+            for item in package.infolist():
+                if not (item.filename.startswith("xl/worksheets/") and item.filename.endswith(".xml")):
+                    continue
+                tail = b""
+                with package.open(item) as part:
+                    while chunk := part.read(1 << 20):
+                        text = tail + chunk
+                        if b"<f>" in text or b"<f " in text or b":f>" in text or b":f " in text:
+                            return True
+                        tail = text[-8:]
+    except Exception:  # damaged packages are reported by the reader itself
+        return False
+    return False
+
+
+def _formula_rows(path: Path):
+    """For each data row, which cells hold a formula (True) as written in the file: a second read-only
+    pass, made only when the workbook has formulas at all."""
+    from openpyxl import load_workbook
+
+    wb = load_workbook(path, read_only=True, data_only=False)
+    try:
+        rows = wb.worksheets[0].iter_rows(values_only=True)
+        next(rows, None)
+        for cells in rows:
+            yield [isinstance(c, str) and c.startswith("=") for c in (cells or ())]
     finally:
         wb.close()
 

@@ -888,13 +888,16 @@ def _reading(ck: _Checker, value, path: tuple, plane: PlaneSpec):
     try:
         amount, angle = parse_vector(value, "unbalance", "\x00")
         return amount, angle
-    except BadInput:
-        pass
+    except BadInput as exc:
+        reason = str(exc)
     try:
         amount, angle = parse_vector(value, "mass", "\x00")
     except BadInput:
-        ck.add(path, f"{_shown(value)} is not a reading; write AMOUNT@ANGLE with an unbalance or a mass, e.g. "
-                     "\"1820 g*mm@40\" or \"5.9 g@40\"")
+        # the reader's own reason when it could not read the amount at all (not merely a wrong dimension)
+        why = ("" if "is not a unbalance (" in reason or "is not a vector" in reason
+               else f" ({reason.replace(chr(0) + ': ', '', 1)})")
+        ck.add(path, f"{_shown(value)} is not a reading{why}; write AMOUNT@ANGLE with an unbalance or a mass, "
+                     "e.g. \"1820 g*mm@40\" or \"5.9 g@40\"")
         return None
     return (amount * plane.radius).to("g*mm"), angle
 
