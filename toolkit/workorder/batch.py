@@ -333,16 +333,16 @@ def _put(data: dict, path: tuple, value) -> None:
 def row_job(cells: dict, origin: str, base: Path):
     """Validate one planner row and return its :class:`~toolkit.workorder.job.Job` (problems name the
     column)."""
-    from toolkit.fileio import parse_toml, read_text
-    from toolkit.workorder.job import MAX_JOB_BYTES, job_from_data, load_job
+    import copy
+
+    from toolkit.workorder.job import job_from_data
 
     data: dict = {}
     columns: dict[tuple, str] = {}
     template = cells.get("job", "")
     if template:
         file = (base / template) if not Path(template).is_absolute() else Path(template)
-        load_job(file)  # its own problems, with line numbers
-        data = parse_toml(read_text(file, "job file (.toml)", MAX_JOB_BYTES), str(file))
+        data = copy.deepcopy(_template(file))  # the row's cells are put into its own copy
         base = file.parent
     else:
         data["measurement"] = {"kind": "machine"}
@@ -374,6 +374,33 @@ def row_job(cells: dict, origin: str, base: Path):
     if planes:
         data["plane"] = planes
     return job_from_data(data, origin, base, columns=columns, what="the row")
+
+
+def _template(file: Path) -> dict:
+    """A row's job template as data, read, parsed and checked (its own problems with line numbers) once per
+    version of the file: the rows of a sheet usually share one template, and reading it for each row was
+    most of a trial-run row's time."""
+    try:
+        stat = file.stat()
+        key = (str(file.resolve()), stat.st_mtime_ns, stat.st_size)
+    except OSError:
+        key = None  # missing or unreadable: the reader below says so
+    if key is not None and key in _TEMPLATES:
+        return _TEMPLATES[key]
+    from toolkit.fileio import parse_toml, read_text
+    from toolkit.workorder.job import MAX_JOB_BYTES, parse_job
+
+    text = read_text(file, "job file (.toml)", MAX_JOB_BYTES)
+    parse_job(text, str(file), file.parent)  # its own problems, with line numbers
+    data = parse_toml(text, str(file))
+    if key is not None:
+        if len(_TEMPLATES) >= 64:
+            _TEMPLATES.clear()
+        _TEMPLATES[key] = data
+    return data
+
+
+_TEMPLATES: dict[tuple, dict] = {}
 
 
 # -- the batch ----------------------------------------------------------------------------------------
