@@ -206,7 +206,9 @@ def write_baseline(plan: dict, out: str) -> None:
 
 def _child(code: str, *args: str) -> tuple[float, float, float]:
     """Run a child; return its wall time [s], CPU time [s] (user + system) and peak resident set [MB]."""
-    result = subprocess.run([sys.executable, "-c", code, *args], capture_output=True, text=True, timeout=3600)
+    # -P: the child does not put the current folder first on its path, so run from the repository's root it
+    # still times the installed package, not the source tree
+    result = subprocess.run([sys.executable, "-P", "-c", code, *args], capture_output=True, text=True, timeout=3600)
     if result.returncode != 0:
         raise SystemExit(f"child failed ({result.returncode}): {result.stderr.strip()[-800:]}")
     line = [ln for ln in result.stderr.splitlines() if "peak-kB" in ln][-1].split()

@@ -30,8 +30,7 @@ import tempfile
 import time
 from pathlib import Path
 
-ROOT = Path(__file__).resolve().parents[1]
-sys.path.insert(0, str(ROOT))
+ROOT = Path(__file__).resolve().parents[1]  # the examples and test helpers; the package is the installed one
 
 from toolkit.register import open_register  # noqa: E402
 from toolkit.register import records as R  # noqa: E402
