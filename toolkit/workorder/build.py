@@ -254,7 +254,10 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
                            key not in job.defaults_used, f"[{section}] {name}"))
     out.append(Setting("angle marking step", f"{job.shop.angle_step_deg:g}°", "CP",
                        "angle_step" in job.shop.given, "[shop] angle_step"))
-    out.append(Setting("weighing step", f"{job.shop.mass_step.m_as('g'):g} g", "CP",
+    weighing = (f"{job.shop.mass_step.m_as('g'):g} g" if job.shop.units != "imperial" else
+                f"{job.shop.mass_step.m_as('g'):g} g, read to the nearest "
+                f"{10.0 ** math.floor(math.log10(job.shop.mass_step.m_as('oz'))):g} oz")
+    out.append(Setting("weighing step", weighing, "CP",
                        "mass_step" in job.shop.given, "[shop] mass_step"))
     share = DEFAULT_MIN_SHARE if job.min_share is None else job.min_share
     out.append(Setting("lever-rule share bounds", f"{share:g} to {1 - share:g}", "M",

@@ -206,6 +206,7 @@ def _first_page(w: _Writer, fmt: Formatter):
     else:
         w.paragraph("No operation: the initial unbalance is already within the allowance.")
 
+    w.ensure(40 + 18 * (len(order.planes) + 1))  # the heading stays with its table, never alone at a page end
     w.heading("Predicted residual after the operations")
     w.table([("Plane", 0.16), ("Predicted residual", 0.42), ("Allowance", 0.2), ("Result", 0.22)],
             [[p.name, f"{fmt.unbalance(p.predicted_g_mm)} at {fmt.where(p.predicted_deg)}",
