@@ -61,10 +61,11 @@ class _Parser(argparse.ArgumentParser):
         return super()._get_values(action, arg_strings)
 
 
-def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+def build_parser(only: str | None = None, *, listing: bool = False) -> argparse.ArgumentParser:
     """The argument parser. With ``only`` (a subcommand's name) just that subcommand gets its options: the
-    others are not needed to run it, and configuring twelve subcommands costs more start-up time than the
-    one that runs. Without it every subcommand is configured (``--help`` of each, and the tests)."""
+    others are not needed to run it, and configuring every subcommand costs more start-up time than the
+    one that runs. With ``listing`` the subcommands are only named (the top-level ``--help`` and a usage
+    error without a subcommand). Without either, every subcommand is configured (the tests use that)."""
     from toolkit import __version__
 
     parser = _Parser(
@@ -80,6 +81,9 @@ def build_parser(only: str | None = None) -> argparse.ArgumentParser:
     modules: dict[str, object] = {}
     for name, module_name, help_text in COMMANDS:
         if only is not None and name != only:
+            continue
+        if listing:  # the top-level help and usage errors need each subcommand's name and help only
+            sub.add_parser(name, help=help_text, add_help=False)
             continue
         module = modules.get(module_name) or importlib.import_module(module_name)
         modules[module_name] = module
@@ -147,7 +151,8 @@ def _restore_stops(old: dict) -> None:
 
 def _main(argv) -> int:
     argv = sys.argv[1:] if argv is None else list(argv)
-    parser = build_parser(_chosen(argv))
+    chosen = _chosen(argv)
+    parser = build_parser(chosen, listing=chosen is None)
     try:
         args = parser.parse_args(argv)
     except SystemExit as exc:  # --help, --version, or a usage error already printed
