@@ -142,11 +142,17 @@ def test_xlsx_rows_keep_sheet_row_numbers(tmp_path):
     assert [(n, cells["order"], cells["mass"]) for n, cells in rows] == [(2, "A", "1 kg"), (4, "B", "12.5")]
 
 
-def test_progress_bar_only_when_asked(tmp_path, capsys):
-    run_batch(EXAMPLES / "planner.csv", tmp_path / "a", progress=True)
+def test_progress_reaches_the_caller_and_the_library_prints_nothing(tmp_path, capsys):
+    from toolkit.commands.workorders import Progress
+
+    calls = []
+    run_batch(EXAMPLES / "planner.csv", tmp_path / "a", progress=lambda *a: calls.append(a))
+    assert calls[-1] == (4, 4, 0, True) and all(c[1] == 4 for c in calls)
+    assert capsys.readouterr() == ("", "")  # the library never writes to the terminal
+    run_batch(EXAMPLES / "planner.csv", tmp_path / "b", progress=Progress())  # the command line's bar
     err = capsys.readouterr().err
     assert "\r[" in err and "4/4 rows, 0 failed" in err
-    run_batch(EXAMPLES / "planner.csv", tmp_path / "b", progress=False)
+    run_batch(EXAMPLES / "planner.csv", tmp_path / "c")
     assert capsys.readouterr().err == ""
 
 

@@ -187,6 +187,32 @@ def run_order(args) -> int:
     return _finish(args, order, files)
 
 
+class Progress:
+    """A one-line progress bar on stderr for a batch (only on an interactive terminal): called by the
+    library with the rows done, the rows expected (None when unknown), the rows failed and whether it is
+    the last call."""
+
+    def __init__(self):
+        self.last = 0.0
+
+    def __call__(self, done: int, total: int | None, failed: int, final: bool = False) -> None:
+        import sys
+        import time
+
+        now = time.monotonic()
+        if not final and now - self.last < 0.1:
+            return
+        self.last = now
+        if total:
+            width = 30
+            filled = int(width * min(done, total) / total)
+            text = f"\r[{'#' * filled + '.' * (width - filled)}] {done}/{total} rows, {failed} failed"
+        else:
+            text = f"\r{done} rows, {failed} failed"
+        sys.stderr.write(text + ("\n" if final else ""))
+        sys.stderr.flush()
+
+
 def run_batch(args) -> int:
     import sys
 
@@ -199,7 +225,7 @@ def run_batch(args) -> int:
     if Path(args.sheet).is_dir():
         raise BadInput(f"{args.sheet} is a folder; give a planner sheet (.xlsx or .csv file)")
     out = out_folder(args.out)
-    progress = sys.stderr.isatty() and not args.json
+    progress = Progress() if sys.stderr.isatty() and not args.json else None
     try:
         result = batch(args.sheet, out, force=args.force, progress=progress, carry_on=args.carry_on,
                        paper=_paper_name(args))

@@ -49,7 +49,6 @@ with the combined PDF only.
 from __future__ import annotations
 
 import csv
-import sys
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -405,32 +404,6 @@ _TEMPLATES: dict[tuple, dict] = {}
 
 # -- the batch ----------------------------------------------------------------------------------------
 
-class _Progress:
-    """A one-line progress bar on stderr (only used on an interactive terminal)."""
-
-    def __init__(self, total: int | None, enabled: bool):
-        self.total = total
-        self.enabled = enabled
-        self.last = 0.0
-
-    def show(self, done: int, failed: int, final: bool = False):
-        if not self.enabled:
-            return
-        now = time.monotonic()
-        if not final and now - self.last < 0.1:
-            return
-        self.last = now
-        if self.total:
-            width = 30
-            filled = int(width * min(done, self.total) / self.total)
-            bar = "#" * filled + "." * (width - filled)
-            text = f"\r[{bar}] {done}/{self.total} rows, {failed} failed"
-        else:
-            text = f"\r{done} rows, {failed} failed"
-        sys.stderr.write(text + ("\n" if final else ""))
-        sys.stderr.flush()
-
-
 #: The batch's own record in the output folder: for each order file, its row, a hash of the row's inputs
 #: and a hash of the file written; used to continue an interrupted batch.
 MANIFEST_FORMAT = "counterpoise-batch"
@@ -495,7 +468,7 @@ def _load_manifest(path: Path) -> dict | None:
     return data
 
 
-def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, progress: bool = False,
+def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, progress=None,
               carry_on: bool = False, paper: str | None = None) -> BatchResult:
     """Turn every row of a planner sheet into a work order.
 
@@ -547,7 +520,11 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
         check_writable(path, batch_force)
     rows = read_rows(sheet)
     first = next(rows, None)  # sheet-level problems surface before anything is written
-    bar = _Progress(_count_rows(sheet) if progress else None, progress)
+    total = _count_rows(sheet) if progress else None
+
+    def report(done: int, final: bool = False) -> None:
+        if progress:
+            progress(done, total, len(failures), final)
     summary = _Summary()
     try:
         combined = pdf.Document()
@@ -627,8 +604,8 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
             for number, cells in _chain(first, rows):
                 count += 1
                 one(number, cells)
-                bar.show(count, len(failures))
-        bar.show(count, len(failures), final=True)
+                report(count)
+        report(count, final=True)
         final = {"complete": True, "combined": None, "summary": None}
         if combined.orders:
             files.append(str(write_atomic(combined_path, combined.write_to, force=batch_force)))
