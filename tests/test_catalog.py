@@ -67,3 +67,14 @@ def test_every_builtin_table_has_a_source_on_every_row():
     for name in names:
         table = catalog.load(name, {})
         assert all(row["source"] for row in table), name
+
+
+def test_table_numbers_are_read_like_quantity_numbers(tmp_path):
+    # behaviour check (no published value): a separator inside a number is refused, never read as 10
+    from toolkit.catalog import load, number
+
+    assert number("10") == 10.0 and number(" 2.5e1 ") == 25.0
+    path = tmp_path / "t.csv"
+    path.write_text("size,diameter,unit,source\n10 mm,1_0,mm,invented\n", encoding="utf-8")
+    with pytest.raises(BadInput, match="'1_0' is not a number"):
+        load(path, {"size": lambda c: c, "diameter": number, "unit": lambda c: c})

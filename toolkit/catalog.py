@@ -52,8 +52,10 @@ def text(cell: str) -> str:
 
 def number(cell: str, *, positive: bool = True) -> float:
     """A finite number (greater than zero unless ``positive=False``)."""
+    from toolkit.units import plain_number
+
     try:
-        x = float(cell)
+        x = plain_number(cell)
     except ValueError:
         raise ValueError(f"{cell.strip()!r} is not a number") from None
     if not math.isfinite(x):

@@ -201,6 +201,25 @@ def _normalise(text: str) -> str:
 
 _NUMBER = re.compile(r"[-+]?(?:(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?|(?i:nan|inf(?:inity)?)(?![A-Za-z]))")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
+
+
+def plain_number(text: str) -> float:
+    """A number written as the quantity reader writes its numbers (digits, one ``.``, an optional
+    exponent; no separators, no arithmetic), for the places that read a bare number: table cells,
+    fractions. Raises ``ValueError`` otherwise.
+
+    >>> plain_number(" 0.3 "), plain_number("2e3")
+    (0.3, 2000.0)
+    >>> plain_number("1_0")
+    Traceback (most recent call last):
+    ...
+    ValueError: '1_0' is not a plain number (digits with one '.', an optional exponent; no separators)
+    """
+    cleaned = str(text).strip()
+    if not _NUMBER.fullmatch(cleaned):
+        raise ValueError(f"{cleaned!r} is not a plain number (digits with one '.', an optional exponent; "
+                         "no separators)")
+    return float(cleaned)
 _POWER = re.compile(r"(?:\^|\*\*)(-?[1-9])(?![0-9])")
 _OPERATOR = re.compile(r"\s*([*/])\s*")
 _ONE_OVER = re.compile(r"1\s*/\s*")

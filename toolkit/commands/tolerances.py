@@ -18,8 +18,10 @@ def _fraction(text, option: str, low: float, high: float, example: str):
 
     if text is None:
         return None
+    from toolkit.units import plain_number
+
     try:
-        value = float(text)
+        value = plain_number(text)
     except ValueError:
         raise BadInput(f"{option}: {text!r} is not a number; give a fraction from {low:g} to {high:g}, "
                        f"e.g. {example}") from None
