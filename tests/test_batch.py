@@ -206,3 +206,12 @@ def test_a_small_workbook_that_unpacks_huge_is_refused(tmp_path):
     with pytest.raises(BadInput, match=r"bomb.xlsx: part xl/worksheets/sheet1.xml unpacks to \d+ bytes"):
         run_batch(sheet, tmp_path / "out")
     assert not (tmp_path / "out").exists()
+
+
+def test_the_paper_asked_for_is_an_input_of_every_row():
+    # behaviour check: a batch continued with another paper must not keep PDFs printed for the old one
+    from toolkit.workorder.batch import row_inputs
+
+    cells = {"order": "PL-1", "rotor": "invented"}
+    assert row_inputs(cells, EXAMPLES, "A4") != row_inputs(cells, EXAMPLES, "Letter")
+    assert row_inputs(cells, EXAMPLES, "A4") == row_inputs(dict(cells), EXAMPLES, "A4")

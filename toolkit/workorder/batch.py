@@ -425,16 +425,17 @@ def _file_digest(path: Path) -> str | None:
         return None
 
 
-def row_inputs(cells: dict, base: Path) -> str:
+def row_inputs(cells: dict, base: Path, paper: str | None = None) -> str:
     """A hash of what a planner row's order is made from: its cells, the files they name (job template,
-    shop tables) and the program version."""
+    shop tables), the paper asked for on the command line and the program version."""
     import hashlib
     import json
 
     from toolkit import __version__
 
     h = hashlib.sha256()
-    h.update(json.dumps({"version": __version__, "cells": cells}, sort_keys=True, ensure_ascii=True).encode())
+    h.update(json.dumps({"version": __version__, "cells": cells, "paper": paper}, sort_keys=True,
+                        ensure_ascii=True).encode())
     for column in ("job", "drills", "plate_stock"):
         name = cells.get(column, "")
         if name:
@@ -566,7 +567,7 @@ def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, 
             if key in seen:
                 raise BadInput(f"order number {order.ident.number!r} gives the same file name as row {seen[key]}")
             seen[key] = number
-            inputs = row_inputs(cells, base)
+            inputs = row_inputs(cells, base, paper)
             data, pages = pdf.render_order(order)
             path = out / f"{name}.pdf"
             digest = _digest(data)
