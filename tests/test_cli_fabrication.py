@@ -147,3 +147,16 @@ def test_plate_shows_material_note_and_ce_guidance(capsys):
     out = capsys.readouterr().out
     assert code == 0 and "low-alloy steel: weldable only with a qualified procedure" in out
     assert "CE 0.72: preheat" in out
+
+
+def test_an_inch_shop_drills_with_inch_drills_by_default(capsys):
+    # 1 in = 25.4 mm exactly (international yard and pound agreement, 1959): every inch drill's diameter is a
+    # whole number of 1/64 in (ANSI B94.11M fractional sizes [H]), which no metric ladder size is here
+    code, d = _json(capsys, ["drill", "--unbalance", "2 oz*in", "--radius", "6 in", "--axial", "--material",
+                             "steel", "--units", "imperial"])
+    assert code == 0
+    assert d["drill"].endswith(" in")
+    assert d["diameter_mm"] / 25.4 * 64 == pytest.approx(round(d["diameter_mm"] / 25.4 * 64), abs=1e-9)
+    code, d = _json(capsys, ["drill", "--unbalance", "2 oz*in", "--radius", "6 in", "--axial", "--material",
+                             "steel", "--units", "imperial", "--drills", "metric"])
+    assert code == 0 and d["drill"].endswith(" mm")  # the shop's own choice wins

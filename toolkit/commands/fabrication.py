@@ -71,8 +71,9 @@ def configure_drill(parser) -> None:
     way.add_argument("--radial", dest="orientation", action="store_const", const="radial",
                      help="holes towards the axis, into a cylinder of radius --radius")
     parser.add_argument("--diameter", metavar="LENGTH", help="drill to use; default: chosen from the drill set")
-    parser.add_argument("--drills", default="metric", metavar="SET",
-                        help="drill set: metric, inch, or a shop's CSV (columns size, diameter, unit, source)")
+    parser.add_argument("--drills", default=None, metavar="SET",
+                        help="drill set: metric, inch, or a shop's CSV (columns size, diameter, unit, source); "
+                             "default: inch with --units imperial, otherwise metric")
     parser.add_argument("--point-angle", default="118", metavar="DEG",
                         help="included point angle, degrees (118 general, 135 hard material, 180 flat bottom)")
     parser.add_argument("--max-depth", metavar="LENGTH", help="deepest tip allowed (for example the part's room)")
@@ -89,6 +90,13 @@ def configure_drill(parser) -> None:
     parser.add_argument("--depth-step", default="0.1 mm", metavar="LENGTH", help=f"depth rounding (0.1 mm; {_LIMIT_HELP})")
     parser.add_argument("--max-holes", default="7", metavar="N", help=f"most holes in a pattern (7; {_LIMIT_HELP})")
     parser.set_defaults(run=run_drill)
+
+
+def _drill_set(args) -> str:
+    """The drill set asked for, or the one of the unit system (an inch shop drills with inch drills)."""
+    if args.drills is not None:
+        return args.drills
+    return "inch" if getattr(args, "units", "metric") == "imperial" else "metric"
 
 
 def run_drill(args) -> int:
@@ -114,7 +122,7 @@ def run_drill(args) -> int:
         positions = [parse_angle(p, "--positions") for p in args.positions.split(",") if p.strip()]
     plan = plan_correction(amount, angle, "drill", radius=args.radius, material=args.material,
                            density=args.density, action=args.action, allowance=args.allowance,
-                           orientation=args.orientation, diameter=args.diameter, drills=args.drills,
+                           orientation=args.orientation, diameter=args.diameter, drills=_drill_set(args),
                            point_angle_deg=_number(args.point_angle, "--point-angle"), limits=limits,
                            wall=args.wall, fixed_positions=positions, materials_table=args.materials,
                            units=args.units)
