@@ -1,6 +1,9 @@
 """Shared set-up of the register tests: a fresh register on SQLite, and on PostgreSQL when a server is
 given through COUNTERPOISE_TEST_POSTGRES_URL (``.ci/run`` starts one; elsewhere those tests are skipped
-with that reason). Each register test file loads it by path (the tests run in importlib mode)."""
+with that reason). Each register test file loads it by path (the tests run in importlib mode).
+
+Behaviour checks only: no published check value here, so none needs a source.
+"""
 
 from __future__ import annotations
 

@@ -1,5 +1,8 @@
 """The demo, order and batch commands: files written and printed, exit statuses, one-line errors, JSON,
-overwrite refusal, inputs left alone, safe file names, light imports."""
+overwrite refusal, inputs left alone, safe file names, light imports.
+
+Behaviour checks only: no published check value here, so none needs a source.
+"""
 
 import hashlib
 import json

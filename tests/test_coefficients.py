@@ -1,7 +1,7 @@
 """Stored influence coefficients (toolkit/coefficients.py): the file, a later rotor solved from its
 original run alone, and the trim-run update.
 
-Check values: the one-plane case of the trial-mass method (Thearle, Trans. ASME 1934; see docs/methods.md
+Check values and their sources: the one-plane case of the trial-mass method (Thearle, Trans. ASME 1934; see docs/methods.md
 §2.1) synthesised here with α = 0.35 (mm/s)/g at 210° (derived here (D): it checks our implementation, not
 a published number); the least-change rank-one (Broyden) update, whose defining properties (it reproduces
 the trim run, it leaves directions orthogonal to the installed correction unchanged) are checked on random

@@ -3,7 +3,7 @@ the rotor outline, the allowance circle, a shape, an arrow or a leader line, and
 page margins, for generated planes (any number of operations up to the split limits, angles a degree apart,
 long reference texts) and for the example jobs. Plus the plate orientation in words and on the drawing.
 
-All expected properties are derived here (D): they check our layout, not a published number."""
+All expected properties are derived here (D; no published source): they check our layout, not a published number."""
 
 import dataclasses
 import math

@@ -1,4 +1,7 @@
-"""Output files: atomic writes, no overwrite without force, safe names, clear errors."""
+"""Output files: atomic writes, no overwrite without force, safe names, clear errors.
+
+Behaviour checks only: no published check value here, so none needs a source.
+"""
 
 import errno
 import os

@@ -2,7 +2,7 @@
 
 Regression for a defect where `examples/job-blower-imperial.toml` gave a row "Mass [oz] 0.797" beside
 "radius 228.6 mm ... (weigh the stack: 22.6 g)": the fabrication planner was called without the job's
-unit system. Unit factors: 1 in = 25.4 mm and 1 oz = 28.349523125 g exactly (international yard and pound
+unit system. Unit factors (source): 1 in = 25.4 mm and 1 oz = 28.349523125 g exactly (international yard and pound
 agreement, 1959).
 """
 

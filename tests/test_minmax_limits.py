@@ -1,6 +1,6 @@
 """Min-max with plane mass limits: the constrained optimum (scipy linprog, polished by SLSQP) checked against
 a brute-force search over the allowed corrections, written here without scipy, and against feasible points
-of other methods. Check values are derived here (D): they check our implementation, not published numbers."""
+of other methods. Check values are derived here (D; source: our own brute force): they check our implementation, not published numbers."""
 
 import json
 from pathlib import Path

@@ -1,4 +1,7 @@
-"""The shop register's storage and contents, on SQLite and (when a server is given) on PostgreSQL."""
+"""The shop register's storage and contents, on SQLite and (when a server is given) on PostgreSQL.
+
+Behaviour checks only: no published check value here, so none needs a source.
+"""
 
 from __future__ import annotations
 

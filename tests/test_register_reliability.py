@@ -2,6 +2,8 @@
 
 The default run records 100 jobs per process; COUNTERPOISE_TEST_FULL=1 records the issue's 1,000 per
 process (a few minutes on a shared two-core machine).
+
+Behaviour checks only: no published check value here, so none needs a source.
 """
 
 from __future__ import annotations

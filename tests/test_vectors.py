@@ -25,7 +25,7 @@ def _angle_close(a, b, tol):
     return min(d, 360 - d) <= tol
 
 
-# --- reference cases (synthetic cases derived here, mark D) ---------------------------------------------------------
+# --- reference cases (source: synthetic cases derived here, mark D) ---------------------------------------------------------
 
 def test_split_reference_case():
     # correction.csv "split": 25 g@100 onto 90 and 135 -> 20.279 g@90 + 6.139 g@135, rel 1e-4
