@@ -155,8 +155,8 @@ def _arbor_initial(job: Job):
         out[name] = (r.part_g_mm, r.part_angle_deg)
         arbor.append(f"plane {name} {fmt.unbalance(r.arbor_g_mm)} at {fmt.angle(r.arbor_angle_deg)} from the "
                      f"arbor's mark")
-        warnings += [f"plane {name}: arbor index method: " + w.replace("index_angles:", "index positions:")
-                     .replace("readings:", "[measurement.readings]:") for w in r.warnings]
+        warnings += [f"plane {name}: arbor index readings ([measurement.readings] {name}): "
+                     + w.partition(":")[2].strip() for w in r.warnings]
     counts = sorted({len(r.readings) for r in m.index.values()})
     what = (f"part read on an arbor at {'/'.join(map(str, counts))} index positions per plane (index method: "
             f"the part's own share is corrected, from the part's reference mark; the arbor's share stays with the "
