@@ -63,6 +63,7 @@ def test_three_equal_steps_use_every_reading_and_the_spread_check_warns():
     # the misfits of plane B are large: the order carries the consistency warning with the key to check
     warning = next(w for w in order.warnings if w.startswith("plane B: arbor index readings"))
     assert "[measurement.readings] B" in warning and "not consistent" in warning
+    assert any(w.startswith("plane B: arbor's share") and "NOT consistent" in w for w in order.warnings)
     setting = next(s for s in order.settings if s.name.startswith("arbor index"))
     assert (setting.mark, setting.given) == ("CP", False)
 
@@ -108,6 +109,8 @@ def test_the_arbor_example_runs_and_the_pdf_shows_the_arbor_share(tmp_path, caps
     assert "invented example" in ARBOR_EXAMPLE.read_text(encoding="utf-8").lower()
     order = build_order(job)
     assert order.passed and order.arbor_index["shroud"]["consistent"] is True
+    note = next(w for w in order.warnings if w.startswith("plane shroud: arbor's share"))
+    assert "stays with the arbor" in note and "readings consistent" in note
     text = " ".join(" ".join(p.extract_text().split()) for p in PdfReader(io.BytesIO(pdf.to_bytes(order))).pages)
     assert "index method" in text and "from the arbor's mark" in text
     assert "arbor index: largest consistent spread" in text

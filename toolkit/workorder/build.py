@@ -155,6 +155,11 @@ def _arbor_initial(job: Job):
         out[name] = (r.part_g_mm, r.part_angle_deg)
         arbor.append(f"plane {name} {fmt.unbalance(r.arbor_g_mm)} at {fmt.angle(r.arbor_angle_deg)} from the "
                      f"arbor's mark")
+        check = ("" if r.consistent is None else
+                 f"; readings {'consistent' if r.consistent else 'NOT consistent'}: spread {r.spread_fraction:.1%} "
+                 f"of the mean reading (limit {r.max_spread:.0%})")
+        warnings.append(f"plane {name}: arbor's share {fmt.unbalance(r.arbor_g_mm)} at {fmt.angle(r.arbor_angle_deg)} "
+                        f"from the arbor's mark stays with the arbor (not corrected on the part){check}")
         warnings += [f"plane {name}: arbor index readings ([measurement.readings] {name}): "
                      + w.partition(":")[2].strip() for w in r.warnings]
     counts = sorted({len(r.readings) for r in m.index.values()})
