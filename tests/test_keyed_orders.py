@@ -17,6 +17,7 @@ from pathlib import Path
 
 import openpyxl
 import pytest
+from hypothesis import given, settings, strategies as st
 from pypdf import PdfReader
 
 from toolkit.cli import main
@@ -172,3 +173,20 @@ def test_tolerance_command_states_the_key_convention(capsys):
         assert main(base + argv) == 2
         err = capsys.readouterr().err
         assert needle in err and len(err.strip().splitlines()) == 1
+
+
+@settings(max_examples=25, deadline=None)
+@given(z1=st.floats(-200.0, 300.0), gap=st.floats(20.0, 600.0), angle=st.floats(0.0, 359.0))
+def test_key_shares_keep_the_resultant_and_the_moment(z1, gap, angle):
+    """Statics (D): the planes' shares add up to the key's resultant and keep its moment about bearing A."""
+    z2 = z1 + gap
+    text = (TEXT.replace('position = "60 mm"', f'position = "{z1!r} mm"')
+            .replace('position = "340 mm"', f'position = "{z2!r} mm"')
+            .replace("keyway_angle = 90 ", f"keyway_angle = {angle!r} "))
+    key = parse_job(text).key.result
+    shares = [cmath.rect(s.amount_g_mm, math.radians(s.angle_deg)) for s in key.planes]
+    resultant = cmath.rect(key.amount_g_mm, math.radians(key.angle_deg))
+    scale = max(1.0, abs(resultant))
+    assert abs(sum(shares) - resultant) <= 1e-9 * scale * (1 + abs(z1) + gap)
+    moment = sum(z * s for z, s in zip((z1, z2), shares))
+    assert abs(moment - resultant * key.axial_centre_mm) <= 1e-7 * scale * (1 + abs(z1) + gap) ** 2
