@@ -176,7 +176,8 @@ def test_tolerance_command_states_the_key_convention(capsys):
 
 
 @settings(max_examples=25, deadline=None)
-@given(z1=st.floats(-200.0, 300.0), gap=st.floats(20.0, 600.0), angle=st.floats(0.0, 359.0))
+@given(z1=st.integers(-2000, 3000).map(lambda x: x / 10), gap=st.integers(200, 6000).map(lambda x: x / 10),
+       angle=st.integers(0, 3599).map(lambda x: x / 10))
 def test_key_shares_keep_the_resultant_and_the_moment(z1, gap, angle):
     """Statics (D): the planes' shares add up to the key's resultant and keep its moment about bearing A."""
     z2 = z1 + gap
