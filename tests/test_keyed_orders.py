@@ -77,6 +77,9 @@ def test_key_shares_follow_statics_and_the_correction_covers_them():
     assert (order.key_convention, order.keyway_fill, order.key_marking, order.key_marking_given) == (
         "half-key", "half-key", "H", True)
     assert order.key_unbalance["amount_g_mm"] == pytest.approx(PROTRUDING + UNDER_HUB)
+    # each plane's key share against that plane's allowance: plane II's 226 g*mm exceeds its 125.5 g*mm
+    assert [(c["where"], c["passed"]) for c in order.key_unbalance["checks"]] == [("I", True), ("II", False)]
+    assert order.key_unbalance["passed"] is False
     text = " ".join(order.warnings)
     assert "check run reads about" in text                           # what the machine shows in this set-up
     assert "the key share alone exceeds the allowance" in text        # plane II: 226 against 125.5 g*mm

@@ -467,7 +467,7 @@ def build_order(job: Job) -> WorkOrder:
                                                          "job file" if job.shop.paper else ""),),
         warnings=_unique(warnings), paper=job.shop.paper or ("Letter" if job.shop.units == "imperial" else "A4"),
         inputs={"origin": job.origin},
-        **_key_fields(job),
+        **_key_fields(job, planes),
     )
 
 
@@ -475,13 +475,21 @@ _KEY_SOURCE = ("ISO 21940-32:2012, scope (half-key convention; full-key and no-k
                "letters as motor makers stamp them [H], as the standard's own wording [M]")
 
 
-def _key_fields(job: Job) -> dict:
-    """The WorkOrder's key and arbor fields (by keyword)."""
+def _key_fields(job: Job, planes) -> dict:
+    """The WorkOrder's key and arbor fields (by keyword); the key mismatch's share in each plane checked
+    against that plane's allowance."""
     out = {}
     if job.key is not None:
         k = job.key
+        unbalance = None
+        if k.result is not None:
+            unbalance = k.result.to_dict()
+            unbalance["checks"] = [{"where": p.name, "amount_g_mm": p.key_g_mm, "allowance_g_mm": p.tolerance.u_per_g_mm,
+                                    "passed": p.key_g_mm <= p.tolerance.u_per_g_mm} for p in planes
+                                   if p.key_g_mm is not None]
+            unbalance["passed"] = all(c["passed"] for c in unbalance["checks"]) if unbalance["checks"] else None
         out.update(key_convention=k.convention, keyway_fill=k.fill, key_marking=k.marking,
-                   key_marking_given=k.marking_given, key_unbalance=None if k.result is None else k.result.to_dict())
+                   key_marking_given=k.marking_given, key_unbalance=unbalance)
     if job.measurement.kind == "arbor-index":
         out["arbor_index"] = {name: r.to_dict() for name, r in job.measurement.index.items()}
     return out

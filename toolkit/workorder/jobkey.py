@@ -103,7 +103,8 @@ def _reword(text: str, component: str) -> str:
     names = _job_names(component)
     head, sep, rest = text.partition(":")
     if sep and re.fullmatch(r"[a-z_]+(?:/[a-z_]+)*", head.strip()):
-        head = "/".join(f"[key] {names.get(p, p)}" for p in head.strip().split("/"))
+        head = "/".join("[[plane]] position" if p == "planes" else f"[key] {names.get(p, p)}"
+                        for p in head.strip().split("/"))
         return head + sep + rest
     return text
 
