@@ -852,7 +852,7 @@ def _measurement(ck: _Checker, meas: Mapping, names: list[str], planes: list[Pla
         if "phase" not in meas:
             ck.add(path + ("phase",), "missing; say how the instrument reports phase: 'lag' or 'lead'")
         if len(planes) == len(names) and sense and "phase" in meas:
-            from toolkit.influence import runs_from_dict
+            from toolkit.runs import runs_from_dict
 
             try:
                 runs_from_dict(data, "\x00")

@@ -1,0 +1,375 @@
+"""The tolerance of one rotor, per plane, by one or more criteria (ISO 21940-11, API 4W/N, MIL-STD-167-1), the
+strictest marked, with the static/couple form and the residual checks.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Iterable, Mapping
+
+import numpy as np
+
+from toolkit.errors import BadInput
+from toolkit.tolerance.allocation import (DEFAULT_MIN_SHARE, BearingAllocation, allocate_to_bearings, bounds_text,
+                                          check_axial, check_min_share, transfer_mm)
+from toolkit.tolerance.api import api_allowance, journal_lb
+from toolkit.tolerance.boundary import G_MM, ISO_SOURCE, LEVER_SOURCE, STATICS
+from toolkit.tolerance.check import ResidualCheck, check_residuals
+from toolkit.tolerance.grades import Grade, parse_grade
+from toolkit.tolerance.milstd import mil_std_167_allowance
+from toolkit.tolerance.named import parse_named
+from toolkit.tolerance.one_plane import ONE_PLANE_LENGTH_RATIO, ONE_PLANE_RULES, OnePlane, one_plane_allowance
+from toolkit.tolerance.static_couple import StaticCouple, static_couple_allowance
+from toolkit.tolerance.uper import permissible_unbalance, specific_unbalance
+from toolkit.units import Q_, quantity, speed_rpm
+
+CRITERIA = {
+    "iso": ("ISO 21940-11", ISO_SOURCE + "; allocation " + LEVER_SOURCE),
+    "api": ("API 4W/N", "API Std 617, 7th ed., Annex B"),
+    "mil-std-167": ("MIL-STD-167-1", "MIL-STD-167-1 (1974), as reproduced in training notes [H]"),
+}
+
+
+# -- the report ------------------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class CriterionResult:
+    """One criterion's allowances: per bearing plane and per reported plane."""
+
+    name: str
+    label: str
+    method: str
+    source: str
+    planes: tuple[tuple[str, object], ...]  # (plane name, Quantity [g*mm])
+    notes: tuple[str, ...] = ()
+
+    def allowance(self, plane: str):
+        return dict(self.planes)[plane]
+
+    def to_dict(self, strictest: Mapping[str, str] | None = None) -> dict:
+        strictest = strictest or {}
+        return {"name": self.name, "label": self.label, "method": self.method, "source": self.source,
+                "notes": list(self.notes),
+                "planes": [{"name": p, "u_per_g_mm": u.m_as(G_MM), "u_per_oz_in": u.m_as("oz*in"),
+                            "strictest": strictest.get(p) == self.name} for p, u in self.planes]}
+
+
+@dataclass(frozen=True)
+class PlaneAllowance:
+    """The governing (strictest) allowance of one plane, with its method and source."""
+
+    name: str
+    u_per: object             # Quantity [g*mm]
+    criterion: str
+    method: str
+    source: str
+    position: object = None   # Quantity [mm] for a correction plane, None for a bearing plane
+    by_criterion: tuple[tuple[str, object], ...] = ()
+
+    def to_dict(self) -> dict:
+        return {"name": self.name, "u_per_g_mm": self.u_per.m_as(G_MM), "u_per_oz_in": self.u_per.m_as("oz*in"),
+                "criterion": self.criterion, "method": self.method, "source": self.source,
+                "position_mm": None if self.position is None else float(self.position.m_as("mm")),
+                "by_criterion": {c: u.m_as(G_MM) for c, u in self.by_criterion}}
+
+
+@dataclass(frozen=True)
+class ToleranceReport:
+    """Everything the tolerance of one rotor needs: inputs, ISO U_per, per-plane allowances by each
+    criterion with the strictest marked, optional static/couple form, residual checks and warnings."""
+
+    grade: Grade
+    mass: object
+    speed_rpm: float
+    e_per: object
+    u_per: object
+    bearing_span: object
+    com_from_a: object
+    bearings: BearingAllocation | None
+    criteria: tuple[CriterionResult, ...]
+    planes: tuple[PlaneAllowance, ...]
+    static_couple: StaticCouple | None
+    checks: tuple[ResidualCheck, ...]
+    warnings: tuple[str, ...]
+    method: str = f"U_per = 1000*G*m/Omega ({ISO_SOURCE})"
+    source: str = ISO_SOURCE
+    one_plane: OnePlane | None = None  # one correction plane: both rules, the one used, the doubts
+
+    @property
+    def passed(self) -> bool | None:
+        """True/False when residuals were checked, else None."""
+        return None if not self.checks else all(c.passed for c in self.checks)
+
+    def allowances(self) -> dict:
+        """Plane name -> governing allowance (Quantity [g*mm]); ``rotor`` is the whole-rotor ISO U_per."""
+        out = {p.name: p.u_per for p in self.planes}
+        out.setdefault("rotor", self.u_per)
+        return out
+
+    def to_dict(self) -> dict:
+        strictest = {p.name: p.criterion for p in self.planes}
+        return {
+            "grade_mm_s": self.grade.mm_s, "grade": self.grade.label, "custom_grade": self.grade.custom,
+            "grade_source": self.grade.source, "speed_rpm": self.speed_rpm,
+            "mass_kg": float(self.mass.m_as("kg")), "mass_lb": float(self.mass.m_as("lb")),
+            "e_per_um": self.e_per.m_as("um"), "u_per_g_mm": self.u_per.m_as(G_MM),
+            "u_per_oz_in": self.u_per.m_as("oz*in"), "method": self.method, "source": self.source,
+            "bearing_span_mm": None if self.bearing_span is None else float(self.bearing_span.m_as("mm")),
+            "com_from_a_mm": None if self.com_from_a is None else float(self.com_from_a.m_as("mm")),
+            "bearing_allocation": None if self.bearings is None else self.bearings.to_dict(),
+            "planes": [p.to_dict() for p in self.planes],
+            "criteria": [c.to_dict(strictest) for c in self.criteria],
+            "static_couple": None if self.static_couple is None else self.static_couple.to_dict(),
+            "one_plane": None if self.one_plane is None else self.one_plane.to_dict(),
+            "checks": [c.to_dict() for c in self.checks], "passed": self.passed,
+            "warnings": list(self.warnings),
+        }
+
+
+def _as_pairs(items, kind: str, option: str) -> list[tuple[str, object]]:
+    if items is None:
+        return []
+    if isinstance(items, Mapping):
+        pairs = list(items.items())
+    else:
+        pairs = [parse_named(i, kind, option) if isinstance(i, str) else tuple(i) for i in items]
+    names = [n for n, _v in pairs]
+    dupes = sorted({n for n in names if names.count(n) > 1})
+    if dupes:
+        raise BadInput(f"{option}: name {dupes[0]!r} given more than once")
+    return pairs
+
+
+def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_span=None, com_from_a=None,
+                     planes=None, static_share: float | None = None, criteria: Iterable[str] = ("iso",),
+                     journal_loads=None, min_share: float = DEFAULT_MIN_SHARE, residuals=None,
+                     error_allowance=None, check_stage: str = "after-balancing", one_plane_rule: str = "whole",
+                     rotor_length=None, correction_diameter=None,
+                     one_plane_length_ratio: float = ONE_PLANE_LENGTH_RATIO) -> ToleranceReport:
+    """The tolerance of one rotor, per plane, by one or more criteria, with optional residual checks.
+
+    Whole rotor: U_per and e_per (ISO 21940-11:2016, 6.3.3). Bearing planes A and B: ISO by the bounded
+    lever rule (geometry, or the journal loads' ratio, which equals L_B/L by statics [D]); API 4W/N from
+    each journal load (or loads from the geometry by statics); MIL-STD-167-1 per plane with the rotor
+    weight. Correction planes (``planes``, name -> position from bearing A towards B): each criterion's
+    bearing-plane allowances transferred by statics (:func:`transfer_to_planes`). The strictest criterion
+    per plane governs (``report.planes``). One correction plane: by ISO the whole U_per is its tolerance
+    (``one_plane_rule="whole"``, default; ISO 21940-11:2016, 7.1 and 8.2 [H]) or, as a stricter option,
+    the statics transfer (``"statics"``); ``report.one_plane`` has both values and the doubts about the
+    one-plane conditions (see :func:`one_plane_allowance`; ``rotor_length`` and ``correction_diameter``
+    feed its length check). With ``static_share`` (two planes), static and couple tolerances from the
+    governing bearing-plane allowances, and they govern the plane allowances: each plane's allowance is
+    the largest T with 2T within the static part and T(|z1 - z_s| + |z2 - z_s|)/b within the couple part
+    per plane, so residuals within T in both planes keep both parts within their tolerances [D].
+
+    Parameters: grade, mass [mass], speed [1/time] as in :func:`permissible_unbalance`; bearing_span,
+    com_from_a : Quantity [length]; planes : mapping or ``"NAME=POSITION"`` strings; journal_loads : mapping
+    ``{"A": mass, "B": mass}`` or ``"A=206 kg"`` strings; criteria : names from :data:`CRITERIA`;
+    min_share : lever bound (default 0.3 [M]); residuals, error_allowance, check_stage : see
+    :func:`check_residuals`.
+
+    >>> r = tolerance_report("G6.3", "412 kg", "1480 rpm", bearing_span="900 mm", com_from_a="400 mm")
+    >>> [(p.name, round(p.u_per.m_as("g*mm"))) for p in r.planes]
+    [('A', 9304), ('B', 7443)]
+    """
+    g = parse_grade(grade, custom=custom_grade)
+    m = quantity(mass, "mass", "mass", positive=True)
+    n = float(speed_rpm(speed, "speed"))
+    low = check_min_share(min_share)
+    names = []
+    if isinstance(criteria, str):
+        criteria = (criteria,)
+    for c in criteria:
+        key = str(c).strip().lower()
+        if key not in CRITERIA:
+            raise BadInput(f"--criterion: {c!r} is not known; use {', '.join(CRITERIA)}")
+        if key not in names:
+            names.append(key)
+    if not names:
+        raise BadInput(f"--criterion: none given; use {', '.join(CRITERIA)}")
+    u_per = permissible_unbalance(g, m, Q_(n, "rpm"))
+    e_per = specific_unbalance(g, Q_(n, "rpm"))
+    u = u_per.m_as(G_MM)
+    warnings: list[str] = []
+
+    span = None if bearing_span is None else quantity(bearing_span, "length", "--bearing-span", positive=True)
+    com = None if com_from_a is None else quantity(com_from_a, "length", "--com-from-a")
+    if (span is None) != (com is None):
+        raise BadInput("--bearing-span and --com-from-a go together: give both for the lever rule, or "
+                       "neither")
+    loads = {}
+    for name, value in _as_pairs(journal_loads, "journal load", "--journal-load"):
+        if name.upper() not in ("A", "B"):
+            raise BadInput(f"--journal-load: bearing {name!r} is not known; use A and B, e.g. 'A=206 kg'")
+        loads[name.upper()] = journal_lb(value, f"--journal-load {name}")
+    if len(loads) == 1:
+        raise BadInput("--journal-load: give both bearings, e.g. --journal-load A=206 kg --journal-load B=206 kg")
+    m_lb = m.m_as("lb")
+    if loads and abs(loads["A"] + loads["B"] - m_lb) > 0.05 * m_lb:
+        warnings.append(f"the journal loads add up to {Q_(loads['A'] + loads['B'], 'lb').m_as('kg'):.4g} kg, "
+                        f"not the rotor mass {m.m_as('kg'):.4g} kg: check them")
+
+    plane_pairs = _as_pairs(planes, "plane", "--plane")
+    positions = []
+    for name, value in plane_pairs:
+        if span is None:
+            raise BadInput("--plane: correction-plane positions need --bearing-span and --com-from-a")
+        z = quantity(value, "length", f"--plane {name}")
+        check_axial(z.m_as("mm"), span.m_as("mm"), f"--plane {name}")
+        positions.append(z)
+    if len(positions) > 2:
+        raise BadInput(f"--plane: {len(positions)} correction planes given; a rigid rotor takes one or two")
+
+    # bearing-plane allowances [g*mm] of every criterion
+    bearings = None
+    if span is not None:
+        bearings = allocate_to_bearings(u_per, span, com, min_share=low)
+        warnings.extend(bearings.warnings)
+        share_a = bearings.share_a
+        iso_method = bearings.method
+    elif loads:
+        raw = loads["A"] / (loads["A"] + loads["B"])
+        share_a = float(np.clip(raw, low, 1 - low))
+        iso_method = (f"lever rule from the journal loads (W_A/W = L_B/L by statics [D]), {bounds_text(low)}")
+        if abs(raw - share_a) > 1e-12:
+            warnings.append(f"the journal loads gave shares {raw:.2f}/{1 - raw:.2f}; the bound was applied")
+    else:
+        share_a = None
+    if loads:
+        w_a, w_b, w_text = loads["A"], loads["B"], "from the journal loads given"
+    elif span is not None:
+        la = com.m_as("mm") / span.m_as("mm")
+        w_a, w_b, w_text = m_lb * (1 - la), m_lb * la, "journal loads from the rotor mass and geometry by statics [D]"
+        if not 0 <= la <= 1:
+            w_a = w_b = None
+    else:
+        w_a = w_b = w_text = None
+
+    at_bearings: dict[str, tuple[float, float] | None] = {}
+    methods, notes = {}, {}
+    for key in names:
+        note = []
+        if key == "iso":
+            at_bearings[key] = None if share_a is None else (u * share_a, u * (1 - share_a))
+            methods[key] = iso_method if share_a is not None else "U_per = 1000*G*m/Omega (whole rotor)"
+        elif key == "api":
+            if w_a is None:
+                raise BadInput("--criterion api: needs the journal loads (--journal-load A=MASS --journal-load "
+                               "B=MASS) or an inboard geometry (--bearing-span, --com-from-a)")
+            at_bearings[key] = (api_allowance(Q_(w_a, "lb"), Q_(n, "rpm")).m_as(G_MM),
+                                api_allowance(Q_(w_b, "lb"), Q_(n, "rpm")).m_as(G_MM))
+            methods[key] = f"U_max = 4*W/N oz*in per plane, W the journal static load ({w_text})"
+        else:
+            per_plane, rng = mil_std_167_allowance(m, Q_(n, "rpm"))
+            at_bearings[key] = (per_plane.m_as(G_MM),) * 2
+            methods[key] = f"MIL-STD-167-1 per plane, W the rotor weight: {rng}"
+            note.append("W taken as the whole rotor weight in each plane, as our source reproduces it [H]; "
+                        "check the standard's text for two-plane work")
+        notes[key] = tuple(note)
+
+    plane_names: list[str] = []
+    per_criterion: dict[str, list[float]] = {}
+    plane_method_suffix = ""
+    if positions:
+        plane_names = [n_ for n_, _v in plane_pairs]
+        z = [p.m_as("mm") for p in positions]
+        for key, ab in at_bearings.items():
+            if ab is None:
+                raise BadInput("--plane: correction planes need --bearing-span and --com-from-a")
+            per_criterion[key] = transfer_mm(ab[0], ab[1], span.m_as("mm"), z)
+        plane_method_suffix = f"; transferred to the correction planes by {STATICS}"
+        d = span.m_as("mm")
+        narrow = len(z) == 2 and abs(z[0] - z[1]) < d / 3
+        overhung = len(z) == 2 and (max(z) < 0 or min(z) > d)
+        if (narrow or overhung) and static_share is None:
+            why = "closer than a third of the bearing span" if narrow else "both outboard of one bearing"
+            warnings.append(f"the correction planes are {why}: state the tolerance as static and couple parts "
+                            f"(--static-share), Bloch & Geitner ch. 6")
+    elif (span is not None or loads) and all(ab is not None for ab in at_bearings.values()):
+        plane_names = ["A", "B"]
+        per_criterion = {k: list(ab) for k, ab in at_bearings.items()}
+
+    one_plane = None
+    if len(positions) == 1 and at_bearings.get("iso") is not None:
+        ab = at_bearings["iso"]
+        one_plane = one_plane_allowance(u_per, Q_(ab[0], G_MM), Q_(ab[1], G_MM), span, com, positions[0],
+                                        rule=one_plane_rule, plane=plane_names[0], rotor_length=rotor_length,
+                                        correction_diameter=correction_diameter,
+                                        length_ratio=one_plane_length_ratio)
+        per_criterion["iso"] = [one_plane.used.m_as(G_MM)]
+    elif one_plane_rule not in ONE_PLANE_RULES:
+        raise BadInput(f"one_plane_rule: {one_plane_rule!r} is not known; use {' or '.join(ONE_PLANE_RULES)}")
+
+    results = []
+    for key in names:
+        label, source = CRITERIA[key]
+        values = per_criterion.get(key)
+        if key == "iso" and one_plane is not None:
+            results.append(CriterionResult(key, label, f"{one_plane.method} ({one_plane.rule} rule)",
+                                           one_plane.source if one_plane.rule == "whole"
+                                           else f"{ISO_SOURCE}; transfer {STATICS}",
+                                           ((plane_names[0], one_plane.used),), notes[key]))
+            continue
+        plane_list = tuple((p, Q_(v, G_MM)) for p, v in zip(plane_names, values)) if values else ()
+        if not plane_list:  # no planes known: the whole-rotor ISO figure, the per-plane figure of others
+            plane_list = (("rotor", u_per),) if key == "iso" else (("each plane", Q_(at_bearings[key][0], G_MM)),)
+        results.append(CriterionResult(key, label, methods[key] + (plane_method_suffix if values else ""),
+                                       source, plane_list, notes[key]))
+
+    governing = []
+    for i, pname in enumerate(plane_names):
+        options = [(per_criterion[k][i], k) for k in names]
+        value, key = min(options)
+        res = next(r for r in results if r.name == key)
+        governing.append(PlaneAllowance(pname, Q_(value, G_MM), key, res.method, res.source,
+                                        positions[i] if positions else None,
+                                        tuple((k, Q_(per_criterion[k][i], G_MM)) for k in names)))
+
+    sc = None
+    if static_share is not None:
+        if len(positions) != 2:
+            raise BadInput("--static-share: needs two correction planes (--plane NAME=POSITION twice) and the "
+                           "geometry")
+        ab = [at_bearings[k] for k in names]
+        ua, ub = min(x[0] for x in ab), min(x[1] for x in ab)
+        sc = static_couple_allowance(Q_(ua, G_MM), Q_(ub, G_MM), span, com, positions, static_share,
+                                     names=tuple(plane_names))
+        governing = _governed_by_static_couple(governing, sc, [p.m_as("mm") for p in positions],
+                                               com.m_as("mm"))
+
+    report = ToleranceReport(g, m, n, e_per, u_per, span, com, bearings, tuple(results), tuple(governing), sc,
+                             (), tuple(warnings), one_plane=one_plane)
+    if g.custom:
+        report = _replace(report, warnings=report.warnings + (
+            f"custom grade G {g.mm_s:g} mm/s: not a grade of the ISO 21940-11 series",))
+    if residuals:
+        checks = check_residuals(report.allowances(), residuals if isinstance(residuals, Mapping)
+                                 else dict(_as_pairs(residuals, "residual", "--residual")),
+                                 error_allowance=error_allowance, stage=check_stage)
+        report = _replace(report, checks=checks)
+    return report
+
+
+def _governed_by_static_couple(governing, sc: StaticCouple, z: list[float], zs: float) -> list:
+    """Plane allowances from static and couple tolerances [D]: residuals U1, U2 within T in both planes give
+    a static part |U1 + U2| <= 2T and a couple |U1 (z1 - z_s) + U2 (z2 - z_s)| <= T (|z1 - z_s| + |z2 - z_s|),
+    so T = min(S/2, U_c b / (|z1 - z_s| + |z2 - z_s|)) keeps both within their tolerances."""
+    b = abs(z[1] - z[0])
+    s = sc.static.m_as(G_MM)
+    uc = sc.couple_per_plane.m_as(G_MM)
+    t = min(s / 2.0, uc * b / (abs(z[0] - zs) + abs(z[1] - zs)))
+    method = (f"from the static and couple tolerances (static share {sc.static_share:g}): T = min(S/2, "
+              f"U_c*b/(|z1 - z_s| + |z2 - z_s|)), so residuals within T in both planes keep the static part "
+              f"within {_fmt_g_mm(s)} and the couple part within {_fmt_g_mm(uc)} per plane ({STATICS})")
+    return [PlaneAllowance(p.name, Q_(t, G_MM), p.criterion, method, sc.source, p.position, p.by_criterion)
+            for p in governing]
+
+
+def _fmt_g_mm(value: float) -> str:
+    return f"{value:.4g} g*mm"
+
+
+def _replace(obj, **changes):
+    import dataclasses
+
+    return dataclasses.replace(obj, **changes)
