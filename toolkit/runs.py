@@ -99,19 +99,20 @@ class RunSet:
 METHODS = ("least squares", "min-max")
 
 
-def _field(origin: str, where: str, name: str) -> str:
-    return f"{origin}: {where}{name}" if where else f"{origin}: {name}"
+def _at(origin: str, name: str) -> str:
+    """A field's name after the origin (none when the origin is empty: a job names the table itself)."""
+    return f"{origin}: {name}" if origin else name
 
 
 def _names(data: dict, key: str, origin: str) -> tuple[str, ...]:
     value = data.get(key)
     if value is None:
-        raise BadInput(f"{origin}: {key}: missing; give a list of names, e.g. {key} = [\"A\", \"B\"]")
+        raise BadInput.about(origin, f"{key}: missing; give a list of names, e.g. {key} = [\"A\", \"B\"]")
     if not isinstance(value, list) or not value or not all(isinstance(v, str) and v.strip() for v in value):
-        raise BadInput(f"{origin}: {key}: {value!r} must be a non-empty list of names")
+        raise BadInput.about(origin, f"{key}: {value!r} must be a non-empty list of names")
     names = tuple(v.strip() for v in value)
     if len(set(names)) != len(names):
-        raise BadInput(f"{origin}: {key}: {value!r} names one twice")
+        raise BadInput.about(origin, f"{key}: {value!r} names one twice")
     return names
 
 
@@ -120,14 +121,14 @@ def _per_plane(data: dict, key: str, planes, origin: str, kind: str, unit: str):
     if value is None:
         return ()
     if not isinstance(value, dict):
-        raise BadInput(f"{origin}: {key}: {value!r} must be a table by plane, e.g. {{ {planes[0]} = ... }}")
+        raise BadInput.about(origin, f"{key}: {value!r} must be a table by plane, e.g. {{ {planes[0]} = ... }}")
     from toolkit.units import magnitude
 
     out = []
     for plane, v in value.items():
         if plane not in planes:
-            raise BadInput(f"{origin}: {key}: unknown plane {plane!r}; planes are {', '.join(planes)}")
-        out.append((plane, float(magnitude(v, kind, unit, name=f"{origin}: {key}.{plane}", positive=True))))
+            raise BadInput.about(origin, f"{key}: unknown plane {plane!r}; planes are {', '.join(planes)}")
+        out.append((plane, float(magnitude(v, kind, unit, name=_at(origin, f"{key}.{plane}"), positive=True))))
     return tuple(out)
 
 
@@ -163,15 +164,15 @@ def runs_from_dict(data: dict, origin: str) -> RunSet:
     ('mm/s', 2)
     """
     if not isinstance(data, dict):
-        raise BadInput(f"{origin}: expected a table of runs, got {type(data).__name__}")
+        raise BadInput.about(origin, f"expected a table of runs, got {type(data).__name__}")
     sensors = _names(data, "sensors", origin)
     planes = _names(data, "planes", origin)
     for key in ("weight_angles", "phase"):
         if key not in data:
             example = "'with rotation' or 'against rotation'" if key == "weight_angles" else "'lag' or 'lead'"
-            raise BadInput(f"{origin}: {key}: missing; the sense must be declared, never assumed: give {example}")
-    weight_angles = weight_sense(data["weight_angles"], f"{origin}: weight_angles")
-    phase = phase_sense(data["phase"], f"{origin}: phase")
+            raise BadInput.about(origin, f"{key}: missing; the sense must be declared, never assumed: give {example}")
+    weight_angles = weight_sense(data["weight_angles"], _at(origin, f"weight_angles"))
+    phase = phase_sense(data["phase"], _at(origin, f"phase"))
     radius = _per_plane(data, "radius", planes, origin, "length", "mm")
     limits = _per_plane(data, "limits", planes, origin, "mass", "g")
     radius_map = dict(radius)
@@ -180,7 +181,7 @@ def runs_from_dict(data: dict, origin: str) -> RunSet:
     if not isinstance(weights, list) or len(weights) != len(sensors) or not all(
             isinstance(w, (int, float)) and not isinstance(w, bool) and math.isfinite(w) and w > 0
             for w in weights):
-        raise BadInput(f"{origin}: weights: {weights!r} must be {len(sensors)} numbers greater than zero, "
+        raise BadInput.about(origin, f"weights: {weights!r} must be {len(sensors)} numbers greater than zero, "
                        f"one per sensor")
 
     action = data.get("action", "add")
@@ -191,31 +192,31 @@ def runs_from_dict(data: dict, origin: str) -> RunSet:
         actions = {p: "add" for p in planes}
         for p, a in action.items():
             if p not in planes:
-                raise BadInput(f"{origin}: action: unknown plane {p!r}; planes are {', '.join(planes)}")
+                raise BadInput.about(origin, f"action: unknown plane {p!r}; planes are {', '.join(planes)}")
             actions[p] = a
     else:
-        raise BadInput(f"{origin}: action: {action!r} must be 'add', 'remove' or a table by plane")
+        raise BadInput.about(origin, f"action: {action!r} must be 'add', 'remove' or a table by plane")
     for p, a in actions.items():
         if a not in ("add", "remove"):
-            raise BadInput(f"{origin}: action.{p}: {a!r} is not allowed; use 'add' or 'remove'")
+            raise BadInput.about(origin, f"action.{p}: {a!r} is not allowed; use 'add' or 'remove'")
 
     left_on = data.get("trials_left_on", False)
     if not isinstance(left_on, bool):
-        raise BadInput(f"{origin}: trials_left_on: {left_on!r} must be true or false")
+        raise BadInput.about(origin, f"trials_left_on: {left_on!r} must be true or false")
     method = data.get("method", "least squares")
     if method not in METHODS:
-        raise BadInput(f"{origin}: method: {method!r} is not known; use {' or '.join(map(repr, METHODS))}")
+        raise BadInput.about(origin, f"method: {method!r} is not known; use {' or '.join(map(repr, METHODS))}")
     speed = None
     if data.get("speed") is not None:
         from toolkit.units import speed_rpm
 
-        speed = speed_rpm(data["speed"], f"{origin}: speed")
+        speed = speed_rpm(data["speed"], _at(origin, f"speed"))
 
     raw_runs = data.get("run")
     if raw_runs is None:
-        raise BadInput(f"{origin}: run: missing; add [[run]] tables, the first usually the original run")
+        raise BadInput.about(origin, f"run: missing; add [[run]] tables, the first usually the original run")
     if not isinstance(raw_runs, list) or not all(isinstance(r, dict) for r in raw_runs):
-        raise BadInput(f"{origin}: run: must be an array of tables ([[run]])")
+        raise BadInput.about(origin, f"run: must be an array of tables ([[run]])")
     runs: list[Run] = []
     kind = unit = None
     seen = set()
@@ -223,40 +224,40 @@ def runs_from_dict(data: dict, origin: str) -> RunSet:
         label = f"run {k}"
         name = raw.get("name")
         if not isinstance(name, str) or not name.strip():
-            raise BadInput(f"{origin}: {label}: name: missing; give each run a name")
+            raise BadInput.about(origin, f"{label}: name: missing; give each run a name")
         name = name.strip()
         label = f"run {name!r}"
         if name in seen:
-            raise BadInput(f"{origin}: {label}: name: used twice")
+            raise BadInput.about(origin, f"{label}: name: used twice")
         seen.add(name)
         unknown = set(raw) - {"name", "trial", "readings", "note"}
         if unknown:
-            raise BadInput(f"{origin}: {label}: unknown field(s) {', '.join(sorted(unknown))}; "
+            raise BadInput.about(origin, f"{label}: unknown field(s) {', '.join(sorted(unknown))}; "
                            f"allowed: name, trial, readings, note")
         trial = raw.get("trial", {}) or {}
         if not isinstance(trial, dict):
-            raise BadInput(f"{origin}: {label}: trial: {trial!r} must be a table by plane, e.g. "
+            raise BadInput.about(origin, f"{label}: trial: {trial!r} must be a table by plane, e.g. "
                            f"{{ {planes[0]} = \"20 g@0\" }}")
         trials = []
         for plane, vec in trial.items():
             if plane not in planes:
-                raise BadInput(f"{origin}: {label}: trial: unknown plane {plane!r}; planes are "
+                raise BadInput.about(origin, f"{label}: trial: unknown plane {plane!r}; planes are "
                                f"{', '.join(planes)}")
-            trials.append((plane, _trial_mass(vec, plane, radius_map, f"{origin}: {label}: trial.{plane}")))
+            trials.append((plane, _trial_mass(vec, plane, radius_map, _at(origin, f"{label}: trial.{plane}"))))
         readings = raw.get("readings")
         if not isinstance(readings, list):
-            raise BadInput(f"{origin}: {label}: readings: missing; give one vector per sensor "
+            raise BadInput.about(origin, f"{label}: readings: missing; give one vector per sensor "
                            f"({', '.join(sensors)})")
         if len(readings) != len(sensors):
-            raise BadInput(f"{origin}: {label}: readings: {len(readings)} given for {len(sensors)} sensors "
+            raise BadInput.about(origin, f"{label}: readings: {len(readings)} given for {len(sensors)} sensors "
                            f"({', '.join(sensors)})")
         values = []
         for i, text in enumerate(readings):
-            z, rk, ru = parse_reading(text, f"{origin}: {label}: readings[{i + 1}]")
+            z, rk, ru = parse_reading(text, _at(origin, f"{label}: readings[{i + 1}]"))
             if kind is None:
                 kind, unit = rk, ru
             elif rk != kind:
-                raise BadInput(f"{origin}: {label}: readings[{i + 1}]: {text!r} is a {rk}; the runs use "
+                raise BadInput.about(origin, f"{label}: readings[{i + 1}]: {text!r} is a {rk}; the runs use "
                                f"{kind} ({unit}): give every reading in one kind")
             values.append(z)
         runs.append(Run(name, tuple(trials), tuple(values)))

@@ -410,7 +410,7 @@ def _parsed(text: str, kind: str, positive: bool, nonnegative: bool, bounds, wha
     parsing is the costly part of validating a row. Errors are not cached (they raise)."""
     from toolkit.units import quantity
 
-    return quantity(text, kind, "\x00", positive=positive, nonnegative=nonnegative, bounds=bounds, what=what)
+    return quantity(text, kind, None, positive=positive, nonnegative=nonnegative, bounds=bounds, what=what)
 
 
 def _quantity(ck: _Checker, table: Mapping, path: tuple, kind: str, required: bool = False,
@@ -427,14 +427,15 @@ def _quantity(ck: _Checker, table: Mapping, path: tuple, kind: str, required: bo
     try:
         if isinstance(value, str):
             return _parsed(value, kind, positive, nonnegative, bounds, what)
-        return quantity(value, kind, "\x00", positive=positive, nonnegative=nonnegative, bounds=bounds, what=what)
+        return quantity(value, kind, None, positive=positive, nonnegative=nonnegative, bounds=bounds, what=what)
     except BadInput as exc:
-        ck.add(path, _strip_name(str(exc), value))
+        ck.add(path, _strip_name(exc, value))
         return None
 
 
-def _strip_name(message: str, value) -> str:
-    message = message.replace("\x00: ", "", 1)
+def _strip_name(exc: BadInput, value) -> str:
+    """The reader's message about the key's value (the key itself is named by the checker)."""
+    message = exc.text() if exc.parameter is None else str(exc)
     return message if _shown(value) in message or repr(str(value)) in message else f"{_shown(value)}: {message}"
 
 
@@ -466,7 +467,7 @@ def _grade(ck: _Checker, table: Mapping, path: tuple) -> str | None:
         try:
             from toolkit.units import magnitude
 
-            g = magnitude(value, "grade", "mm/s", "\x00", positive=True)
+            g = magnitude(value, "grade", "mm/s", None, positive=True)
             return f"G {g:g}"
         except BadInput:
             pass
@@ -481,7 +482,7 @@ def _angle(ck: _Checker, value, path: tuple) -> float | None:
         ck.add(path, f"{_shown(value)} is not an angle; give degrees such as 90 or \"90 deg\"")
         return None
     try:
-        return parse_angle(value, "\x00")
+        return parse_angle(value, None)
     except BadInput:
         ck.add(path, f"{_shown(value)} is not an angle; give degrees such as 90 or \"90 deg\"")
         return None
@@ -761,9 +762,9 @@ def _speed(ck: _Checker, table: Mapping, path: tuple, required: bool = False) ->
             ck.add(path, "missing; give a speed with its unit, e.g. \"1480 rpm\"")
         return None
     try:
-        return speed_rpm(value, "\x00")
+        return speed_rpm(value, None)
     except BadInput as exc:
-        ck.add(path, _strip_name(str(exc), value))
+        ck.add(path, _strip_name(exc, value))
         return None
 
 
@@ -855,9 +856,9 @@ def _measurement(ck: _Checker, meas: Mapping, names: list[str], planes: list[Pla
             from toolkit.runs import runs_from_dict
 
             try:
-                runs_from_dict(data, "\x00")
+                runs_from_dict(data, "")
             except BadInput as exc:
-                ck.add(path + ("run",), str(exc).replace("\x00: ", "", 1))
+                ck.add(path + ("run",), str(exc))
         return Measurement("runs", runs=MappingProxyType(data), raw=raw, thresholds=MappingProxyType(thresholds))
     if kind == "coefficients":
         _unknown(ck, meas, path, ("kind", "coefficients", "original"))
@@ -886,16 +887,16 @@ def _reading(ck: _Checker, value, path: tuple, plane: PlaneSpec):
         ck.add(path, f"{_shown(value)} is not a reading; write AMOUNT@ANGLE, e.g. \"1820 g*mm@40\" or \"5.9 g@40\"")
         return None
     try:
-        amount, angle = parse_vector(value, "unbalance", "\x00")
+        amount, angle = parse_vector(value, "unbalance", None)
         return amount, angle
     except BadInput as exc:
-        reason = str(exc)
+        reason = exc.text() if exc.parameter is None else str(exc)
     try:
-        amount, angle = parse_vector(value, "mass", "\x00")
+        amount, angle = parse_vector(value, "mass", None)
     except BadInput:
         # the reader's own reason when it could not read the amount at all (not merely a wrong dimension)
         why = ("" if "is not a unbalance (" in reason or "is not a vector" in reason
-               else f" ({reason.replace(chr(0) + ': ', '', 1)})")
+               else f" ({reason})")
         ck.add(path, f"{_shown(value)} is not a reading{why}; write AMOUNT@ANGLE with an unbalance or a mass, "
                      "e.g. \"1820 g*mm@40\" or \"5.9 g@40\"")
         return None
