@@ -100,11 +100,11 @@ def test_radial_hole_validity_range():
 def test_bare_numbers_and_wrong_units_refused():
     with pytest.raises(BadInput, match="diameter: 10 has no unit"):
         axial_hole(10, "10 mm", "100 mm", "7850 kg/m^3")
-    with pytest.raises(BadInput, match="--unbalance: 2400 has no unit"):
+    with pytest.raises(BadInput, match="correction: 2400 has no unit"):
         drill_correction(2400, radius="150 mm", material="steel")
     with pytest.raises(BadInput, match="is a mass; give its radius"):
         correction_g_mm("38 g")
-    with pytest.raises(BadInput, match="--point-angle"):
+    with pytest.raises(BadInput, match="point_angle_deg"):
         point_height("10 mm", 30)
 
 

@@ -28,8 +28,53 @@ from typing import Callable, Mapping
 _FIELD = re.compile(r"\{([A-Za-z_][A-Za-z0-9_]*)\}")
 
 
+_LENGTHS = ("mm", "in", "m", "cm", "um")
+
+
+def format_value(value: float, unit: str, shown_in: str | None = None) -> str:
+    """A quantity of an error, ``value`` in ``unit``, shown in ``shown_in`` (default: ``unit``) with four
+    significant figures as the work orders print them; a length drops trailing zeros (``30 mm``, not
+    ``30.00 mm``), as dimensions are written on a drawing.
+
+    >>> format_value(2400.0, "g*mm", "oz*in"), format_value(30.0, "mm"), format_value(150.0, "mm", "in")
+    ('3.333 oz·in', '30 mm', '5.906 in')
+    """
+    from toolkit.units import Q_, format_quantity
+
+    target = shown_in or unit
+    text = format_quantity(Q_(value, unit) if target != unit else value, target)
+    if target in _LENGTHS:
+        number, _, symbol = text.partition(" ")
+        if "." in number and "e" not in number:
+            number = number.rstrip("0").rstrip(".")
+        text = f"{number} {symbol}"
+    return text
+
+
+#: The unit-system attribute of each library unit (mm, g, g*mm, kg, kg/m**3).
+_KIND_OF_UNIT = {"g*mm": "unbalance", "g": "mass", "mm": "length", "kg": "rotor_mass", "kg/m**3": "density"}
+
+
+def quantity_words(units: str = "metric") -> Callable[[float, str], str]:
+    """``shown(magnitude, unit) -> text``: the quantities of an error in a unit system (``"metric"`` or
+    ``"imperial"``; anything else reads as metric), for :meth:`CounterpoiseError.worded`.
+
+    >>> quantity_words("imperial")(2400.0, "g*mm"), quantity_words("imperial")(150.0, "mm")
+    ('3.333 oz·in', '5.906 in')
+    """
+    from toolkit.units import IMPERIAL, METRIC
+
+    system = IMPERIAL if units == "imperial" else METRIC
+
+    def shown(magnitude: float, unit: str) -> str:
+        kind = _KIND_OF_UNIT.get(unit)
+        return format_value(magnitude, unit, getattr(system, kind) if kind else unit)
+
+    return shown
+
+
 def _default_quantity(value: float, unit: str) -> str:
-    return f"{value:.4g} {unit.replace('*', '·')}"
+    return format_value(value, unit)
 
 
 class CounterpoiseError(Exception):

@@ -9,7 +9,7 @@ import json
 import math
 import sys
 
-__all__ = ["add_json", "add_units", "add_force", "emit", "print_text"]
+__all__ = ["add_json", "add_units", "add_force", "emit", "print_text", "option_names", "error_text"]
 
 
 def add_json(parser) -> None:
@@ -61,3 +61,51 @@ def _encodable(stream, text: str) -> bool:
 
 def print_text(text: str) -> None:
     sys.stdout.write(text.rstrip("\n") + "\n")
+
+
+# -- errors in the command line's words --------------------------------------------------------------
+
+#: Library parameter names whose option is not simply the name with dashes (``max_depth_ratio`` is
+#: ``--max-depth-ratio``); looked up only when the subcommand has that option.
+OPTION_ALIASES = {
+    "max_depth_mm": "--max-depth", "min_wall_mm": "--min-wall", "min_wall_ratio": "--wall-ratio",
+    "depth_step_mm": "--depth-step", "fixed_positions": "--positions", "point_angle_deg": "--point-angle",
+    "correction": "--unbalance", "weld_run": "--weld", "seat_offset_deg": "--seat-offset",
+    "materials_table": "--materials", "washer_table": "--table", "test_unbalance": "--test",
+    "readings": "--reading", "residuals": "--residual", "criteria": "--criterion", "planes": "--plane",
+    "journal_loads": "--journal-load", "u_per": "--allowed", "position": "--plane",
+}
+
+def option_names(parser):
+    """``name(parameter) -> option``: a library parameter worded as the subcommand's option (``wall`` ->
+    ``--wall``), or left as it is when the subcommand has no such option."""
+    options = {}
+    for action in getattr(parser, "_actions", ()):
+        longs = [s for s in action.option_strings if s.startswith("--")]
+        if longs:
+            options.setdefault(action.dest, longs[0])
+    given = {s for a in getattr(parser, "_actions", ()) for s in a.option_strings}
+
+    def name(parameter: str) -> str:
+        if parameter.startswith("-"):
+            return parameter
+        alias = OPTION_ALIASES.get(parameter)
+        if alias in given:
+            return alias
+        for dest in (parameter, parameter.removesuffix("_mm").removesuffix("_deg")):
+            if dest in options:
+                return options[dest]
+        return parameter
+
+    return name
+
+
+def error_text(exc, args) -> str:
+    """A library error worded for the command line: its parameters as this subcommand's options, its
+    values in the unit system asked for (``--units``)."""
+    parser = getattr(args, "command_parser", None)
+    if not hasattr(exc, "worded") or parser is None:
+        return str(exc)
+    from toolkit.errors import quantity_words
+
+    return exc.worded(option_names(parser), quantity_words(getattr(args, "units", "metric")))

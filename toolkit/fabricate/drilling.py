@@ -110,10 +110,9 @@ class Limits:
                 continue
             problem = limit_problem(name, v)
             if problem:
-                raise BadInput(f"--max-depth: {v!r} {problem}" if name == "max_depth_mm"
-                               else f"limit {name}: {v!r} {problem}")
+                raise BadInput.about(name, f"{v!r} {problem}")
         if not (isinstance(self.max_holes, int) and 1 <= self.max_holes <= 36):
-            raise BadInput(f"limit max_holes: {self.max_holes!r} must be a whole number from 1 to 36")
+            raise BadInput.about("max_holes", f"{self.max_holes!r} must be a whole number from 1 to 36")
 
     def tip_limit_mm(self, d: float) -> float:
         """Deepest allowed tip for drill diameter d [mm] (refusal limit)."""
@@ -142,10 +141,10 @@ def point_height(diameter, point_angle_deg: float = 118.0):
 
 def _angle(point_angle_deg) -> float:
     if isinstance(point_angle_deg, bool) or not isinstance(point_angle_deg, (int, float)):
-        raise BadInput(f"--point-angle: {point_angle_deg!r} is not an angle in degrees; e.g. 118")
+        raise BadInput.about("point_angle_deg", f"{point_angle_deg!r} is not an angle in degrees; e.g. 118")
     a = float(point_angle_deg)
     if not (math.isfinite(a) and 60.0 <= a <= 180.0):
-        raise BadInput(f"--point-angle: {point_angle_deg!r} is outside 60 to 180 degrees (118 general, "
+        raise BadInput.about("point_angle_deg", f"{point_angle_deg!r} is outside 60 to 180 degrees (118 general, "
                        "135 hard material, 180 flat bottom)")
     return a
 
@@ -298,7 +297,7 @@ def _hole(orientation: str, diameter, depth, radius, density, point_angle_deg) -
     return _geometry(orientation, d, L, R, rho, a)
 
 
-def correction_g_mm(amount, radius=None, name: str = "--unbalance") -> float:
+def correction_g_mm(amount, radius=None, name: str = "correction") -> float:
     """A correction as unbalance [g·mm]: an unbalance (``"2400 g*mm"``, ``"3.3 oz*in"``) or a mass with its
     radius (``"38 g"`` at ``"620 mm"``).
 
@@ -309,8 +308,8 @@ def correction_g_mm(amount, radius=None, name: str = "--unbalance") -> float:
 
     if isinstance(amount, bool) or isinstance(amount, (int, float)) or (isinstance(amount, str)
                                                                        and _is_number(amount)):
-        raise BadInput(f"{name}: {amount!r} has no unit; give an unbalance (e.g. '2400 g*mm', '3.3 oz*in') or "
-                       "a mass with --radius (e.g. '38 g')")
+        raise BadInput.about(name, f"{amount!r} has no unit; give an unbalance (e.g. '2400 g*mm', '3.3 oz*in') "
+                                   "or a mass with its {radius} (e.g. '38 g')", mentions=("radius",))
     try:
         return float(quantity(amount, "unbalance", name, positive=True).m_as("g*mm"))
     except BadInput as exc:
@@ -321,12 +320,12 @@ def correction_g_mm(amount, radius=None, name: str = "--unbalance") -> float:
     except BadInput as exc:
         if "greater than zero" in str(exc):
             raise
-        raise BadInput(f"{name}: {amount!r} is neither an unbalance (e.g. '2400 g*mm', '3.3 oz*in') nor a "
-                       "mass with --radius (e.g. '38 g')") from None
+        raise BadInput.about(name, f"{amount!r} is neither an unbalance (e.g. '2400 g*mm', '3.3 oz*in') nor "
+                                   "a mass with its {radius} (e.g. '38 g')", mentions=("radius",)) from None
     if radius is None:
-        raise BadInput(f"{name}: {amount!s} is a mass; give its radius too (--radius, e.g. '620 mm') or give "
-                       "an unbalance such as '2400 g*mm'")
-    return float(m * magnitude(radius, "length", "mm", "--radius", positive=True))
+        raise BadInput.about(name, f"{amount!s} is a mass; give its radius too ({{radius}}, e.g. '620 mm') or "
+                                   "give an unbalance such as '2400 g*mm'", mentions=("radius",))
+    return float(m * magnitude(radius, "length", "mm", "radius", positive=True))
 
 
 def _is_number(text: str) -> bool:
@@ -630,27 +629,29 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
     if action not in ("add", "remove"):
         raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
     limits = limits or Limits()
-    R = float(magnitude(radius, "length", "mm", "--radius", positive=True))
+    R = float(magnitude(radius, "length", "mm", "radius", positive=True))
     U = correction_g_mm(correction, radius)
     dens = resolve_density(material, density, materials_table)
     rho = dens.g_mm3
     angle = _angle(point_angle_deg)
     given = parse_angle(angle_deg, "angle")
     remove_angle = _norm(given + 180.0) if action == "add" else given
-    wall_mm = None if wall is None else magnitude(wall, "length", "mm", "--wall", positive=True)
+    wall_mm = None if wall is None else magnitude(wall, "length", "mm", "wall", positive=True)
     fixed = None
     if fixed_positions:
         fixed = tuple(parse_angle(p, "fixed position") for p in fixed_positions)
     if diameter is not None:
-        d = magnitude(diameter, "length", "mm", "--diameter", positive=True)
+        d = magnitude(diameter, "length", "mm", "diameter", positive=True)
         if orientation == "radial" and d >= R:
-            raise BadInput(f"--diameter: {d:g} mm is too large for a {R:g} mm radius")
+            raise BadInput.about("diameter", "{d} is too large for a {R} {radius}", mentions=("radius",),
+                                 quantities={"d": (d, "mm"), "R": (R, "mm")})
         candidates = [_stock.Drill(f"{d:g} mm", d, "given")]
     else:
         candidates = [c for c in _stock.drills(drills) if orientation == "axial" or c.diameter_mm < R]
         if not candidates:
-            raise Infeasible(f"no drill in the set is smaller than the {R:g} mm radius, as a radial hole needs; "
-                             "drill axial holes in a face, or use a plate or washers")
+            raise Infeasible.about("drills", "no drill in the set is smaller than the {R} {radius}, as a radial "
+                                   "hole needs; drill axial holes in a face, or use a plate or washers",
+                                   mentions=("radius",), quantities={"R": (R, "mm")})
     chosen = None
     ratios = [limits.warn_depth_ratio, limits.max_depth_ratio]
     if diameter is None:
@@ -703,7 +704,7 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
                         got, requested_g_mm=U, given_action=action, given_angle_deg=given, error_g_mm=err,
                         density_source=dens.source, material=dens.material.name if dens.material else None,
                         warnings=got.warnings + (note,))
-        raise Infeasible(reason)
+        raise reason
     drill, (plan, pitch) = chosen
     d = drill.diameter_mm
     holes = []
@@ -785,15 +786,16 @@ def _most_removed(orientation, U, R, rho, angle, limits, wall, candidates, fixed
 
 
 def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed, remove_angle=0.0,
-             allow=None) -> str:
-    """The reason a request cannot be drilled and the nearest feasible alternative."""
+             allow=None) -> Infeasible:
+    """The reason a request cannot be drilled and the nearest feasible alternative (the error to raise)."""
     big = candidates[-1].diameter_mm
     small = candidates[0].diameter_mm
     top_big = _top(big, angle, limits, wall, limits.max_depth_ratio)
     reason = ""
     if top_big < 0:
-        return (f"no room for a {big:g} mm hole: the wall and depth limits leave no depth for its point; "
-                "give a thicker --wall, a flat-bottom tool (--point-angle 180) or another method (plate, washers)")
+        return Infeasible(f"no room for a {big:g} mm hole: the wall and depth limits leave no depth for its point; "
+                          "give a thicker {wall}, a flat-bottom tool ({point_angle_deg} 180) or another method "
+                          "(plate, washers)", mentions=("wall", "point_angle_deg"))
     # largest removal per hole at the refusal limit
     if orientation == "axial":
         one = rho * _axial_volume(big / 2, top_big, _h(big, angle)) * R
@@ -809,20 +811,22 @@ def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed, rem
         most = one * math.sin(math.radians(n * pitch / 2)) / math.sin(math.radians(pitch / 2))
     else:
         most = one
+    values = {"U": (U, "g*mm"), "R": (R, "mm")}
+    if allow is not None:
+        values["allow"] = (allow, "g*mm")
     if U > most:
-        reason = (f"{_fmt(U)} g·mm is more than {f'{n} ×' if not fixed else 'the'} {big:g} mm holes can remove within "
-                  f"the limits (at most about {_fmt(most)} g·mm at {limits.max_depth_ratio:g}·d"
-                  + ("" if allow is None else f", which leaves about {_fmt(U - most)} g·mm, more than the allowance "
-                                              f"of {_fmt(allow)} g·mm")
-                  + "); nearest: remove "
-                  f"{_fmt(most)} g·mm here and the rest in another plane or by another method, or raise "
-                  "--max-depth-ratio if the rotor maker allows")
-    else:
-        least = _least(orientation, small, R, rho, angle)
-        reason = (f"{_fmt(U)} g·mm is less than the smallest {small:g} mm drill removes with its point alone "
-                  f"({_fmt(least)} g·mm at {R:g} mm"
-                  + ("" if allow is None else f", which leaves {_fmt(least - U)} g·mm, more than the allowance "
-                                              f"of {_fmt(allow)} g·mm")
-                  + "); nearest: drill at a smaller radius, use a smaller drill, "
-                  "or leave it if within tolerance")
-    return reason
+        values.update(most=(most, "g*mm"), rest=(U - most, "g*mm"))
+        holes = f"{n} ×" if not fixed else "the"
+        return Infeasible(
+            f"{{U}} is more than {holes} {big:g} mm holes can remove within the limits (at most about {{most}} "
+            f"at {limits.max_depth_ratio:g}·d" + ("" if allow is None else ", which leaves about {rest}, more than "
+                                                   "the allowance of {allow}")
+            + "); nearest: remove {most} here and the rest in another plane or by another method, or raise "
+            "{max_depth_ratio} if the rotor maker allows", mentions=("max_depth_ratio",), quantities=values)
+    least = _least(orientation, small, R, rho, angle)
+    values.update(least=(least, "g*mm"), over=(least - U, "g*mm"))
+    return Infeasible(
+        f"{{U}} is less than the smallest {small:g} mm drill removes with its point alone ({{least}} at {{R}}"
+        + ("" if allow is None else ", which leaves {over}, more than the allowance of {allow}")
+        + "); nearest: drill at a smaller radius, use a smaller drill, or leave it if within tolerance",
+        quantities=values)

@@ -222,7 +222,7 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
         raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
     U = correction_g_mm(unbalance, radius)
     angle = parse_angle(angle_deg, "angle")
-    allow = None if allowance is None else magnitude(allowance, "unbalance", "g*mm", "--allowance",
+    allow = None if allowance is None else magnitude(allowance, "unbalance", "g*mm", "allowance",
                                                      nonnegative=True)
     limits = limits or Limits()
     say = _Say(units)
@@ -253,7 +253,7 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
                     break
     elif method == "plate":
         if width is None:
-            raise BadInput("--width: a plate needs the seat's width, e.g. '40 mm'")
+            raise BadInput.about("width", "a plate needs the seat's width, e.g. '40 mm'")
         kw = dict(common, width=width, shape=shape, surface=surface, stock=stock, stock_unit=stock_unit,
                   max_length=max_length, seat_offset_deg=seat_offset_deg, fillet=fillet, convexity=convexity,
                   weld_run=weld_run, ce=ce)

@@ -108,9 +108,9 @@ def plate_geometry(shape: str, radius, thickness, width, length, density, surfac
     (255.22, 252.94)
     """
     shape, surface = _check_shape(shape, surface)
-    R = magnitude(radius, "length", "mm", "--radius", positive=True)
-    t = magnitude(thickness, "length", "mm", "--thickness", positive=True)
-    w = magnitude(width, "length", "mm", "--width", positive=True)
+    R = magnitude(radius, "length", "mm", "radius", positive=True)
+    t = magnitude(thickness, "length", "mm", "thickness", positive=True)
+    w = magnitude(width, "length", "mm", "width", positive=True)
     b = magnitude(length, "length", "mm", "length", positive=True)
     rho = resolve_density(density=density).g_mm3
     _check_fit_shape(shape, surface, R, t, b)
@@ -120,23 +120,25 @@ def plate_geometry(shape: str, radius, thickness, width, length, density, surfac
 
 def _check_shape(shape, surface):
     if shape not in SHAPES:
-        raise BadInput(f"--shape: {shape!r} is not allowed; use one of {', '.join(SHAPES)}")
+        raise BadInput.about("shape", f"{shape!r} is not allowed; use one of {', '.join(SHAPES)}")
     if surface not in SURFACES:
-        raise BadInput(f"--surface: {surface!r} is not allowed; use one of {', '.join(SURFACES)}")
+        raise BadInput.about("surface", f"{surface!r} is not allowed; use one of {', '.join(SURFACES)}")
     if shape == "flat" and surface == "inner":
-        raise BadInput("--shape flat --surface inner: a flat plate cannot sit in a bore; use --shape rolled")
+        raise BadInput.about("shape", "flat with {surface} inner: a flat plate cannot sit in a bore; use {shape} "
+                                      "rolled", mentions=("surface",))
     return shape, surface
 
 
 def _check_fit_shape(shape, surface, R, t, b):
     if shape == "face" and t <= 0:
-        raise BadInput(f"--thickness: {t!r} must be greater than zero")
+        raise BadInput.about("thickness", f"{t!r} must be greater than zero")
     if shape == "rolled":
         if b >= math.pi * R:
-            raise Infeasible(f"a {b:.0f} mm plate would wrap half the {R:g} mm radius; use two seats or "
-                             "another method")
+            raise Infeasible("a {b} plate would wrap half the {R} {radius}; use two seats or another method",
+                             mentions=("radius",), quantities={"b": (b, "mm"), "R": (R, "mm")})
         if surface == "inner" and t >= R:
-            raise BadInput(f"--thickness: {t:g} mm does not fit inside a {R:g} mm radius")
+            raise BadInput.about("thickness", "{t} does not fit inside a {R} {radius}", mentions=("radius",),
+                                 quantities={"t": (t, "mm"), "R": (R, "mm")})
 
 
 @dataclass(frozen=True)
@@ -238,13 +240,13 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     """
     shape, surface = _check_shape(shape, surface)
     if weld_run not in WELD_RUNS:
-        raise BadInput(f"--weld: {weld_run!r} is not allowed; use one of {', '.join(WELD_RUNS)}")
+        raise BadInput.about("weld_run", f"{weld_run!r} is not allowed; use one of {', '.join(WELD_RUNS)}")
     if action not in ("add", "remove"):
         raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
-    R = float(magnitude(radius, "length", "mm", "--radius", positive=True))
+    R = float(magnitude(radius, "length", "mm", "radius", positive=True))
     U = correction_g_mm(correction, radius)
-    w0 = float(magnitude(width, "length", "mm", "--width", positive=True))
-    st = float(magnitude(step, "length", "mm", "--step", positive=True, bounds=PLATE_STEP_BOUNDS,
+    w0 = float(magnitude(width, "length", "mm", "width", positive=True))
+    st = float(magnitude(step, "length", "mm", "step", positive=True, bounds=PLATE_STEP_BOUNDS,
                          what="plate size step"))
     dens = resolve_density(material, density, materials_table)
     require_weldable(dens)
@@ -255,7 +257,7 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
         conv, conv_src = DEFAULT_CONVEXITY, "default 20 % [M: 10–30 %]"
     else:
         if isinstance(convexity, bool) or not isinstance(convexity, (int, float)) or not 0 <= convexity <= 1:
-            raise BadInput(f"--convexity: {convexity!r} must be a fraction from 0 to 1 (e.g. 0.2)")
+            raise BadInput.about("convexity", f"{convexity!r} must be a fraction from 0 to 1 (e.g. 0.2)")
         conv, conv_src = float(convexity), "given"
     if not (isinstance(aspect, (int, float)) and aspect > 0):
         raise BadInput(f"aspect: {aspect!r} must be a number greater than zero")
@@ -267,18 +269,19 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     w = float(max(st, round(round(w0 / st) * st, 9)))
     if abs(w - w0) > 1e-9:
         warnings.append(f"width {w0:g} mm rounded to the {st:g} mm step: {w:g} mm")
-    room = None if max_length is None else magnitude(max_length, "length", "mm", "--max-length", positive=True)
+    room = None if max_length is None else magnitude(max_length, "length", "mm", "max_length", positive=True)
     if thickness is not None:
-        tv = float(magnitude(thickness, "length", "mm", "--thickness", positive=True))
+        tv = float(magnitude(thickness, "length", "mm", "thickness", positive=True))
         options = [_stock.PlateThickness(f"{tv:g} mm", tv, "given")]
     else:
         options = list(_stock.plate_stock(stock, stock_unit))
-    fillet_mm = None if fillet is None else magnitude(fillet, "length", "mm", "--fillet", positive=True)
+    fillet_mm = None if fillet is None else magnitude(fillet, "length", "mm", "fillet", positive=True)
     offset = None
     if seat_offset_deg is not None:
         if isinstance(seat_offset_deg, bool) or not isinstance(seat_offset_deg, (int, float)) \
                 or not 0 < seat_offset_deg < 90:
-            raise BadInput(f"--seat-offset: {seat_offset_deg!r} must be an angle between 0 and 90 degrees")
+            raise BadInput.about("seat_offset_deg", f"{seat_offset_deg!r} must be an angle between 0 and 90 "
+                                                    "degrees")
         offset = float(seat_offset_deg)
 
     def design(t_opt, seats):
@@ -335,11 +338,15 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
                             f"g·mm, within the allowance of {_fmt(allow)} g·mm: taken")
     if chosen is None and too_small:
         t_opt, z, least = min(too_small, key=lambda x: x[2])
-        raise Infeasible(f"{_fmt(U)} g·mm is less than the smallest {t_opt.label} plate {w:g} mm wide adds with its "
-                         f"weld ({max(MIN_LENGTH_MM, 2 * z):g} mm long, {z:g} mm fillets: {_fmt(least)} g·mm)"
-                         + ("" if allow is None else f", which leaves {_fmt(least - U)} g·mm, more than the "
-                                                     f"allowance of {_fmt(allow)} g·mm")
-                         + "; nearest: washers, a drilled hole at the heavy spot, or a narrower plate (--width)")
+        values = {"U": (U, "g*mm"), "least": (least, "g*mm"), "over": (least - U, "g*mm"),
+                  "length": (max(MIN_LENGTH_MM, 2 * z), "mm"), "fillet_leg": (z, "mm"), "w": (w, "mm")}
+        if allow is not None:
+            values["allow"] = (allow, "g*mm")
+        raise Infeasible(f"{{U}} is less than the smallest {t_opt.label} plate {{w}} wide adds with its weld "
+                         "({length} long, {fillet_leg} fillets: {least})"
+                         + ("" if allow is None else ", which leaves {over}, more than the allowance of {allow}")
+                         + "; nearest: washers, a drilled hole at the heavy spot, or a narrower plate ({width})",
+                         mentions=("width",), quantities=values)
     if chosen is None:
         reason = _nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, weld_run)
         most = None if allow is None else _most_plate(R, w, options, room, shape, surface, rho, fillet_mm, conv,
@@ -365,7 +372,7 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
                     given_angle_deg=given, error_g_mm=abs(got.achieved_g_mm - U), density_source=dens.source,
                     material=dens.material.name if dens.material else None,
                     warnings=tuple(warnings) + got.warnings + (note,))
-        raise Infeasible(reason)
+        raise reason
     seats, (t_opt, z, b_exact, total, U1) = chosen
     t = t_opt.thickness_mm
     b = float(max(st, round(round(b_exact / st) * st, 9)))
@@ -377,7 +384,7 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
         gap = R - math.sqrt(max(R * R - (b / 2) ** 2, 0.0)) if surface == "outer" else 0.0
         if gap > 1.0:
             warnings.append(f"a flat {b:g} mm plate stands {gap:.1f} mm off the {R:g} mm surface at its ends; "
-                            "consider --shape rolled [CP]")
+                            "consider a rolled plate [CP]")
     m, rbar = _plate_kernel(shape, surface, R, t, w, b, rho)
     mw, uw = _weld_kernel(shape, surface, R, w, b, z, conv, weld_run, rho) if include_weld else (0.0, 0.0)
     one = m * rbar + uw
@@ -406,10 +413,13 @@ def _most_plate(R, w, options, room, shape, surface, rho, fillet_mm, conv, run) 
     return m * rbar + _weld_kernel(shape, surface, R, w, b, z, conv, run, rho)[1]
 
 
-def _nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, run) -> str:
+def _nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, run) -> Infeasible:
+    """Why no plate can be made, and the nearest feasible alternative (the error to raise)."""
+    values = {"U": (U, "g*mm"), "R": (R, "mm"), "w": (w, "mm")}
     if shape == "rolled" and surface == "inner" and all(o.thickness_mm >= R for o in options):
-        return (f"no plate thinner than the {R:g} mm bore radius is available (thinnest "
-                f"{options[0].label}); nearest: drilled holes or washers, or a plate on the outer surface")
+        return Infeasible(f"no plate thinner than the {{R}} bore {{radius}} is available (thinnest "
+                          f"{options[0].label}); nearest: drilled holes or washers, or a plate on the outer surface",
+                          mentions=("radius",), quantities=values)
     t = options[-1].thickness_mm
     z = fillet_mm if fillet_mm is not None else min(min_fillet_mm(t), t)
     if room is not None:
@@ -417,10 +427,12 @@ def _nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, con
     else:
         b = 0.95 * math.pi * R if shape != "face" else None
     if b is None:
-        return f"no plate found for {U:.4g} g·mm; check the inputs"
+        return Infeasible("no plate found for {U}; check the inputs", quantities=values)
     m, rbar = _plate_kernel(shape, surface, R, t, w, b, rho)
     most = m * rbar + _weld_kernel(shape, surface, R, w, b, z, conv, run, rho)[1]
-    where = f"within the {room:g} mm room" if room is not None else "on this radius"
-    hint = "" if offset is not None else "; or give --seat-offset to split onto two seats"
-    return (f"{_fmt(U)} g·mm needs more than the thickest plate ({options[-1].label}, {w:g} mm wide) adds "
-            f"{where}: at most about {_fmt(most)} g·mm; nearest: a wider plate, a larger radius{hint}")
+    values.update(most=(most, "g*mm"), room=(0.0 if room is None else room, "mm"))
+    where = "within the {room} room ({max_length})" if room is not None else "on this radius"
+    hint = "" if offset is not None else "; or give {seat_offset_deg} to split onto two seats"
+    return Infeasible(f"{{U}} needs more than the thickest plate ({options[-1].label}, {{w}} wide) adds {where}: at "
+                      f"most about {{most}}; nearest: a wider plate, a larger radius{hint}",
+                      mentions=("max_length", "seat_offset_deg"), quantities=values)

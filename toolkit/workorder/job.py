@@ -66,7 +66,7 @@ from toolkit.errors import BadInput
 
 __all__ = [
     "Job", "PlaneSpec", "Measurement", "ShopSettings", "JobError",
-    "load_job", "parse_job", "job_from_data", "key_lines",
+    "load_job", "parse_job", "job_from_data", "key_lines", "job_key_names",
     "METHODS", "SURFACES", "SENSES", "DEFAULTS",
 ]
 
@@ -291,6 +291,9 @@ class Job:
     rotor_length: Any = None
     #: SHA-256 (hex) of the UTF-8 job text, set by :func:`parse_job` ("" for a job built from data)
     input_sha256: str = ""
+    #: where each key was written: key path -> line (a job file), or key path -> column (a planner row)
+    key_lines: Mapping[tuple, int] = field(default_factory=dict, repr=False, compare=False)
+    key_columns: Mapping[tuple, str] | None = field(default=None, repr=False, compare=False)
 
     @property
     def number(self) -> str:
@@ -322,17 +325,18 @@ class _Checker:
                 return self.lines[path[:cut]]
         return None
 
-    def add(self, path: tuple, message: str) -> None:
+    def where(self, path: tuple) -> str:
+        """The key as the user wrote it: ``line 14, plane[1].wall``, or the planner column it came from."""
         if self.columns is not None:
             for cut in range(len(path), 0, -1):
                 if path[:cut] in self.columns:
-                    self.problems.append(f"column {self.columns[path[:cut]]}: {message}")
-                    return
-            self.problems.append(f"{_dotted(path)}: {message}")
-            return
+                    return f"column {self.columns[path[:cut]]}"
+            return _dotted(path)
         line = self.line_of(path)
-        where = f"line {line}, " if line else ""
-        self.problems.append(f"{where}{_dotted(path)}: {message}")
+        return f"line {line}, {_dotted(path)}" if line else _dotted(path)
+
+    def add(self, path: tuple, message: str) -> None:
+        self.problems.append(f"{self.where(path)}: {message}")
 
 
 def _dotted(path: tuple) -> str:
@@ -750,7 +754,47 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
                span, com, share, min_share, error_allowance, tuple(planes), reference, sense, measurement,
                ShopSettings(units or "metric", drills, stock, step_deg, mass_step, plate_step, point_angle,
                             MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet, paper),
-               tuple(defaults_used), one_plane_rule=one_plane_rule or "whole", rotor_length=rotor_length)
+               tuple(defaults_used), one_plane_rule=one_plane_rule or "whole", rotor_length=rotor_length,
+               key_lines=MappingProxyType(dict(lines or {})),
+               key_columns=None if columns is None else MappingProxyType(dict(columns)))
+
+
+#: Library parameters of the fabrication planner and the job key that sets each: in the plane's own
+#: table, or in the shop's ([shop] or [shop.drilling]).
+_PLANE_KEYS = {"radius": "radius", "wall": "wall", "width": "width", "max_length": "max_length",
+               "material": "material", "fixed_positions": "fixed_positions", "size": "washer_size",
+               "surface": "surface", "shape": "plate_shape", "orientation": "hole_orientation"}
+_SHOP_KEYS = {"point_angle_deg": "point_angle", "drills": "drills", "thickness": "plate_stock",
+              "step": "plate_step", "fillet": "fillet", "convexity": "weld_convexity", "units": "units"}
+
+
+def job_key_names(job: Job, plane: int | None = None):
+    """``name(parameter) -> text``: a library parameter named as the job key that sets it, with the line
+    (or planner column) where it is written, e.g. ``plane[1].wall (line 14)`` or
+    ``[shop.drilling] max_depth_ratio``; ``plane`` is the index of the plane being corrected. A parameter no
+    job key sets keeps the library's name (never a command-line option)."""
+    ck = _Checker(job.origin, dict(job.key_lines), job.key_columns)
+
+    def shown(path: tuple, header: str | None = None) -> str:
+        text = f"[{header}] {path[-1]}" if header else _dotted(path)
+        if job.key_columns is not None:
+            place = ck.where(path)
+            return text if place == _dotted(path) else f"{text} ({place})"
+        line = job.key_lines.get(path)  # only a key written in the file has a line of its own
+        return f"{text} (line {line})" if line else text
+
+    def name(parameter: str) -> str:
+        if plane is not None and parameter == "max_depth_mm" and job.planes[plane].max_depth is not None:
+            return shown(("plane", plane, "max_depth"))
+        if plane is not None and parameter in _PLANE_KEYS:
+            return shown(("plane", plane, _PLANE_KEYS[parameter]))
+        if parameter in DRILLING_KEYS:
+            return shown(("shop", "drilling", parameter), "shop.drilling")
+        if parameter in _SHOP_KEYS:
+            return shown(("shop", _SHOP_KEYS[parameter]), "shop")
+        return parameter
+
+    return name
 
 
 def _speed(ck: _Checker, table: Mapping, path: tuple, required: bool = False) -> float | None:
