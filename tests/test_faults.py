@@ -950,7 +950,7 @@ def test_verify_refuses_malformed_reading_pairs(bad):
     from toolkit import BadInput
     from toolkit.verify import verify_residual
 
-    with pytest.raises(BadInput, match=r"--reading 1: .* is not a reading"):
+    with pytest.raises(BadInput, match=r"readings 1: .* is not a reading"):
         verify_residual("200 g*mm", [bad, "53.63@60", "58.64@120"])
 
 

@@ -137,6 +137,33 @@ def _rebuild(cls, message, parameter, mentions, quantities, state):
     return error
 
 
+class Worded(str):
+    """A warning or note that names parameters as ``{name}`` fields (``mentions``): as a string it reads in
+    the library's names; a face words it with :meth:`worded`, as errors are.
+
+    >>> w = Worded("consider static and couple tolerances ({static_share})", ("static_share",))
+    >>> str(w), w.worded(lambda p: "--" + p.replace("_", "-"))
+    ('consider static and couple tolerances (static_share)', 'consider static and couple tolerances (--static-share)')
+    """
+
+    def __new__(cls, template: str, mentions: tuple[str, ...] = ()):
+        text = _FIELD.sub(lambda m: m.group(1) if m.group(1) in mentions else m.group(0), template)
+        self = super().__new__(cls, text)
+        self.template, self.mentions = template, tuple(mentions)
+        return self
+
+    def worded(self, name: Callable[[str], str]) -> str:
+        return _FIELD.sub(lambda m: name(m.group(1)) if m.group(1) in self.mentions else m.group(0), self.template)
+
+    def __reduce__(self):
+        return (Worded, (self.template, self.mentions))
+
+
+def worded(text, name: Callable[[str], str]) -> str:
+    """A warning in a face's words: a :class:`Worded` note worded by ``name``, any other text as it is."""
+    return text.worded(name) if isinstance(text, Worded) else str(text)
+
+
 class BadInput(CounterpoiseError, ValueError):
     """A value, unit, file or option the user gave is not acceptable."""
 

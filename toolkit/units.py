@@ -582,7 +582,7 @@ def unit_system(name: str) -> UnitSystem:
     for system in (METRIC, IMPERIAL):
         if text == system.name:
             return system
-    raise BadInput(f"--units: {name!r} is not a unit system; use 'metric' or 'imperial'")
+    raise BadInput.about("units", f"{name!r} is not a unit system; use 'metric' or 'imperial'")
 
 
 def format_number(x: float, sig: int = 4) -> str:

@@ -7,9 +7,10 @@ from __future__ import annotations
 
 import json
 import math
+import re
 import sys
 
-__all__ = ["add_json", "add_units", "add_force", "emit", "print_text", "option_names", "error_text"]
+__all__ = ["add_json", "add_units", "add_force", "emit", "print_text", "option_names", "error_text", "parse_named"]
 
 
 def add_json(parser) -> None:
@@ -89,6 +90,9 @@ def option_names(parser):
     def name(parameter: str) -> str:
         if parameter.startswith("-"):
             return parameter
+        head, space, rest = parameter.partition(" ")  # "planes I": the option, then the item's name
+        if space:
+            return f"{name(head)} {rest}"
         alias = OPTION_ALIASES.get(parameter)
         if alias in given:
             return alias
@@ -109,3 +113,29 @@ def error_text(exc, args) -> str:
     from toolkit.errors import quantity_words
 
     return exc.worded(option_names(parser), quantity_words(getattr(args, "units", "metric")))
+
+
+# -- NAME=VALUE options --------------------------------------------------------------------------------
+
+_NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9 _.\-]{0,39}$")
+_NAMED_EXAMPLES = {"plane": "I=-120 mm", "journal load": "A=206 kg", "residual": "I=180 g*mm@40"}
+
+
+def parse_named(text, kind: str, option: str):
+    """Split an option's ``NAME=VALUE`` (``"I=-120 mm"``, ``"A=206 kg"``, ``"I=180 g*mm@40"``); return (name,
+    value text), the pair the library takes. Names are 1-40 letters, digits, spaces, ``_``, ``.`` or ``-``,
+    starting with a letter or digit.
+
+    >>> parse_named("I = -120 mm", "plane", "--plane")
+    ('I', '-120 mm')
+    """
+    from toolkit.errors import BadInput
+
+    if not isinstance(text, str) or "=" not in text:
+        raise BadInput(f"{option}: {text!r} is malformed; write NAME=VALUE, e.g. "
+                       f"{_NAMED_EXAMPLES.get(kind, 'I=-120 mm')!r}")
+    name, value = (part.strip() for part in text.split("=", 1))
+    if not _NAME.match(name) or not value:
+        raise BadInput(f"{option}: {text!r} is malformed; write NAME=VALUE with a short name, e.g. "
+                       f"{_NAMED_EXAMPLES.get(kind, 'I=-120 mm')!r}")
+    return name, value

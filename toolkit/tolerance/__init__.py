@@ -44,10 +44,9 @@ One module per concern; every public name is importable from ``toolkit.tolerance
 from toolkit.tolerance.allocation import (AXIAL_LIMIT_SPANS, DEFAULT_MIN_SHARE, BearingAllocation,
                                           allocate_to_bearings, bearing_allowances, transfer_to_planes)
 from toolkit.tolerance.api import API_OZ_IN_PER_LB, api_allowance
-from toolkit.tolerance.check import CHECK_STAGES, ResidualCheck, check_residuals
+from toolkit.tolerance.check import CHECK_STAGES, ResidualCheck, check_residuals, named_pairs
 from toolkit.tolerance.grades import GRADE_SCHEMA, Grade, grades, parse_grade
 from toolkit.tolerance.milstd import MIL_STD_167_RANGES, mil_std_167_allowance
-from toolkit.tolerance.named import parse_named
 from toolkit.tolerance.one_plane import (ONE_PLANE_LENGTH_RATIO, ONE_PLANE_OFFSET_RATIO, ONE_PLANE_RULES,
                                          ONE_PLANE_SPAN_RATIO, OnePlane, OnePlaneDoubt, one_plane_allowance)
 from toolkit.tolerance.report import CRITERIA, CriterionResult, PlaneAllowance, ToleranceReport, tolerance_report
@@ -75,12 +74,12 @@ __all__ = [
     "PlaneAllowance",
     "ResidualCheck",
     "check_residuals",
+    "named_pairs",
     "ToleranceReport",
     "tolerance_report",
     "ONE_PLANE_RULES",
     "OnePlane",
     "OnePlaneDoubt",
     "one_plane_allowance",
-    "parse_named",
 ]
 

@@ -9,7 +9,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from toolkit.errors import BadInput
+from toolkit.errors import BadInput, Worded
 from toolkit.tolerance.boundary import G_MM, LEVER_SOURCE, boundary_magnitude, require_positive, unit_of
 from toolkit.units import Q_, magnitude, quantity
 
@@ -118,8 +118,9 @@ def allocate_to_bearings(u_per, bearing_span, com_from_a, *,
         warnings.append(f"the lever rule gave shares {raw:.2f}/{1 - raw:.2f}; the bound {low:.2f}-"
                         f"{1 - low:.2f} was applied")
     if not 0.0 <= com.m_as("mm") <= span.m_as("mm"):
-        warnings.append("the centre of mass lies outside the bearings (overhung rotor): the lever rule is "
-                        "meant for inboard rotors; consider static and couple tolerances (--static-share)")
+        warnings.append(Worded("the centre of mass lies outside the bearings (overhung rotor): the lever rule "
+                               "is meant for inboard rotors; consider static and couple tolerances "
+                               "({static_share})", ("static_share",)))
     u_g = u.m_as(G_MM)
     method = f"lever rule U_A = U_per*L_B/L, U_B = U_per*L_A/L, {bounds_text(low)}"
     return BearingAllocation(u, span, com, Q_(u_g * share, G_MM), Q_(u_g * (1 - share), G_MM), raw, share,

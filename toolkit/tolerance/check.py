@@ -9,7 +9,6 @@ from typing import Mapping
 
 from toolkit.errors import BadInput
 from toolkit.tolerance.boundary import G_MM
-from toolkit.tolerance.named import parse_named
 from toolkit.units import Q_, magnitude, quantity
 from toolkit.vectors import parse_vector
 
@@ -58,6 +57,29 @@ def _rule(delta: float, stage: str) -> tuple[str, float]:
     return ("fail only when residual > allowance + dU (later check; ISO 21940-14:2012 as recalled [M])", delta)
 
 
+def named_pairs(items, parameter: str) -> list[tuple[str, object]]:
+    """(name, value) pairs from a mapping or an iterable of pairs; a name given twice is refused.
+
+    >>> named_pairs({"I": "-120 mm"}, "planes"), named_pairs([("A", "206 kg")], "journal_loads")
+    ([('I', '-120 mm')], [('A', '206 kg')])
+    """
+    if items is None:
+        return []
+    if isinstance(items, Mapping):
+        return list(items.items())
+    pairs = []
+    for item in items:
+        if isinstance(item, str) or not isinstance(item, (tuple, list)) or len(item) != 2:
+            raise BadInput.about(parameter, f"{item!r} is not a (name, value) pair; give a mapping such as "
+                                            "{'I': '-120 mm'} or (name, value) pairs")
+        pairs.append((str(item[0]), item[1]))
+    names = [n for n, _v in pairs]
+    dupes = sorted({n for n in names if names.count(n) > 1})
+    if dupes:
+        raise BadInput.about(parameter, f"name {dupes[0]!r} given more than once")
+    return pairs
+
+
 def check_residuals(allowances: Mapping[str, object], residuals, *, error_allowance=None,
                     stage: str = "after-balancing") -> tuple[ResidualCheck, ...]:
     """Check measured residuals (amount and angle) per plane against the planes' allowances.
@@ -68,8 +90,8 @@ def check_residuals(allowances: Mapping[str, object], residuals, *, error_allowa
     every result.
 
     Parameters: allowances : mapping plane name -> Quantity [mass*length]; residuals : mapping plane name
-    -> ``"AMOUNT@ANGLE"`` (``"180 g*mm@40"``) or (Quantity, angle_deg), or an iterable of ``"NAME=AMOUNT@ANGLE"``
-    strings; stage : ``"after-balancing"`` or ``"later-check"``.
+    -> ``"AMOUNT@ANGLE"`` (``"180 g*mm@40"``) or (Quantity, angle_deg), or an iterable of such (name,
+    value) pairs; stage : ``"after-balancing"`` or ``"later-check"``.
 
     >>> c, = check_residuals({"A": "600 g*mm"}, {"A": "450 g*mm@40"}); c.passed, round(c.margin.m_as("g*mm"))
     (True, 150)
@@ -78,17 +100,17 @@ def check_residuals(allowances: Mapping[str, object], residuals, *, error_allowa
         magnitude(error_allowance, "unbalance", G_MM, "error_allowance", nonnegative=True))
     rule, sign = _rule(delta, stage)
     if not isinstance(residuals, Mapping):
-        residuals = dict(parse_named(r, "residual", "--residual") for r in residuals)
+        residuals = dict(named_pairs(residuals, "residuals"))
     checks = []
     for name, value in residuals.items():
         if name not in allowances:
             known = ", ".join(allowances) or "none (give the rotor geometry or journal loads)"
-            raise BadInput(f"--residual: plane {name!r} is not known; planes: {known}")
+            raise BadInput.about("residuals", f"plane {name!r} is not known; planes: {known}")
         if isinstance(value, str):
-            amount, angle = parse_vector(value, "unbalance", f"--residual {name}")
+            amount, angle = parse_vector(value, "unbalance", f"residuals {name}")
         else:
             amount, angle = value
-            amount = quantity(amount, "unbalance", f"--residual {name}", nonnegative=True)
+            amount = quantity(amount, "unbalance", f"residuals {name}", nonnegative=True)
         allowed = magnitude(allowances[name], "unbalance", G_MM, f"allowance of {name}", positive=True)
         res = amount.m_as(G_MM)
         limit = allowed + sign

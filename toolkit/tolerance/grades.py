@@ -119,5 +119,5 @@ def parse_grade(value, *, custom: bool = False, table: str = "grades", name: str
         return Grade(g, "custom grade given by the user", "custom",
                      "custom grade given by the user; not a grade of the ISO 21940-11 series", custom=True)
     allowed = ", ".join(f"{r.mm_s:g}" for r in series)
-    raise BadInput(f"{name}: {shown!r} is not in the ISO 21940-11 series (G {allowed}); to use a value off "
-                   f"the series ask for a custom grade (--custom-grade)")
+    raise BadInput.about(name, f"{shown!r} is not in the ISO 21940-11 series (G {allowed}); to use a value off "
+                               "the series ask for a custom grade ({custom_grade})", mentions=("custom_grade",))

@@ -9,15 +9,14 @@ from typing import Iterable, Mapping
 
 import numpy as np
 
-from toolkit.errors import BadInput
+from toolkit.errors import BadInput, Worded
 from toolkit.tolerance.allocation import (DEFAULT_MIN_SHARE, BearingAllocation, allocate_to_bearings, bounds_text,
                                           check_axial, check_min_share, transfer_mm)
 from toolkit.tolerance.api import api_allowance, journal_lb
 from toolkit.tolerance.boundary import G_MM, ISO_SOURCE, LEVER_SOURCE, STATICS
-from toolkit.tolerance.check import ResidualCheck, check_residuals
+from toolkit.tolerance.check import ResidualCheck, check_residuals, named_pairs
 from toolkit.tolerance.grades import Grade, parse_grade
 from toolkit.tolerance.milstd import mil_std_167_allowance
-from toolkit.tolerance.named import parse_named
 from toolkit.tolerance.one_plane import ONE_PLANE_LENGTH_RATIO, ONE_PLANE_RULES, OnePlane, one_plane_allowance
 from toolkit.tolerance.static_couple import StaticCouple, static_couple_allowance
 from toolkit.tolerance.uper import permissible_unbalance, specific_unbalance
@@ -126,20 +125,6 @@ class ToleranceReport:
         }
 
 
-def _as_pairs(items, kind: str, option: str) -> list[tuple[str, object]]:
-    if items is None:
-        return []
-    if isinstance(items, Mapping):
-        pairs = list(items.items())
-    else:
-        pairs = [parse_named(i, kind, option) if isinstance(i, str) else tuple(i) for i in items]
-    names = [n for n, _v in pairs]
-    dupes = sorted({n for n in names if names.count(n) > 1})
-    if dupes:
-        raise BadInput(f"{option}: name {dupes[0]!r} given more than once")
-    return pairs
-
-
 def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_span=None, com_from_a=None,
                      planes=None, static_share: float | None = None, criteria: Iterable[str] = ("iso",),
                      journal_loads=None, min_share: float = DEFAULT_MIN_SHARE, residuals=None,
@@ -182,43 +167,44 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
     for c in criteria:
         key = str(c).strip().lower()
         if key not in CRITERIA:
-            raise BadInput(f"--criterion: {c!r} is not known; use {', '.join(CRITERIA)}")
+            raise BadInput.about("criteria", f"{c!r} is not known; use {', '.join(CRITERIA)}")
         if key not in names:
             names.append(key)
     if not names:
-        raise BadInput(f"--criterion: none given; use {', '.join(CRITERIA)}")
+        raise BadInput.about("criteria", f"none given; use {', '.join(CRITERIA)}")
     u_per = permissible_unbalance(g, m, Q_(n, "rpm"))
     e_per = specific_unbalance(g, Q_(n, "rpm"))
     u = u_per.m_as(G_MM)
     warnings: list[str] = []
 
-    span = None if bearing_span is None else quantity(bearing_span, "length", "--bearing-span", positive=True)
-    com = None if com_from_a is None else quantity(com_from_a, "length", "--com-from-a")
+    span = None if bearing_span is None else quantity(bearing_span, "length", "bearing_span", positive=True)
+    com = None if com_from_a is None else quantity(com_from_a, "length", "com_from_a")
     if (span is None) != (com is None):
-        raise BadInput("--bearing-span and --com-from-a go together: give both for the lever rule, or "
-                       "neither")
+        raise BadInput("{bearing_span} and {com_from_a} go together: give both for the lever rule, or neither",
+                       mentions=("bearing_span", "com_from_a"))
     loads = {}
-    for name, value in _as_pairs(journal_loads, "journal load", "--journal-load"):
+    for name, value in named_pairs(journal_loads, "journal_loads"):
         if name.upper() not in ("A", "B"):
-            raise BadInput(f"--journal-load: bearing {name!r} is not known; use A and B, e.g. 'A=206 kg'")
-        loads[name.upper()] = journal_lb(value, f"--journal-load {name}")
+            raise BadInput.about("journal_loads", f"bearing {name!r} is not known; use A and B")
+        loads[name.upper()] = journal_lb(value, f"journal_loads {name}")
     if len(loads) == 1:
-        raise BadInput("--journal-load: give both bearings, e.g. --journal-load A=206 kg --journal-load B=206 kg")
+        raise BadInput.about("journal_loads", "give both bearings, A and B")
     m_lb = m.m_as("lb")
     if loads and abs(loads["A"] + loads["B"] - m_lb) > 0.05 * m_lb:
         warnings.append(f"the journal loads add up to {Q_(loads['A'] + loads['B'], 'lb').m_as('kg'):.4g} kg, "
                         f"not the rotor mass {m.m_as('kg'):.4g} kg: check them")
 
-    plane_pairs = _as_pairs(planes, "plane", "--plane")
+    plane_pairs = named_pairs(planes, "planes")
     positions = []
     for name, value in plane_pairs:
         if span is None:
-            raise BadInput("--plane: correction-plane positions need --bearing-span and --com-from-a")
-        z = quantity(value, "length", f"--plane {name}")
-        check_axial(z.m_as("mm"), span.m_as("mm"), f"--plane {name}")
+            raise BadInput.about("planes", "correction-plane positions need {bearing_span} and {com_from_a}",
+                                 mentions=("bearing_span", "com_from_a"))
+        z = quantity(value, "length", f"planes {name}")
+        check_axial(z.m_as("mm"), span.m_as("mm"), f"planes {name}")
         positions.append(z)
     if len(positions) > 2:
-        raise BadInput(f"--plane: {len(positions)} correction planes given; a rigid rotor takes one or two")
+        raise BadInput.about("planes", f"{len(positions)} correction planes given; a rigid rotor takes one or two")
 
     # bearing-plane allowances [g*mm] of every criterion
     bearings = None
@@ -254,8 +240,9 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
             methods[key] = iso_method if share_a is not None else "U_per = 1000*G*m/Omega (whole rotor)"
         elif key == "api":
             if w_a is None:
-                raise BadInput("--criterion api: needs the journal loads (--journal-load A=MASS --journal-load "
-                               "B=MASS) or an inboard geometry (--bearing-span, --com-from-a)")
+                raise BadInput.about("criteria", "api needs the journal loads ({journal_loads}, A and B) or an "
+                                     "inboard geometry ({bearing_span}, {com_from_a})",
+                                     mentions=("journal_loads", "bearing_span", "com_from_a"))
             at_bearings[key] = (api_allowance(Q_(w_a, "lb"), Q_(n, "rpm")).m_as(G_MM),
                                 api_allowance(Q_(w_b, "lb"), Q_(n, "rpm")).m_as(G_MM))
             methods[key] = f"U_max = 4*W/N oz*in per plane, W the journal static load ({w_text})"
@@ -275,7 +262,8 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
         z = [p.m_as("mm") for p in positions]
         for key, ab in at_bearings.items():
             if ab is None:
-                raise BadInput("--plane: correction planes need --bearing-span and --com-from-a")
+                raise BadInput.about("planes", "correction planes need {bearing_span} and {com_from_a}",
+                                     mentions=("bearing_span", "com_from_a"))
             per_criterion[key] = transfer_mm(ab[0], ab[1], span.m_as("mm"), z)
         plane_method_suffix = f"; transferred to the correction planes by {STATICS}"
         d = span.m_as("mm")
@@ -283,8 +271,8 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
         overhung = len(z) == 2 and (max(z) < 0 or min(z) > d)
         if (narrow or overhung) and static_share is None:
             why = "closer than a third of the bearing span" if narrow else "both outboard of one bearing"
-            warnings.append(f"the correction planes are {why}: state the tolerance as static and couple parts "
-                            f"(--static-share), Bloch & Geitner ch. 6")
+            warnings.append(Worded(f"the correction planes are {why}: state the tolerance as static and couple "
+                                   "parts ({static_share}), Bloch & Geitner ch. 6", ("static_share",)))
     elif (span is not None or loads) and all(ab is not None for ab in at_bearings.values()):
         plane_names = ["A", "B"]
         per_criterion = {k: list(ab) for k, ab in at_bearings.items()}
@@ -328,8 +316,8 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
     sc = None
     if static_share is not None:
         if len(positions) != 2:
-            raise BadInput("--static-share: needs two correction planes (--plane NAME=POSITION twice) and the "
-                           "geometry")
+            raise BadInput.about("static_share", "needs two correction planes ({planes}, twice) and the "
+                                                 "geometry", mentions=("planes",))
         ab = [at_bearings[k] for k in names]
         ua, ub = min(x[0] for x in ab), min(x[1] for x in ab)
         sc = static_couple_allowance(Q_(ua, G_MM), Q_(ub, G_MM), span, com, positions, static_share,
@@ -344,7 +332,7 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
             f"custom grade G {g.mm_s:g} mm/s: not a grade of the ISO 21940-11 series",))
     if residuals:
         checks = check_residuals(report.allowances(), residuals if isinstance(residuals, Mapping)
-                                 else dict(_as_pairs(residuals, "residual", "--residual")),
+                                 else dict(named_pairs(residuals, "residuals")),
                                  error_allowance=error_allowance, stage=check_stage)
         report = _replace(report, checks=checks)
     return report
