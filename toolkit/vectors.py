@@ -23,7 +23,7 @@ from toolkit.errors import BadInput
 
 __all__ = ["parse_vector", "parse_angle", "to_complex", "polar", "parse_reading", "add_vectors",
            "scale_vector", "change_radius", "split_vector", "Split", "combine", "static_couple",
-           "StaticCouple", "READING_KINDS"]
+           "StaticCoupleParts", "READING_KINDS", "neighbours", "sine_split"]
 
 _SEPARATOR = re.compile(r"\s*(?:@|∠)\s*")
 _ANGLE = re.compile(r"^([-+]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][-+]?[0-9]+)?)\s*(?:°|deg|degrees?)?$")
@@ -314,18 +314,37 @@ def split_vector(vector, positions: int | None = None, offset=0.0, at=None) -> S
     for a in angles:
         if _gap(a, theta) < 1e-9:
             return Split(mass, theta, tuple(angles), ((a, mass),))
-    # neighbouring positions either side of theta, walking round the circle
-    below = max(angles, key=lambda a: -_ccw(a, theta))
-    above = min(angles, key=lambda a: _ccw(theta, a))
+    below, above = neighbours(theta, angles)
     span = _ccw(below, above)
     if len(angles) < 2 or span >= 180.0 - 1e-9:
         raise Infeasible(f"positions: {mass:.4g} g@{theta:.4g} does not lie between two positions less than "
                          f"180 degrees apart (nearest {below:g} and {above:g}); add a position nearer "
                          f"{theta:.4g} degrees")
-    s = math.sin(math.radians(span))
-    m_a = mass * math.sin(math.radians(_ccw(theta, above))) / s
-    m_b = mass * math.sin(math.radians(_ccw(below, theta))) / s
+    m_a, m_b = sine_split(mass, theta, below, above)
     return Split(mass, theta, tuple(angles), ((below, m_a), (above, m_b)))
+
+
+def neighbours(theta: float, angles) -> tuple[float, float]:
+    """The positions either side of ``theta`` [deg], walking round the circle: (the nearest at or below it,
+    the nearest above it), both from ``angles`` [deg in [0, 360)].
+
+    >>> neighbours(100.0, [0.0, 90.0, 135.0]), neighbours(350.0, [0.0, 90.0, 270.0])
+    ((90.0, 135.0), (270.0, 0.0))
+    """
+    return max(angles, key=lambda a: -_ccw(a, theta)), min(angles, key=lambda a: _ccw(theta, a))
+
+
+def sine_split(amount: float, theta: float, below: float, above: float) -> tuple[float, float]:
+    """Law of sines [D] (docs/methods.md §2): ``amount`` at ``theta`` onto the positions ``below`` and
+    ``above`` [deg] either side of it, less than 180° apart: a = U sin(θb − θ)/sin(θb − θa),
+    b = U sin(θ − θa)/sin(θb − θa). The parts' vector sum equals the input.
+
+    >>> [round(x, 3) for x in sine_split(25.0, 100.0, 90.0, 135.0)]
+    [20.279, 6.139]
+    """
+    s = math.sin(math.radians(_ccw(below, above)))
+    return (amount * math.sin(math.radians(_ccw(theta, above))) / s,
+            amount * math.sin(math.radians(_ccw(below, theta))) / s)
 
 
 def _ccw(a: float, b: float) -> float:
@@ -370,8 +389,9 @@ def combine(*weights, radius=None):
 
 
 @dataclass(frozen=True)
-class StaticCouple:
-    """Static (resultant) and couple (moment) parts of a two-plane unbalance, in g·mm and g·mm²."""
+class StaticCoupleParts:
+    """Static (resultant) and couple (moment) parts of a two-plane unbalance, in g·mm and g·mm² (not a
+    tolerance: static and couple *tolerances* are :class:`toolkit.tolerance.StaticCouple`)."""
 
     static_g_mm: float
     static_angle_deg: float
@@ -386,7 +406,7 @@ class StaticCouple:
         return dict(self.__dict__)
 
 
-def static_couple(u1, u2, z1, z2) -> StaticCouple:
+def static_couple(u1, u2, z1, z2) -> StaticCoupleParts:
     """Static/couple decomposition of two plane unbalances ``u1`` at axial position ``z1`` and ``u2`` at
     ``z2``.
 
@@ -411,4 +431,4 @@ def static_couple(u1, u2, z1, z2) -> StaticCouple:
     s_amt, s_ang = polar(a + b)
     m_amt, m_ang = polar(a * p1 + b * p2)
     c_amt, c_ang = polar((a - b) / 2)
-    return StaticCouple(s_amt, s_ang, m_amt, m_ang, c_amt, c_ang, abs(p2 - p1))
+    return StaticCoupleParts(s_amt, s_ang, m_amt, m_ang, c_amt, c_ang, abs(p2 - p1))

@@ -24,9 +24,10 @@ import numpy as np
 
 from toolkit.errors import BadInput, Infeasible
 from toolkit.fabricate import stock as _stock
+from toolkit.fabricate.shared import correction_g_mm, describe_placement, norm_angle, offset_angle, solve_bracketed
 from toolkit.fabricate.materials import resolve_density
 from toolkit.units import format_number as _fmt, magnitude
-from toolkit.vectors import parse_angle
+from toolkit.vectors import neighbours, parse_angle, sine_split
 
 __all__ = ["Limits", "Hole", "DrillResult", "point_height", "axial_hole", "radial_hole", "solve_bracketed",
            "correction_g_mm", "drill_correction", "CAUTIONS", "ORIENTATIONS"]
@@ -183,41 +184,6 @@ def _radial_min_depth(R: float, r: float) -> float:
     return R - math.sqrt(R * R - r * r)
 
 
-def solve_bracketed(f, lo: float, hi: float, tol: float = 1e-10, max_iter: int = 200) -> float:
-    """Root of a continuous ``f`` on [lo, hi] where f(lo) and f(hi) differ in sign (Illinois regula falsi,
-    falling back to bisection; D). Raises ValueError if the root is not bracketed.
-
-    >>> round(solve_bracketed(lambda x: x * x - 2.0, 0.0, 2.0), 9)
-    1.414213562
-    """
-    flo, fhi = f(lo), f(hi)
-    if flo == 0:
-        return lo
-    if fhi == 0:
-        return hi
-    if (flo > 0) == (fhi > 0):
-        raise ValueError("root not bracketed")
-    side = 0
-    for _ in range(max_iter):
-        x = (lo * fhi - hi * flo) / (fhi - flo)
-        if not lo < x < hi:
-            x = 0.5 * (lo + hi)
-        fx = f(x)
-        if fx == 0 or (hi - lo) < tol * max(1.0, abs(x)):
-            return x
-        if (fx > 0) == (fhi > 0):
-            hi, fhi = x, fx
-            if side == 1:
-                flo *= 0.5
-            side = 1
-        else:
-            lo, flo = x, fx
-            if side == -1:
-                fhi *= 0.5
-            side = -1
-    return 0.5 * (lo + hi)
-
-
 @dataclass(frozen=True)
 class HoleGeometry:
     """One hole: diameter, shoulder and tip depth [mm], volume [mm³], mass [g], unbalance [g·mm], and the
@@ -295,45 +261,6 @@ def _hole(orientation: str, diameter, depth, radius, density, point_angle_deg) -
     a = _angle(point_angle_deg)
     _check_geometry(orientation, d, L, R, a)
     return _geometry(orientation, d, L, R, rho, a)
-
-
-def correction_g_mm(amount, radius=None, name: str = "correction") -> float:
-    """A correction as unbalance [g·mm]: an unbalance (``"2400 g*mm"``, ``"3.3 oz*in"``) or a mass with its
-    radius (``"38 g"`` at ``"620 mm"``).
-
-    >>> correction_g_mm("38 g", "620 mm"), round(correction_g_mm("1 oz*in"), 3)
-    (23560.0, 720.078)
-    """
-    from toolkit.units import quantity
-
-    if isinstance(amount, bool) or isinstance(amount, (int, float)) or (isinstance(amount, str)
-                                                                       and _is_number(amount)):
-        raise BadInput.about(name, f"{amount!r} has no unit; give an unbalance (e.g. '2400 g*mm', '3.3 oz*in') "
-                                   "or a mass with its {radius} (e.g. '38 g')", mentions=("radius",))
-    try:
-        return float(quantity(amount, "unbalance", name, positive=True).m_as("g*mm"))
-    except BadInput as exc:
-        if "greater than zero" in str(exc):
-            raise
-    try:
-        m = magnitude(amount, "mass", "g", name, positive=True)
-    except BadInput as exc:
-        if "greater than zero" in str(exc):
-            raise
-        raise BadInput.about(name, f"{amount!r} is neither an unbalance (e.g. '2400 g*mm', '3.3 oz*in') nor "
-                                   "a mass with its {radius} (e.g. '38 g')", mentions=("radius",)) from None
-    if radius is None:
-        raise BadInput.about(name, f"{amount!s} is a mass; give its radius too ({{radius}}, e.g. '620 mm') or "
-                                   "give an unbalance such as '2400 g*mm'", mentions=("radius",))
-    return float(m * magnitude(radius, "length", "mm", "radius", positive=True))
-
-
-def _is_number(text: str) -> bool:
-    try:
-        float(text)
-    except ValueError:
-        return False
-    return True
 
 
 # -- design ----------------------------------------------------------------------------------------------
@@ -451,35 +378,6 @@ class DrillResult:
         }
 
 
-def describe_placement(method_action: str, given_action: str, requested_g_mm: float, given_angle_deg: float,
-                       target_angle_deg: float, opposite: str, where: str = "", unb=None) -> str:
-    """Where a correction goes, in words, saying so when the method works opposite to how the correction was
-    given (holes remove at the heavy spot; plates and washers add opposite it).
-
-    ``where`` names the place after the word "at" when the correction is carried out as given (e.g.
-    ``"the heavy spot, "``); it must not repeat "at".
-
-    >>> describe_placement("remove", "add", 2400.0, 131.0, 311.0, "remove it at the heavy spot,")
-    'correction given as add 2400 g·mm at 131°: remove it at the heavy spot, 311° (= 131° + 180°)'
-    >>> describe_placement("add", "add", 2400.0, 131.0, 131.0, "weld the plate opposite, at")
-    'add 2400 g·mm at 131°'
-    >>> describe_placement("remove", "remove", 2400.0, 131.0, 131.0, "remove it at the heavy spot,", "the heavy spot, ")
-    'remove 2400 g·mm at the heavy spot, 131°'
-    """
-    unb = unb or (lambda x: f"{_fmt(x)} g·mm")
-    if given_action != method_action:
-        return (f"correction given as {given_action} {unb(requested_g_mm)} at {given_angle_deg:g}°: "
-                f"{opposite} {target_angle_deg:g}° (= {given_angle_deg:g}° + 180°)")
-    return f"{method_action} {unb(requested_g_mm)} at {where}{target_angle_deg:g}°"
-
-
-def _norm(a: float) -> float:
-    a = math.fmod(a, 360.0)
-    a = a + 360.0 if a < 0 else a
-    a = 0.0 if a >= 360.0 - 1e-12 else a
-    return round(a, 9) + 0.0
-
-
 def _depth_for(orientation: str, U1: float, d: float, R: float, rho: float, angle: float,
                top: float) -> float | None:
     """Exact shoulder depth L for one hole removing U1, or None when out of [minimum, top]."""
@@ -542,7 +440,7 @@ def _design(orientation, U, d, R, rho, angle, limits, wall, ratio, fixed, remove
             L = _depth_for(orientation, u, d, R, rho, angle, top)
             if L is None:
                 return None
-            depths.append((ang, _offset(ang, remove_angle), L))
+            depths.append((ang, offset_angle(ang, remove_angle), L))
         return depths, None
     pitch = _pitch_deg(d, R, limits)
     for n in range(1, limits.max_holes + 1):
@@ -558,7 +456,7 @@ def _design(orientation, U, d, R, rho, angle, limits, wall, ratio, fixed, remove
         L = _depth_for(orientation, U / factor, d, R, rho, angle, top)
         if L is not None:
             offs = [(k - (n - 1) / 2.0) * (pitch or 0.0) for k in range(n)]
-            return [(_norm(remove_angle + o), o, L) for o in offs], (pitch if n > 1 else None)
+            return [(norm_angle(remove_angle + o), o, L) for o in offs], (pitch if n > 1 else None)
     return None
 
 
@@ -571,29 +469,22 @@ def _least(orientation: str, d: float, R: float, rho: float, angle: float) -> fl
     return rho * _radial_moment(R, d / 2, _radial_min_depth(R, d / 2), h)
 
 
-def _offset(angle: float, centre: float) -> float:
-    return (angle - centre + 180.0) % 360.0 - 180.0
-
-
 def _split_fixed(U: float, theta: float, positions: tuple[float, ...]) -> list[tuple[float, float]]:
     """Split U at theta onto the two neighbouring fixed positions (law of sines; docs/methods.md §2, D)."""
-    pos = sorted(set(_norm(p) for p in positions))
+    pos = sorted(set(norm_angle(p) for p in positions))
     for p in pos:
-        if abs(_offset(p, theta)) < 1e-9:
+        if abs(offset_angle(p, theta)) < 1e-9:
             return [(p, U)]
     if len(pos) < 2:
         raise Infeasible(f"fixed positions: one position ({pos[0]:g}°) cannot take a correction at "
                          f"{theta:g}°; give two or more positions around it")
-    below = max(pos, key=lambda p: -((theta - p) % 360.0))
-    above = min(pos, key=lambda p: (p - theta) % 360.0)
+    below, above = neighbours(theta, pos)
     span = (above - below) % 360.0
     if span >= 180.0:
         raise Infeasible(f"fixed positions: the neighbours of {theta:g}° ({below:g}° and {above:g}°) are "
                          f"{span:g}° apart; a split needs them less than 180° apart")
-    a = math.radians((theta - below) % 360.0)
-    b = math.radians((above - theta) % 360.0)
-    s = math.sin(math.radians(span))
-    return [(below, U * math.sin(b) / s), (above, U * math.sin(a) / s)]
+    u_below, u_above = sine_split(U, theta, below, above)
+    return [(below, u_below), (above, u_above)]
 
 
 def drill_correction(correction, *, radius, orientation: str = "axial", angle_deg=0.0, action: str = "remove",
@@ -635,7 +526,7 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
     rho = dens.g_mm3
     angle = _angle(point_angle_deg)
     given = parse_angle(angle_deg, "angle")
-    remove_angle = _norm(given + 180.0) if action == "add" else given
+    remove_angle = norm_angle(given + 180.0) if action == "add" else given
     wall_mm = None if wall is None else magnitude(wall, "length", "mm", "wall", positive=True)
     fixed = None
     if fixed_positions:
@@ -731,13 +622,13 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
         warnings.append(f"the share for the other fixed position is below half of what one {d:g} mm hole's point "
                         f"removes; drilled at {holes[0].angle_deg:g}° only (see the achieved angle)")
     if fixed and len(holes) == 2:
-        gap = abs(_offset(holes[0].angle_deg, holes[1].angle_deg))
+        gap = abs(offset_angle(holes[0].angle_deg, holes[1].angle_deg))
         chord = 2 * R * math.sin(math.radians(gap) / 2)
         if chord < limits.spacing_ratio * d:
             warnings.append(f"fixed positions {holes[0].angle_deg:g}° and {holes[1].angle_deg:g}° are "
                             f"{chord:.1f} mm apart, under {limits.spacing_ratio:g}·d [CP]")
     achieved = abs(total)
-    ach_angle = _norm(math.degrees(math.atan2(total.imag, total.real))) if achieved > 0 else remove_angle
+    ach_angle = norm_angle(math.degrees(math.atan2(total.imag, total.real))) if achieved > 0 else remove_angle
     want = U * complex(math.cos(math.radians(remove_angle)), math.sin(math.radians(remove_angle)))
     return DrillResult(orientation, R, drill.size, d, angle, tuple(holes), U, remove_angle, action, given,
                        achieved, ach_angle, abs(total - want), dens.kg_m3,
@@ -791,7 +682,6 @@ def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed, rem
     big = candidates[-1].diameter_mm
     small = candidates[0].diameter_mm
     top_big = _top(big, angle, limits, wall, limits.max_depth_ratio)
-    reason = ""
     if top_big < 0:
         return Infeasible(f"no room for a {big:g} mm hole: the wall and depth limits leave no depth for its point; "
                           "give a thicker {wall}, a flat-bottom tool ({point_angle_deg} 180) or another method "

@@ -21,7 +21,7 @@ from dataclasses import dataclass, asdict
 
 from toolkit.errors import BadInput, Infeasible
 from toolkit.fabricate import stock as _stock
-from toolkit.fabricate.drilling import correction_g_mm, describe_placement, solve_bracketed, _norm
+from toolkit.fabricate.shared import correction_g_mm, describe_placement, norm_angle, solve_bracketed
 from toolkit.fabricate.materials import preheat_guidance, require_weldable, resolve_density
 from toolkit.units import format_number as _fmt, magnitude
 from toolkit.vectors import parse_angle
@@ -252,7 +252,7 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     require_weldable(dens)
     rho = dens.g_mm3
     given = parse_angle(angle_deg, "angle")
-    add_angle = _norm(given + 180.0) if action == "remove" else given
+    add_angle = norm_angle(given + 180.0) if action == "remove" else given
     if convexity is None:
         conv, conv_src = DEFAULT_CONVEXITY, "default 20 % [M: 10–30 %]"
     else:
@@ -388,7 +388,7 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     m, rbar = _plate_kernel(shape, surface, R, t, w, b, rho)
     mw, uw = _weld_kernel(shape, surface, R, w, b, z, conv, weld_run, rho) if include_weld else (0.0, 0.0)
     one = m * rbar + uw
-    angles = (add_angle,) if seats == 1 else (_norm(add_angle - offset), _norm(add_angle + offset))
+    angles = (add_angle,) if seats == 1 else (norm_angle(add_angle - offset), norm_angle(add_angle + offset))
     achieved = one if seats == 1 else 2 * one * math.cos(math.radians(offset))
     if seats == 2:
         warnings.append(f"the plate does not fit one seat: split onto two seats at ±{offset:g}° "

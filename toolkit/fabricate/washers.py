@@ -16,7 +16,7 @@ from dataclasses import dataclass, asdict
 
 from toolkit.errors import BadInput, Infeasible
 from toolkit.fabricate import stock as _stock
-from toolkit.fabricate.drilling import correction_g_mm, describe_placement, _norm
+from toolkit.fabricate.shared import correction_g_mm, describe_placement, norm_angle
 from toolkit.fabricate.materials import resolve_density
 from toolkit.units import format_number as _fmt, magnitude
 from toolkit.vectors import parse_angle
@@ -150,7 +150,7 @@ def washer_stack(correction, *, radius, orientation: str = "axial", surface: str
         dens_src = dens.source
     rho = dens.g_mm3
     given = parse_angle(angle_deg, "angle")
-    add_angle = _norm(given + 180.0) if action == "remove" else given
+    add_angle = norm_angle(given + 180.0) if action == "remove" else given
     allow = None if allowance is None else float(magnitude(allowance, "unbalance", "g*mm", "allowance",
                                                              nonnegative=True))
     all_w = _stock.washers(table)
