@@ -148,8 +148,8 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
     per plane, so residuals within T in both planes keep both parts within their tolerances [D].
 
     Parameters: grade, mass [mass], speed [1/time] as in :func:`permissible_unbalance`; bearing_span,
-    com_from_a : Quantity [length]; planes : mapping or ``"NAME=POSITION"`` strings; journal_loads : mapping
-    ``{"A": mass, "B": mass}`` or ``"A=206 kg"`` strings; criteria : names from :data:`CRITERIA`;
+    com_from_a : Quantity [length]; planes : mapping name -> position, or (name, position) pairs;
+    journal_loads : mapping ``{"A": mass, "B": mass}`` or (name, mass) pairs; criteria : names from :data:`CRITERIA`;
     min_share : lever bound (default 0.3 [M]); residuals, error_allowance, check_stage : see
     :func:`check_residuals`.
 
@@ -161,122 +161,19 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
     m = quantity(mass, "mass", "mass", positive=True)
     n = float(speed_rpm(speed, "speed"))
     low = check_min_share(min_share)
-    names = []
-    if isinstance(criteria, str):
-        criteria = (criteria,)
-    for c in criteria:
-        key = str(c).strip().lower()
-        if key not in CRITERIA:
-            raise BadInput.about("criteria", f"{c!r} is not known; use {', '.join(CRITERIA)}")
-        if key not in names:
-            names.append(key)
-    if not names:
-        raise BadInput.about("criteria", f"none given; use {', '.join(CRITERIA)}")
+    names = _criterion_names(criteria)
     u_per = permissible_unbalance(g, m, Q_(n, "rpm"))
     e_per = specific_unbalance(g, Q_(n, "rpm"))
-    u = u_per.m_as(G_MM)
     warnings: list[str] = []
+    span, com = _geometry(bearing_span, com_from_a)
+    loads = _journal_loads(journal_loads, m, warnings)
+    plane_pairs, positions = _positions(planes, span)
 
-    span = None if bearing_span is None else quantity(bearing_span, "length", "bearing_span", positive=True)
-    com = None if com_from_a is None else quantity(com_from_a, "length", "com_from_a")
-    if (span is None) != (com is None):
-        raise BadInput("{bearing_span} and {com_from_a} go together: give both for the lever rule, or neither",
-                       mentions=("bearing_span", "com_from_a"))
-    loads = {}
-    for name, value in named_pairs(journal_loads, "journal_loads"):
-        if name.upper() not in ("A", "B"):
-            raise BadInput.about("journal_loads", f"bearing {name!r} is not known; use A and B")
-        loads[name.upper()] = journal_lb(value, f"journal_loads {name}")
-    if len(loads) == 1:
-        raise BadInput.about("journal_loads", "give both bearings, A and B")
-    m_lb = m.m_as("lb")
-    if loads and abs(loads["A"] + loads["B"] - m_lb) > 0.05 * m_lb:
-        warnings.append(f"the journal loads add up to {Q_(loads['A'] + loads['B'], 'lb').m_as('kg'):.4g} kg, "
-                        f"not the rotor mass {m.m_as('kg'):.4g} kg: check them")
-
-    plane_pairs = named_pairs(planes, "planes")
-    positions = []
-    for name, value in plane_pairs:
-        if span is None:
-            raise BadInput.about("planes", "correction-plane positions need {bearing_span} and {com_from_a}",
-                                 mentions=("bearing_span", "com_from_a"))
-        z = quantity(value, "length", f"planes {name}")
-        check_axial(z.m_as("mm"), span.m_as("mm"), f"planes {name}")
-        positions.append(z)
-    if len(positions) > 2:
-        raise BadInput.about("planes", f"{len(positions)} correction planes given; a rigid rotor takes one or two")
-
-    # bearing-plane allowances [g*mm] of every criterion
-    bearings = None
-    if span is not None:
-        bearings = allocate_to_bearings(u_per, span, com, min_share=low)
-        warnings.extend(bearings.warnings)
-        share_a = bearings.share_a
-        iso_method = bearings.method
-    elif loads:
-        raw = loads["A"] / (loads["A"] + loads["B"])
-        share_a = float(np.clip(raw, low, 1 - low))
-        iso_method = (f"lever rule from the journal loads (W_A/W = L_B/L by statics [D]), {bounds_text(low)}")
-        if abs(raw - share_a) > 1e-12:
-            warnings.append(f"the journal loads gave shares {raw:.2f}/{1 - raw:.2f}; the bound was applied")
-    else:
-        share_a = None
-    if loads:
-        w_a, w_b, w_text = loads["A"], loads["B"], "from the journal loads given"
-    elif span is not None:
-        la = com.m_as("mm") / span.m_as("mm")
-        w_a, w_b, w_text = m_lb * (1 - la), m_lb * la, "journal loads from the rotor mass and geometry by statics [D]"
-        if not 0 <= la <= 1:
-            w_a = w_b = None
-    else:
-        w_a = w_b = w_text = None
-
-    at_bearings: dict[str, tuple[float, float] | None] = {}
-    methods, notes = {}, {}
-    for key in names:
-        note = []
-        if key == "iso":
-            at_bearings[key] = None if share_a is None else (u * share_a, u * (1 - share_a))
-            methods[key] = iso_method if share_a is not None else "U_per = 1000*G*m/Omega (whole rotor)"
-        elif key == "api":
-            if w_a is None:
-                raise BadInput.about("criteria", "api needs the journal loads ({journal_loads}, A and B) or an "
-                                     "inboard geometry ({bearing_span}, {com_from_a})",
-                                     mentions=("journal_loads", "bearing_span", "com_from_a"))
-            at_bearings[key] = (api_allowance(Q_(w_a, "lb"), Q_(n, "rpm")).m_as(G_MM),
-                                api_allowance(Q_(w_b, "lb"), Q_(n, "rpm")).m_as(G_MM))
-            methods[key] = f"U_max = 4*W/N oz*in per plane, W the journal static load ({w_text})"
-        else:
-            per_plane, rng = mil_std_167_allowance(m, Q_(n, "rpm"))
-            at_bearings[key] = (per_plane.m_as(G_MM),) * 2
-            methods[key] = f"MIL-STD-167-1 per plane, W the rotor weight: {rng}"
-            note.append("W taken as the whole rotor weight in each plane, as our source reproduces it [H]; "
-                        "check the standard's text for two-plane work")
-        notes[key] = tuple(note)
-
-    plane_names: list[str] = []
-    per_criterion: dict[str, list[float]] = {}
-    plane_method_suffix = ""
-    if positions:
-        plane_names = [n_ for n_, _v in plane_pairs]
-        z = [p.m_as("mm") for p in positions]
-        for key, ab in at_bearings.items():
-            if ab is None:
-                raise BadInput.about("planes", "correction planes need {bearing_span} and {com_from_a}",
-                                     mentions=("bearing_span", "com_from_a"))
-            per_criterion[key] = transfer_mm(ab[0], ab[1], span.m_as("mm"), z)
-        plane_method_suffix = f"; transferred to the correction planes by {STATICS}"
-        d = span.m_as("mm")
-        narrow = len(z) == 2 and abs(z[0] - z[1]) < d / 3
-        overhung = len(z) == 2 and (max(z) < 0 or min(z) > d)
-        if (narrow or overhung) and static_share is None:
-            why = "closer than a third of the bearing span" if narrow else "both outboard of one bearing"
-            warnings.append(Worded(f"the correction planes are {why}: state the tolerance as static and couple "
-                                   "parts ({static_share}), Bloch & Geitner ch. 6", ("static_share",)))
-    elif (span is not None or loads) and all(ab is not None for ab in at_bearings.values()):
-        plane_names = ["A", "B"]
-        per_criterion = {k: list(ab) for k, ab in at_bearings.items()}
-
+    bearings, share_a, iso_method = _iso_shares(u_per, span, com, loads, low, warnings)
+    at_bearings, methods, notes = _at_bearings(names, u_per.m_as(G_MM), share_a, iso_method,
+                                               _journal_weights(loads, m, span, com), m, n)
+    plane_names, per_criterion, suffix = _per_plane(at_bearings, plane_pairs, positions, span, loads,
+                                                    static_share, warnings)
     one_plane = None
     if len(positions) == 1 and at_bearings.get("iso") is not None:
         ab = at_bearings["iso"]
@@ -288,31 +185,9 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
     elif one_plane_rule not in ONE_PLANE_RULES:
         raise BadInput(f"one_plane_rule: {one_plane_rule!r} is not known; use {' or '.join(ONE_PLANE_RULES)}")
 
-    results = []
-    for key in names:
-        label, source = CRITERIA[key]
-        values = per_criterion.get(key)
-        if key == "iso" and one_plane is not None:
-            results.append(CriterionResult(key, label, f"{one_plane.method} ({one_plane.rule} rule)",
-                                           one_plane.source if one_plane.rule == "whole"
-                                           else f"{ISO_SOURCE}; transfer {STATICS}",
-                                           ((plane_names[0], one_plane.used),), notes[key]))
-            continue
-        plane_list = tuple((p, Q_(v, G_MM)) for p, v in zip(plane_names, values)) if values else ()
-        if not plane_list:  # no planes known: the whole-rotor ISO figure, the per-plane figure of others
-            plane_list = (("rotor", u_per),) if key == "iso" else (("each plane", Q_(at_bearings[key][0], G_MM)),)
-        results.append(CriterionResult(key, label, methods[key] + (plane_method_suffix if values else ""),
-                                       source, plane_list, notes[key]))
-
-    governing = []
-    for i, pname in enumerate(plane_names):
-        options = [(per_criterion[k][i], k) for k in names]
-        value, key = min(options)
-        res = next(r for r in results if r.name == key)
-        governing.append(PlaneAllowance(pname, Q_(value, G_MM), key, res.method, res.source,
-                                        positions[i] if positions else None,
-                                        tuple((k, Q_(per_criterion[k][i], G_MM)) for k in names)))
-
+    results = _criterion_results(names, u_per, at_bearings, methods, notes, plane_names, per_criterion, suffix,
+                                 one_plane)
+    governing = _governing(names, results, plane_names, per_criterion, positions)
     sc = None
     if static_share is not None:
         if len(positions) != 2:
@@ -336,6 +211,184 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
                                  error_allowance=error_allowance, stage=check_stage)
         report = _replace(report, checks=checks)
     return report
+
+
+# -- the steps of tolerance_report, in order ------------------------------------------------------------
+
+def _criterion_names(criteria) -> list[str]:
+    """The criteria asked for, known names only, each once, in the order given."""
+    names = []
+    if isinstance(criteria, str):
+        criteria = (criteria,)
+    for c in criteria:
+        key = str(c).strip().lower()
+        if key not in CRITERIA:
+            raise BadInput.about("criteria", f"{c!r} is not known; use {', '.join(CRITERIA)}")
+        if key not in names:
+            names.append(key)
+    if not names:
+        raise BadInput.about("criteria", f"none given; use {', '.join(CRITERIA)}")
+    return names
+
+
+def _geometry(bearing_span, com_from_a):
+    """(span, centre of mass) as quantities, both or neither."""
+    span = None if bearing_span is None else quantity(bearing_span, "length", "bearing_span", positive=True)
+    com = None if com_from_a is None else quantity(com_from_a, "length", "com_from_a")
+    if (span is None) != (com is None):
+        raise BadInput("{bearing_span} and {com_from_a} go together: give both for the lever rule, or neither",
+                       mentions=("bearing_span", "com_from_a"))
+    return span, com
+
+
+def _journal_loads(journal_loads, m, warnings: list) -> dict[str, float]:
+    """Journal loads A and B [lb], both or none; a warning when they do not add up to the rotor mass."""
+    loads = {}
+    for name, value in named_pairs(journal_loads, "journal_loads"):
+        if name.upper() not in ("A", "B"):
+            raise BadInput.about("journal_loads", f"bearing {name!r} is not known; use A and B")
+        loads[name.upper()] = journal_lb(value, f"journal_loads {name}")
+    if len(loads) == 1:
+        raise BadInput.about("journal_loads", "give both bearings, A and B")
+    m_lb = m.m_as("lb")
+    if loads and abs(loads["A"] + loads["B"] - m_lb) > 0.05 * m_lb:
+        warnings.append(f"the journal loads add up to {Q_(loads['A'] + loads['B'], 'lb').m_as('kg'):.4g} kg, "
+                        f"not the rotor mass {m.m_as('kg'):.4g} kg: check them")
+    return loads
+
+
+def _positions(planes, span):
+    """The correction planes as (name, text) pairs and their positions (quantities), one or two."""
+    plane_pairs = named_pairs(planes, "planes")
+    positions = []
+    for name, value in plane_pairs:
+        if span is None:
+            raise BadInput.about("planes", "correction-plane positions need {bearing_span} and {com_from_a}",
+                                 mentions=("bearing_span", "com_from_a"))
+        z = quantity(value, "length", f"planes {name}")
+        check_axial(z.m_as("mm"), span.m_as("mm"), f"planes {name}")
+        positions.append(z)
+    if len(positions) > 2:
+        raise BadInput.about("planes", f"{len(positions)} correction planes given; a rigid rotor takes one or two")
+    return plane_pairs, positions
+
+
+def _iso_shares(u_per, span, com, loads, low: float, warnings: list):
+    """(bearing allocation or None, bearing A's share or None, method): ISO's lever rule from the geometry
+    or from the journal loads' ratio."""
+    if span is not None:
+        bearings = allocate_to_bearings(u_per, span, com, min_share=low)
+        warnings.extend(bearings.warnings)
+        return bearings, bearings.share_a, bearings.method
+    if loads:
+        raw = loads["A"] / (loads["A"] + loads["B"])
+        share_a = float(np.clip(raw, low, 1 - low))
+        if abs(raw - share_a) > 1e-12:
+            warnings.append(f"the journal loads gave shares {raw:.2f}/{1 - raw:.2f}; the bound was applied")
+        return None, share_a, f"lever rule from the journal loads (W_A/W = L_B/L by statics [D]), {bounds_text(low)}"
+    return None, None, None
+
+
+def _journal_weights(loads, m, span, com):
+    """(W_A, W_B [lb], where they come from): the loads given, else statics from the geometry (None when the
+    centre of mass is outside the bearings), else None."""
+    if loads:
+        return loads["A"], loads["B"], "from the journal loads given"
+    if span is not None:
+        m_lb = m.m_as("lb")
+        la = com.m_as("mm") / span.m_as("mm")
+        if not 0 <= la <= 1:
+            return None, None, "journal loads from the rotor mass and geometry by statics [D]"
+        return m_lb * (1 - la), m_lb * la, "journal loads from the rotor mass and geometry by statics [D]"
+    return None, None, None
+
+
+def _at_bearings(names, u: float, share_a, iso_method, weights, m, n: float):
+    """Every criterion's allowances [g*mm] at bearings A and B (None for ISO without the geometry or
+    loads), with its method and notes."""
+    w_a, w_b, w_text = weights
+    at_bearings: dict[str, tuple[float, float] | None] = {}
+    methods, notes = {}, {}
+    for key in names:
+        note = []
+        if key == "iso":
+            at_bearings[key] = None if share_a is None else (u * share_a, u * (1 - share_a))
+            methods[key] = iso_method if share_a is not None else "U_per = 1000*G*m/Omega (whole rotor)"
+        elif key == "api":
+            if w_a is None:
+                raise BadInput.about("criteria", "api needs the journal loads ({journal_loads}, A and B) or an "
+                                     "inboard geometry ({bearing_span}, {com_from_a})",
+                                     mentions=("journal_loads", "bearing_span", "com_from_a"))
+            at_bearings[key] = (api_allowance(Q_(w_a, "lb"), Q_(n, "rpm")).m_as(G_MM),
+                                api_allowance(Q_(w_b, "lb"), Q_(n, "rpm")).m_as(G_MM))
+            methods[key] = f"U_max = 4*W/N oz*in per plane, W the journal static load ({w_text})"
+        else:
+            per_plane, rng = mil_std_167_allowance(m, Q_(n, "rpm"))
+            at_bearings[key] = (per_plane.m_as(G_MM),) * 2
+            methods[key] = f"MIL-STD-167-1 per plane, W the rotor weight: {rng}"
+            note.append("W taken as the whole rotor weight in each plane, as our source reproduces it [H]; "
+                        "check the standard's text for two-plane work")
+        notes[key] = tuple(note)
+    return at_bearings, methods, notes
+
+
+def _per_plane(at_bearings, plane_pairs, positions, span, loads, static_share, warnings: list):
+    """(plane names, criterion -> allowance per plane [g*mm], method suffix): the bearing-plane allowances
+    transferred to the correction planes by statics, or the bearing planes themselves."""
+    if positions:
+        z = [p.m_as("mm") for p in positions]
+        per_criterion = {}
+        for key, ab in at_bearings.items():
+            if ab is None:
+                raise BadInput.about("planes", "correction planes need {bearing_span} and {com_from_a}",
+                                     mentions=("bearing_span", "com_from_a"))
+            per_criterion[key] = transfer_mm(ab[0], ab[1], span.m_as("mm"), z)
+        d = span.m_as("mm")
+        narrow = len(z) == 2 and abs(z[0] - z[1]) < d / 3
+        overhung = len(z) == 2 and (max(z) < 0 or min(z) > d)
+        if (narrow or overhung) and static_share is None:
+            why = "closer than a third of the bearing span" if narrow else "both outboard of one bearing"
+            warnings.append(Worded(f"the correction planes are {why}: state the tolerance as static and couple "
+                                   "parts ({static_share}), Bloch & Geitner ch. 6", ("static_share",)))
+        return ([n_ for n_, _v in plane_pairs], per_criterion,
+                f"; transferred to the correction planes by {STATICS}")
+    if (span is not None or loads) and all(ab is not None for ab in at_bearings.values()):
+        return ["A", "B"], {k: list(ab) for k, ab in at_bearings.items()}, ""
+    return [], {}, ""
+
+
+def _criterion_results(names, u_per, at_bearings, methods, notes, plane_names, per_criterion, suffix,
+                       one_plane) -> list[CriterionResult]:
+    """One :class:`CriterionResult` per criterion; without planes, the whole-rotor ISO figure and the
+    per-plane figure of the others."""
+    results = []
+    for key in names:
+        label, source = CRITERIA[key]
+        values = per_criterion.get(key)
+        if key == "iso" and one_plane is not None:
+            results.append(CriterionResult(key, label, f"{one_plane.method} ({one_plane.rule} rule)",
+                                           one_plane.source if one_plane.rule == "whole"
+                                           else f"{ISO_SOURCE}; transfer {STATICS}",
+                                           ((plane_names[0], one_plane.used),), notes[key]))
+            continue
+        plane_list = tuple((p, Q_(v, G_MM)) for p, v in zip(plane_names, values)) if values else ()
+        if not plane_list:  # no planes known: the whole-rotor ISO figure, the per-plane figure of others
+            plane_list = (("rotor", u_per),) if key == "iso" else (("each plane", Q_(at_bearings[key][0], G_MM)),)
+        results.append(CriterionResult(key, label, methods[key] + (suffix if values else ""),
+                                       source, plane_list, notes[key]))
+    return results
+
+
+def _governing(names, results, plane_names, per_criterion, positions) -> list[PlaneAllowance]:
+    """Each plane's strictest allowance, with the criterion that sets it."""
+    governing = []
+    for i, pname in enumerate(plane_names):
+        value, key = min((per_criterion[k][i], k) for k in names)
+        res = next(r for r in results if r.name == key)
+        governing.append(PlaneAllowance(pname, Q_(value, G_MM), key, res.method, res.source,
+                                        positions[i] if positions else None,
+                                        tuple((k, Q_(per_criterion[k][i], G_MM)) for k in names)))
+    return governing
 
 
 def _governed_by_static_couple(governing, sc: StaticCouple, z: list[float], zs: float) -> list:
