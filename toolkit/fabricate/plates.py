@@ -284,69 +284,17 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
                                                     "degrees")
         offset = float(seat_offset_deg)
 
-    def design(t_opt, seats):
-        t = t_opt.thickness_mm
-        if shape == "rolled" and surface == "inner" and t >= R:
-            return None
-        z = fillet_mm if fillet_mm is not None else min(min_fillet_mm(t), t)
-        U1 = U if seats == 1 else U / (2 * math.cos(math.radians(offset)))
-        b, total = _solve_length(shape, surface, R, t, w, U1, rho,
-                                 z if include_weld else 0.0, conv, weld_run)
-        if b is None:
-            return None
-        if b < max(MIN_LENGTH_MM, 2 * z):
-            too_small.append((t_opt, z, total(max(MIN_LENGTH_MM, 2 * z))))
-            return None
-        return t_opt, z, b, total, U1
-
-    chosen = None
-    too_small: list = []
-    limit = aspect * w if thickness is None else math.inf
-    for seats in (1, 2):
-        if seats == 2 and offset is None:
-            break
-        for t_opt in options:
-            got = design(t_opt, seats)
-            if got is None:
-                continue
-            b = got[2]
-            if (room is None or b <= room) and b <= limit:
-                chosen = (seats, got)
-                break
-        if chosen is None and thickness is None:  # no thickness within the aspect: take the first that fits
-            for t_opt in options:
-                got = design(t_opt, seats)
-                if got is not None and (room is None or got[2] <= room):
-                    chosen = (seats, got)
-                    break
-        if chosen:
-            break
+    seat = _Seat(shape, surface, R, w, rho, conv, weld_run, fillet_mm, include_weld)
+    chosen, too_small = _first_fit(seat, options, U, offset, room, aspect * w if thickness is None else math.inf,
+                                   thickness is None)
     allow = None if allowance is None else float(magnitude(allowance, "unbalance", "g*mm", "allowance",
                                                              nonnegative=True))
     smallest_taken = False
     if chosen is None and too_small:
-        t_opt, z, least = min(too_small, key=lambda x: x[2])
-        b_min = max(MIN_LENGTH_MM, 2 * z)
-        b_min = math.ceil(b_min / st - 1e-9) * st
-        m0, r0 = _plate_kernel(shape, surface, R, t_opt.thickness_mm, w, b_min, rho)
-        u0 = m0 * r0 + (_weld_kernel(shape, surface, R, w, b_min, z, conv, weld_run, rho)[1] if include_weld else 0.0)
-        if allow is not None and abs(u0 - U) <= allow + 1e-9 and (room is None or b_min <= room + 1e-9):
-            chosen = (1, (t_opt, z, b_min, None, U))
-            smallest_taken = True
-            warnings.append(f"{_fmt(U)} g·mm is less than the smallest {t_opt.label} plate {w:g} mm wide adds "
-                            f"({b_min:g} mm long with its weld: {_fmt(u0)} g·mm); it leaves {_fmt(abs(u0 - U))} "
-                            f"g·mm, within the allowance of {_fmt(allow)} g·mm: taken")
-    if chosen is None and too_small:
-        t_opt, z, least = min(too_small, key=lambda x: x[2])
-        values = {"U": (U, "g*mm"), "least": (least, "g*mm"), "over": (least - U, "g*mm"),
-                  "length": (max(MIN_LENGTH_MM, 2 * z), "mm"), "fillet_leg": (z, "mm"), "w": (w, "mm")}
-        if allow is not None:
-            values["allow"] = (allow, "g*mm")
-        raise Infeasible(f"{{U}} is less than the smallest {t_opt.label} plate {{w}} wide adds with its weld "
-                         "({length} long, {fillet_leg} fillets: {least})"
-                         + ("" if allow is None else ", which leaves {over}, more than the allowance of {allow}")
-                         + "; nearest: washers, a drilled hole at the heavy spot, or a narrower plate ({width})",
-                         mentions=("width",), quantities=values)
+        chosen = _smallest_within(seat, too_small, U, allow, room, st, warnings)
+        smallest_taken = chosen is not None
+        if chosen is None:
+            raise _too_small(too_small, U, w, allow)
     if chosen is None:
         reason = _nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, weld_run)
         most = None if allow is None else _most_plate(R, w, options, room, shape, surface, rho, fillet_mm, conv,
@@ -373,13 +321,112 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
                     material=dens.material.name if dens.material else None,
                     warnings=tuple(warnings) + got.warnings + (note,))
         raise reason
-    seats, (t_opt, z, b_exact, total, U1) = chosen
-    t = t_opt.thickness_mm
+    seats, (t_opt, z, b_exact, _total, _U1) = chosen
     b = float(max(st, round(round(b_exact / st) * st, 9)))
     if smallest_taken:
         b = float(b_exact)  # already the shortest plate, on the step
     elif room is not None and b > room + 1e-9:
         b = round(b - st, 9)
+    return _plate_result(seat, seats, t_opt, z, b, offset, U, add_angle, action, given, st, dens, conv_src,
+                         warnings)
+
+
+@dataclass(frozen=True)
+class _Seat:
+    """What every plate on one seat shares: shape, surface, radius and width [mm], density [g/mm³], the
+    weld's convexity, run and fillet leg (None: the minimum for the thickness), and whether the weld counts."""
+
+    shape: str
+    surface: str
+    R: float
+    w: float
+    rho: float
+    conv: float
+    weld_run: str
+    fillet_mm: float | None
+    include_weld: bool
+
+    def fillet(self, t: float) -> float:
+        return self.fillet_mm if self.fillet_mm is not None else min(min_fillet_mm(t), t)
+
+    def adds(self, t: float, z: float, b: float) -> float:
+        """Unbalance [g·mm] of a plate t thick and b long with its weld (fillet leg z), if the weld counts."""
+        m, r = _plate_kernel(self.shape, self.surface, self.R, t, self.w, b, self.rho)
+        weld = _weld_kernel(self.shape, self.surface, self.R, self.w, b, z, self.conv, self.weld_run, self.rho)[1]
+        return m * r + (weld if self.include_weld else 0.0)
+
+
+def _first_fit(seat: _Seat, options, U: float, offset, room, limit: float, any_thickness: bool):
+    """The first stock thickness whose plate fits (on one seat, then on two at ± ``offset``), within the
+    room and, when the thickness is free, within ``limit`` (aspect × width), else the first that fits the
+    room: ``((seats, (thickness, fillet, length, total, U per seat)) or None, plates found too short)``."""
+    too_small: list = []
+
+    def design(t_opt, seats):
+        t = t_opt.thickness_mm
+        if seat.shape == "rolled" and seat.surface == "inner" and t >= seat.R:
+            return None
+        z = seat.fillet(t)
+        U1 = U if seats == 1 else U / (2 * math.cos(math.radians(offset)))
+        b, total = _solve_length(seat.shape, seat.surface, seat.R, t, seat.w, U1, seat.rho,
+                                 z if seat.include_weld else 0.0, seat.conv, seat.weld_run)
+        if b is None:
+            return None
+        if b < max(MIN_LENGTH_MM, 2 * z):
+            too_small.append((t_opt, z, total(max(MIN_LENGTH_MM, 2 * z))))
+            return None
+        return t_opt, z, b, total, U1
+
+    for seats in (1, 2):
+        if seats == 2 and offset is None:
+            break
+        for t_opt in options:
+            got = design(t_opt, seats)
+            if got is not None and (room is None or got[2] <= room) and got[2] <= limit:
+                return (seats, got), too_small
+        if any_thickness:  # no thickness within the aspect: take the first that fits
+            for t_opt in options:
+                got = design(t_opt, seats)
+                if got is not None and (room is None or got[2] <= room):
+                    return (seats, got), too_small
+    return None, too_small
+
+
+def _smallest_within(seat: _Seat, too_small, U: float, allow, room, st: float, warnings: list):
+    """The shortest plate (on the size step), when the request is smaller than it adds and its residual is
+    within the allowance (with a warning saying so); else None."""
+    t_opt, z, _least = min(too_small, key=lambda x: x[2])
+    b_min = math.ceil(max(MIN_LENGTH_MM, 2 * z) / st - 1e-9) * st
+    u0 = seat.adds(t_opt.thickness_mm, z, b_min)
+    if allow is None or abs(u0 - U) > allow + 1e-9 or (room is not None and b_min > room + 1e-9):
+        return None
+    warnings.append(f"{_fmt(U)} g·mm is less than the smallest {t_opt.label} plate {seat.w:g} mm wide adds "
+                    f"({b_min:g} mm long with its weld: {_fmt(u0)} g·mm); it leaves {_fmt(abs(u0 - U))} "
+                    f"g·mm, within the allowance of {_fmt(allow)} g·mm: taken")
+    return 1, (t_opt, z, b_min, None, U)
+
+
+def _too_small(too_small, U: float, w: float, allow) -> Infeasible:
+    """The refusal of a request smaller than the smallest plate adds, with the nearest alternatives."""
+    t_opt, z, least = min(too_small, key=lambda x: x[2])
+    values = {"U": (U, "g*mm"), "least": (least, "g*mm"), "over": (least - U, "g*mm"),
+              "length": (max(MIN_LENGTH_MM, 2 * z), "mm"), "fillet_leg": (z, "mm"), "w": (w, "mm")}
+    if allow is not None:
+        values["allow"] = (allow, "g*mm")
+    return Infeasible(f"{{U}} is less than the smallest {t_opt.label} plate {{w}} wide adds with its weld "
+                      "({length} long, {fillet_leg} fillets: {least})"
+                      + ("" if allow is None else ", which leaves {over}, more than the allowance of {allow}")
+                      + "; nearest: washers, a drilled hole at the heavy spot, or a narrower plate ({width})",
+                      mentions=("width",), quantities=values)
+
+
+def _plate_result(seat: _Seat, seats: int, t_opt, z: float, b: float, offset, U: float, add_angle: float,
+                  action: str, given: float, st: float, dens, conv_src: str, warnings: list) -> PlateResult:
+    """The chosen plate, b long on one or two seats, with what it adds and its warnings."""
+    shape, surface, R, w, rho, conv, weld_run = (seat.shape, seat.surface, seat.R, seat.w, seat.rho, seat.conv,
+                                                 seat.weld_run)
+    t = t_opt.thickness_mm
+    include_weld, fillet_mm = seat.include_weld, seat.fillet_mm
     if shape == "flat":
         gap = R - math.sqrt(max(R * R - (b / 2) ** 2, 0.0)) if surface == "outer" else 0.0
         if gap > 1.0:
