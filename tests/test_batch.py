@@ -124,7 +124,7 @@ def test_summary_text_cannot_become_a_formula(tmp_path):
 def test_overwrite_refusal(tmp_path):
     run_batch(EXAMPLES / "planner.csv", tmp_path)
     before = (tmp_path / "planner-summary.xlsx").read_bytes()
-    with pytest.raises(OutputError, match="planner-orders.pdf already exists; give --force"):
+    with pytest.raises(OutputError, match="planner-orders.pdf already exists; give force"):
         run_batch(EXAMPLES / "planner.csv", tmp_path)
     assert (tmp_path / "planner-summary.xlsx").read_bytes() == before
     assert run_batch(EXAMPLES / "planner.csv", tmp_path, force=True).done == 4

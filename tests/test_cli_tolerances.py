@@ -131,7 +131,7 @@ def test_verify(capsys):
     (["tolerance", *ROTOR, *GEOMETRY, "--plane", "I=40 m"], "more than 3 bearing spans"),
     (["tolerance", *ROTOR, "--plane", "I=40 mm"], "need --bearing-span"),
     (["tolerance", *ROTOR, "--criterion", "din"], "--criterion: 'din' is not known"),
-    (["tolerance", *ROTOR, "--criterion", "api"], "--criterion api: needs the journal loads"),
+    (["tolerance", *ROTOR, "--criterion", "api"], "--criterion: api needs the journal loads (--journal-load, A and B) or an inboard geometry (--bearing-span, --com-from-a)"),
     (["tolerance", *ROTOR, "--journal-load", "A206 kg"], "--journal-load: 'A206 kg' is malformed"),
     (["tolerance", *ROTOR, *GEOMETRY, "--static-share", "half"], "--static-share: 'half' is not a number"),
     (["tolerance", *ROTOR, *GEOMETRY, "--static-share", "0.5"], "--static-share: needs two correction planes"),

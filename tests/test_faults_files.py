@@ -315,7 +315,7 @@ def test_a_temporary_name_that_cannot_be_removed_does_not_fail_a_written_file(tm
 # == standard output in a legacy encoding ====================================================================
 
 def _bases() -> list[list[str]]:
-    module = _sibling("test_faults")
+    module = _sibling("fault_support")
     return [[command, *module.flatten(pairs)] for command, bases in sorted(module.BASES.items())
             for pairs in bases]
 

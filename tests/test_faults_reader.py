@@ -297,7 +297,7 @@ def test_cli_custom_grades_are_bounded_and_read_exactly(grade, words):
     (["drill", "--unbalance", "3000 g*mm", "--radius", "100 mm", "--axial", "--material", "steel",
       "--depth-step", "1e-320 mm"], ["--depth-step", "1e-06 mm"]),
     (["drill", "--unbalance", "3000 g*mm", "--radius", "100 mm", "--axial", "--material", "steel",
-      "--depth-step", "1 m"], ["depth_step_mm", "100"]),
+      "--depth-step", "1 m"], ["--depth-step", "100"]),
     (["plate", "--unbalance", "38 g@307", "--radius", "1e-320 mm", "--width", "40 mm", "--material", "steel"],
      ["--radius", "1e-06 mm"]),
     (["solve", "--bearing-mass", "200 kg", "--radius", "4.9e-324 mm", "--speed", "1480 rpm"], ["radius", "1e-06 mm"]),

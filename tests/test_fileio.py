@@ -18,7 +18,7 @@ def test_writes_and_refuses_to_overwrite(tmp_path):
     target = tmp_path / "sub" / "order.txt"
     write_atomic(target, "first")
     assert target.read_text() == "first"
-    with pytest.raises(OutputError, match=r"order\.txt already exists; give --force to overwrite it"):
+    with pytest.raises(OutputError, match=r"order\.txt already exists; give force to overwrite it"):
         write_atomic(target, "second")
     assert target.read_text() == "first"
     write_atomic(target, b"second", force=True)

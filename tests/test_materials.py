@@ -74,7 +74,7 @@ def test_aliases(alias, name):
 
 
 def test_unknown_material_lists_known_names():
-    with pytest.raises(BadInput, match=r"--material: 'kryptonite' is not in the materials table; known: carbon"):
+    with pytest.raises(BadInput, match=r"material: 'kryptonite' is not in the materials table; known: carbon"):
         find("kryptonite")
 
 
@@ -136,5 +136,5 @@ def test_preheat_guidance_bands():
     assert "normally no preheat" in preheat_guidance(0.34)
     assert "may be needed" in preheat_guidance(0.40)
     assert "post-weld heat treatment" in preheat_guidance(0.46)
-    with pytest.raises(BadInput, match="--ce"):
+    with pytest.raises(BadInput, match="ce: 7"):
         preheat_guidance(7)

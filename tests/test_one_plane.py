@@ -31,7 +31,7 @@ def statics_one_plane(u, span, com, z, low=0.3):
 def test_iso_rule_gives_the_whole_u_per():
     assert SHOP_CONSTANT * 2.5 * 38 / 2950 == pytest.approx(U_PER, abs=0.05)  # ISO 21940-11:2016, 6.3.3 (D: n)
     r = tolerance_report(GRADE, MASS, SPEED, bearing_span=f"{SPAN} mm", com_from_a=f"{COM} mm",
-                         planes=[f"I={PLANE} mm"])
+                         planes={"I": f"{PLANE} mm"})
     plane, = r.planes
     # ISO 21940-11:2016, 7.1 and 8.2 [H]: one correction plane takes the whole U_per
     assert plane.u_per.m_as("g*mm") == pytest.approx(U_PER, abs=0.05)
@@ -43,12 +43,12 @@ def test_statics_rule_is_an_option_and_stricter():
     expected = statics_one_plane(SHOP_CONSTANT * 2.5 * 38 / 2950, SPAN, COM, PLANE)  # derived here (D)
     assert expected == pytest.approx(274, abs=0.5)  # the figure a statics transfer gave this case (D)
     r = tolerance_report(GRADE, MASS, SPEED, bearing_span=f"{SPAN} mm", com_from_a=f"{COM} mm",
-                         planes=[f"I={PLANE} mm"], one_plane_rule="statics")
+                         planes={"I": f"{PLANE} mm"}, one_plane_rule="statics")
     assert r.planes[0].u_per.m_as("g*mm") == pytest.approx(expected, rel=1e-9)
     assert r.one_plane.rule == "statics" and r.one_plane.whole.m_as("g*mm") == pytest.approx(U_PER, abs=0.05)
     with pytest.raises(BadInput, match="one_plane_rule"):
         tolerance_report(GRADE, MASS, SPEED, bearing_span=f"{SPAN} mm", com_from_a=f"{COM} mm",
-                         planes=[f"I={PLANE} mm"], one_plane_rule="half")
+                         planes={"I": f"{PLANE} mm"}, one_plane_rule="half")
 
 
 @pytest.mark.parametrize("span,com,z", [(400, 200, 200), (900, 400, 380), (500, 650, 700), (300, -60, -90)])
@@ -227,7 +227,7 @@ def test_static_share_plane_allowance_keeps_both_bearing_planes_within(span, com
     assume(-3 * span <= z2 <= 4 * span)
     try:
         r = tolerance_report("G6.3", "100 kg", "3000 rpm", bearing_span=f"{span} mm", com_from_a=f"{com} mm",
-                             planes=[f"I={z1} mm", f"II={z2} mm"], static_share=share)
+                             planes={"I": f"{z1} mm", "II": f"{z2} mm"}, static_share=share)
     except Infeasible:
         return  # the share leaves no couple allowance: refused, nothing to check
     t = r.planes[0].u_per.m_as("g*mm")

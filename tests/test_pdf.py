@@ -203,7 +203,7 @@ def test_write_refuses_to_overwrite(tmp_path):
     path = tmp_path / "o.pdf"
     pdf.write_pdf(example_order(), path)
     before = path.read_bytes()
-    with pytest.raises(OutputError, match="already exists; give --force"):
+    with pytest.raises(OutputError, match="already exists; give force to overwrite it"):
         pdf.write_pdf(example_order("X"), path)
     assert path.read_bytes() == before
     pdf.write_pdf(example_order("X"), path, force=True)

@@ -54,5 +54,5 @@ def test_to_dict_and_bad_method():
     assert d["operations"][0]["angle_deg"] == 190 and d["operations"][0]["action"] == "add"
     with pytest.raises(BadInput, match="method: 'glue' is not allowed"):
         plan_correction("2400 g*mm", 10, "glue", radius="150 mm")
-    with pytest.raises(BadInput, match="--allowance"):
+    with pytest.raises(BadInput, match="allowance: 5 has no unit"):
         plan_correction("2400 g*mm", 10, "washers", radius="150 mm", allowance=5)

@@ -271,7 +271,7 @@ def test_grade_forms(text):
 
 
 @pytest.mark.parametrize("text, message", [
-    ("G7", r"not in the ISO 21940-11 series.*--custom-grade"),
+    ("G7", r"not in the ISO 21940-11 series.*custom grade \(custom_grade\)"),
     ("G", "not a balance quality grade"),
     ("6.3 kg", "not a balance quality grade"),
     ("G-6.3", "not a balance quality grade"),
@@ -322,13 +322,13 @@ def test_several_criteria_strictest_governs():
 
 
 def test_api_needs_loads_or_geometry():
-    with pytest.raises(BadInput, match="--criterion api: needs the journal loads"):
+    with pytest.raises(BadInput, match=r"criteria: api needs the journal loads \(journal_loads"):
         tolerance_report("G2.5", "100 kg", "3000 rpm", criteria=["api"])
 
 
 def test_journal_loads_give_planes_and_lever_ratio():
     r = tolerance_report("G2.5", "100 kg", "3000 rpm", criteria=["iso", "api"],
-                         journal_loads=["A=60 kg", "B=40 kg"])
+                         journal_loads=[("A", "60 kg"), ("B", "40 kg")])
     iso = dict(r.criteria[0].planes)
     u = r.u_per.m_as("g*mm")
     assert iso["A"].m_as("g*mm") == pytest.approx(0.6 * u)
@@ -344,7 +344,7 @@ def test_journal_load_sum_warning():
 
 def test_report_correction_planes_named_method():
     r = tolerance_report("G6.3", "412 kg", "1480 rpm", bearing_span="900 mm", com_from_a="400 mm",
-                         planes=["I=-120 mm", "II=1010 mm"])
+                         planes={"I": "-120 mm", "II": "1010 mm"})
     assert [p.name for p in r.planes] == ["I", "II"]
     assert all("statics" in p.method for p in r.planes)
     assert r.planes[0].position.m_as("mm") == -120
@@ -352,10 +352,10 @@ def test_report_correction_planes_named_method():
 
 def test_narrow_planes_warn_static_couple():
     r = tolerance_report("G6.3", "50 kg", "3000 rpm", bearing_span="600 mm", com_from_a="300 mm",
-                         planes=["I=250 mm", "II=350 mm"])
+                         planes={"I": "250 mm", "II": "350 mm"})
     assert any("static and couple" in w for w in r.warnings)
     r2 = tolerance_report("G6.3", "50 kg", "3000 rpm", bearing_span="600 mm", com_from_a="300 mm",
-                          planes=["I=250 mm", "II=350 mm"], static_share=0.5)
+                          planes={"I": "250 mm", "II": "350 mm"}, static_share=0.5)
     sc = r2.static_couple
     # derived here (D): S = 0.5 U_per; U_c = (d/b) min(U_A - S/2, U_B - S/2) = 6 * U_per/4
     u = r2.u_per.m_as("g*mm")
@@ -378,7 +378,7 @@ def test_residual_rules():
     assert "no error allowance" in plain[0].rule
     after = check_residuals(allow, {"A": "590 g*mm@10"}, error_allowance="20 g*mm")
     assert not after[0].passed and "allowance - dU" in after[0].rule and "[M]" in after[0].rule
-    later = check_residuals(allow, ["B=410 g*mm@200"], error_allowance="20 g*mm", stage="later-check")
+    later = check_residuals(allow, [("B", "410 g*mm@200")], error_allowance="20 g*mm", stage="later-check")
     assert later[0].passed and later[0].limit.m_as("g*mm") == pytest.approx(420)
     assert later[0].margin.m_as("g*mm") == pytest.approx(10)
 
@@ -393,7 +393,7 @@ def test_residual_errors():
 
 
 def test_report_whole_rotor_check():
-    r = tolerance_report("G6.3", "100 kg", "3000 rpm", residuals=["rotor=2100 g*mm@0"])
+    r = tolerance_report("G6.3", "100 kg", "3000 rpm", residuals={"rotor": "2100 g*mm@0"})
     assert r.passed is False and r.checks[0].allowance.m_as("g*mm") == pytest.approx(2005.35, rel=1e-5)
 
 
@@ -402,15 +402,16 @@ def test_report_whole_rotor_check():
     ({"mass": "-5 kg"}, "mass: -5 kg must be greater than zero"),
     ({"speed": "0 rpm"}, "speed: 0 rpm must be greater than zero"),
     ({"bearing_span": "900 mm"}, "go together"),
-    ({"planes": ["I=10 mm"]}, "need --bearing-span"),
-    ({"bearing_span": "900 mm", "com_from_a": "400 mm", "planes": ["I=10 m"]}, "more than 3 bearing spans"),
-    ({"bearing_span": "900 mm", "com_from_a": "400 mm", "planes": ["I=10 mm", "II=10 mm"]}, "both correction"),
-    ({"bearing_span": "900 mm", "com_from_a": "400 mm", "planes": ["I=1 mm", "II=2 mm", "III=3 mm"]},
+    ({"planes": {"I": "10 mm"}}, "planes: correction-plane positions need bearing_span and com_from_a"),
+    ({"bearing_span": "900 mm", "com_from_a": "400 mm", "planes": {"I": "10 m"}}, "more than 3 bearing spans"),
+    ({"bearing_span": "900 mm", "com_from_a": "400 mm", "planes": {"I": "10 mm", "II": "10 mm"}}, "both correction"),
+    ({"bearing_span": "900 mm", "com_from_a": "400 mm", "planes": {"I": "1 mm", "II": "2 mm", "III": "3 mm"}},
      "one or two"),
-    ({"planes": ["I:10 mm"]}, "malformed"),
+    ({"planes": ["I=10 mm"]}, r"planes: 'I=10 mm' is not a \(name, value\) pair"),
+    ({"planes": [("I", "10 mm"), ("I", "20 mm")]}, "planes: name 'I' given more than once"),
     ({"criteria": ["din"]}, "'din' is not known"),
-    ({"journal_loads": ["A=100 kg"]}, "give both bearings"),
-    ({"journal_loads": ["C=1 kg", "A=1 kg"]}, "bearing 'C' is not known"),
+    ({"journal_loads": {"A": "100 kg"}}, "journal_loads: give both bearings"),
+    ({"journal_loads": {"C": "1 kg", "A": "1 kg"}}, "journal_loads: bearing 'C' is not known"),
     ({"min_share": 0.6}, "from 0 to 0.5"),
 ])
 def test_report_errors(kwargs, message):

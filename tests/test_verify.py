@@ -92,13 +92,13 @@ def test_cautions_present():
 
 
 @pytest.mark.parametrize("test, readings, message", [
-    ("200", SIX, "--test: '200' has no unit"),
-    ("200 g", SIX, "--test: '200 g' is not a unbalance"),
+    ("200", SIX, "test_unbalance: '200' has no unit"),
+    ("200 g", SIX, "test_unbalance: '200 g' is not a unbalance"),
     ("-5 g*mm", SIX, "greater than zero"),
     ("200 g*mm", SIX[:2], "the fit needs the test mass at 3 or more different angles"),
     ("200 g*mm", ["1@0", "2@0", "3@360"], "at 1 different angle"),
-    ("200 g*mm", ["44.9"] + SIX[1:], "--reading 1: '44.9' is not a vector"),
-    ("200 g*mm", ["abc@0"] + SIX[1:], "--reading 1: amount 'abc' is not a number"),
+    ("200 g*mm", ["44.9"] + SIX[1:], "readings 1: '44.9' is not a vector"),
+    ("200 g*mm", ["abc@0"] + SIX[1:], "readings 1: amount 'abc' is not a number"),
     ("200 g*mm", ["-4@0"] + SIX[1:], "zero or more"),
     ("200 g*mm", ["0@0", "0@120", "0@240"], "every reading is zero"),
     ("200 g*mm", "44.9@0", "one reading per test-mass position"),

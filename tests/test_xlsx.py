@@ -141,7 +141,7 @@ def test_write_refuses_to_overwrite(tmp_path):
     path = tmp_path / "order.xlsx"
     xlsx.write_xlsx(example_order(), path)
     before = path.read_bytes()
-    with pytest.raises(OutputError, match="already exists; give --force"):
+    with pytest.raises(OutputError, match="already exists; give force to overwrite it"):
         xlsx.write_xlsx(example_order("OTHER"), path)
     assert path.read_bytes() == before
     xlsx.write_xlsx(example_order("OTHER"), path, force=True)

@@ -92,6 +92,7 @@ def build_parser(only: str | None = None, *, listing: bool = False) -> argparse.
             continue
         command = sub.add_parser(name, help=help_text, description=help_text[:1].upper() + help_text[1:] + ".")
         configure(command)
+        command.set_defaults(command_parser=command)  # its options word the library's errors
     return parser
 
 
@@ -165,7 +166,7 @@ def _main(argv) -> int:
             warnings.simplefilter("ignore")
             return int(args.run(args) or 0)
     except CounterpoiseError as exc:
-        print("\n".join(_error_lines(args.command, exc)), file=sys.stderr)
+        print("\n".join(_error_lines(args.command, exc, args)), file=sys.stderr)
         return 2
     except KeyboardInterrupt as exc:
         signum = getattr(exc, "signum", None)
@@ -286,13 +287,18 @@ def _one_line(exc: BaseException) -> str:
     return " ".join(str(exc).split()) or type(exc).__name__
 
 
-def _error_lines(command: str, exc: CounterpoiseError) -> list[str]:
+def _error_lines(command: str, exc: CounterpoiseError, args=None) -> list[str]:
     """The lines printed for a refused command: one line; or, when the error lists several problems (a job
-    file), a first line that counts them and then one line per problem, each starting ``  - ``."""
+    file), a first line that counts them and then one line per problem, each starting ``  - ``. A library
+    error names its parameters as this subcommand's options (``toolkit.commands._common.error_text``)."""
     problems, head = getattr(exc, "problems", ()), getattr(exc, "head", "")
     first = f"counterpoise {command}: error: "
     if len(problems) > 1 and head:
         return [first + " ".join(head.split())] + ["  - " + (" ".join(str(p).split()) or "?") for p in problems]
+    if args is not None:
+        from toolkit.commands._common import error_text
+
+        return [first + (" ".join(error_text(exc, args).split()) or type(exc).__name__)]
     return [first + _one_line(exc)]
 
 

@@ -30,8 +30,8 @@ from pathlib import Path
 import numpy as np
 
 from toolkit.errors import BadInput
-from toolkit.influence import (Run, RunSet, Settings, Solution, conjugate_needed, correct, finish_solution,
-                               _weight_sense, _phase_sense)
+from toolkit.influence import Settings, Solution, correct, finish_solution
+from toolkit.runs import Run, RunSet, conjugate_needed, phase_sense, weight_sense
 from toolkit.vectors import parse_reading, polar
 
 __all__ = ["Coefficients", "coefficients_from", "save_coefficients", "load_coefficients",
@@ -132,8 +132,8 @@ def load_coefficients(path) -> Coefficients:
         planes = _names(data["planes"], f"{p}: planes")
         unit = data["reading_unit"]
         rows = data["coefficients"]
-        weight_angles = _weight_sense(data["weight_angles"], f"{p}: weight_angles")
-        phase = _phase_sense(data["phase"], f"{p}: phase")
+        weight_angles = weight_sense(data["weight_angles"], f"{p}: weight_angles")
+        phase = phase_sense(data["phase"], f"{p}: phase")
     except KeyError as exc:
         raise BadInput(f"{p}: {exc.args[0]}: missing") from None
     if not isinstance(unit, str) or unit not in _KIND_OF_UNIT:

@@ -95,7 +95,7 @@ def check_writable(path: str | Path, force: bool = False) -> Path:
     try:
         exists = _exists(path)
         if exists and not force:
-            raise OutputError(f"{path} already exists; give --force to overwrite it")
+            raise OutputError(f"{path} already exists; give {{force}} to overwrite it", mentions=("force",))
         if exists and path.is_dir():
             raise OutputError(f"{path} is a folder, not a file")
     except OutputError:
@@ -281,10 +281,10 @@ def _commit(tmp_name: str, path: Path, force: bool) -> None:
     try:
         os.link(tmp_name, path)
     except FileExistsError:
-        raise OutputError(f"{path} already exists; give --force to overwrite it") from None
+        raise OutputError(f"{path} already exists; give {{force}} to overwrite it", mentions=("force",)) from None
     except OSError:
         if _exists(path):
-            raise OutputError(f"{path} already exists; give --force to overwrite it") from None
+            raise OutputError(f"{path} already exists; give {{force}} to overwrite it", mentions=("force",)) from None
         os.replace(tmp_name, path)
     else:
         try:

@@ -400,7 +400,7 @@ def _check_finite(mag, name: str, shown) -> None:
 
         finite = bool(np.all(np.isfinite(mag)))
     if not finite:
-        raise BadInput(f"{name}: {shown!r} is not a finite number")
+        raise BadInput.about(name, f"{shown!r} is not a finite number")
 
 
 def _bound_text(value: float, unit: str) -> str:
@@ -423,13 +423,13 @@ def _check_bounds(q, k: Kind, name: str, shown, bounds, what: str, zero: bool = 
         if not low_m <= size <= high_m:
             side = "below the smallest" if size < low_m else "above the largest"
             limit = bounds[0] if size < low_m else bounds[1]
-            raise BadInput(f"{name}: {shown!s} is {side} {what} accepted, {limit} (a bound of our own [CP]; "
+            raise BadInput.about(name, f"{shown!s} is {side} {what} accepted, {limit} (a bound of our own [CP]; "
                            f"give a value from {bounds[0]} to {bounds[1]})")
         return
     if not k.lower <= size <= k.upper:
         side = "below the smallest" if size < k.lower else "above the largest"
         limit = _bound_text(k.lower if size < k.lower else k.upper, unit)
-        raise BadInput(f"{name}: {shown!s} is {side} {k.name} read, {limit} (a bound of our own [CP]; "
+        raise BadInput.about(name, f"{shown!s} is {side} {k.name} read, {limit} (a bound of our own [CP]; "
                        f"give a value from {_bound_text(k.lower, unit)} to {_bound_text(k.upper, unit)}"
                        f"{', or 0' if zero else ''})")
 
@@ -463,33 +463,33 @@ def quantity(value, kind: str | Kind, name: str = "value", *, positive: bool = F
     if isinstance(value, ureg.Quantity):
         q = value
     elif isinstance(value, bool) or isinstance(value, (int, float)):
-        raise BadInput(f"{name}: {value!r} has no unit; give a {k.name} with its unit, e.g. '{k.example}'")
+        raise BadInput.about(name, f"{value!r} has no unit; give a {k.name} with its unit, e.g. '{k.example}'")
     elif isinstance(value, str):
         text = value.strip()
         if not text:
-            raise BadInput(f"{name}: empty; give a {k.name} with its unit, e.g. '{k.example}'")
+            raise BadInput.about(name, f"empty; give a {k.name} with its unit, e.g. '{k.example}'")
         if len(text) > 200:
-            raise BadInput(f"{name}: value too long ({len(text)} characters); give a {k.name} such as "
+            raise BadInput.about(name, f"value too long ({len(text)} characters); give a {k.name} such as "
                            f"'{k.example}'")
         if _is_bare_number(text):
-            raise BadInput(f"{name}: {text!r} has no unit; give a {k.name} with its unit, e.g. '{k.example}'")
+            raise BadInput.about(name, f"{text!r} has no unit; give a {k.name} with its unit, e.g. '{k.example}'")
         try:
             q = _parse(_normalise(text))
         except _Unreadable as exc:
-            raise BadInput(f"{name}: cannot read {text!r} as a {k.name}: {exc}; write a number and a unit, "
+            raise BadInput.about(name, f"cannot read {text!r} as a {k.name}: {exc}; write a number and a unit, "
                            f"e.g. '{k.example}'") from None
         except Exception:
-            raise BadInput(f"{name}: cannot read {text!r} as a {k.name}; write a number and a unit, "
+            raise BadInput.about(name, f"cannot read {text!r} as a {k.name}; write a number and a unit, "
                            f"e.g. '{k.example}'") from None
     elif hasattr(value, "magnitude") and hasattr(value, "units"):
         # a quantity from another registry: rebuild it in ours from its unit text
         try:
             q = ureg.Quantity(value.magnitude, str(value.units))
         except Exception:
-            raise BadInput(f"{name}: unit {value.units!s} is not known; give a {k.name} such as "
+            raise BadInput.about(name, f"unit {value.units!s} is not known; give a {k.name} such as "
                            f"'{k.example}'") from None
     else:
-        raise BadInput(f"{name}: {value!r} is not a quantity; give a {k.name} with its unit, "
+        raise BadInput.about(name, f"{value!r} is not a quantity; give a {k.name} with its unit, "
                        f"e.g. '{k.example}'")
     try:
         ok = q.check(k.dimensionality)
@@ -497,10 +497,10 @@ def quantity(value, kind: str | Kind, name: str = "value", *, positive: bool = F
         ok = False
     if not ok:
         shown = value if isinstance(value, str) else f"{q:~P}"
-        raise BadInput(f"{name}: {shown!r} is not a {k.name} ({q.dimensionality} given); give e.g. "
+        raise BadInput.about(name, f"{shown!r} is not a {k.name} ({q.dimensionality} given); give e.g. "
                        f"'{k.example}'")
     if text_given and k.name != "speed" and _is_angle(q.units):
-        raise BadInput(f"{name}: {value!r} holds an angle unit, which a {k.name} has not; give e.g. "
+        raise BadInput.about(name, f"{value!r} holds an angle unit, which a {k.name} has not; give e.g. "
                        f"'{k.example}'")
     shown = value if isinstance(value, str) else q
     _check_finite(q.magnitude, name, shown)
@@ -509,9 +509,9 @@ def quantity(value, kind: str | Kind, name: str = "value", *, positive: bool = F
 
         mag = np.asarray(q.magnitude)
         if positive and np.any(mag <= 0):
-            raise BadInput(f"{name}: {shown!s} must be greater than zero")
+            raise BadInput.about(name, f"{shown!s} must be greater than zero")
         if nonnegative and np.any(mag < 0):
-            raise BadInput(f"{name}: {shown!s} must not be negative")
+            raise BadInput.about(name, f"{shown!s} must not be negative")
     if text_given or bounds is not None:
         _check_bounds(q, k, name, shown, bounds, what, zero=not positive)
     return q
@@ -582,7 +582,7 @@ def unit_system(name: str) -> UnitSystem:
     for system in (METRIC, IMPERIAL):
         if text == system.name:
             return system
-    raise BadInput(f"--units: {name!r} is not a unit system; use 'metric' or 'imperial'")
+    raise BadInput.about("units", f"{name!r} is not a unit system; use 'metric' or 'imperial'")
 
 
 def format_number(x: float, sig: int = 4) -> str:

@@ -23,7 +23,7 @@ from toolkit.errors import BadInput
 
 __all__ = ["parse_vector", "parse_angle", "to_complex", "polar", "parse_reading", "add_vectors",
            "scale_vector", "change_radius", "split_vector", "Split", "combine", "static_couple",
-           "StaticCouple", "READING_KINDS"]
+           "StaticCoupleParts", "READING_KINDS", "neighbours", "sine_split"]
 
 _SEPARATOR = re.compile(r"\s*(?:@|∠)\s*")
 _ANGLE = re.compile(r"^([-+]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][-+]?[0-9]+)?)\s*(?:°|deg|degrees?)?$")
@@ -41,16 +41,16 @@ def parse_angle(text, name: str = "angle") -> float:
     (210.0, 330.0, 0.5)
     """
     if isinstance(text, bool):
-        raise BadInput(f"{name}: {text!r} is not an angle in degrees")
+        raise BadInput.about(name, f"{text!r} is not an angle in degrees")
     if isinstance(text, (int, float)):
         value = float(text)
     else:
         match = _ANGLE.match(str(text).strip())
         if not match:
-            raise BadInput(f"{name}: {text!r} is not an angle; give degrees such as '210' or '210 deg'")
+            raise BadInput.about(name, f"{text!r} is not an angle; give degrees such as '210' or '210 deg'")
         value = float(match.group(1))
     if not math.isfinite(value):
-        raise BadInput(f"{name}: {text!r} is not a finite angle")
+        raise BadInput.about(name, f"{text!r} is not a finite angle")
     value = math.fmod(value, 360.0)
     if value < 0:
         value += 360.0
@@ -74,12 +74,12 @@ def parse_vector(text, kind: str | None = None, name: str = "vector"):
     toolkit.errors.BadInput: --residual: '38 g' is not a vector; write AMOUNT@ANGLE, e.g. '38 g@210'
     """
     if not isinstance(text, str):
-        raise BadInput(f"{name}: {text!r} is not a vector; write AMOUNT@ANGLE, e.g. '38 g@210'")
+        raise BadInput.about(name, f"{text!r} is not a vector; write AMOUNT@ANGLE, e.g. '38 g@210'")
     parts = _SEPARATOR.split(text.strip())
     if len(parts) != 2 or not parts[0] or not parts[1]:
         example = "'61.35@0'" if kind is None else "'38 g@210'"
-        raise BadInput(f"{name}: {text!r} is not a vector; write AMOUNT@ANGLE, e.g. {example}")
-    angle = parse_angle(parts[1], name=f"{name} angle")
+        raise BadInput.about(name, f"{text!r} is not a vector; write AMOUNT@ANGLE, e.g. {example}")
+    angle = parse_angle(parts[1], name=f"{name} angle" if name else "angle")
     if kind is None:
         return _plain_amount(parts[0], name), angle
     from toolkit.units import quantity
@@ -95,19 +95,19 @@ def _plain_amount(text: str, name: str) -> float:
         try:
             value = float(text)
         except ValueError:
-            raise BadInput(f"{name}: amount {text!r} is not a number; write digits such as 61.35") from None
+            raise BadInput.about(name, f"amount {text!r} is not a number; write digits such as 61.35") from None
         if not math.isfinite(value) or value < 0:
-            raise BadInput(f"{name}: amount {text!r} must be a finite number, zero or more")
-        raise BadInput(f"{name}: amount {text!r} is not written as plain digits; write it such as 61.35")
+            raise BadInput.about(name, f"amount {text!r} must be a finite number, zero or more")
+        raise BadInput.about(name, f"amount {text!r} is not written as plain digits; write it such as 61.35")
     amount = float(text)
     low, high = PLAIN_AMOUNT_BOUNDS
     if not math.isfinite(amount) or amount > high or (amount == 0 and any(c in "123456789" for c in
                                                                             re.split("[eE]", text)[0])):
         side = "above the largest" if amount != 0 else "below the smallest"
-        raise BadInput(f"{name}: amount {text!r} is {side} amount read (from {low:g} to {high:g}, or 0; "
+        raise BadInput.about(name, f"amount {text!r} is {side} amount read (from {low:g} to {high:g}, or 0; "
                        "bounds of our own [CP])")
     if 0 < amount < low:
-        raise BadInput(f"{name}: amount {text!r} is below the smallest amount read (from {low:g} to {high:g}, "
+        raise BadInput.about(name, f"amount {text!r} is below the smallest amount read (from {low:g} to {high:g}, "
                        "or 0; bounds of our own [CP])")
     return amount
 
@@ -139,7 +139,7 @@ def to_complex(vector, kind: str, name: str = "vector") -> complex:
 
     if isinstance(vector, tuple) and len(vector) == 2:
         amount = magnitude(vector[0], kind, name=name, nonnegative=True)
-        angle = parse_angle(vector[1], name=f"{name} angle")
+        angle = parse_angle(vector[1], name=f"{name} angle" if name else "angle")
     else:
         quantity_, angle = parse_vector(vector, kind, name)
         amount = magnitude(quantity_, kind, name=name)
@@ -152,7 +152,7 @@ def _grams(vector, name: str) -> complex:
 
     if isinstance(vector, tuple) and len(vector) == 2:
         amount = magnitude(vector[0], "mass", "g", name=name, nonnegative=True)
-        angle = parse_angle(vector[1], name=f"{name} angle")
+        angle = parse_angle(vector[1], name=f"{name} angle" if name else "angle")
     else:
         quantity_, angle = parse_vector(vector, "mass", name)
         amount = quantity_.m_as("g")
@@ -177,18 +177,18 @@ def parse_reading(text, name: str = "reading") -> tuple[complex, str, str]:
     from toolkit.units import KINDS, quantity, registry
 
     if not isinstance(text, str):
-        raise BadInput(f"{name}: {text!r} is not a reading; write AMOUNT@ANGLE, e.g. '4.2 mm/s@75'")
+        raise BadInput.about(name, f"{text!r} is not a reading; write AMOUNT@ANGLE, e.g. '4.2 mm/s@75'")
     parts = _SEPARATOR.split(text.strip())
     if len(parts) != 2 or not parts[0] or not parts[1]:
-        raise BadInput(f"{name}: {text!r} is not a reading; write AMOUNT@ANGLE, e.g. '4.2 mm/s@75'")
-    angle = parse_angle(parts[1], name=f"{name} angle")
+        raise BadInput.about(name, f"{text!r} is not a reading; write AMOUNT@ANGLE, e.g. '4.2 mm/s@75'")
+    angle = parse_angle(parts[1], name=f"{name} angle" if name else "angle")
     amount_text = parts[0].strip()
     try:
         float(amount_text)
     except ValueError:
         pass
     else:
-        raise BadInput(f"{name}: {amount_text!r} has no unit; give a reading such as '4.2 mm/s@75' or "
+        raise BadInput.about(name, f"{amount_text!r} has no unit; give a reading such as '4.2 mm/s@75' or "
                        f"'12 um@300'")
     for kind in READING_KINDS:
         try:
@@ -202,7 +202,7 @@ def parse_reading(text, name: str = "reading") -> tuple[complex, str, str]:
         rad = math.radians(angle)
         return complex(amount * math.cos(rad), amount * math.sin(rad)), kind, unit.replace("**", "^")
     registry()
-    raise BadInput(f"{name}: {amount_text!r} is not a vibration velocity, displacement or acceleration; "
+    raise BadInput.about(name, f"{amount_text!r} is not a vibration velocity, displacement or acceleration; "
                    f"give e.g. '4.2 mm/s@75', '12 um@300' or '3 m/s^2@10'")
 
 
@@ -314,18 +314,37 @@ def split_vector(vector, positions: int | None = None, offset=0.0, at=None) -> S
     for a in angles:
         if _gap(a, theta) < 1e-9:
             return Split(mass, theta, tuple(angles), ((a, mass),))
-    # neighbouring positions either side of theta, walking round the circle
-    below = max(angles, key=lambda a: -_ccw(a, theta))
-    above = min(angles, key=lambda a: _ccw(theta, a))
+    below, above = neighbours(theta, angles)
     span = _ccw(below, above)
     if len(angles) < 2 or span >= 180.0 - 1e-9:
         raise Infeasible(f"positions: {mass:.4g} g@{theta:.4g} does not lie between two positions less than "
                          f"180 degrees apart (nearest {below:g} and {above:g}); add a position nearer "
                          f"{theta:.4g} degrees")
-    s = math.sin(math.radians(span))
-    m_a = mass * math.sin(math.radians(_ccw(theta, above))) / s
-    m_b = mass * math.sin(math.radians(_ccw(below, theta))) / s
+    m_a, m_b = sine_split(mass, theta, below, above)
     return Split(mass, theta, tuple(angles), ((below, m_a), (above, m_b)))
+
+
+def neighbours(theta: float, angles) -> tuple[float, float]:
+    """The positions either side of ``theta`` [deg], walking round the circle: (the nearest at or below it,
+    the nearest above it), both from ``angles`` [deg in [0, 360)].
+
+    >>> neighbours(100.0, [0.0, 90.0, 135.0]), neighbours(350.0, [0.0, 90.0, 270.0])
+    ((90.0, 135.0), (270.0, 0.0))
+    """
+    return max(angles, key=lambda a: -_ccw(a, theta)), min(angles, key=lambda a: _ccw(theta, a))
+
+
+def sine_split(amount: float, theta: float, below: float, above: float) -> tuple[float, float]:
+    """Law of sines [D] (docs/methods.md §2): ``amount`` at ``theta`` onto the positions ``below`` and
+    ``above`` [deg] either side of it, less than 180° apart: a = U sin(θb − θ)/sin(θb − θa),
+    b = U sin(θ − θa)/sin(θb − θa). The parts' vector sum equals the input.
+
+    >>> [round(x, 3) for x in sine_split(25.0, 100.0, 90.0, 135.0)]
+    [20.279, 6.139]
+    """
+    s = math.sin(math.radians(_ccw(below, above)))
+    return (amount * math.sin(math.radians(_ccw(theta, above))) / s,
+            amount * math.sin(math.radians(_ccw(below, theta))) / s)
 
 
 def _ccw(a: float, b: float) -> float:
@@ -359,9 +378,9 @@ def combine(*weights, radius=None):
             total += to_complex(w, "unbalance", name)  # kernel unit g*mm
             continue
         if r_given is None:
-            raise BadInput(f"{name}: {w!r} is a mass; give its radius (radius='150 mm') or an unbalance "
+            raise BadInput.about(name, f"{w!r} is a mass; give its radius (radius='150 mm') or an unbalance "
                            f"such as '1500 g*mm@0'")
-        r = magnitude(r_given, "length", "mm", name=f"{name} radius", positive=True)
+        r = magnitude(r_given, "length", "mm", name=f"{name} radius" if name else "radius", positive=True)
         total += _grams(w, name) * r
     if not weights:
         raise BadInput("weights: none given; give at least one AMOUNT@ANGLE")
@@ -370,8 +389,9 @@ def combine(*weights, radius=None):
 
 
 @dataclass(frozen=True)
-class StaticCouple:
-    """Static (resultant) and couple (moment) parts of a two-plane unbalance, in g·mm and g·mm²."""
+class StaticCoupleParts:
+    """Static (resultant) and couple (moment) parts of a two-plane unbalance, in g·mm and g·mm² (not a
+    tolerance: static and couple *tolerances* are :class:`toolkit.tolerance.StaticCouple`)."""
 
     static_g_mm: float
     static_angle_deg: float
@@ -386,7 +406,7 @@ class StaticCouple:
         return dict(self.__dict__)
 
 
-def static_couple(u1, u2, z1, z2) -> StaticCouple:
+def static_couple(u1, u2, z1, z2) -> StaticCoupleParts:
     """Static/couple decomposition of two plane unbalances ``u1`` at axial position ``z1`` and ``u2`` at
     ``z2``.
 
@@ -411,4 +431,4 @@ def static_couple(u1, u2, z1, z2) -> StaticCouple:
     s_amt, s_ang = polar(a + b)
     m_amt, m_ang = polar(a * p1 + b * p2)
     c_amt, c_ang = polar((a - b) / 2)
-    return StaticCouple(s_amt, s_ang, m_amt, m_ang, c_amt, c_ang, abs(p2 - p1))
+    return StaticCoupleParts(s_amt, s_ang, m_amt, m_ang, c_amt, c_ang, abs(p2 - p1))

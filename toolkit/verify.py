@@ -84,35 +84,35 @@ class Verification:
 
 def _readings(readings, angles) -> tuple[np.ndarray, np.ndarray]:
     if isinstance(readings, str):
-        raise BadInput(f"--reading: {readings!r}: give one reading per test-mass position, AMOUNT@ANGLE each")
+        raise BadInput.about("readings", f"{readings!r}: give one reading per test-mass position, AMOUNT@ANGLE each")
     items = list(readings)
     if angles is not None:
         angles = list(angles)
         if len(angles) != len(items):
-            raise BadInput(f"--reading: {len(items)} readings but {len(angles)} angles; give one angle per "
+            raise BadInput.about("readings", f"{len(items)} readings but {len(angles)} angles; give one angle per "
                            f"reading")
         pairs = []
         for i, (r, a) in enumerate(zip(items, angles)):
             if isinstance(r, bool) or not isinstance(r, (int, float)) or not math.isfinite(r) or r < 0:
-                raise BadInput(f"--reading {i + 1}: {r!r} must be a finite number, zero or more")
-            pairs.append((float(r), parse_angle(a, f"--reading {i + 1} angle")))
+                raise BadInput.about(f"readings {i + 1}", f"{r!r} must be a finite number, zero or more")
+            pairs.append((float(r), parse_angle(a, f"readings {i + 1} angle")))
     else:
         pairs = []
         for i, r in enumerate(items):
             if isinstance(r, str):
-                pairs.append(parse_vector(r, None, f"--reading {i + 1}"))
+                pairs.append(parse_vector(r, None, f"readings {i + 1}"))
                 continue
             if not isinstance(r, (tuple, list)) or len(r) != 2 or isinstance(r[0], bool) \
                     or not isinstance(r[0], (int, float)) or not math.isfinite(r[0]) or r[0] < 0:
-                raise BadInput(f"--reading {i + 1}: {r!r} is not a reading; write AMOUNT@ANGLE, e.g. '61.35@0'")
-            pairs.append((float(r[0]), parse_angle(r[1], f"--reading {i + 1} angle")))
+                raise BadInput.about(f"readings {i + 1}", f"{r!r} is not a reading; write AMOUNT@ANGLE, e.g. '61.35@0'")
+            pairs.append((float(r[0]), parse_angle(r[1], f"readings {i + 1} angle")))
     distinct = {round(a, 6) % 360.0 for _r, a in pairs}
     if len(distinct) < 3:
-        raise BadInput(f"--reading: {len(pairs)} reading(s) at {len(distinct)} different angle(s); the fit "
+        raise BadInput.about("readings", f"{len(pairs)} reading(s) at {len(distinct)} different angle(s); the fit "
                        f"needs the test mass at 3 or more different angles (six at 60 deg is usual)")
     r = np.array([p[0] for p in pairs])
     if not np.any(r > 0):
-        raise BadInput("--reading: every reading is zero; check the instrument and the units")
+        raise BadInput.about("readings", "every reading is zero; check the instrument and the units")
     return r, np.array([p[1] for p in pairs])
 
 
@@ -137,7 +137,7 @@ def verify_residual(test_unbalance, readings, angles=None, *, allowed=None,
     >>> round(v.residual.m_as("g*mm"), 2), round(v.residual_angle_deg, 1), v.passed
     (35.0, 130.0, True)
     """
-    test = float(magnitude(test_unbalance, "unbalance", _G_MM, "--test", positive=True))
+    test = float(magnitude(test_unbalance, "unbalance", _G_MM, "test_unbalance", positive=True))
     if isinstance(min_consistency, bool) or not isinstance(min_consistency, (int, float)) \
             or not 0 <= min_consistency <= 1:
         raise BadInput(f"min_consistency: {min_consistency!r} must be a number from 0 to 1")
@@ -149,7 +149,7 @@ def verify_residual(test_unbalance, readings, angles=None, *, allowed=None,
     a, b, c = (float(x) for x in coef)
     warnings = []
     if a <= 0:
-        raise BadInput("--reading: the readings do not fit a test-mass-around pattern (mean square reading "
+        raise BadInput.about("readings", "the readings do not fit a test-mass-around pattern (mean square reading "
                        "comes out zero or negative); check the readings and their angles")
     amp = math.hypot(b, c)
     q = amp / (2 * a)
@@ -184,7 +184,7 @@ def verify_residual(test_unbalance, readings, angles=None, *, allowed=None,
                         f"which is larger; repeat with a larger test unbalance")
     allowed_q, passed = None, None
     if allowed is not None:
-        allowed_g = float(magnitude(allowed, "unbalance", _G_MM, "--allowed", positive=True))
+        allowed_g = float(magnitude(allowed, "unbalance", _G_MM, "allowed", positive=True))
         allowed_q = Q_(allowed_g, _G_MM)
         ratio = test / allowed_g
         lo, hi = TEST_RATIO_RANGE

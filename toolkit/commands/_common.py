@@ -7,9 +7,10 @@ from __future__ import annotations
 
 import json
 import math
+import re
 import sys
 
-__all__ = ["add_json", "add_units", "add_force", "emit", "print_text"]
+__all__ = ["add_json", "add_units", "add_force", "emit", "print_text", "option_names", "error_text", "parse_named"]
 
 
 def add_json(parser) -> None:
@@ -61,3 +62,80 @@ def _encodable(stream, text: str) -> bool:
 
 def print_text(text: str) -> None:
     sys.stdout.write(text.rstrip("\n") + "\n")
+
+
+# -- errors in the command line's words --------------------------------------------------------------
+
+#: Library parameter names whose option is not simply the name with dashes (``max_depth_ratio`` is
+#: ``--max-depth-ratio``); looked up only when the subcommand has that option.
+OPTION_ALIASES = {
+    "max_depth_mm": "--max-depth", "min_wall_mm": "--min-wall", "min_wall_ratio": "--wall-ratio",
+    "depth_step_mm": "--depth-step", "fixed_positions": "--positions", "point_angle_deg": "--point-angle",
+    "correction": "--unbalance", "weld_run": "--weld", "seat_offset_deg": "--seat-offset",
+    "materials_table": "--materials", "washer_table": "--table", "test_unbalance": "--test",
+    "readings": "--reading", "residuals": "--residual", "criteria": "--criterion", "planes": "--plane",
+    "journal_loads": "--journal-load", "u_per": "--allowed", "position": "--plane",
+}
+
+def option_names(parser):
+    """``name(parameter) -> option``: a library parameter worded as the subcommand's option (``wall`` ->
+    ``--wall``), or left as it is when the subcommand has no such option."""
+    options = {}
+    for action in getattr(parser, "_actions", ()):
+        longs = [s for s in action.option_strings if s.startswith("--")]
+        if longs:
+            options.setdefault(action.dest, longs[0])
+    given = {s for a in getattr(parser, "_actions", ()) for s in a.option_strings}
+
+    def name(parameter: str) -> str:
+        if parameter.startswith("-"):
+            return parameter
+        head, space, rest = parameter.partition(" ")  # "planes I": the option, then the item's name
+        if space:
+            return f"{name(head)} {rest}"
+        alias = OPTION_ALIASES.get(parameter)
+        if alias in given:
+            return alias
+        for dest in (parameter, parameter.removesuffix("_mm").removesuffix("_deg")):
+            if dest in options:
+                return options[dest]
+        return parameter
+
+    return name
+
+
+def error_text(exc, args) -> str:
+    """A library error worded for the command line: its parameters as this subcommand's options, its
+    values in the unit system asked for (``--units``)."""
+    parser = getattr(args, "command_parser", None)
+    if not hasattr(exc, "worded") or parser is None:
+        return str(exc)
+    from toolkit.errors import quantity_words
+
+    return exc.worded(option_names(parser), quantity_words(getattr(args, "units", "metric")))
+
+
+# -- NAME=VALUE options --------------------------------------------------------------------------------
+
+_NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9 _.\-]{0,39}$")
+_NAMED_EXAMPLES = {"plane": "I=-120 mm", "journal load": "A=206 kg", "residual": "I=180 g*mm@40"}
+
+
+def parse_named(text, kind: str, option: str):
+    """Split an option's ``NAME=VALUE`` (``"I=-120 mm"``, ``"A=206 kg"``, ``"I=180 g*mm@40"``); return (name,
+    value text), the pair the library takes. Names are 1-40 letters, digits, spaces, ``_``, ``.`` or ``-``,
+    starting with a letter or digit.
+
+    >>> parse_named("I = -120 mm", "plane", "--plane")
+    ('I', '-120 mm')
+    """
+    from toolkit.errors import BadInput
+
+    if not isinstance(text, str) or "=" not in text:
+        raise BadInput(f"{option}: {text!r} is malformed; write NAME=VALUE, e.g. "
+                       f"{_NAMED_EXAMPLES.get(kind, 'I=-120 mm')!r}")
+    name, value = (part.strip() for part in text.split("=", 1))
+    if not _NAME.match(name) or not value:
+        raise BadInput(f"{option}: {text!r} is malformed; write NAME=VALUE with a short name, e.g. "
+                       f"{_NAMED_EXAMPLES.get(kind, 'I=-120 mm')!r}")
+    return name, value

@@ -73,7 +73,7 @@ def _say(warnings) -> list[str]:
 
 
 def _named(text: str, option: str, example: str) -> tuple[str, str]:
-    from toolkit.tolerance import parse_named
+    from toolkit.commands._common import parse_named
 
     try:
         return parse_named(text, "plane", option)

@@ -5,7 +5,7 @@ Light at import: numpy, pint and the library modules are imported inside the run
 
 from __future__ import annotations
 
-from toolkit.commands._common import add_json, add_units, emit
+from toolkit.commands._common import add_json, add_units, emit, parse_named
 
 _CAUTION_NOTE = ("The rotor maker's balance specification, where it is stricter, takes precedence over these "
                  "figures.")
@@ -60,8 +60,10 @@ def _table(rows: list[list[str]], indent: str = "  ") -> list[str]:
 
 
 def _warnings(lines: list[str], warnings) -> None:
+    from toolkit.errors import worded
+
     for w in warnings:
-        lines.append(f"warning: {w}")
+        lines.append(f"warning: {worded(w, lambda p: OPTION_NAMES.get(p, p))}")
 
 
 # -- grades --------------------------------------------------------------------------------------------
@@ -161,10 +163,13 @@ def run_tolerance(args) -> int:
     static_share = _fraction(args.static_share, "--static-share", 0.0, 1.0, "0.5")
     report = tolerance_report(
         grade, mass, speed, custom_grade=args.custom_grade,
-        bearing_span=args.bearing_span, com_from_a=args.com_from_a, planes=args.plane or None,
-        static_share=static_share, criteria=args.criterion or ("iso",), journal_loads=args.journal_load or None,
+        bearing_span=args.bearing_span, com_from_a=args.com_from_a,
+        planes=[parse_named(p, "plane", "--plane") for p in args.plane] or None,
+        static_share=static_share, criteria=args.criterion or ("iso",),
+        journal_loads=[parse_named(j, "journal load", "--journal-load") for j in args.journal_load] or None,
         min_share=DEFAULT_MIN_SHARE if min_share is None else min_share,
-        residuals=args.residual or None, error_allowance=args.error_allowance, check_stage=args.check_stage,
+        residuals=[parse_named(r, "residual", "--residual") for r in args.residual] or None,
+        error_allowance=args.error_allowance, check_stage=args.check_stage,
         one_plane_rule=args.one_plane_rule,
         rotor_length=None if args.rotor_length is None else quantity(args.rotor_length, "length", "--rotor-length",
                                                                      positive=True),
@@ -180,6 +185,9 @@ def run_tolerance(args) -> int:
     key = _key_convention(args)
     data = report.to_dict()
     data["units"] = fmt.system.name
+    from toolkit.errors import worded
+
+    data["warnings"] = [worded(w, lambda p: OPTION_NAMES.get(p, p)) for w in report.warnings]
     if key is not None:
         data["key"] = key.to_dict()
         data["key"]["warnings"] = ["--keyway-fill" + w[len("fill"):] for w in key.warnings]
@@ -211,6 +219,7 @@ def _key_convention(args):
 
 #: The tolerance library's parameter names as this command's options, for warnings that name what to check.
 OPTION_NAMES = {"rotor_length": "--rotor-length", "correction_diameter": "--correction-diameter",
+                "static_share": "--static-share",
                 "bearing_span": "--bearing-span", "com_from_a": "--com-from-a", "plane_position": "--plane",
                 "one_plane_rule": "--one-plane-rule"}
 

@@ -231,7 +231,9 @@ def run_batch(args) -> int:
                        paper=_paper_name(args))
     except OutputError as exc:
         if not args.carry_on and "already exists" in str(exc) and any(out.glob("*-batch.json")):
-            raise OutputError(f"{exc}, or --carry-on to continue the batch it records") from None
+            from toolkit.commands._common import error_text
+
+            raise OutputError(f"{error_text(exc, args)}, or --carry-on to continue the batch it records") from None
         raise
     kept = f", {len(result.kept)} kept from the earlier run" if result.kept else ""
     lines = [f"Batch {args.sheet}: {result.done - len(result.kept)} work order(s) written{kept}, "

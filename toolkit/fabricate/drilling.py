@@ -24,9 +24,10 @@ import numpy as np
 
 from toolkit.errors import BadInput, Infeasible
 from toolkit.fabricate import stock as _stock
+from toolkit.fabricate.shared import correction_g_mm, describe_placement, norm_angle, offset_angle, solve_bracketed
 from toolkit.fabricate.materials import resolve_density
 from toolkit.units import format_number as _fmt, magnitude
-from toolkit.vectors import parse_angle
+from toolkit.vectors import neighbours, parse_angle, sine_split
 
 __all__ = ["Limits", "Hole", "DrillResult", "point_height", "axial_hole", "radial_hole", "solve_bracketed",
            "correction_g_mm", "drill_correction", "CAUTIONS", "ORIENTATIONS"]
@@ -110,10 +111,9 @@ class Limits:
                 continue
             problem = limit_problem(name, v)
             if problem:
-                raise BadInput(f"--max-depth: {v!r} {problem}" if name == "max_depth_mm"
-                               else f"limit {name}: {v!r} {problem}")
+                raise BadInput.about(name, f"{v!r} {problem}")
         if not (isinstance(self.max_holes, int) and 1 <= self.max_holes <= 36):
-            raise BadInput(f"limit max_holes: {self.max_holes!r} must be a whole number from 1 to 36")
+            raise BadInput.about("max_holes", f"{self.max_holes!r} must be a whole number from 1 to 36")
 
     def tip_limit_mm(self, d: float) -> float:
         """Deepest allowed tip for drill diameter d [mm] (refusal limit)."""
@@ -142,10 +142,10 @@ def point_height(diameter, point_angle_deg: float = 118.0):
 
 def _angle(point_angle_deg) -> float:
     if isinstance(point_angle_deg, bool) or not isinstance(point_angle_deg, (int, float)):
-        raise BadInput(f"--point-angle: {point_angle_deg!r} is not an angle in degrees; e.g. 118")
+        raise BadInput.about("point_angle_deg", f"{point_angle_deg!r} is not an angle in degrees; e.g. 118")
     a = float(point_angle_deg)
     if not (math.isfinite(a) and 60.0 <= a <= 180.0):
-        raise BadInput(f"--point-angle: {point_angle_deg!r} is outside 60 to 180 degrees (118 general, "
+        raise BadInput.about("point_angle_deg", f"{point_angle_deg!r} is outside 60 to 180 degrees (118 general, "
                        "135 hard material, 180 flat bottom)")
     return a
 
@@ -182,41 +182,6 @@ def _radial_volume(R: float, r: float, L: float, h: float) -> float:
 def _radial_min_depth(R: float, r: float) -> float:
     """Shoulder depth at which the full diameter first lies wholly below the surface."""
     return R - math.sqrt(R * R - r * r)
-
-
-def solve_bracketed(f, lo: float, hi: float, tol: float = 1e-10, max_iter: int = 200) -> float:
-    """Root of a continuous ``f`` on [lo, hi] where f(lo) and f(hi) differ in sign (Illinois regula falsi,
-    falling back to bisection; D). Raises ValueError if the root is not bracketed.
-
-    >>> round(solve_bracketed(lambda x: x * x - 2.0, 0.0, 2.0), 9)
-    1.414213562
-    """
-    flo, fhi = f(lo), f(hi)
-    if flo == 0:
-        return lo
-    if fhi == 0:
-        return hi
-    if (flo > 0) == (fhi > 0):
-        raise ValueError("root not bracketed")
-    side = 0
-    for _ in range(max_iter):
-        x = (lo * fhi - hi * flo) / (fhi - flo)
-        if not lo < x < hi:
-            x = 0.5 * (lo + hi)
-        fx = f(x)
-        if fx == 0 or (hi - lo) < tol * max(1.0, abs(x)):
-            return x
-        if (fx > 0) == (fhi > 0):
-            hi, fhi = x, fx
-            if side == 1:
-                flo *= 0.5
-            side = 1
-        else:
-            lo, flo = x, fx
-            if side == -1:
-                fhi *= 0.5
-            side = -1
-    return 0.5 * (lo + hi)
 
 
 @dataclass(frozen=True)
@@ -296,45 +261,6 @@ def _hole(orientation: str, diameter, depth, radius, density, point_angle_deg) -
     a = _angle(point_angle_deg)
     _check_geometry(orientation, d, L, R, a)
     return _geometry(orientation, d, L, R, rho, a)
-
-
-def correction_g_mm(amount, radius=None, name: str = "--unbalance") -> float:
-    """A correction as unbalance [g·mm]: an unbalance (``"2400 g*mm"``, ``"3.3 oz*in"``) or a mass with its
-    radius (``"38 g"`` at ``"620 mm"``).
-
-    >>> correction_g_mm("38 g", "620 mm"), round(correction_g_mm("1 oz*in"), 3)
-    (23560.0, 720.078)
-    """
-    from toolkit.units import quantity
-
-    if isinstance(amount, bool) or isinstance(amount, (int, float)) or (isinstance(amount, str)
-                                                                       and _is_number(amount)):
-        raise BadInput(f"{name}: {amount!r} has no unit; give an unbalance (e.g. '2400 g*mm', '3.3 oz*in') or "
-                       "a mass with --radius (e.g. '38 g')")
-    try:
-        return float(quantity(amount, "unbalance", name, positive=True).m_as("g*mm"))
-    except BadInput as exc:
-        if "greater than zero" in str(exc):
-            raise
-    try:
-        m = magnitude(amount, "mass", "g", name, positive=True)
-    except BadInput as exc:
-        if "greater than zero" in str(exc):
-            raise
-        raise BadInput(f"{name}: {amount!r} is neither an unbalance (e.g. '2400 g*mm', '3.3 oz*in') nor a "
-                       "mass with --radius (e.g. '38 g')") from None
-    if radius is None:
-        raise BadInput(f"{name}: {amount!s} is a mass; give its radius too (--radius, e.g. '620 mm') or give "
-                       "an unbalance such as '2400 g*mm'")
-    return float(m * magnitude(radius, "length", "mm", "--radius", positive=True))
-
-
-def _is_number(text: str) -> bool:
-    try:
-        float(text)
-    except ValueError:
-        return False
-    return True
 
 
 # -- design ----------------------------------------------------------------------------------------------
@@ -452,35 +378,6 @@ class DrillResult:
         }
 
 
-def describe_placement(method_action: str, given_action: str, requested_g_mm: float, given_angle_deg: float,
-                       target_angle_deg: float, opposite: str, where: str = "", unb=None) -> str:
-    """Where a correction goes, in words, saying so when the method works opposite to how the correction was
-    given (holes remove at the heavy spot; plates and washers add opposite it).
-
-    ``where`` names the place after the word "at" when the correction is carried out as given (e.g.
-    ``"the heavy spot, "``); it must not repeat "at".
-
-    >>> describe_placement("remove", "add", 2400.0, 131.0, 311.0, "remove it at the heavy spot,")
-    'correction given as add 2400 g·mm at 131°: remove it at the heavy spot, 311° (= 131° + 180°)'
-    >>> describe_placement("add", "add", 2400.0, 131.0, 131.0, "weld the plate opposite, at")
-    'add 2400 g·mm at 131°'
-    >>> describe_placement("remove", "remove", 2400.0, 131.0, 131.0, "remove it at the heavy spot,", "the heavy spot, ")
-    'remove 2400 g·mm at the heavy spot, 131°'
-    """
-    unb = unb or (lambda x: f"{_fmt(x)} g·mm")
-    if given_action != method_action:
-        return (f"correction given as {given_action} {unb(requested_g_mm)} at {given_angle_deg:g}°: "
-                f"{opposite} {target_angle_deg:g}° (= {given_angle_deg:g}° + 180°)")
-    return f"{method_action} {unb(requested_g_mm)} at {where}{target_angle_deg:g}°"
-
-
-def _norm(a: float) -> float:
-    a = math.fmod(a, 360.0)
-    a = a + 360.0 if a < 0 else a
-    a = 0.0 if a >= 360.0 - 1e-12 else a
-    return round(a, 9) + 0.0
-
-
 def _depth_for(orientation: str, U1: float, d: float, R: float, rho: float, angle: float,
                top: float) -> float | None:
     """Exact shoulder depth L for one hole removing U1, or None when out of [minimum, top]."""
@@ -543,7 +440,7 @@ def _design(orientation, U, d, R, rho, angle, limits, wall, ratio, fixed, remove
             L = _depth_for(orientation, u, d, R, rho, angle, top)
             if L is None:
                 return None
-            depths.append((ang, _offset(ang, remove_angle), L))
+            depths.append((ang, offset_angle(ang, remove_angle), L))
         return depths, None
     pitch = _pitch_deg(d, R, limits)
     for n in range(1, limits.max_holes + 1):
@@ -559,7 +456,7 @@ def _design(orientation, U, d, R, rho, angle, limits, wall, ratio, fixed, remove
         L = _depth_for(orientation, U / factor, d, R, rho, angle, top)
         if L is not None:
             offs = [(k - (n - 1) / 2.0) * (pitch or 0.0) for k in range(n)]
-            return [(_norm(remove_angle + o), o, L) for o in offs], (pitch if n > 1 else None)
+            return [(norm_angle(remove_angle + o), o, L) for o in offs], (pitch if n > 1 else None)
     return None
 
 
@@ -572,29 +469,22 @@ def _least(orientation: str, d: float, R: float, rho: float, angle: float) -> fl
     return rho * _radial_moment(R, d / 2, _radial_min_depth(R, d / 2), h)
 
 
-def _offset(angle: float, centre: float) -> float:
-    return (angle - centre + 180.0) % 360.0 - 180.0
-
-
 def _split_fixed(U: float, theta: float, positions: tuple[float, ...]) -> list[tuple[float, float]]:
     """Split U at theta onto the two neighbouring fixed positions (law of sines; docs/methods.md §2, D)."""
-    pos = sorted(set(_norm(p) for p in positions))
+    pos = sorted(set(norm_angle(p) for p in positions))
     for p in pos:
-        if abs(_offset(p, theta)) < 1e-9:
+        if abs(offset_angle(p, theta)) < 1e-9:
             return [(p, U)]
     if len(pos) < 2:
         raise Infeasible(f"fixed positions: one position ({pos[0]:g}°) cannot take a correction at "
                          f"{theta:g}°; give two or more positions around it")
-    below = max(pos, key=lambda p: -((theta - p) % 360.0))
-    above = min(pos, key=lambda p: (p - theta) % 360.0)
+    below, above = neighbours(theta, pos)
     span = (above - below) % 360.0
     if span >= 180.0:
         raise Infeasible(f"fixed positions: the neighbours of {theta:g}° ({below:g}° and {above:g}°) are "
                          f"{span:g}° apart; a split needs them less than 180° apart")
-    a = math.radians((theta - below) % 360.0)
-    b = math.radians((above - theta) % 360.0)
-    s = math.sin(math.radians(span))
-    return [(below, U * math.sin(b) / s), (above, U * math.sin(a) / s)]
+    u_below, u_above = sine_split(U, theta, below, above)
+    return [(below, u_below), (above, u_above)]
 
 
 def drill_correction(correction, *, radius, orientation: str = "axial", angle_deg=0.0, action: str = "remove",
@@ -630,27 +520,29 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
     if action not in ("add", "remove"):
         raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
     limits = limits or Limits()
-    R = float(magnitude(radius, "length", "mm", "--radius", positive=True))
+    R = float(magnitude(radius, "length", "mm", "radius", positive=True))
     U = correction_g_mm(correction, radius)
     dens = resolve_density(material, density, materials_table)
     rho = dens.g_mm3
     angle = _angle(point_angle_deg)
     given = parse_angle(angle_deg, "angle")
-    remove_angle = _norm(given + 180.0) if action == "add" else given
-    wall_mm = None if wall is None else magnitude(wall, "length", "mm", "--wall", positive=True)
+    remove_angle = norm_angle(given + 180.0) if action == "add" else given
+    wall_mm = None if wall is None else magnitude(wall, "length", "mm", "wall", positive=True)
     fixed = None
     if fixed_positions:
         fixed = tuple(parse_angle(p, "fixed position") for p in fixed_positions)
     if diameter is not None:
-        d = magnitude(diameter, "length", "mm", "--diameter", positive=True)
+        d = magnitude(diameter, "length", "mm", "diameter", positive=True)
         if orientation == "radial" and d >= R:
-            raise BadInput(f"--diameter: {d:g} mm is too large for a {R:g} mm radius")
+            raise BadInput.about("diameter", "{d} is too large for a {R} {radius}", mentions=("radius",),
+                                 quantities={"d": (d, "mm"), "R": (R, "mm")})
         candidates = [_stock.Drill(f"{d:g} mm", d, "given")]
     else:
         candidates = [c for c in _stock.drills(drills) if orientation == "axial" or c.diameter_mm < R]
         if not candidates:
-            raise Infeasible(f"no drill in the set is smaller than the {R:g} mm radius, as a radial hole needs; "
-                             "drill axial holes in a face, or use a plate or washers")
+            raise Infeasible.about("drills", "no drill in the set is smaller than the {R} {radius}, as a radial "
+                                   "hole needs; drill axial holes in a face, or use a plate or washers",
+                                   mentions=("radius",), quantities={"R": (R, "mm")})
     chosen = None
     ratios = [limits.warn_depth_ratio, limits.max_depth_ratio]
     if diameter is None:
@@ -703,7 +595,7 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
                         got, requested_g_mm=U, given_action=action, given_angle_deg=given, error_g_mm=err,
                         density_source=dens.source, material=dens.material.name if dens.material else None,
                         warnings=got.warnings + (note,))
-        raise Infeasible(reason)
+        raise reason
     drill, (plan, pitch) = chosen
     d = drill.diameter_mm
     holes = []
@@ -730,13 +622,13 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
         warnings.append(f"the share for the other fixed position is below half of what one {d:g} mm hole's point "
                         f"removes; drilled at {holes[0].angle_deg:g}° only (see the achieved angle)")
     if fixed and len(holes) == 2:
-        gap = abs(_offset(holes[0].angle_deg, holes[1].angle_deg))
+        gap = abs(offset_angle(holes[0].angle_deg, holes[1].angle_deg))
         chord = 2 * R * math.sin(math.radians(gap) / 2)
         if chord < limits.spacing_ratio * d:
             warnings.append(f"fixed positions {holes[0].angle_deg:g}° and {holes[1].angle_deg:g}° are "
                             f"{chord:.1f} mm apart, under {limits.spacing_ratio:g}·d [CP]")
     achieved = abs(total)
-    ach_angle = _norm(math.degrees(math.atan2(total.imag, total.real))) if achieved > 0 else remove_angle
+    ach_angle = norm_angle(math.degrees(math.atan2(total.imag, total.real))) if achieved > 0 else remove_angle
     want = U * complex(math.cos(math.radians(remove_angle)), math.sin(math.radians(remove_angle)))
     return DrillResult(orientation, R, drill.size, d, angle, tuple(holes), U, remove_angle, action, given,
                        achieved, ach_angle, abs(total - want), dens.kg_m3,
@@ -785,15 +677,15 @@ def _most_removed(orientation, U, R, rho, angle, limits, wall, candidates, fixed
 
 
 def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed, remove_angle=0.0,
-             allow=None) -> str:
-    """The reason a request cannot be drilled and the nearest feasible alternative."""
+             allow=None) -> Infeasible:
+    """The reason a request cannot be drilled and the nearest feasible alternative (the error to raise)."""
     big = candidates[-1].diameter_mm
     small = candidates[0].diameter_mm
     top_big = _top(big, angle, limits, wall, limits.max_depth_ratio)
-    reason = ""
     if top_big < 0:
-        return (f"no room for a {big:g} mm hole: the wall and depth limits leave no depth for its point; "
-                "give a thicker --wall, a flat-bottom tool (--point-angle 180) or another method (plate, washers)")
+        return Infeasible(f"no room for a {big:g} mm hole: the wall and depth limits leave no depth for its point; "
+                          "give a thicker {wall}, a flat-bottom tool ({point_angle_deg} 180) or another method "
+                          "(plate, washers)", mentions=("wall", "point_angle_deg"))
     # largest removal per hole at the refusal limit
     if orientation == "axial":
         one = rho * _axial_volume(big / 2, top_big, _h(big, angle)) * R
@@ -809,20 +701,22 @@ def _nearest(orientation, U, R, rho, angle, limits, wall, candidates, fixed, rem
         most = one * math.sin(math.radians(n * pitch / 2)) / math.sin(math.radians(pitch / 2))
     else:
         most = one
+    values = {"U": (U, "g*mm"), "R": (R, "mm")}
+    if allow is not None:
+        values["allow"] = (allow, "g*mm")
     if U > most:
-        reason = (f"{_fmt(U)} g·mm is more than {f'{n} ×' if not fixed else 'the'} {big:g} mm holes can remove within "
-                  f"the limits (at most about {_fmt(most)} g·mm at {limits.max_depth_ratio:g}·d"
-                  + ("" if allow is None else f", which leaves about {_fmt(U - most)} g·mm, more than the allowance "
-                                              f"of {_fmt(allow)} g·mm")
-                  + "); nearest: remove "
-                  f"{_fmt(most)} g·mm here and the rest in another plane or by another method, or raise "
-                  "--max-depth-ratio if the rotor maker allows")
-    else:
-        least = _least(orientation, small, R, rho, angle)
-        reason = (f"{_fmt(U)} g·mm is less than the smallest {small:g} mm drill removes with its point alone "
-                  f"({_fmt(least)} g·mm at {R:g} mm"
-                  + ("" if allow is None else f", which leaves {_fmt(least - U)} g·mm, more than the allowance "
-                                              f"of {_fmt(allow)} g·mm")
-                  + "); nearest: drill at a smaller radius, use a smaller drill, "
-                  "or leave it if within tolerance")
-    return reason
+        values.update(most=(most, "g*mm"), rest=(U - most, "g*mm"))
+        holes = f"{n} ×" if not fixed else "the"
+        return Infeasible(
+            f"{{U}} is more than {holes} {big:g} mm holes can remove within the limits (at most about {{most}} "
+            f"at {limits.max_depth_ratio:g}·d" + ("" if allow is None else ", which leaves about {rest}, more than "
+                                                   "the allowance of {allow}")
+            + "); nearest: remove {most} here and the rest in another plane or by another method, or raise "
+            "{max_depth_ratio} if the rotor maker allows", mentions=("max_depth_ratio",), quantities=values)
+    least = _least(orientation, small, R, rho, angle)
+    values.update(least=(least, "g*mm"), over=(least - U, "g*mm"))
+    return Infeasible(
+        f"{{U}} is less than the smallest {small:g} mm drill removes with its point alone ({{least}} at {{R}}"
+        + ("" if allow is None else ", which leaves {over}, more than the allowance of {allow}")
+        + "); nearest: drill at a smaller radius, use a smaller drill, or leave it if within tolerance",
+        quantities=values)

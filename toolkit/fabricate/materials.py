@@ -77,17 +77,18 @@ def find(name: str, table: str = "materials") -> Material:
     >>> find("unobtainium")
     Traceback (most recent call last):
     ...
-    toolkit.errors.BadInput: --material: 'unobtainium' is not in the materials table; known: carbon steel, ...
+    toolkit.errors.BadInput: material: 'unobtainium' is not in the materials table; known: carbon steel, ...
     """
     if not isinstance(name, str) or not name.strip():
-        raise BadInput(f"--material: {name!r} is not a material name; e.g. 'steel' or 'S355'")
+        raise BadInput.about("material", f"{name!r} is not a material name; e.g. 'steel' or 'S355'")
     wanted = _key(name)
     table_rows = materials(table)
     for m in table_rows:
         if wanted == _key(m.name) or any(wanted == _key(a) for a in m.aliases):
             return m
-    raise BadInput(f"--material: {name!r} is not in the materials table; known: "
-                   f"{', '.join(m.name for m in table_rows)} (or give --density)")
+    raise BadInput.about("material", f"{name!r} is not in the materials table; known: "
+                                     f"{', '.join(m.name for m in table_rows)} (or give a {{density}})",
+                         mentions=("density",))
 
 
 @dataclass(frozen=True)
@@ -116,17 +117,17 @@ def resolve_density(material=None, density=None, table: str = "materials") -> De
     >>> resolve_density()
     Traceback (most recent call last):
     ...
-    toolkit.errors.BadInput: --material/--density: give a material name (e.g. 'steel') or a density ...
+    toolkit.errors.BadInput: material: give a material name (e.g. 'steel') or a density ...
     """
     mat = find(material, table) if material is not None else None
     if density is not None:
-        rho = magnitude(density, "density", "kg/m**3", "--density", positive=True)
+        rho = magnitude(density, "density", "kg/m**3", "density", positive=True)
         if not 100 <= rho <= 25000:
-            raise BadInput(f"--density: {density!s} is outside 100 to 25000 kg/m³; check the unit")
+            raise BadInput.about("density", f"{density!s} is outside 100 to 25000 kg/m³; check the unit")
         return Density(rho, mat, "given")
     if mat is None:
-        raise BadInput("--material/--density: give a material name (e.g. 'steel') or a density "
-                       "(e.g. '7850 kg/m^3')")
+        raise BadInput.about("material", "give a material name (e.g. 'steel') or a density ({density}, e.g. "
+                                         "'7850 kg/m^3')", mentions=("density",))
     return Density(mat.density_kg_m3, mat, mat.source)
 
 
@@ -167,7 +168,7 @@ def preheat_guidance(ce: float) -> str:
     ('CE 0.30: normally no pre', 'CE 0.50: preheat, low-hy')
     """
     if isinstance(ce, bool) or not isinstance(ce, (int, float)) or not 0 <= ce <= 3:
-        raise BadInput(f"--ce: {ce!r} is not a carbon equivalent (0 to 3, e.g. 0.42)")
+        raise BadInput.about("ce", f"{ce!r} is not a carbon equivalent (0 to 3, e.g. 0.42)")
     if ce < 0.35:
         text = "normally no preheat"
     elif ce <= 0.45:

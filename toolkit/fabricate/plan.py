@@ -25,7 +25,8 @@ from dataclasses import dataclass, field
 from toolkit.errors import BadInput, Infeasible
 from toolkit.fabricate import drilling, plates, washers
 from toolkit.fabricate import stock as _stock
-from toolkit.fabricate.drilling import Limits, correction_g_mm, _norm
+from toolkit.fabricate.drilling import Limits
+from toolkit.fabricate.shared import correction_g_mm, norm_angle, offset_angle
 from toolkit.units import Q_, format_number as _fmt, magnitude
 from toolkit.vectors import parse_angle
 
@@ -160,7 +161,7 @@ def _ops_plate(p: plates.PlateResult, say: _Say | None = None) -> tuple[Operatio
     ops = []
     for i, a in enumerate(p.seat_angles_deg, 1):
         one = p.achieved_g_mm / len(p.seat_angles_deg) if p.seats == 1 else \
-            p.achieved_g_mm / (2 * math.cos(math.radians(abs(drilling._offset(a, p.add_angle_deg)))))
+            p.achieved_g_mm / (2 * math.cos(math.radians(abs(offset_angle(a, p.add_angle_deg)))))
         ops.append(Operation(
             "plate", "add", a, p.mass_g + p.weld_mass_g, one,
             {"thickness_mm": p.thickness_mm, "width_mm": p.width_mm, "length_mm": p.length_mm,
@@ -188,7 +189,7 @@ def _summarise(ops, U, angle, action):
     if action == "remove":
         got = -got
     amount = abs(got)
-    ang = _norm(math.degrees(cmath.phase(got))) if amount > 0 else angle
+    ang = norm_angle(math.degrees(cmath.phase(got))) if amount > 0 else angle
     return amount, ang, abs(got - want)
 
 
@@ -222,7 +223,7 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
         raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
     U = correction_g_mm(unbalance, radius)
     angle = parse_angle(angle_deg, "angle")
-    allow = None if allowance is None else magnitude(allowance, "unbalance", "g*mm", "--allowance",
+    allow = None if allowance is None else magnitude(allowance, "unbalance", "g*mm", "allowance",
                                                      nonnegative=True)
     limits = limits or Limits()
     say = _Say(units)
@@ -253,7 +254,7 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
                     break
     elif method == "plate":
         if width is None:
-            raise BadInput("--width: a plate needs the seat's width, e.g. '40 mm'")
+            raise BadInput.about("width", "a plate needs the seat's width, e.g. '40 mm'")
         kw = dict(common, width=width, shape=shape, surface=surface, stock=stock, stock_unit=stock_unit,
                   max_length=max_length, seat_offset_deg=seat_offset_deg, fillet=fillet, convexity=convexity,
                   weld_run=weld_run, ce=ce)

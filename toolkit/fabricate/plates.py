@@ -21,7 +21,7 @@ from dataclasses import dataclass, asdict
 
 from toolkit.errors import BadInput, Infeasible
 from toolkit.fabricate import stock as _stock
-from toolkit.fabricate.drilling import correction_g_mm, describe_placement, solve_bracketed, _norm
+from toolkit.fabricate.shared import correction_g_mm, describe_placement, norm_angle, solve_bracketed
 from toolkit.fabricate.materials import preheat_guidance, require_weldable, resolve_density
 from toolkit.units import format_number as _fmt, magnitude
 from toolkit.vectors import parse_angle
@@ -108,9 +108,9 @@ def plate_geometry(shape: str, radius, thickness, width, length, density, surfac
     (255.22, 252.94)
     """
     shape, surface = _check_shape(shape, surface)
-    R = magnitude(radius, "length", "mm", "--radius", positive=True)
-    t = magnitude(thickness, "length", "mm", "--thickness", positive=True)
-    w = magnitude(width, "length", "mm", "--width", positive=True)
+    R = magnitude(radius, "length", "mm", "radius", positive=True)
+    t = magnitude(thickness, "length", "mm", "thickness", positive=True)
+    w = magnitude(width, "length", "mm", "width", positive=True)
     b = magnitude(length, "length", "mm", "length", positive=True)
     rho = resolve_density(density=density).g_mm3
     _check_fit_shape(shape, surface, R, t, b)
@@ -120,23 +120,25 @@ def plate_geometry(shape: str, radius, thickness, width, length, density, surfac
 
 def _check_shape(shape, surface):
     if shape not in SHAPES:
-        raise BadInput(f"--shape: {shape!r} is not allowed; use one of {', '.join(SHAPES)}")
+        raise BadInput.about("shape", f"{shape!r} is not allowed; use one of {', '.join(SHAPES)}")
     if surface not in SURFACES:
-        raise BadInput(f"--surface: {surface!r} is not allowed; use one of {', '.join(SURFACES)}")
+        raise BadInput.about("surface", f"{surface!r} is not allowed; use one of {', '.join(SURFACES)}")
     if shape == "flat" and surface == "inner":
-        raise BadInput("--shape flat --surface inner: a flat plate cannot sit in a bore; use --shape rolled")
+        raise BadInput.about("shape", "flat with {surface} inner: a flat plate cannot sit in a bore; use {shape} "
+                                      "rolled", mentions=("surface",))
     return shape, surface
 
 
 def _check_fit_shape(shape, surface, R, t, b):
     if shape == "face" and t <= 0:
-        raise BadInput(f"--thickness: {t!r} must be greater than zero")
+        raise BadInput.about("thickness", f"{t!r} must be greater than zero")
     if shape == "rolled":
         if b >= math.pi * R:
-            raise Infeasible(f"a {b:.0f} mm plate would wrap half the {R:g} mm radius; use two seats or "
-                             "another method")
+            raise Infeasible("a {b} plate would wrap half the {R} {radius}; use two seats or another method",
+                             mentions=("radius",), quantities={"b": (b, "mm"), "R": (R, "mm")})
         if surface == "inner" and t >= R:
-            raise BadInput(f"--thickness: {t:g} mm does not fit inside a {R:g} mm radius")
+            raise BadInput.about("thickness", "{t} does not fit inside a {R} {radius}", mentions=("radius",),
+                                 quantities={"t": (t, "mm"), "R": (R, "mm")})
 
 
 @dataclass(frozen=True)
@@ -238,24 +240,24 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     """
     shape, surface = _check_shape(shape, surface)
     if weld_run not in WELD_RUNS:
-        raise BadInput(f"--weld: {weld_run!r} is not allowed; use one of {', '.join(WELD_RUNS)}")
+        raise BadInput.about("weld_run", f"{weld_run!r} is not allowed; use one of {', '.join(WELD_RUNS)}")
     if action not in ("add", "remove"):
         raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
-    R = float(magnitude(radius, "length", "mm", "--radius", positive=True))
+    R = float(magnitude(radius, "length", "mm", "radius", positive=True))
     U = correction_g_mm(correction, radius)
-    w0 = float(magnitude(width, "length", "mm", "--width", positive=True))
-    st = float(magnitude(step, "length", "mm", "--step", positive=True, bounds=PLATE_STEP_BOUNDS,
+    w0 = float(magnitude(width, "length", "mm", "width", positive=True))
+    st = float(magnitude(step, "length", "mm", "step", positive=True, bounds=PLATE_STEP_BOUNDS,
                          what="plate size step"))
     dens = resolve_density(material, density, materials_table)
     require_weldable(dens)
     rho = dens.g_mm3
     given = parse_angle(angle_deg, "angle")
-    add_angle = _norm(given + 180.0) if action == "remove" else given
+    add_angle = norm_angle(given + 180.0) if action == "remove" else given
     if convexity is None:
         conv, conv_src = DEFAULT_CONVEXITY, "default 20 % [M: 10–30 %]"
     else:
         if isinstance(convexity, bool) or not isinstance(convexity, (int, float)) or not 0 <= convexity <= 1:
-            raise BadInput(f"--convexity: {convexity!r} must be a fraction from 0 to 1 (e.g. 0.2)")
+            raise BadInput.about("convexity", f"{convexity!r} must be a fraction from 0 to 1 (e.g. 0.2)")
         conv, conv_src = float(convexity), "given"
     if not (isinstance(aspect, (int, float)) and aspect > 0):
         raise BadInput(f"aspect: {aspect!r} must be a number greater than zero")
@@ -267,79 +269,32 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     w = float(max(st, round(round(w0 / st) * st, 9)))
     if abs(w - w0) > 1e-9:
         warnings.append(f"width {w0:g} mm rounded to the {st:g} mm step: {w:g} mm")
-    room = None if max_length is None else magnitude(max_length, "length", "mm", "--max-length", positive=True)
+    room = None if max_length is None else magnitude(max_length, "length", "mm", "max_length", positive=True)
     if thickness is not None:
-        tv = float(magnitude(thickness, "length", "mm", "--thickness", positive=True))
+        tv = float(magnitude(thickness, "length", "mm", "thickness", positive=True))
         options = [_stock.PlateThickness(f"{tv:g} mm", tv, "given")]
     else:
         options = list(_stock.plate_stock(stock, stock_unit))
-    fillet_mm = None if fillet is None else magnitude(fillet, "length", "mm", "--fillet", positive=True)
+    fillet_mm = None if fillet is None else magnitude(fillet, "length", "mm", "fillet", positive=True)
     offset = None
     if seat_offset_deg is not None:
         if isinstance(seat_offset_deg, bool) or not isinstance(seat_offset_deg, (int, float)) \
                 or not 0 < seat_offset_deg < 90:
-            raise BadInput(f"--seat-offset: {seat_offset_deg!r} must be an angle between 0 and 90 degrees")
+            raise BadInput.about("seat_offset_deg", f"{seat_offset_deg!r} must be an angle between 0 and 90 "
+                                                    "degrees")
         offset = float(seat_offset_deg)
 
-    def design(t_opt, seats):
-        t = t_opt.thickness_mm
-        if shape == "rolled" and surface == "inner" and t >= R:
-            return None
-        z = fillet_mm if fillet_mm is not None else min(min_fillet_mm(t), t)
-        U1 = U if seats == 1 else U / (2 * math.cos(math.radians(offset)))
-        b, total = _solve_length(shape, surface, R, t, w, U1, rho,
-                                 z if include_weld else 0.0, conv, weld_run)
-        if b is None:
-            return None
-        if b < max(MIN_LENGTH_MM, 2 * z):
-            too_small.append((t_opt, z, total(max(MIN_LENGTH_MM, 2 * z))))
-            return None
-        return t_opt, z, b, total, U1
-
-    chosen = None
-    too_small: list = []
-    limit = aspect * w if thickness is None else math.inf
-    for seats in (1, 2):
-        if seats == 2 and offset is None:
-            break
-        for t_opt in options:
-            got = design(t_opt, seats)
-            if got is None:
-                continue
-            b = got[2]
-            if (room is None or b <= room) and b <= limit:
-                chosen = (seats, got)
-                break
-        if chosen is None and thickness is None:  # no thickness within the aspect: take the first that fits
-            for t_opt in options:
-                got = design(t_opt, seats)
-                if got is not None and (room is None or got[2] <= room):
-                    chosen = (seats, got)
-                    break
-        if chosen:
-            break
+    seat = _Seat(shape, surface, R, w, rho, conv, weld_run, fillet_mm, include_weld)
+    chosen, too_small = _first_fit(seat, options, U, offset, room, aspect * w if thickness is None else math.inf,
+                                   thickness is None)
     allow = None if allowance is None else float(magnitude(allowance, "unbalance", "g*mm", "allowance",
                                                              nonnegative=True))
     smallest_taken = False
     if chosen is None and too_small:
-        t_opt, z, least = min(too_small, key=lambda x: x[2])
-        b_min = max(MIN_LENGTH_MM, 2 * z)
-        b_min = math.ceil(b_min / st - 1e-9) * st
-        m0, r0 = _plate_kernel(shape, surface, R, t_opt.thickness_mm, w, b_min, rho)
-        u0 = m0 * r0 + (_weld_kernel(shape, surface, R, w, b_min, z, conv, weld_run, rho)[1] if include_weld else 0.0)
-        if allow is not None and abs(u0 - U) <= allow + 1e-9 and (room is None or b_min <= room + 1e-9):
-            chosen = (1, (t_opt, z, b_min, None, U))
-            smallest_taken = True
-            warnings.append(f"{_fmt(U)} g·mm is less than the smallest {t_opt.label} plate {w:g} mm wide adds "
-                            f"({b_min:g} mm long with its weld: {_fmt(u0)} g·mm); it leaves {_fmt(abs(u0 - U))} "
-                            f"g·mm, within the allowance of {_fmt(allow)} g·mm: taken")
-    if chosen is None and too_small:
-        t_opt, z, least = min(too_small, key=lambda x: x[2])
-        raise Infeasible(f"{_fmt(U)} g·mm is less than the smallest {t_opt.label} plate {w:g} mm wide adds with its "
-                         f"weld ({max(MIN_LENGTH_MM, 2 * z):g} mm long, {z:g} mm fillets: {_fmt(least)} g·mm)"
-                         + ("" if allow is None else f", which leaves {_fmt(least - U)} g·mm, more than the "
-                                                     f"allowance of {_fmt(allow)} g·mm")
-                         + "; nearest: washers, a drilled hole at the heavy spot, or a narrower plate (--width)")
+        chosen = _smallest_within(seat, too_small, U, allow, room, st, warnings)
+        smallest_taken = chosen is not None
+        if chosen is None:
+            raise _too_small(too_small, U, w, allow)
     if chosen is None:
         reason = _nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, weld_run)
         most = None if allow is None else _most_plate(R, w, options, room, shape, surface, rho, fillet_mm, conv,
@@ -365,23 +320,122 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
                     given_angle_deg=given, error_g_mm=abs(got.achieved_g_mm - U), density_source=dens.source,
                     material=dens.material.name if dens.material else None,
                     warnings=tuple(warnings) + got.warnings + (note,))
-        raise Infeasible(reason)
-    seats, (t_opt, z, b_exact, total, U1) = chosen
-    t = t_opt.thickness_mm
+        raise reason
+    seats, (t_opt, z, b_exact, _total, _U1) = chosen
     b = float(max(st, round(round(b_exact / st) * st, 9)))
     if smallest_taken:
         b = float(b_exact)  # already the shortest plate, on the step
     elif room is not None and b > room + 1e-9:
         b = round(b - st, 9)
+    return _plate_result(seat, seats, t_opt, z, b, offset, U, add_angle, action, given, st, dens, conv_src,
+                         warnings)
+
+
+@dataclass(frozen=True)
+class _Seat:
+    """What every plate on one seat shares: shape, surface, radius and width [mm], density [g/mm³], the
+    weld's convexity, run and fillet leg (None: the minimum for the thickness), and whether the weld counts."""
+
+    shape: str
+    surface: str
+    R: float
+    w: float
+    rho: float
+    conv: float
+    weld_run: str
+    fillet_mm: float | None
+    include_weld: bool
+
+    def fillet(self, t: float) -> float:
+        return self.fillet_mm if self.fillet_mm is not None else min(min_fillet_mm(t), t)
+
+    def adds(self, t: float, z: float, b: float) -> float:
+        """Unbalance [g·mm] of a plate t thick and b long with its weld (fillet leg z), if the weld counts."""
+        m, r = _plate_kernel(self.shape, self.surface, self.R, t, self.w, b, self.rho)
+        weld = _weld_kernel(self.shape, self.surface, self.R, self.w, b, z, self.conv, self.weld_run, self.rho)[1]
+        return m * r + (weld if self.include_weld else 0.0)
+
+
+def _first_fit(seat: _Seat, options, U: float, offset, room, limit: float, any_thickness: bool):
+    """The first stock thickness whose plate fits (on one seat, then on two at ± ``offset``), within the
+    room and, when the thickness is free, within ``limit`` (aspect × width), else the first that fits the
+    room: ``((seats, (thickness, fillet, length, total, U per seat)) or None, plates found too short)``."""
+    too_small: list = []
+
+    def design(t_opt, seats):
+        t = t_opt.thickness_mm
+        if seat.shape == "rolled" and seat.surface == "inner" and t >= seat.R:
+            return None
+        z = seat.fillet(t)
+        U1 = U if seats == 1 else U / (2 * math.cos(math.radians(offset)))
+        b, total = _solve_length(seat.shape, seat.surface, seat.R, t, seat.w, U1, seat.rho,
+                                 z if seat.include_weld else 0.0, seat.conv, seat.weld_run)
+        if b is None:
+            return None
+        if b < max(MIN_LENGTH_MM, 2 * z):
+            too_small.append((t_opt, z, total(max(MIN_LENGTH_MM, 2 * z))))
+            return None
+        return t_opt, z, b, total, U1
+
+    for seats in (1, 2):
+        if seats == 2 and offset is None:
+            break
+        for t_opt in options:
+            got = design(t_opt, seats)
+            if got is not None and (room is None or got[2] <= room) and got[2] <= limit:
+                return (seats, got), too_small
+        if any_thickness:  # no thickness within the aspect: take the first that fits
+            for t_opt in options:
+                got = design(t_opt, seats)
+                if got is not None and (room is None or got[2] <= room):
+                    return (seats, got), too_small
+    return None, too_small
+
+
+def _smallest_within(seat: _Seat, too_small, U: float, allow, room, st: float, warnings: list):
+    """The shortest plate (on the size step), when the request is smaller than it adds and its residual is
+    within the allowance (with a warning saying so); else None."""
+    t_opt, z, _least = min(too_small, key=lambda x: x[2])
+    b_min = math.ceil(max(MIN_LENGTH_MM, 2 * z) / st - 1e-9) * st
+    u0 = seat.adds(t_opt.thickness_mm, z, b_min)
+    if allow is None or abs(u0 - U) > allow + 1e-9 or (room is not None and b_min > room + 1e-9):
+        return None
+    warnings.append(f"{_fmt(U)} g·mm is less than the smallest {t_opt.label} plate {seat.w:g} mm wide adds "
+                    f"({b_min:g} mm long with its weld: {_fmt(u0)} g·mm); it leaves {_fmt(abs(u0 - U))} "
+                    f"g·mm, within the allowance of {_fmt(allow)} g·mm: taken")
+    return 1, (t_opt, z, b_min, None, U)
+
+
+def _too_small(too_small, U: float, w: float, allow) -> Infeasible:
+    """The refusal of a request smaller than the smallest plate adds, with the nearest alternatives."""
+    t_opt, z, least = min(too_small, key=lambda x: x[2])
+    values = {"U": (U, "g*mm"), "least": (least, "g*mm"), "over": (least - U, "g*mm"),
+              "length": (max(MIN_LENGTH_MM, 2 * z), "mm"), "fillet_leg": (z, "mm"), "w": (w, "mm")}
+    if allow is not None:
+        values["allow"] = (allow, "g*mm")
+    return Infeasible(f"{{U}} is less than the smallest {t_opt.label} plate {{w}} wide adds with its weld "
+                      "({length} long, {fillet_leg} fillets: {least})"
+                      + ("" if allow is None else ", which leaves {over}, more than the allowance of {allow}")
+                      + "; nearest: washers, a drilled hole at the heavy spot, or a narrower plate ({width})",
+                      mentions=("width",), quantities=values)
+
+
+def _plate_result(seat: _Seat, seats: int, t_opt, z: float, b: float, offset, U: float, add_angle: float,
+                  action: str, given: float, st: float, dens, conv_src: str, warnings: list) -> PlateResult:
+    """The chosen plate, b long on one or two seats, with what it adds and its warnings."""
+    shape, surface, R, w, rho, conv, weld_run = (seat.shape, seat.surface, seat.R, seat.w, seat.rho, seat.conv,
+                                                 seat.weld_run)
+    t = t_opt.thickness_mm
+    include_weld, fillet_mm = seat.include_weld, seat.fillet_mm
     if shape == "flat":
         gap = R - math.sqrt(max(R * R - (b / 2) ** 2, 0.0)) if surface == "outer" else 0.0
         if gap > 1.0:
             warnings.append(f"a flat {b:g} mm plate stands {gap:.1f} mm off the {R:g} mm surface at its ends; "
-                            "consider --shape rolled [CP]")
+                            "consider a rolled plate [CP]")
     m, rbar = _plate_kernel(shape, surface, R, t, w, b, rho)
     mw, uw = _weld_kernel(shape, surface, R, w, b, z, conv, weld_run, rho) if include_weld else (0.0, 0.0)
     one = m * rbar + uw
-    angles = (add_angle,) if seats == 1 else (_norm(add_angle - offset), _norm(add_angle + offset))
+    angles = (add_angle,) if seats == 1 else (norm_angle(add_angle - offset), norm_angle(add_angle + offset))
     achieved = one if seats == 1 else 2 * one * math.cos(math.radians(offset))
     if seats == 2:
         warnings.append(f"the plate does not fit one seat: split onto two seats at ±{offset:g}° "
@@ -406,10 +460,13 @@ def _most_plate(R, w, options, room, shape, surface, rho, fillet_mm, conv, run) 
     return m * rbar + _weld_kernel(shape, surface, R, w, b, z, conv, run, rho)[1]
 
 
-def _nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, run) -> str:
+def _nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, conv, run) -> Infeasible:
+    """Why no plate can be made, and the nearest feasible alternative (the error to raise)."""
+    values = {"U": (U, "g*mm"), "R": (R, "mm"), "w": (w, "mm")}
     if shape == "rolled" and surface == "inner" and all(o.thickness_mm >= R for o in options):
-        return (f"no plate thinner than the {R:g} mm bore radius is available (thinnest "
-                f"{options[0].label}); nearest: drilled holes or washers, or a plate on the outer surface")
+        return Infeasible(f"no plate thinner than the {{R}} bore {{radius}} is available (thinnest "
+                          f"{options[0].label}); nearest: drilled holes or washers, or a plate on the outer surface",
+                          mentions=("radius",), quantities=values)
     t = options[-1].thickness_mm
     z = fillet_mm if fillet_mm is not None else min(min_fillet_mm(t), t)
     if room is not None:
@@ -417,10 +474,12 @@ def _nearest(U, R, w, options, room, offset, shape, surface, rho, fillet_mm, con
     else:
         b = 0.95 * math.pi * R if shape != "face" else None
     if b is None:
-        return f"no plate found for {U:.4g} g·mm; check the inputs"
+        return Infeasible("no plate found for {U}; check the inputs", quantities=values)
     m, rbar = _plate_kernel(shape, surface, R, t, w, b, rho)
     most = m * rbar + _weld_kernel(shape, surface, R, w, b, z, conv, run, rho)[1]
-    where = f"within the {room:g} mm room" if room is not None else "on this radius"
-    hint = "" if offset is not None else "; or give --seat-offset to split onto two seats"
-    return (f"{_fmt(U)} g·mm needs more than the thickest plate ({options[-1].label}, {w:g} mm wide) adds "
-            f"{where}: at most about {_fmt(most)} g·mm; nearest: a wider plate, a larger radius{hint}")
+    values.update(most=(most, "g*mm"), room=(0.0 if room is None else room, "mm"))
+    where = "within the {room} room ({max_length})" if room is not None else "on this radius"
+    hint = "" if offset is not None else "; or give {seat_offset_deg} to split onto two seats"
+    return Infeasible(f"{{U}} needs more than the thickest plate ({options[-1].label}, {{w}} wide) adds {where}: at "
+                      f"most about {{most}}; nearest: a wider plate, a larger radius{hint}",
+                      mentions=("max_length", "seat_offset_deg"), quantities=values)

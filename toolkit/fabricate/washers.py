@@ -16,7 +16,7 @@ from dataclasses import dataclass, asdict
 
 from toolkit.errors import BadInput, Infeasible
 from toolkit.fabricate import stock as _stock
-from toolkit.fabricate.drilling import correction_g_mm, describe_placement, _norm
+from toolkit.fabricate.shared import correction_g_mm, describe_placement, norm_angle
 from toolkit.fabricate.materials import resolve_density
 from toolkit.units import format_number as _fmt, magnitude
 from toolkit.vectors import parse_angle
@@ -135,12 +135,12 @@ def washer_stack(correction, *, radius, orientation: str = "axial", surface: str
     if orientation not in ("axial", "radial"):
         raise BadInput(f"orientation: {orientation!r} is not allowed; use 'axial' or 'radial'")
     if surface not in ("outer", "inner"):
-        raise BadInput(f"--surface: {surface!r} is not allowed; use 'outer' or 'inner'")
+        raise BadInput.about("surface", f"{surface!r} is not allowed; use 'outer' or 'inner'")
     if action not in ("add", "remove"):
         raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
     if isinstance(max_count, bool) or not isinstance(max_count, int) or not 1 <= max_count <= 50:
-        raise BadInput(f"--max-count: {max_count!r} must be a whole number from 1 to 50")
-    R = float(magnitude(radius, "length", "mm", "--radius", positive=True))
+        raise BadInput.about("max_count", f"{max_count!r} must be a whole number from 1 to 50")
+    R = float(magnitude(radius, "length", "mm", "radius", positive=True))
     U = correction_g_mm(correction, radius)
     if material is None and density is None:
         dens = resolve_density(density="7850 kg/m^3")
@@ -150,7 +150,7 @@ def washer_stack(correction, *, radius, orientation: str = "axial", surface: str
         dens_src = dens.source
     rho = dens.g_mm3
     given = parse_angle(angle_deg, "angle")
-    add_angle = _norm(given + 180.0) if action == "remove" else given
+    add_angle = norm_angle(given + 180.0) if action == "remove" else given
     allow = None if allowance is None else float(magnitude(allowance, "unbalance", "g*mm", "allowance",
                                                              nonnegative=True))
     all_w = _stock.washers(table)
@@ -169,8 +169,9 @@ def washer_stack(correction, *, radius, orientation: str = "axial", surface: str
             if (want_size is None or w.size.lower() == want_size)
             and w.series.lower() == str(series).strip().lower()]
     if not pool:
-        raise BadInput(f"--size/--series: no washer {size or ''} {series or ''} in the table; known: "
-                       f"{', '.join(sorted({w.size + ' (' + w.series + ')' for w in all_w}))}")
+        known = ", ".join(sorted({w.size + " (" + w.series + ")" for w in all_w}))
+        raise BadInput.about("size", f"no washer {size or ''} {series or ''} in the table ({{size}} and "
+                                     f"{{series}}); known: {known}", mentions=("series",))
     best = None
     for w in pool:
         m = _mass(w.d1_mm, w.d2_mm, w.h_mm, rho)
@@ -190,10 +191,10 @@ def washer_stack(correction, *, radius, orientation: str = "axial", surface: str
         warnings.append(f"{_fmt(U)} g·mm is more than {max_count} {biggest.size} washers add; the full stack "
                         f"leaves {_fmt(abs(u - U))} g·mm, within the allowance of {_fmt(allow)} g·mm: taken")
     elif U > u_max * (1 + 0.5 / max_count):
-        raise Infeasible(f"{_fmt(U)} g·mm needs more than {max_count} {biggest.size} washers add at {R:g} mm "
-                         f"({_fmt(u_max)} g·mm){_against(U - u_max, allow)}; nearest: {max_count} × "
-                         f"{biggest.size} and the rest by another "
-                         "method (plate), a larger radius, or raise --max-count if the bolt allows")
+        raise Infeasible(f"{{U}} needs more than {max_count} {biggest.size} washers add at {{R}} ({{most}})"
+                         f"{_against(allow)}; nearest: {max_count} × {biggest.size} and the rest by another "
+                         "method (plate), a larger radius, or raise {max_count} if the bolt allows",
+                         mentions=("max_count",), quantities=_values(U, R, u_max, U - u_max, allow))
     smallest = min(pool, key=lambda x: _mass(x.d1_mm, x.d2_mm, x.h_mm, rho))
     u_min, _ = _stack_u(1, _mass(smallest.d1_mm, smallest.d2_mm, smallest.h_mm, rho), smallest.h_mm, R,
                         orientation, surface)
@@ -201,9 +202,9 @@ def washer_stack(correction, *, radius, orientation: str = "axial", surface: str
         warnings.append(f"{_fmt(U)} g·mm is less than half of one {smallest.size} washer; one washer leaves "
                         f"{_fmt(abs(u - U))} g·mm, within the allowance of {_fmt(allow)} g·mm: taken")
     elif U < 0.5 * u_min:
-        raise Infeasible(f"{_fmt(U)} g·mm is less than half of one {smallest.size} washer at {R:g} mm "
-                         f"({_fmt(u_min)} g·mm){_against(u_min - U, allow)}; nearest: a smaller washer or "
-                         "radius, or leave it if within tolerance")
+        raise Infeasible(f"{{U}} is less than half of one {smallest.size} washer at {{R}} ({{most}})"
+                         f"{_against(allow)}; nearest: a smaller washer or radius, or leave it if within "
+                         "tolerance", quantities=_values(U, R, u_min, u_min - U, allow))
     if abs(u - U) > 0.1 * U and not within:
         warnings.append(f"the nearest stack is {100 * (u - U) / U:+.0f} % off the request; consider another "
                         "size or method")
@@ -212,8 +213,17 @@ def washer_stack(correction, *, radius, orientation: str = "axial", surface: str
                        dens_src, w.source, tuple(warnings))
 
 
-def _against(residual: float, allow: float | None) -> str:
-    """``", which leaves R g·mm, more than the allowance of A g·mm"`` when an allowance was given."""
+def _against(allow: float | None) -> str:
+    """``", which leaves {left}, more than the allowance of {allow}"`` when an allowance was given."""
     if allow is None:
         return ""
-    return f", which leaves {_fmt(abs(residual))} g·mm, more than the allowance of {_fmt(allow)} g·mm"
+    return ", which leaves {left}, more than the allowance of {allow}"
+
+
+def _values(U: float, R: float, stack: float, residual: float, allow: float | None) -> dict:
+    """The quantities of a refusal: the request, the radius, the stack's unbalance, what is left, the
+    allowance."""
+    values = {"U": (U, "g*mm"), "R": (R, "mm"), "most": (stack, "g*mm"), "left": (abs(residual), "g*mm")}
+    if allow is not None:
+        values["allow"] = (allow, "g*mm")
+    return values

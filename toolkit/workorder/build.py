@@ -29,8 +29,8 @@ import math
 import re
 from pathlib import Path
 
-from toolkit.errors import BadInput, Infeasible
-from toolkit.workorder.job import DEFAULTS, Job, load_job, parse_job
+from toolkit.errors import BadInput, Infeasible, quantity_words
+from toolkit.workorder.job import DEFAULTS, Job, job_key_names, load_job, parse_job
 from toolkit.workorder.model import (Formatter, Identification, Operation, PlaneOrder, Setting, Tolerance, WorkOrder,
                                      effect, paper_setting, polar, vector)
 
@@ -261,7 +261,8 @@ def _correct_plane(job: Job, plane, u0: float, a0: float, allowance: float, limi
             # quantised result within it is taken, even the smallest plate, hole or washer
             ops, warnings, cautions, residual = _plan(job, plane, u0, a0, limit, method, step)
         except Infeasible as exc:
-            notes.append(f"plane {plane.name}: {method} not possible ({' '.join(str(exc).split())})")
+            why = exc.worded(job_key_names(job, job.planes.index(plane)), quantity_words(job.shop.units))
+            notes.append(f"plane {plane.name}: {method} not possible ({' '.join(why.split())})")
             continue
         tried.append((method, ops, residual, warnings, cautions))
         if abs(residual) <= limit:

@@ -70,7 +70,7 @@ from toolkit.errors import BadInput
 
 __all__ = [
     "Job", "PlaneSpec", "Measurement", "ShopSettings", "JobError",
-    "load_job", "parse_job", "job_from_data", "key_lines",
+    "load_job", "parse_job", "job_from_data", "key_lines", "job_key_names",
     "METHODS", "SURFACES", "SENSES", "DEFAULTS",
 ]
 
@@ -300,6 +300,9 @@ class Job:
     input_sha256: str = ""
     #: the [key] table (:class:`toolkit.workorder.jobkey.KeySpec`), None when the job has none
     key: Any = None
+    #: where each key was written: key path -> line (a job file), or key path -> column (a planner row)
+    key_lines: Mapping[tuple, int] = field(default_factory=dict, repr=False, compare=False)
+    key_columns: Mapping[tuple, str] | None = field(default=None, repr=False, compare=False)
 
     @property
     def number(self) -> str:
@@ -331,17 +334,18 @@ class _Checker:
                 return self.lines[path[:cut]]
         return None
 
-    def add(self, path: tuple, message: str) -> None:
+    def where(self, path: tuple) -> str:
+        """The key as the user wrote it: ``line 14, plane[1].wall``, or the planner column it came from."""
         if self.columns is not None:
             for cut in range(len(path), 0, -1):
                 if path[:cut] in self.columns:
-                    self.problems.append(f"column {self.columns[path[:cut]]}: {message}")
-                    return
-            self.problems.append(f"{_dotted(path)}: {message}")
-            return
+                    return f"column {self.columns[path[:cut]]}"
+            return _dotted(path)
         line = self.line_of(path)
-        where = f"line {line}, " if line else ""
-        self.problems.append(f"{where}{_dotted(path)}: {message}")
+        return f"line {line}, {_dotted(path)}" if line else _dotted(path)
+
+    def add(self, path: tuple, message: str) -> None:
+        self.problems.append(f"{self.where(path)}: {message}")
 
 
 def _dotted(path: tuple) -> str:
@@ -419,7 +423,7 @@ def _parsed(text: str, kind: str, positive: bool, nonnegative: bool, bounds, wha
     parsing is the costly part of validating a row. Errors are not cached (they raise)."""
     from toolkit.units import quantity
 
-    return quantity(text, kind, "\x00", positive=positive, nonnegative=nonnegative, bounds=bounds, what=what)
+    return quantity(text, kind, None, positive=positive, nonnegative=nonnegative, bounds=bounds, what=what)
 
 
 def _quantity(ck: _Checker, table: Mapping, path: tuple, kind: str, required: bool = False,
@@ -436,14 +440,15 @@ def _quantity(ck: _Checker, table: Mapping, path: tuple, kind: str, required: bo
     try:
         if isinstance(value, str):
             return _parsed(value, kind, positive, nonnegative, bounds, what)
-        return quantity(value, kind, "\x00", positive=positive, nonnegative=nonnegative, bounds=bounds, what=what)
+        return quantity(value, kind, None, positive=positive, nonnegative=nonnegative, bounds=bounds, what=what)
     except BadInput as exc:
-        ck.add(path, _strip_name(str(exc), value))
+        ck.add(path, _strip_name(exc, value))
         return None
 
 
-def _strip_name(message: str, value) -> str:
-    message = message.replace("\x00: ", "", 1)
+def _strip_name(exc: BadInput, value) -> str:
+    """The reader's message about the key's value (the key itself is named by the checker)."""
+    message = exc.text() if exc.parameter is None else str(exc)
     return message if _shown(value) in message or repr(str(value)) in message else f"{_shown(value)}: {message}"
 
 
@@ -475,7 +480,7 @@ def _grade(ck: _Checker, table: Mapping, path: tuple) -> str | None:
         try:
             from toolkit.units import magnitude
 
-            g = magnitude(value, "grade", "mm/s", "\x00", positive=True)
+            g = magnitude(value, "grade", "mm/s", None, positive=True)
             return f"G {g:g}"
         except BadInput:
             pass
@@ -490,7 +495,7 @@ def _angle(ck: _Checker, value, path: tuple) -> float | None:
         ck.add(path, f"{_shown(value)} is not an angle; give degrees such as 90 or \"90 deg\"")
         return None
     try:
-        return parse_angle(value, "\x00")
+        return parse_angle(value, None)
     except BadInput:
         ck.add(path, f"{_shown(value)} is not an angle; give degrees such as 90 or \"90 deg\"")
         return None
@@ -761,7 +766,47 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
                span, com, share, min_share, error_allowance, tuple(planes), reference, sense, measurement,
                ShopSettings(units or "metric", drills, stock, step_deg, mass_step, plate_step, point_angle,
                             MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet, paper),
-               tuple(defaults_used), one_plane_rule=one_plane_rule or "whole", rotor_length=rotor_length, key=key)
+               tuple(defaults_used), one_plane_rule=one_plane_rule or "whole", rotor_length=rotor_length, key=key,
+               key_lines=MappingProxyType(dict(lines or {})),
+               key_columns=None if columns is None else MappingProxyType(dict(columns)))
+
+
+#: Library parameters of the fabrication planner and the job key that sets each: in the plane's own
+#: table, or in the shop's ([shop] or [shop.drilling]).
+_PLANE_KEYS = {"radius": "radius", "wall": "wall", "width": "width", "max_length": "max_length",
+               "material": "material", "fixed_positions": "fixed_positions", "size": "washer_size",
+               "surface": "surface", "shape": "plate_shape", "orientation": "hole_orientation"}
+_SHOP_KEYS = {"point_angle_deg": "point_angle", "drills": "drills", "thickness": "plate_stock",
+              "step": "plate_step", "fillet": "fillet", "convexity": "weld_convexity", "units": "units"}
+
+
+def job_key_names(job: Job, plane: int | None = None):
+    """``name(parameter) -> text``: a library parameter named as the job key that sets it, with the line
+    (or planner column) where it is written, e.g. ``plane[1].wall (line 14)`` or
+    ``[shop.drilling] max_depth_ratio``; ``plane`` is the index of the plane being corrected. A parameter no
+    job key sets keeps the library's name (never a command-line option)."""
+    ck = _Checker(job.origin, dict(job.key_lines), job.key_columns)
+
+    def shown(path: tuple, header: str | None = None) -> str:
+        text = f"[{header}] {path[-1]}" if header else _dotted(path)
+        if job.key_columns is not None:
+            place = ck.where(path)
+            return text if place == _dotted(path) else f"{text} ({place})"
+        line = job.key_lines.get(path)  # only a key written in the file has a line of its own
+        return f"{text} (line {line})" if line else text
+
+    def name(parameter: str) -> str:
+        if plane is not None and parameter == "max_depth_mm" and job.planes[plane].max_depth is not None:
+            return shown(("plane", plane, "max_depth"))
+        if plane is not None and parameter in _PLANE_KEYS:
+            return shown(("plane", plane, _PLANE_KEYS[parameter]))
+        if parameter in DRILLING_KEYS:
+            return shown(("shop", "drilling", parameter), "shop.drilling")
+        if parameter in _SHOP_KEYS:
+            return shown(("shop", _SHOP_KEYS[parameter]), "shop")
+        return parameter
+
+    return name
 
 
 def _speed(ck: _Checker, table: Mapping, path: tuple, required: bool = False) -> float | None:
@@ -773,9 +818,9 @@ def _speed(ck: _Checker, table: Mapping, path: tuple, required: bool = False) ->
             ck.add(path, "missing; give a speed with its unit, e.g. \"1480 rpm\"")
         return None
     try:
-        return speed_rpm(value, "\x00")
+        return speed_rpm(value, None)
     except BadInput as exc:
-        ck.add(path, _strip_name(str(exc), value))
+        ck.add(path, _strip_name(exc, value))
         return None
 
 
@@ -864,12 +909,12 @@ def _measurement(ck: _Checker, meas: Mapping, names: list[str], planes: list[Pla
         if "phase" not in meas:
             ck.add(path + ("phase",), "missing; say how the instrument reports phase: 'lag' or 'lead'")
         if len(planes) == len(names) and sense and "phase" in meas:
-            from toolkit.influence import runs_from_dict
+            from toolkit.runs import runs_from_dict
 
             try:
-                runs_from_dict(data, "\x00")
+                runs_from_dict(data, "")
             except BadInput as exc:
-                ck.add(path + ("run",), str(exc).replace("\x00: ", "", 1))
+                ck.add(path + ("run",), str(exc))
         return Measurement("runs", runs=MappingProxyType(data), raw=raw, thresholds=MappingProxyType(thresholds))
     if kind == "coefficients":
         _unknown(ck, meas, path, ("kind", "coefficients", "original"))
@@ -902,16 +947,16 @@ def _reading(ck: _Checker, value, path: tuple, plane: PlaneSpec):
         ck.add(path, f"{_shown(value)} is not a reading; write AMOUNT@ANGLE, e.g. \"1820 g*mm@40\" or \"5.9 g@40\"")
         return None
     try:
-        amount, angle = parse_vector(value, "unbalance", "\x00")
+        amount, angle = parse_vector(value, "unbalance", None)
         return amount, angle
     except BadInput as exc:
-        reason = str(exc)
+        reason = exc.text() if exc.parameter is None else str(exc)
     try:
-        amount, angle = parse_vector(value, "mass", "\x00")
+        amount, angle = parse_vector(value, "mass", None)
     except BadInput:
         # the reader's own reason when it could not read the amount at all (not merely a wrong dimension)
         why = ("" if "is not a unbalance (" in reason or "is not a vector" in reason
-               else f" ({reason.replace(chr(0) + ': ', '', 1)})")
+               else f" ({reason})")
         ck.add(path, f"{_shown(value)} is not a reading{why}; write AMOUNT@ANGLE with an unbalance or a mass, "
                      "e.g. \"1820 g*mm@40\" or \"5.9 g@40\"")
         return None

@@ -17,6 +17,7 @@ import math
 from dataclasses import asdict, dataclass, field
 
 from toolkit.errors import BadInput
+from toolkit.vectors import polar
 
 __all__ = [
     "Identification", "Tolerance", "Operation", "PlaneOrder", "Setting", "WorkOrder",
@@ -34,16 +35,6 @@ def vector(amount: float, angle_deg: float) -> complex:
     True
     """
     return amount * cmath.exp(1j * math.radians(angle_deg))
-
-
-def polar(z: complex) -> tuple[float, float]:
-    """Amount and angle in [0, 360) of a complex vector.
-
-    >>> polar(vector(3.0, 300.0))
-    (3.0..., 300.0...)
-    """
-    angle = math.degrees(cmath.phase(z)) % 360.0
-    return abs(z), (0.0 if angle >= 360.0 - 1e-12 else angle)
 
 
 def effect(action: str, amount_g_mm: float, angle_deg: float) -> complex:
