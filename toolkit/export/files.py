@@ -359,6 +359,10 @@ class _Summary:
 
         from toolkit.workorder.xlsx import in_memory
 
+        from openpyxl.styles import Alignment, Font
+
+        self._align = {wrap: Alignment(wrap_text=wrap, vertical="top") for wrap in (False, True)}
+        self._bold = Font(bold=True)
         self.wb = Workbook(write_only=True)
         self.ws = self.wb.create_sheet("Summary")
         self.ws.freeze_panes = "A2"
@@ -378,18 +382,17 @@ class _Summary:
 
     def _text(self, value, bold: bool = False):
         from openpyxl.cell import WriteOnlyCell
-        from openpyxl.styles import Alignment, Font
 
         from toolkit.workorder.xlsx import FORMULA_START, clean_text
 
         value = clean_text(value) if isinstance(value, str) else value
         cell = WriteOnlyCell(self.ws, value=value)
-        cell.alignment = Alignment(wrap_text=isinstance(value, str), vertical="top")
+        cell.alignment = self._align[isinstance(value, str)]  # one style object per kind (made once)
         if isinstance(value, (int, float)) and not isinstance(value, bool):
             # room of a ")" on the right, so that a number never touches the text of the next column
             cell.number_format = ("0" if isinstance(value, int) else "0.0##") + "_)"
         if bold:
-            cell.font = Font(bold=True)
+            cell.font = self._bold
         if isinstance(value, str) and value.startswith(FORMULA_START):
             cell.data_type = "s"
         return cell
@@ -402,9 +405,7 @@ class _Summary:
         for width, value in zip(self.WIDTHS, values):
             cell = value if hasattr(value, "value") else self._text(value, bold)
             if bold and hasattr(value, "value"):
-                from openpyxl.styles import Font
-
-                cell.font = Font(bold=True)
+                cell.font = self._bold
             if isinstance(cell.value, str) and cell.value:
                 lines = max(lines, wrapped_lines(cell.value, width, 11.0, bold))
             cells.append(cell)
