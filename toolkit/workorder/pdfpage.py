@@ -154,6 +154,8 @@ def _subset_objects(face, doc, fontname: str, subset):
 
 def clean(text) -> str:
     """Text as one line: control characters (tabs, line breaks) become spaces; composed (NFC) form."""
+    if isinstance(text, str) and text.isascii() and text.isprintable():
+        return text  # nothing to replace, and ASCII is its own NFC form
     text = "" if text is None else _CONTROLS.sub(" ", str(text))
     return unicodedata.normalize("NFC", text)
 
@@ -315,21 +317,27 @@ def draw(c, x: float, y: float, text: str, style: str = "regular", size: float =
     or centred on it (``align`` "right" or "centre"), in the current fill colour. One text object; the
     font switches per run and per 256-character subset, each run starting where the last ended. Returns
     the width drawn."""
-    text = clean(text)
-    w = width(text, style, size)
+    doc = c._doc
+    # the same text in the same style and size draws the same operators within one document (its codes and
+    # subset names never change once given): made once per document, about a third of an order's texts
+    drawn = doc.__dict__.setdefault("_counterpoise_drawn", {})
+    key = (text, style, size)
+    hit = drawn.get(key)
+    if hit is None:
+        shown = clean(text)
+        escape = c._escape
+        parts = []
+        for name, chars in runs(shown, style):
+            font = _by_name(name)
+            for subset, data in _encode(font, chars, doc):
+                parts.append(f"{font.getSubsetInternalName(subset, doc)} {_num(size)} Tf ({escape(data)}) Tj")
+        hit = drawn[key] = (width(shown, style, size), "".join(" " + part for part in parts))
+    w, body = hit
     if align == "right":
         x -= w
     elif align == "centre":
         x -= w / 2
-    doc = c._doc
-    escape = c._escape
-    parts = [f"BT 1 0 0 1 {_num(x)} {_num(y)} Tm"]
-    for name, chars in runs(text, style):
-        font = _by_name(name)
-        for subset, data in _encode(font, chars, doc):
-            parts.append(f"{font.getSubsetInternalName(subset, doc)} {_num(size)} Tf ({escape(data)}) Tj")
-    parts.append("ET")
-    c._code.append(" ".join(parts))
+    c._code.append(f"BT 1 0 0 1 {_num(x)} {_num(y)} Tm{body} ET")
     return w
 
 
