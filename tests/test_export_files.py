@@ -191,7 +191,7 @@ def test_batch_record_records_every_rotor_and_its_files(capsys, tmp_path):
                "--register", register, "--json")
     assert back["order_number"] == numbers[0]
     text = cli(capsys, "batch", sheet, "--out", tmp_path / "again", "--record", "--register", register)
-    assert f"recorded row 2 (SHEET-1) as " in text
+    assert "recorded row 2 (SHEET-1) as " in text
 
 
 def test_batch_rows_from_a_stored_rotor_type(capsys, tmp_path):
