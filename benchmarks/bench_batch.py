@@ -59,7 +59,8 @@ CHILD_BATCH = PEAK + (
 )
 CHILD_FLOOR = PEAK + (
     "import resource, sys\n"
-    "import toolkit.cli, toolkit.workorder.batch, toolkit.workorder.build, toolkit.workorder.pdf, openpyxl\n"
+    "import toolkit.cli, toolkit.export.files, toolkit.workorder.batch, toolkit.workorder.build\n"
+    "import toolkit.workorder.pdf, openpyxl\n"
     "sys.stderr.write(f'peak-kB {peak_kb()}\\n')\n"
 )
 CHILD_BASELINE = PEAK + (
@@ -217,6 +218,18 @@ def _child(code: str, *args: str) -> tuple[float, float, float]:
     return elapsed, cpu, int(line[line.index("peak-kB") + 1]) / 1024
 
 
+def _installed() -> str:
+    """Where the children import the toolkit from, and whether that is what a user installs."""
+    found = subprocess.run([sys.executable, "-P", "-c", "import toolkit; print(toolkit.__file__)"],
+                           capture_output=True, text=True, timeout=120).stdout.strip()
+    if not found:
+        raise SystemExit("the toolkit is not installed for this interpreter; pip install . first")
+    if Path(found).resolve().is_relative_to(ROOT):
+        return (f"{Path(found).parent} (the source tree: an editable install; for figures to quote, "
+                "pip install . into a fresh virtual environment)")
+    return f"{Path(found).parent} (installed, not editable)"
+
+
 def time_batch(rotors: int, runs: int, fmt: str) -> bool:
     import pickle
 
@@ -267,6 +280,7 @@ def main(argv=None) -> int:
     parser.add_argument("--format", choices=("xlsx", "csv"), default="xlsx")
     args = parser.parse_args(argv)
     print(f"python {sys.version.split()[0]}; median of {args.runs} runs, alternating; invented rotors")
+    print(f"timing {_installed()}")
     ok = [time_batch(args.rotors, args.runs, args.format)] if args.rotors else []
     if args.memory_rows:
         ok.append(memory_batch(args.memory_rows, args.format))

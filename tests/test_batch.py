@@ -10,7 +10,8 @@ import pytest
 from pypdf import PdfReader
 
 from toolkit.errors import BadInput, OutputError
-from toolkit.workorder.batch import read_rows, run_batch
+from toolkit.export.files import write_batch
+from toolkit.workorder.batch import read_rows
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 
@@ -36,7 +37,7 @@ def _write_csv(path, header, rows):
 
 
 def test_example_csv(tmp_path):
-    result = run_batch(EXAMPLES / "planner.csv", tmp_path)
+    result = write_batch(EXAMPLES / "planner.csv", tmp_path)
     assert (result.rows, result.done, result.failures) == (4, 4, ())
     rows, ws = _summary(tmp_path / "planner-summary.xlsx")
     assert [r["Order"] for r in rows] == ["PL-0001", "PL-0002", "PL-0003", "PL-0004"]
@@ -56,8 +57,8 @@ def test_example_csv(tmp_path):
 
 
 def test_example_xlsx_matches_csv(tmp_path):
-    a = run_batch(EXAMPLES / "planner.csv", tmp_path / "a")
-    b = run_batch(EXAMPLES / "planner.xlsx", tmp_path / "b")
+    a = write_batch(EXAMPLES / "planner.csv", tmp_path / "a")
+    b = write_batch(EXAMPLES / "planner.xlsx", tmp_path / "b")
     assert (a.rows, a.done) == (b.rows, b.done)
     rows_a, _ = _summary(tmp_path / "a" / "planner-summary.xlsx")
     rows_b, _ = _summary(tmp_path / "b" / "planner-summary.xlsx")
@@ -72,7 +73,7 @@ def test_bad_row_is_reported_and_the_others_complete(tmp_path):
     bad[header.index("plane1_surface")] = "round"
     sheet = tmp_path / "plan.csv"
     _write_csv(sheet, header, [good[0], bad, good[1]])
-    result = run_batch(sheet, tmp_path / "out")
+    result = write_batch(sheet, tmp_path / "out")
     assert result.done == 2
     (row, reason), = result.failures
     assert row == 3  # the sheet's own row number (header is row 1)
@@ -90,7 +91,7 @@ def test_duplicate_order_numbers(tmp_path):
     header, good = _good_rows()
     sheet = tmp_path / "dup.csv"
     _write_csv(sheet, header, [good[0], good[0]])
-    result = run_batch(sheet, tmp_path / "out")
+    result = write_batch(sheet, tmp_path / "out")
     assert result.done == 1
     assert result.failures[0][0] == 3 and "same file name as row 2" in result.failures[0][1]
 
@@ -99,13 +100,13 @@ def test_sheet_level_problems_stop_before_writing(tmp_path):
     sheet = tmp_path / "s.csv"
     sheet.write_text("order,rotor,colour\nX,Y,red\n", encoding="utf-8")
     with pytest.raises(BadInput, match=r"s.csv, row 1: unknown column\(s\) colour"):
-        run_batch(sheet, tmp_path / "out")
+        write_batch(sheet, tmp_path / "out")
     assert not (tmp_path / "out").exists()
     (tmp_path / "s.txt").write_text("order\n", encoding="utf-8")
     with pytest.raises(BadInput, match="is not a planner sheet; give a .xlsx or .csv file"):
-        run_batch(tmp_path / "s.txt", tmp_path / "out")
+        write_batch(tmp_path / "s.txt", tmp_path / "out")
     with pytest.raises(BadInput, match="no such planner sheet"):
-        run_batch(tmp_path / "none.csv", tmp_path / "out")
+        write_batch(tmp_path / "none.csv", tmp_path / "out")
 
 
 def test_summary_text_cannot_become_a_formula(tmp_path):
@@ -115,19 +116,19 @@ def test_summary_text_cannot_become_a_formula(tmp_path):
     row[header.index("order")] = "+PL-1"
     sheet = tmp_path / "evil.csv"
     _write_csv(sheet, header, [row])
-    run_batch(sheet, tmp_path / "out")
+    write_batch(sheet, tmp_path / "out")
     ws = openpyxl.load_workbook(tmp_path / "out" / "evil-summary.xlsx")["Summary"]
     assert ws["C2"].value == '=HYPERLINK("http://x","y")' and ws["C2"].data_type == "s"
     assert ws["B2"].value == "+PL-1" and ws["B2"].data_type == "s"
 
 
 def test_overwrite_refusal(tmp_path):
-    run_batch(EXAMPLES / "planner.csv", tmp_path)
+    write_batch(EXAMPLES / "planner.csv", tmp_path)
     before = (tmp_path / "planner-summary.xlsx").read_bytes()
     with pytest.raises(OutputError, match="planner-orders.pdf already exists; give force"):
-        run_batch(EXAMPLES / "planner.csv", tmp_path)
+        write_batch(EXAMPLES / "planner.csv", tmp_path)
     assert (tmp_path / "planner-summary.xlsx").read_bytes() == before
-    assert run_batch(EXAMPLES / "planner.csv", tmp_path, force=True).done == 4
+    assert write_batch(EXAMPLES / "planner.csv", tmp_path, force=True).done == 4
 
 
 def test_xlsx_rows_keep_sheet_row_numbers(tmp_path):
@@ -146,26 +147,26 @@ def test_progress_reaches_the_caller_and_the_library_prints_nothing(tmp_path, ca
     from toolkit.commands.workorders import Progress
 
     calls = []
-    run_batch(EXAMPLES / "planner.csv", tmp_path / "a", progress=lambda *a: calls.append(a))
+    write_batch(EXAMPLES / "planner.csv", tmp_path / "a", progress=lambda *a: calls.append(a))
     assert calls[-1] == (4, 4, 0, True) and all(c[1] == 4 for c in calls)
     assert capsys.readouterr() == ("", "")  # the library never writes to the terminal
-    run_batch(EXAMPLES / "planner.csv", tmp_path / "b", progress=Progress())  # the command line's bar
+    write_batch(EXAMPLES / "planner.csv", tmp_path / "b", progress=Progress())  # the command line's bar
     err = capsys.readouterr().err
     assert "\r[" in err and "4/4 rows, 0 failed" in err
-    run_batch(EXAMPLES / "planner.csv", tmp_path / "c")
+    write_batch(EXAMPLES / "planner.csv", tmp_path / "c")
     assert capsys.readouterr().err == ""
 
 
 def test_inputs_are_not_modified(tmp_path):
     before = {p.name: p.read_bytes() for p in EXAMPLES.iterdir() if p.is_file()}
-    run_batch(EXAMPLES / "planner.xlsx", tmp_path)
+    write_batch(EXAMPLES / "planner.xlsx", tmp_path)
     after = {p.name: p.read_bytes() for p in EXAMPLES.iterdir() if p.is_file()}
     assert before == after
 
 
 def test_summary_is_readable_by_a_plain_csv_comparison(tmp_path):
     """Every data row of the sheet has exactly one summary row, in order."""
-    run_batch(EXAMPLES / "planner.csv", tmp_path)
+    write_batch(EXAMPLES / "planner.csv", tmp_path)
     rows, _ = _summary(tmp_path / "planner-summary.xlsx")
     with open(EXAMPLES / "planner.csv", encoding="utf-8") as handle:
         orders = [r["order"] for r in csv.DictReader(io.StringIO(handle.read()))]
@@ -179,7 +180,7 @@ def test_control_characters_fail_the_row_not_the_batch(tmp_path, column, char):
     row[header.index(column)] += char + "z"
     sheet = tmp_path / "ctl.csv"
     _write_csv(sheet, header, [row, good[1]])
-    result = run_batch(sheet, tmp_path / "out")
+    result = write_batch(sheet, tmp_path / "out")
     assert result.done == 1 and result.failures[0][0] == 2
     assert "contains a control character" in result.failures[0][1]
     rows, _ = _summary(tmp_path / "out" / "ctl-summary.xlsx")
@@ -204,7 +205,7 @@ def test_a_small_workbook_that_unpacks_huge_is_refused(tmp_path):
             dst.writestr(item.filename, data)
     assert sheet.stat().st_size < 1_000_000
     with pytest.raises(BadInput, match=r"bomb.xlsx: part xl/worksheets/sheet1.xml unpacks to \d+ bytes"):
-        run_batch(sheet, tmp_path / "out")
+        write_batch(sheet, tmp_path / "out")
     assert not (tmp_path / "out").exists()
 
 

@@ -15,7 +15,8 @@ from pathlib import Path
 import pytest
 
 from toolkit.errors import BadInput
-from toolkit.workorder.batch import COLUMNS, row_job, run_batch
+from toolkit.export.files import write_batch
+from toolkit.workorder.batch import COLUMNS, row_job
 from toolkit.workorder.build import build_order
 
 ONE_PLANE = {
@@ -93,5 +94,5 @@ def test_a_sheet_with_the_new_columns_runs(tmp_path):
         writer = csv.writer(handle)
         writer.writerow(header)
         writer.writerows([[r.get(h, "") for h in header] for r in rows])
-    result = run_batch(sheet, tmp_path / "out")
+    result = write_batch(sheet, tmp_path / "out")
     assert (result.rows, result.done, result.failures) == (2, 2, ())

@@ -338,7 +338,7 @@ EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 def _batch_summary(tmp_path, units: str | None = None):
     import csv
 
-    from toolkit.workorder.batch import run_batch
+    from toolkit.export.files import write_batch as run_batch
 
     sheet = EXAMPLES / "planner.csv"
     if units:

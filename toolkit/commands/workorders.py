@@ -46,9 +46,19 @@ def configure_batch(parser) -> None:
                         help="continue an interrupted batch in the same folder: keep the orders already "
                              "written from unchanged rows, write the others, then the summary and combined "
                              "PDF over all of them")
+    parser.add_argument("--order-workbooks", action="store_true",
+                        help="also write each rotor's work-order workbook (<order>.xlsx) beside its PDF")
     _paper_option(parser)
     add_force(parser)
     add_json(parser)
+    group = parser.add_argument_group("register")
+    group.add_argument("--record", action="store_true",
+                       help="record each rotor's job in the register; the register allocates the order numbers "
+                            "(a row's rotor_type column starts it from a stored rotor type, its serial column "
+                            "gives the serial number)")
+    from toolkit.commands.register import _where
+
+    _where(group)
     parser.set_defaults(run=run_batch)
 
 
@@ -104,27 +114,11 @@ def out_folder(text) -> "Path":
 
 
 def write_order_files(order, out: str, formats, force: bool) -> list[str]:
-    """Write the chosen files of one work order into ``out``, together: nothing is written if any target
-    exists (without ``force``), and two runs writing the same order never leave a mixed pair."""
-    from pathlib import Path
+    """Write the chosen files of one work order into ``out`` (:func:`toolkit.export.files.write_order`),
+    with ``--out`` named when the folder is something else."""
+    from toolkit.export.files import write_order
 
-    from toolkit.fileio import check_writable, output_error, safe_filename, write_together
-    from toolkit.workorder import pdf, xlsx
-
-    folder = out_folder(out)
-    stem = safe_filename(order.ident.number)
-    paths = {fmt: folder / f"{stem}.{fmt}" for fmt in formats}
-    for path in paths.values():
-        check_writable(path, force)
-    data = {}
-    for fmt, make in (("xlsx", xlsx.to_bytes), ("pdf", pdf.to_bytes)):
-        if fmt in paths:
-            try:
-                data[fmt] = make(order)
-            except OSError as exc:  # a library's scratch space (a full temporary folder)
-                raise output_error(paths[fmt], exc) from None
-    written = write_together([(paths[fmt], data[fmt]) for fmt in formats], force=force)
-    return [str(Path(p)) for p in written]
+    return write_order(order, out_folder(out), formats, force=force)
 
 
 def summary(order, files: list[str]) -> str:
@@ -213,28 +207,82 @@ class Progress:
         sys.stderr.flush()
 
 
+class _BatchRegister:
+    """The shop register as a batch uses it: stored rotor types for the sheet's ``rotor_type`` column, and
+    with ``--record`` each rotor's job recorded (the register numbers it) and its files. Opened on first
+    use only."""
+
+    def __init__(self, args):
+        self.args = args
+        self.reg = None
+        self.versions: dict[str, int] = {}
+        self.recorded: list[dict] = []
+
+    def _open(self):
+        if self.reg is None:
+            from toolkit.register import open_register
+
+            self.reg = open_register(self.args.register)
+        return self.reg
+
+    def template_for(self, name: str) -> dict:
+        from toolkit.register import records as R
+
+        t = R.template(self._open(), name)
+        self.versions[name] = t["version_id"]
+        return R._loads(t["template"], f"rotor type {t['type']} version {t['version']}")
+
+    def prepare(self, row):
+        from toolkit.register import records as R
+
+        text = R.toml_text(row.data, f"job of {row.origin} (planner sheet row)")
+        type_name = row.cells.get("rotor_type", "")
+        order, rec = R.store_order(self._open(), row.order, text, dict(row.job.order),
+                                   type_version_id=self.versions.get(type_name) if type_name else None)
+        self.recorded.append({"row": row.number, "order_number": rec["order_number"],
+                              "sheet_order": row.cells.get("order", "")})
+        return order
+
+    def written(self, row, order, paths) -> None:
+        from toolkit.register import records as R
+
+        R.add_files(self._open(), order.ident.number, paths)
+
+    def close(self) -> None:
+        if self.reg is not None:
+            self.reg.close()
+
+
 def run_batch(args) -> int:
     import sys
-
-    from toolkit.workorder.batch import run_batch as batch
 
     from pathlib import Path
 
     from toolkit.errors import BadInput, OutputError
+    from toolkit.export.files import write_batch
 
     if Path(args.sheet).is_dir():
         raise BadInput(f"{args.sheet} is a folder; give a planner sheet (.xlsx or .csv file)")
+    if args.record and args.carry_on:
+        raise BadInput("--record and --carry-on: give one of them (a continued batch would record its rows "
+                       "a second time)")
     out = out_folder(args.out)
     progress = Progress() if sys.stderr.isatty() and not args.json else None
+    register = _BatchRegister(args)
+    formats = ("pdf", "xlsx") if args.order_workbooks else ("pdf",)
     try:
-        result = batch(args.sheet, out, force=args.force, progress=progress, carry_on=args.carry_on,
-                       paper=_paper_name(args))
+        result = write_batch(args.sheet, out, force=args.force, progress=progress, carry_on=args.carry_on,
+                             paper=_paper_name(args), formats=formats, template_for=register.template_for,
+                             prepare=register.prepare if args.record else None,
+                             written=register.written if args.record else None)
     except OutputError as exc:
         if not args.carry_on and "already exists" in str(exc) and any(out.glob("*-batch.json")):
             from toolkit.commands._common import error_text
 
             raise OutputError(f"{error_text(exc, args)}, or --carry-on to continue the batch it records") from None
         raise
+    finally:
+        register.close()
     kept = f", {len(result.kept)} kept from the earlier run" if result.kept else ""
     lines = [f"Batch {args.sheet}: {result.done - len(result.kept)} work order(s) written{kept}, "
              f"{len(result.failures)} row(s) failed"]
@@ -242,5 +290,9 @@ def run_batch(args) -> int:
     lines += [f"  kept {f} (already written from the same row)" for f in result.kept]
     lines += [f"  row {row}: {reason}" for row, reason in result.failures]
     lines += [f"  out of tolerance (predicted): {n}" for n in result.out_of_tolerance]
-    emit(args.json, result.to_dict(), "\n".join(lines))
+    data = result.to_dict()
+    if args.record:
+        data["recorded"] = register.recorded
+        lines += [f"  recorded row {r['row']} ({r['sheet_order']}) as {r['order_number']}" for r in register.recorded]
+    emit(args.json, data, "\n".join(lines))
     return 1 if result.failures or result.out_of_tolerance else 0

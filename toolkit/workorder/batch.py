@@ -1,5 +1,4 @@
-"""Planner batches: one rotor per row of a sheet (.xlsx or .csv) to a work order per rotor, a combined PDF
-and a summary workbook.
+"""Planner batches: one rotor per row of a sheet (.xlsx or .csv), each row turned into a work order.
 
 The sheet has one header row; the column names are below (case and surrounding spaces do not matter;
 unknown columns are refused so that a typing error cannot silently drop a value). Empty cells are left
@@ -40,28 +39,28 @@ planeN_width, planeN_wall, planeN_max_depth, planeN_max_length, planeN_washer_si
 planeN_plate_shape, planeN_hole_orientation, planeN_fixed_positions (angles separated by ``;``)
 job                 optional: a job file (path relative to the sheet) used as the base for this row;
                     the row's non-empty cells replace its values (use it for trial-run jobs)
+rotor_type          optional: a stored rotor type of the shop register whose newest template is the base
+                    for this row (as ``job`` is); only where the caller gives the register's templates
 ==================  =======================================================================
 
-Outputs in the output folder: ``<order>.pdf`` per rotor, ``<sheet>-orders.pdf`` (every work order in one
-document, each with its own page numbers) and ``<sheet>-summary.xlsx`` (one row per rotor: allowances,
-corrections, predicted residuals, status, file or reason). A bad row is reported with its row number and
-reason and the other rows go on.
+This module only turns rows into work orders: :func:`orders` yields one :class:`Row` per non-empty data
+row, with its order or the reason it failed (a bad row never stops the others). Writing the files (a PDF
+per rotor, the combined PDF, the summary workbook, the batch's record) is
+:func:`toolkit.export.files.write_batch`.
 
-Scale: the sheet is streamed (openpyxl read-only mode, or the csv reader), the summary is written in
-openpyxl's write-only mode, and each order's pages are finished as soon as it is drawn, so memory grows
-with the combined PDF only.
+Scale: the sheet is streamed (openpyxl read-only mode, or the csv reader) and each row is built when it is
+asked for, so memory does not grow with the rows.
 """
 
 from __future__ import annotations
 
 import csv
-import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
 from toolkit.errors import BadInput, CounterpoiseError
 
-__all__ = ["COLUMNS", "PLANE_COLUMNS", "BatchResult", "run_batch", "read_rows", "row_job"]
+__all__ = ["COLUMNS", "PLANE_COLUMNS", "Row", "orders", "read_rows", "row_job", "row_data", "row_inputs"]
 
 #: Top-level columns and the job key path each fills.
 COLUMNS = {
@@ -87,28 +86,7 @@ MAX_PLANES = 2
 
 
 def _known_columns() -> set[str]:
-    return set(COLUMNS) | {"job"} | {f"plane{n}_{c}" for n in range(1, MAX_PLANES + 1) for c in PLANE_COLUMNS}
-
-
-@dataclass(frozen=True)
-class BatchResult:
-    """What a batch did: rows read, orders written, failed rows (row number, reason), orders predicted out
-    of tolerance, and the files written."""
-
-    sheet: str
-    rows: int
-    done: int
-    failures: tuple[tuple[int, str], ...]
-    out_of_tolerance: tuple[str, ...]
-    files: tuple[str, ...]
-    seconds: float = field(default=0.0, compare=False)
-    kept: tuple[str, ...] = ()
-
-    def to_dict(self) -> dict:
-        return {"sheet": self.sheet, "rows": self.rows, "done": self.done,
-                "failures": [{"row": r, "reason": why} for r, why in self.failures],
-                "out_of_tolerance": list(self.out_of_tolerance), "files": list(self.files),
-                "kept": list(self.kept), "seconds": round(self.seconds, 3)}
+    return set(COLUMNS) | {"job", "rotor_type"} | {f"plane{n}_{c}" for n in range(1, MAX_PLANES + 1) for c in PLANE_COLUMNS}
 
 
 # -- reading the sheet --------------------------------------------------------------------------------
@@ -338,20 +316,28 @@ def _put(data: dict, path: tuple, value) -> None:
     table[path[-1]] = value
 
 
-def row_job(cells: dict, origin: str, base: Path):
-    """Validate one planner row and return its :class:`~toolkit.workorder.job.Job` (problems name the
-    column)."""
+def row_data(cells: dict, base: Path, template_for=None) -> tuple[dict, dict, Path]:
+    """A planner row as job data: ``(data, columns, base)``, where ``columns`` maps each job key path the
+    row filled to its column (for the messages) and ``base`` is the folder the row's file names are read
+    from. The base of the data is the row's ``job`` file, or the stored rotor type ``template_for(name)``
+    gives (job data, a dict) for the ``rotor_type`` column, or an empty machine-reading job."""
     import copy
-
-    from toolkit.workorder.job import job_from_data
 
     data: dict = {}
     columns: dict[tuple, str] = {}
     template = cells.get("job", "")
+    type_name = cells.get("rotor_type", "")
+    if template and type_name:
+        raise BadInput("columns job and rotor_type: give one base for the row, not both")
     if template:
         file = (base / template) if not Path(template).is_absolute() else Path(template)
         data = copy.deepcopy(_template(file))  # the row's cells are put into its own copy
         base = file.parent
+    elif type_name:
+        if template_for is None:
+            raise BadInput(f"column rotor_type: {type_name!r} names a stored rotor type, and no shop register "
+                           "was given to read it from")
+        data = copy.deepcopy(template_for(type_name))
     else:
         data["measurement"] = {"kind": "machine"}
     for column, path in COLUMNS.items():
@@ -359,9 +345,9 @@ def row_job(cells: dict, origin: str, base: Path):
         if text:
             _put(data, path, _number(text) if column in _NUMBERS else text)
             columns[path] = column
-    if "key" in data and not template:  # a fill or marking without its convention: name the missing column
+    if "key" in data and not (template or type_name):  # a fill or marking without its convention: name it
         columns.setdefault(("key", "convention"), "key_convention")
-    planes = data.get("plane") if template else None
+    planes = data.get("plane") if (template or type_name) else None
     planes = list(planes) if isinstance(planes, list) else []
     for n in range(1, MAX_PLANES + 1):
         given = {c: cells.get(f"plane{n}_{c}", "") for c in PLANE_COLUMNS}
@@ -383,6 +369,15 @@ def row_job(cells: dict, origin: str, base: Path):
             columns[("measurement", "readings", name)] = f"plane{n}_reading"
     if planes:
         data["plane"] = planes
+    return data, columns, base
+
+
+def row_job(cells: dict, origin: str, base: Path, template_for=None):
+    """Validate one planner row and return its :class:`~toolkit.workorder.job.Job` (problems name the
+    column)."""
+    from toolkit.workorder.job import job_from_data
+
+    data, columns, base = row_data(cells, base, template_for)
     return job_from_data(data, origin, base, columns=columns, what="the row")
 
 
@@ -427,40 +422,22 @@ def _template(file: Path) -> dict:
 _TEMPLATES: dict[tuple, dict] = {}
 
 
-# -- the batch ----------------------------------------------------------------------------------------
+# -- the rows' work orders -------------------------------------------------------------------------
 
-#: The batch's own record in the output folder: for each order file, its row, a hash of the row's inputs
-#: and a hash of the file written; used to continue an interrupted batch.
-MANIFEST_FORMAT = "counterpoise-batch"
-#: Seconds between two saves of the record while a batch runs (it is also saved at the end and when the
-#: batch is stopped by a signal).
-MANIFEST_EVERY = 1.0
-
-
-def _digest(data: bytes) -> str:
-    import hashlib
-
-    return hashlib.sha256(data).hexdigest()
-
-
-def _file_digest(path: Path) -> str | None:
-    try:
-        return _digest(path.read_bytes())
-    except OSError:
-        return None
-
-
-def row_inputs(cells: dict, base: Path, paper: str | None = None) -> str:
+def row_inputs(cells: dict, base: Path, paper: str | None = None, template: dict | None = None) -> str:
     """A hash of what a planner row's order is made from: its cells, the files they name (job template,
-    shop tables), the paper asked for on the command line and the program version."""
+    shop tables), the stored rotor type's template (``template``) where the row names one, the paper asked
+    for by the caller and the program version."""
     import hashlib
     import json
 
     from toolkit import __version__
 
     h = hashlib.sha256()
-    h.update(json.dumps({"version": __version__, "cells": cells, "paper": paper}, sort_keys=True,
-                        ensure_ascii=True).encode())
+    given = {"version": __version__, "cells": cells, "paper": paper}
+    if template is not None:
+        given["template"] = template
+    h.update(json.dumps(given, sort_keys=True, ensure_ascii=True, default=str).encode())
     for column in ("job", "drills", "plate_stock"):
         name = cells.get(column, "")
         if name:
@@ -472,316 +449,89 @@ def row_inputs(cells: dict, base: Path, paper: str | None = None) -> str:
     return h.hexdigest()
 
 
-def _load_manifest(path: Path) -> dict | None:
-    """The record of an earlier batch, or None when there is none; a file of another kind is refused."""
-    import json
+@dataclass(frozen=True)
+class Row:
+    """One data row of a planner sheet: its row number, its cells, ``origin`` (sheet and row, for
+    messages), and either ``order`` (the :class:`~toolkit.workorder.model.WorkOrder`, with ``job`` and
+    ``data``, the validated job and the job data it was built from) or ``reason`` (why it failed, one line
+    without the origin). ``inputs`` is :func:`row_inputs` of the row."""
 
-    from toolkit.errors import OutputError
+    number: int
+    cells: dict
+    origin: str
+    inputs: str = ""
+    order: object = None
+    job: object = None
+    data: dict | None = None
+    reason: str | None = None
 
-    try:
-        raw = path.read_bytes()
-    except FileNotFoundError:
-        return None
-    except OSError as exc:
-        raise OutputError(f"cannot read {path}: {exc.strerror}") from None
-    try:
-        data = json.loads(raw.decode("utf-8"))
-        if data.get("format") != MANIFEST_FORMAT or not isinstance(data.get("orders"), dict):
-            raise ValueError
-    except (ValueError, UnicodeDecodeError, AttributeError, RecursionError):
-        raise OutputError(f"{path} is not the record of a batch, so it is not replaced; move it away, or "
-                          "allow overwriting") from None
-    return data
+    @property
+    def failed(self) -> bool:
+        return self.order is None
 
 
-def run_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, progress=None,
-              carry_on: bool = False, paper: str | None = None) -> BatchResult:
-    """Turn every row of a planner sheet into a work order.
+def reason_of(exc: Exception, origin: str) -> str:
+    """A library error as one line without its ``origin`` prefix (the row number is said elsewhere)."""
+    reason = " ".join(str(exc).split())
+    prefix = f"{origin}: "
+    return reason[len(prefix):] if reason.startswith(prefix) else reason
 
-    Writes one PDF per rotor, the combined PDF, the summary workbook and the batch's record
-    (``<sheet>-batch.json``) into ``out`` (atomically; an existing file is replaced only with ``force``). A
-    row that cannot be built is recorded with its row number and reason; the others go on. A row whose file
-    name is taken by another row or by the batch's own files fails with that reason before anything of it
-    is written.
 
-    ``carry_on`` continues an interrupted batch: a row whose PDF is already in the folder, made from the
-    same inputs (the record's hash) or byte for byte what the row gives now, is kept as it is; the summary
-    and the combined PDF are made over every row, and the batch's own files of the earlier run are replaced.
+def orders(sheet: str | Path, *, paper: str | None = None, paper_source: str = "command line",
+           progress=None, template_for=None):
+    """Yield one :class:`Row` per non-empty data row of a planner sheet, in the sheet's order.
 
-    Raises :class:`~toolkit.errors.BadInput` only for problems of the whole sheet (missing, unreadable,
-    unknown columns) and :class:`~toolkit.errors.OutputError` when the summary or combined files exist
-    without ``force`` (or, with ``carry_on``, were not made by the recorded batch), or cannot be written.
+    Problems of the whole sheet (missing, unreadable, unknown columns) raise
+    :class:`~toolkit.errors.BadInput` at the first step of the iteration, before any row is built; a row
+    that cannot be built is yielded with its reason and the others go on. ``paper`` (``"A4"`` or
+    ``"Letter"``) prints every order on that paper, with ``paper_source`` named as where it came from.
+    ``template_for(name)`` returns the job data of a stored rotor type (for the ``rotor_type`` column).
+
+    ``progress(done, total, failed, final)`` is called after each row has been handled by the caller (the
+    rows handed out so far, the rows expected or None when unknown, the rows that failed here, and True on
+    the last call); it never prints anything itself.
     """
-    import json
-
-    from toolkit.errors import OutputError
-    from toolkit.fileio import check_writable, describe, output_error, safe_filename, write_atomic
-    from toolkit.workorder import pdf
     from toolkit.workorder.build import build_order
+    from toolkit.workorder.job import job_from_data
     from toolkit.workorder.model import with_paper
 
-    start = time.perf_counter()
     sheet = Path(sheet)
-    out = Path(out)
-    kind = describe(out)
-    if kind is not None:
-        raise OutputError(f"{out} is {kind}; the output must be a folder (it is created if missing)")
-    stem = safe_filename(sheet.stem, "planner")
-    combined_path = out / f"{stem}-orders.pdf"
-    summary_path = out / f"{stem}-summary.xlsx"
-    manifest_path = out / f"{stem}-batch.json"
-    own = {p.name.casefold(): p.name for p in (combined_path, summary_path, manifest_path)}
-    earlier = _load_manifest(manifest_path) if (carry_on and not force) else None
-    recorded = earlier.get("orders", {}) if earlier else {}
-    batch_force = force
-    if carry_on and not force:
-        # the batch's own files may be replaced when the record says the recorded batch made them, or when
-        # it records a batch that did not finish (it was stopped after writing one of them)
-        for path, key in ((combined_path, "combined"), (summary_path, "summary")):
-            if path.exists() and (earlier is None or (earlier.get("complete") is not False
-                                                      and earlier.get(key) != _file_digest(path))):
-                check_writable(path, False)
-        batch_force = earlier is not None
-    for path in (combined_path, summary_path, manifest_path):
-        check_writable(path, batch_force)
-    rows = read_rows(sheet)
-    first = next(rows, None)  # sheet-level problems surface before anything is written
-    total = _count_rows(sheet) if progress else None
-
-    def report(done: int, final: bool = False) -> None:
-        if progress:
-            progress(done, total, len(failures), final)
-    summary = _Summary()
-    try:
-        combined = pdf.Document()
-    except OSError as exc:
-        summary.discard()
-        raise output_error(combined_path, exc) from None
-    seen: dict[str, int] = {}
-    failures: list[tuple[int, str]] = []
-    failing: list[str] = []
-    files: list[str] = []
-    kept: list[str] = []
-    record: dict[str, dict] = {}
-    count = 0
     base = sheet.parent
-    last_save = [time.monotonic()]
+    rows = read_rows(sheet)
+    first = next(rows, None)  # sheet-level problems surface before any row is built
+    total = _count_rows(sheet) if progress else None
+    done = failed = 0
+    seen_templates: dict[str, dict] = {}
 
-    def save_record(final: dict | None = None) -> None:
-        data = {"format": MANIFEST_FORMAT, "version": 1, "sheet": str(sheet), "orders": record,
-                **(final or {"complete": False})}
-        text = json.dumps(data, indent=1, ensure_ascii=True) + "\n"
-        write_atomic(manifest_path, text, force=saved[0] or batch_force)
-        saved[0] = True
+    def remembered(name: str) -> dict:
+        data = template_for(name)
+        seen_templates[name] = data
+        return data
 
-    saved = [False]
-
-    def one(number: int, cells: dict) -> None:
+    for number, cells in (_chain(first, rows) if first is not None else ()):
         origin = f"{sheet}, row {number}"
+        seen_templates.clear()
         try:
             if _DAMAGED in cells:
                 raise BadInput(cells[_DAMAGED])
-            order = build_order(row_job(cells, origin, base))
+            data, columns, row_base = row_data(cells, base, remembered if template_for else None)
+            job = job_from_data(data, origin, row_base, columns=columns, what="the row")
+            order = build_order(job)
             if paper:
-                order = with_paper(order, paper, "command line")
-            name = safe_filename(order.ident.number)
-            key = f"{name}.pdf".casefold()
-            if key in own:
-                raise BadInput(f"order number {order.ident.number!r} gives the file name {name}.pdf, which is "
-                               f"the batch's own {own[key]}")
-            if key in seen:
-                raise BadInput(f"order number {order.ident.number!r} gives the same file name as row {seen[key]}")
-            seen[key] = number
-            inputs = row_inputs(cells, base, paper)
-            data, pages = pdf.render_order(order)
-            path = out / f"{name}.pdf"
-            digest = _digest(data)
-            entry = recorded.get(path.name)
-            keep = False
-            if carry_on and path.exists():
-                on_disk = _file_digest(path)
-                keep = on_disk == digest or (entry is not None and entry.get("inputs") == inputs
-                                             and entry.get("pdf") == on_disk)
-            if keep:
-                digest = on_disk
-            else:
-                path = write_atomic(path, data, force=force)
+                order = with_paper(order, paper, paper_source)
+            template = seen_templates.get(cells.get("rotor_type", ""))
+            row = Row(number, cells, origin, row_inputs(cells, base, paper, template), order, job, data)
         except CounterpoiseError as exc:
-            reason = " ".join(str(exc).split())
-            prefix = f"{origin}: "
-            failures.append((number, reason[len(prefix):] if reason.startswith(prefix) else reason))
-            summary.failed(number, cells, failures[-1][1])
-            return
-        try:
-            combined.add_pages(pages)
-        except OSError as exc:  # the combined document's temporary storage: the batch cannot go on
-            raise output_error(combined_path, exc) from None
-        (kept if keep else files).append(str(path))
-        record[path.name] = {"row": number, "inputs": inputs, "pdf": digest}
-        summary.ok(number, order, path.name)
-        if not order.passed:
-            failing.append(order.ident.number)
-        if time.monotonic() - last_save[0] >= MANIFEST_EVERY:
-            save_record()
-            last_save[0] = time.monotonic()
-
-    try:
-        if first is not None:
-            for number, cells in _chain(first, rows):
-                count += 1
-                one(number, cells)
-                report(count)
-        report(count, final=True)
-        final = {"complete": True, "combined": None, "summary": None}
-        if combined.orders:
-            files.append(str(write_atomic(combined_path, combined.write_to, force=batch_force)))
-            final["combined"] = _file_digest(combined_path)
-        summary_bytes = summary.finish()
-        files.append(str(write_atomic(summary_path, summary_bytes, force=batch_force)))
-        final["summary"] = _digest(summary_bytes)
-        save_record(final)
-        files.append(str(manifest_path))
-    except BaseException:
-        summary.discard()
-        if record:
-            try:  # what was written so far, so that the batch can be continued
-                save_record()
-            except BaseException:
-                pass
-        raise
-    finally:
-        combined.close()
-    return BatchResult(str(sheet), count, count - len(failures), tuple(failures), tuple(failing), tuple(files),
-                       time.perf_counter() - start, tuple(kept))
+            failed += 1
+            row = Row(number, cells, origin, reason=reason_of(exc, origin))
+        yield row
+        done += 1
+        if progress:
+            progress(done, total, failed, False)
+    if progress:
+        progress(done, total, failed, True)
 
 
 def _chain(first, rest):
     yield first
     yield from rest
-
-
-class _Summary:
-    """The summary workbook, written row by row in openpyxl's write-only mode.
-
-    Printing: landscape, fitted to the page width only (as many pages down as the rows need), the header
-    row repeated on every page, A4 unless most of the rotors built are in inch-pound units (then Letter).
-    Every text cell wraps, top-aligned, and every row gets its height from its text (the work order's
-    font-width model, :func:`toolkit.workorder.xlsx.wrapped_lines`). Each row states its own angle
-    reference and sense, and every operation its angle with them: rows of one batch may count angles
-    differently.
-    """
-
-    HEADER = ("Row", "Order", "Rotor", "Status", "Units", "Angles from, counted",
-              *(f"{label} {n}" for n in range(1, MAX_PLANES + 1)
-                for label in ("Plane", "Allowance [g·mm]", "Initial [g·mm]", "Initial angle [°]", "Operations",
-                              "Predicted [g·mm]", "Result")),
-              "File or reason")
-    #: Column widths (units of the digit "0"): narrow, with wrapping, so that the sheet fits one landscape
-    #: page wide at a readable scale.
-    WIDTHS = (5, 11, 16, 11, 8, 14) + (10, 10, 10, 7, 24, 10, 6) * MAX_PLANES + (16,)
-
-    def __init__(self):
-        from openpyxl import Workbook
-        from openpyxl.utils import get_column_letter
-
-        from toolkit.workorder.xlsx import in_memory
-
-        self.wb = Workbook(write_only=True)
-        self.ws = self.wb.create_sheet("Summary")
-        self.ws.freeze_panes = "A2"
-        self.ws.print_title_rows = "1:1"
-        self.ws.page_setup.orientation = "landscape"
-        self.ws.page_setup.fitToWidth = 1
-        self.ws.page_setup.fitToHeight = 0
-        self.ws.sheet_properties.pageSetUpPr.fitToPage = True
-        self.ws.print_options.gridLines = True
-        self.ws.oddFooter.right.text = "page &P of &N"
-        for col, width in enumerate(self.WIDTHS, start=1):
-            self.ws.column_dimensions[get_column_letter(col)].width = width
-        in_memory(self.ws)  # after the sheet's settings: rows in memory, never in an openpyxl temporary file
-        self.rows = 0
-        self.units: list[str] = []
-        self._append([self._text(h) for h in self.HEADER], bold=True)
-
-    def _text(self, value, bold: bool = False):
-        from openpyxl.cell import WriteOnlyCell
-        from openpyxl.styles import Alignment, Font
-
-        from toolkit.workorder.xlsx import FORMULA_START, clean_text
-
-        value = clean_text(value) if isinstance(value, str) else value
-        cell = WriteOnlyCell(self.ws, value=value)
-        cell.alignment = Alignment(wrap_text=isinstance(value, str), vertical="top")
-        if isinstance(value, (int, float)) and not isinstance(value, bool):
-            # room of a ")" on the right, so that a number never touches the text of the next column
-            cell.number_format = ("0" if isinstance(value, int) else "0.0##") + "_)"
-        if bold:
-            cell.font = Font(bold=True)
-        if isinstance(value, str) and value.startswith(FORMULA_START):
-            cell.data_type = "s"
-        return cell
-
-    def _append(self, values, bold: bool = False) -> None:
-        """Append one row, every value as a top-aligned cell, with the height its wrapped text needs."""
-        from toolkit.workorder.xlsx import row_height, wrapped_lines
-
-        cells, lines = [], 1
-        for width, value in zip(self.WIDTHS, values):
-            cell = value if hasattr(value, "value") else self._text(value, bold)
-            if bold and hasattr(value, "value"):
-                from openpyxl.styles import Font
-
-                cell.font = Font(bold=True)
-            if isinstance(cell.value, str) and cell.value:
-                lines = max(lines, wrapped_lines(cell.value, width, 11.0, bold))
-            cells.append(cell)
-        self.rows += 1
-        self.ws.row_dimensions[self.rows].height = row_height(lines)
-        self.ws.append(cells)
-
-    def ok(self, number: int, order, file_name: str):
-        from toolkit.workorder.model import Formatter
-
-        fmt = Formatter(order.units, order.angle_reference, order.angle_sense)
-        status = "ready" if order.passed else "out of tolerance (predicted)"
-        row = [number, self._text(order.ident.number), self._text(order.ident.rotor), status, order.units,
-               self._text(f"{order.angle_reference}, {order.angle_sense}")]
-        for n in range(MAX_PLANES):
-            if n < len(order.planes):
-                p = order.planes[n]
-                ops = "; ".join(f"{op.number}. {op.action} {fmt.mass(op.mass_g)} ({op.kind}) at "
-                                f"{fmt.where(op.angle_deg)}" for op in p.operations) or "none"
-                row += [self._text(p.name), round(p.tolerance.u_per_g_mm, 3), round(p.initial_g_mm, 3),
-                        round(p.initial_deg, 2), self._text(ops), round(p.predicted_g_mm, 3),
-                        "PASS" if p.passed else "FAIL"]
-            else:
-                row += [None] * 7
-        row.append(self._text(file_name))
-        self.units.append(order.units)
-        self._append(row)
-
-    def failed(self, number: int, cells: dict, reason: str):
-        self._append([number, self._text(cells.get("order", "")), self._text(cells.get("rotor", "")),
-                      "failed", None, None, *([None] * 7 * MAX_PLANES), self._text(reason)])
-
-    def paper(self) -> str:
-        """``"Letter"`` when most of the rotors built are in inch-pound units, else ``"A4"``."""
-        imperial = sum(1 for u in self.units if u == "imperial")
-        return "Letter" if imperial * 2 > len(self.units) else "A4"
-
-    def discard(self) -> None:
-        """Close the half-written sheet when a batch stops early (otherwise openpyxl complains on stderr
-        when the unsaved sheet is collected)."""
-        try:
-            self.ws.close()
-        except Exception:  # already closed or never started: nothing to discard
-            pass
-
-    def finish(self) -> bytes:
-        from toolkit.workorder.xlsx import save_bytes
-
-        from openpyxl.worksheet.worksheet import Worksheet
-
-        letter = self.paper() == "Letter"
-        self.ws.page_setup.paperSize = Worksheet.PAPERSIZE_LETTER if letter else Worksheet.PAPERSIZE_A4
-        return save_bytes(self.wb)

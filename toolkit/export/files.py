@@ -1,0 +1,461 @@
+"""Writing a work order's files and a planner batch's files: the one place that decides which files are
+written, what they are called and in which order, through :mod:`toolkit.fileio` (atomic writes, nothing
+replaced without ``force``). The command line calls these functions, so a library user gets exactly the
+files the command writes.
+
+- :func:`write_order`: ``<order>.xlsx`` and/or ``<order>.pdf`` of one work order, written together.
+- :func:`write_batch`: for every row of a planner sheet (turned into orders by
+  :func:`toolkit.workorder.batch.orders`), ``<order>.pdf`` (and ``<order>.xlsx`` when asked for), then
+  ``<sheet>-orders.pdf`` (every order in one document, each with its own page numbers),
+  ``<sheet>-summary.xlsx`` (one row per rotor: allowances, corrections, predicted residuals, status, files or
+  reason) and ``<sheet>-batch.json`` (the batch's record, used to continue an interrupted batch).
+
+Nothing here prints: progress reaches the caller through a callback. Memory grows with the combined PDF's
+compressed pages only (each order is drawn once and its pages finished at once; the summary is written in
+openpyxl's write-only mode).
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from toolkit.errors import BadInput, CounterpoiseError
+
+__all__ = ["ORDER_FORMATS", "BatchResult", "write_order", "order_files", "write_batch"]
+
+#: The files a work order can have, in the order they are written.
+ORDER_FORMATS = ("xlsx", "pdf")
+#: Planes per row in the summary workbook (as many as a planner row has).
+MAX_PLANES = 2
+
+
+def _folder(out) -> Path:
+    from toolkit.errors import OutputError
+    from toolkit.fileio import describe
+
+    out = Path(out)
+    kind = describe(out)
+    if kind is not None:
+        raise OutputError(f"{out} is {kind}; the output must be a folder (it is created if missing)")
+    return out
+
+
+def _formats(formats) -> tuple[str, ...]:
+    chosen = tuple(dict.fromkeys(str(f).strip().lower() for f in formats))
+    bad = [f for f in chosen if f not in ORDER_FORMATS]
+    if not chosen or bad:
+        raise BadInput(f"formats: {list(formats)!r} is not allowed; give 'xlsx', 'pdf' or both")
+    return chosen
+
+
+def _render(fmt: str, order):
+    """The bytes of one file of an order (the PDF also gives its pages, for a combined document)."""
+    from toolkit.workorder import pdf, xlsx
+
+    if fmt == "pdf":
+        return pdf.render_order(order)
+    return xlsx.to_bytes(order), None
+
+
+def order_files(order, formats=ORDER_FORMATS) -> dict[str, bytes]:
+    """The files of one work order as ``{file name: bytes}`` (``<order>.xlsx``, ``<order>.pdf``), in the
+    order given, without writing anything."""
+    from toolkit.fileio import safe_filename
+
+    stem = safe_filename(order.ident.number)
+    return {f"{stem}.{fmt}": _render(fmt, order)[0] for fmt in _formats(formats)}
+
+
+def write_order(order, out=".", formats=ORDER_FORMATS, *, force: bool = False) -> list[str]:
+    """Write the chosen files of one work order into the folder ``out``, together: nothing is written if
+    any target exists (without ``force``), and two runs writing the same order never leave a mixed pair.
+    Returns the paths written."""
+    from toolkit.fileio import check_writable, output_error, safe_filename, write_together
+
+    folder = _folder(out)
+    formats = _formats(formats)
+    stem = safe_filename(order.ident.number)
+    paths = {fmt: folder / f"{stem}.{fmt}" for fmt in formats}
+    for path in paths.values():
+        check_writable(path, force)
+    data = {}
+    for fmt in ORDER_FORMATS:
+        if fmt in paths:
+            try:
+                data[fmt] = _render(fmt, order)[0]
+            except OSError as exc:  # a library's scratch space (a full temporary folder)
+                raise output_error(paths[fmt], exc) from None
+    written = write_together([(paths[fmt], data[fmt]) for fmt in formats], force=force)
+    return [str(Path(p)) for p in written]
+
+
+# -- planner batches -----------------------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class BatchResult:
+    """What a batch did: rows read, orders written, failed rows (row number, reason), orders predicted out
+    of tolerance, and the files written."""
+
+    sheet: str
+    rows: int
+    done: int
+    failures: tuple[tuple[int, str], ...]
+    out_of_tolerance: tuple[str, ...]
+    files: tuple[str, ...]
+    seconds: float = field(default=0.0, compare=False)
+    kept: tuple[str, ...] = ()
+
+    def to_dict(self) -> dict:
+        return {"sheet": self.sheet, "rows": self.rows, "done": self.done,
+                "failures": [{"row": r, "reason": why} for r, why in self.failures],
+                "out_of_tolerance": list(self.out_of_tolerance), "files": list(self.files),
+                "kept": list(self.kept), "seconds": round(self.seconds, 3)}
+
+
+#: The batch's own record in the output folder: for each order file, its row, a hash of the row's inputs
+#: and a hash of the file written; used to continue an interrupted batch.
+MANIFEST_FORMAT = "counterpoise-batch"
+#: Seconds between two saves of the record while a batch runs (it is also saved at the end and when the
+#: batch is stopped by a signal).
+MANIFEST_EVERY = 1.0
+
+
+def _digest(data: bytes) -> str:
+    import hashlib
+
+    return hashlib.sha256(data).hexdigest()
+
+
+def _file_digest(path: Path) -> str | None:
+    try:
+        return _digest(path.read_bytes())
+    except OSError:
+        return None
+
+
+def _load_manifest(path: Path) -> dict | None:
+    """The record of an earlier batch, or None when there is none; a file of another kind is refused."""
+    import json
+
+    from toolkit.errors import OutputError
+
+    try:
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        return None
+    except OSError as exc:
+        raise OutputError(f"cannot read {path}: {exc.strerror}") from None
+    try:
+        data = json.loads(raw.decode("utf-8"))
+        if data.get("format") != MANIFEST_FORMAT or not isinstance(data.get("orders"), dict):
+            raise ValueError
+    except (ValueError, UnicodeDecodeError, AttributeError, RecursionError):
+        raise OutputError(f"{path} is not the record of a batch, so it is not replaced; move it away, or "
+                          "allow overwriting") from None
+    return data
+
+
+def write_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False, progress=None,
+                carry_on: bool = False, paper: str | None = None, formats=("pdf",), template_for=None,
+                prepare=None, written=None) -> BatchResult:
+    """Turn every row of a planner sheet into a work order and write its files.
+
+    Writes ``<order>.pdf`` per rotor (and ``<order>.xlsx`` beside it when ``formats`` holds ``"xlsx"``), the
+    combined PDF, the summary workbook and the batch's record (``<sheet>-batch.json``) into ``out``
+    (atomically; an existing file is replaced only with ``force``). A row that cannot be built is recorded
+    with its row number and reason; the others go on. A row whose file name is taken by another row or by
+    the batch's own files fails with that reason before anything of it is written.
+
+    ``carry_on`` continues an interrupted batch: a row whose files are already in the folder, made from the
+    same inputs (the record's hash) or, for the PDF, byte for byte what the row gives now, is kept as it is;
+    the summary and the combined PDF are made over every row, and the batch's own files of the earlier run
+    are replaced.
+
+    ``progress(done, total, failed, final)`` hears of each row (see :func:`toolkit.workorder.batch.orders`);
+    ``template_for(name)`` gives the job data of a stored rotor type for the ``rotor_type`` column.
+    ``prepare(row)`` is called with each built :class:`~toolkit.workorder.batch.Row` before its files are
+    made and returns the order to write (for instance the order as a register numbered and recorded it);
+    ``written(row, order, paths)`` is called after its files are in place. An error raised by either stops
+    the batch.
+
+    Raises :class:`~toolkit.errors.BadInput` only for problems of the whole sheet (missing, unreadable,
+    unknown columns) and :class:`~toolkit.errors.OutputError` when the summary or combined files exist
+    without ``force`` (or, with ``carry_on``, were not made by the recorded batch), or cannot be written.
+    """
+    import json
+
+    from toolkit.errors import OutputError
+    from toolkit.fileio import check_writable, output_error, safe_filename, write_atomic, write_together
+    from toolkit.workorder import pdf
+    from toolkit.workorder.batch import orders, reason_of
+
+    start = time.perf_counter()
+    sheet = Path(sheet)
+    out = _folder(out)
+    formats = tuple(f for f in ("pdf", "xlsx") if f in _formats(formats))
+    if "pdf" not in formats:
+        raise BadInput("formats: a batch always writes the PDF of each order; add 'xlsx' to it for workbooks")
+    stem = safe_filename(sheet.stem, "planner")
+    combined_path = out / f"{stem}-orders.pdf"
+    summary_path = out / f"{stem}-summary.xlsx"
+    manifest_path = out / f"{stem}-batch.json"
+    own = {p.name.casefold(): p.name for p in (combined_path, summary_path, manifest_path)}
+    earlier = _load_manifest(manifest_path) if (carry_on and not force) else None
+    recorded = earlier.get("orders", {}) if earlier else {}
+    batch_force = force
+    if carry_on and not force:
+        # the batch's own files may be replaced when the record says the recorded batch made them, or when
+        # it records a batch that did not finish (it was stopped after writing one of them)
+        for path, key in ((combined_path, "combined"), (summary_path, "summary")):
+            if path.exists() and (earlier is None or (earlier.get("complete") is not False
+                                                      and earlier.get(key) != _file_digest(path))):
+                check_writable(path, False)
+        batch_force = earlier is not None
+    for path in (combined_path, summary_path, manifest_path):
+        check_writable(path, batch_force)
+    failures: list[tuple[int, str]] = []
+    here = [0]  # rows failed here (file names taken), beside those the rows' reader counted
+
+    def report(done: int, total, failed: int, final: bool) -> None:
+        progress(done, total, failed + here[0], final)
+
+    rows = orders(sheet, paper=paper, progress=report if progress else None, template_for=template_for)
+    first = next(rows, None)  # sheet-level problems surface before anything is written
+    summary = _Summary()
+    try:
+        combined = pdf.Document()
+    except OSError as exc:
+        summary.discard()
+        raise output_error(combined_path, exc) from None
+    seen: dict[str, int] = {}
+    failing: list[str] = []
+    files: list[str] = []
+    kept: list[str] = []
+    record: dict[str, dict] = {}
+    count = 0
+    last_save = [time.monotonic()]
+    saved = [False]
+
+    def save_record(final: dict | None = None) -> None:
+        data = {"format": MANIFEST_FORMAT, "version": 1, "sheet": str(sheet), "orders": record,
+                **(final or {"complete": False})}
+        text = json.dumps(data, indent=1, ensure_ascii=True) + "\n"
+        write_atomic(manifest_path, text, force=saved[0] or batch_force)
+        saved[0] = True
+
+    def fail(row, reason: str) -> None:
+        failures.append((row.number, reason))
+        summary.failed(row.number, row.cells, reason)
+
+    def one(row) -> None:
+        if row.failed:
+            fail(row, row.reason)
+            return
+        try:
+            order = prepare(row) if prepare else row.order
+            name = safe_filename(order.ident.number)
+            key = f"{name}.pdf".casefold()
+            if key in own:
+                raise BadInput(f"order number {order.ident.number!r} gives the file name {name}.pdf, which is "
+                               f"the batch's own {own[key]}")
+            if key in seen:
+                raise BadInput(f"order number {order.ident.number!r} gives the same file name as row {seen[key]}")
+            seen[key] = row.number
+            made = {fmt: _render(fmt, order) for fmt in formats}
+            pages = made["pdf"][1]
+            paths = {fmt: out / f"{name}.{fmt}" for fmt in formats}
+            digests = {fmt: _digest(made[fmt][0]) for fmt in formats}
+            entry = recorded.get(paths["pdf"].name)
+            keep = {}
+            for fmt in formats:
+                keep[fmt] = False
+                if carry_on and paths[fmt].exists():
+                    on_disk = _file_digest(paths[fmt])
+                    same_inputs = entry is not None and entry.get("inputs") == row.inputs
+                    keep[fmt] = (fmt == "pdf" and on_disk == digests[fmt]) or (same_inputs and
+                                                                              entry.get(fmt) == on_disk)
+                    if keep[fmt]:
+                        digests[fmt] = on_disk
+            new = [(paths[fmt], made[fmt][0]) for fmt in formats if not keep[fmt]]
+            placed = {str(p) for p in write_together(new, force=force)} if new else set()
+        except CounterpoiseError as exc:
+            here[0] += 1
+            fail(row, reason_of(exc, row.origin))
+            return
+        try:
+            combined.add_pages(pages)
+        except OSError as exc:  # the combined document's temporary storage: the batch cannot go on
+            raise output_error(combined_path, exc) from None
+        for fmt in formats:
+            (files if str(paths[fmt]) in placed else kept).append(str(paths[fmt]))
+        record[paths["pdf"].name] = {"row": row.number, "inputs": row.inputs, **digests}
+        summary.ok(row.number, order, ", ".join(paths[fmt].name for fmt in formats))
+        if not order.passed:
+            failing.append(order.ident.number)
+        if written:
+            written(row, order, [str(paths[fmt]) for fmt in formats])
+        if time.monotonic() - last_save[0] >= MANIFEST_EVERY:
+            save_record()
+            last_save[0] = time.monotonic()
+
+    try:
+        if first is not None:
+            for row in _chain(first, rows):
+                count += 1
+                one(row)
+        final = {"complete": True, "combined": None, "summary": None}
+        if combined.orders:
+            files.append(str(write_atomic(combined_path, combined.write_to, force=batch_force)))
+            final["combined"] = _file_digest(combined_path)
+        summary_bytes = summary.finish()
+        files.append(str(write_atomic(summary_path, summary_bytes, force=batch_force)))
+        final["summary"] = _digest(summary_bytes)
+        save_record(final)
+        files.append(str(manifest_path))
+    except BaseException:
+        summary.discard()
+        if record:
+            try:  # what was written so far, so that the batch can be continued
+                save_record()
+            except BaseException:
+                pass
+        raise
+    finally:
+        combined.close()
+    return BatchResult(str(sheet), count, count - len(failures), tuple(failures), tuple(failing), tuple(files),
+                       time.perf_counter() - start, tuple(kept))
+
+
+def _chain(first, rest):
+    yield first
+    yield from rest
+
+
+class _Summary:
+    """The summary workbook, written row by row in openpyxl's write-only mode.
+
+    Printing: landscape, fitted to the page width only (as many pages down as the rows need), the header
+    row repeated on every page, A4 unless most of the rotors built are in inch-pound units (then Letter).
+    Every text cell wraps, top-aligned, and every row gets its height from its text (the work order's
+    font-width model, :func:`toolkit.workorder.xlsx.wrapped_lines`). Each row states its own angle
+    reference and sense, and every operation its angle with them: rows of one batch may count angles
+    differently.
+    """
+
+    HEADER = ("Row", "Order", "Rotor", "Status", "Units", "Angles from, counted",
+              *(f"{label} {n}" for n in range(1, MAX_PLANES + 1)
+                for label in ("Plane", "Allowance [g·mm]", "Initial [g·mm]", "Initial angle [°]", "Operations",
+                              "Predicted [g·mm]", "Result")),
+              "File or reason")
+    #: Column widths (units of the digit "0"): narrow, with wrapping, so that the sheet fits one landscape
+    #: page wide at a readable scale.
+    WIDTHS = (5, 11, 16, 11, 8, 14) + (10, 10, 10, 7, 24, 10, 6) * MAX_PLANES + (16,)
+
+    def __init__(self):
+        from openpyxl import Workbook
+        from openpyxl.utils import get_column_letter
+
+        from toolkit.workorder.xlsx import in_memory
+
+        from openpyxl.styles import Alignment, Font
+
+        self._align = {wrap: Alignment(wrap_text=wrap, vertical="top") for wrap in (False, True)}
+        self._bold = Font(bold=True)
+        self.wb = Workbook(write_only=True)
+        self.ws = self.wb.create_sheet("Summary")
+        self.ws.freeze_panes = "A2"
+        self.ws.print_title_rows = "1:1"
+        self.ws.page_setup.orientation = "landscape"
+        self.ws.page_setup.fitToWidth = 1
+        self.ws.page_setup.fitToHeight = 0
+        self.ws.sheet_properties.pageSetUpPr.fitToPage = True
+        self.ws.print_options.gridLines = True
+        self.ws.oddFooter.right.text = "page &P of &N"
+        for col, width in enumerate(self.WIDTHS, start=1):
+            self.ws.column_dimensions[get_column_letter(col)].width = width
+        in_memory(self.ws)  # after the sheet's settings: rows in memory, never in an openpyxl temporary file
+        self.rows = 0
+        self.units: list[str] = []
+        self._append([self._text(h) for h in self.HEADER], bold=True)
+
+    def _text(self, value, bold: bool = False):
+        from openpyxl.cell import WriteOnlyCell
+
+        from toolkit.workorder.xlsx import FORMULA_START, clean_text
+
+        value = clean_text(value) if isinstance(value, str) else value
+        cell = WriteOnlyCell(self.ws, value=value)
+        cell.alignment = self._align[isinstance(value, str)]  # one style object per kind (made once)
+        if isinstance(value, (int, float)) and not isinstance(value, bool):
+            # room of a ")" on the right, so that a number never touches the text of the next column
+            cell.number_format = ("0" if isinstance(value, int) else "0.0##") + "_)"
+        if bold:
+            cell.font = self._bold
+        if isinstance(value, str) and value.startswith(FORMULA_START):
+            cell.data_type = "s"
+        return cell
+
+    def _append(self, values, bold: bool = False) -> None:
+        """Append one row, every value as a top-aligned cell, with the height its wrapped text needs."""
+        from toolkit.workorder.xlsx import row_height, wrapped_lines
+
+        cells, lines = [], 1
+        for width, value in zip(self.WIDTHS, values):
+            cell = value if hasattr(value, "value") else self._text(value, bold)
+            if bold and hasattr(value, "value"):
+                cell.font = self._bold
+            if isinstance(cell.value, str) and cell.value:
+                lines = max(lines, wrapped_lines(cell.value, width, 11.0, bold))
+            cells.append(cell)
+        self.rows += 1
+        self.ws.row_dimensions[self.rows].height = row_height(lines)
+        self.ws.append(cells)
+
+    def ok(self, number: int, order, file_name: str):
+        from toolkit.workorder.model import Formatter
+
+        fmt = Formatter(order.units, order.angle_reference, order.angle_sense)
+        status = "ready" if order.passed else "out of tolerance (predicted)"
+        row = [number, self._text(order.ident.number), self._text(order.ident.rotor), status, order.units,
+               self._text(f"{order.angle_reference}, {order.angle_sense}")]
+        for n in range(MAX_PLANES):
+            if n < len(order.planes):
+                p = order.planes[n]
+                ops = "; ".join(f"{op.number}. {op.action} {fmt.mass(op.mass_g)} ({op.kind}) at "
+                                f"{fmt.where(op.angle_deg)}" for op in p.operations) or "none"
+                row += [self._text(p.name), round(p.tolerance.u_per_g_mm, 3), round(p.initial_g_mm, 3),
+                        round(p.initial_deg, 2), self._text(ops), round(p.predicted_g_mm, 3),
+                        "PASS" if p.passed else "FAIL"]
+            else:
+                row += [None] * 7
+        row.append(self._text(file_name))
+        self.units.append(order.units)
+        self._append(row)
+
+    def failed(self, number: int, cells: dict, reason: str):
+        self._append([number, self._text(cells.get("order", "")), self._text(cells.get("rotor", "")),
+                      "failed", None, None, *([None] * 7 * MAX_PLANES), self._text(reason)])
+
+    def paper(self) -> str:
+        """``"Letter"`` when most of the rotors built are in inch-pound units, else ``"A4"``."""
+        imperial = sum(1 for u in self.units if u == "imperial")
+        return "Letter" if imperial * 2 > len(self.units) else "A4"
+
+    def discard(self) -> None:
+        """Close the half-written sheet when a batch stops early (otherwise openpyxl complains on stderr
+        when the unsaved sheet is collected)."""
+        try:
+            self.ws.close()
+        except Exception:  # already closed or never started: nothing to discard
+            pass
+
+    def finish(self) -> bytes:
+        from toolkit.workorder.xlsx import save_bytes
+
+        from openpyxl.worksheet.worksheet import Worksheet
+
+        letter = self.paper() == "Letter"
+        self.ws.page_setup.paperSize = Worksheet.PAPERSIZE_LETTER if letter else Worksheet.PAPERSIZE_A4
+        return save_bytes(self.wb)
