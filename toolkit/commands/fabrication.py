@@ -285,27 +285,22 @@ def _plan_keys(plan) -> dict:
             "tried": list(plan.tried), "warnings": list(plan.warnings)}
 
 
+def _say(args):
+    from toolkit.formatting import Formatter
+
+    return Formatter(args.units)
+
+
 def _unb(x: float, args) -> str:
-    from toolkit.units import format_quantity, unit_system
-
-    system = unit_system(args.units)
-    from toolkit.units import Q_
-
-    return format_quantity(Q_(x, "g*mm"), system.unbalance)
+    return _say(args).unbalance(x)
 
 
 def _length(x: float, args) -> str:
-    from toolkit.units import format_number, unit_system
-
-    if unit_system(args.units).name == "metric":
-        return f"{round(x, 2):g} mm"
-    return f"{format_number(x / 25.4)} in"
+    return _say(args).dimension(x)
 
 
 def _mass(x: float, args) -> str:
-    from toolkit.units import Q_, format_quantity, unit_system
-
-    return format_quantity(Q_(x, "g"), unit_system(args.units).mass)
+    return _say(args).mass(x, sig=4)
 
 
 def _achieved(plan, args) -> list[str]:

@@ -30,9 +30,10 @@ import re
 from pathlib import Path
 
 from toolkit.errors import BadInput, Infeasible
+from toolkit.units import unit_system
 from toolkit.workorder.job import DEFAULTS, Job, load_job, parse_job
 from toolkit.workorder.model import (Formatter, Identification, Operation, PlaneOrder, Setting, Tolerance, WorkOrder,
-                                     effect, paper_setting, polar, vector)
+                                     default_paper, effect, paper_setting, polar, vector)
 
 __all__ = ["build_order", "order_from_file", "demo_job", "demo_order", "write_examples", "GENERAL_CAUTIONS"]
 
@@ -163,7 +164,7 @@ def _plan(job: Job, plane, u0: float, a0: float, allowance: float, method: str, 
         plans = [plan_correction(_q(u0, "g*mm"), a0, "plate", action="remove", shape=plane.plate_shape,
                                  surface=plane.surface if plane.surface in ("outer", "inner") else "outer",
                                  width=plane.width, stock=job.shop.plate_stock,
-                                 stock_unit="in" if job.shop.units == "imperial" else "mm",
+                                 stock_unit="in" if unit_system(job.shop.units).inch else "mm",
                                  step=job.shop.plate_step or "1 mm", max_length=plane.max_length,
                                  fillet=job.shop.fillet, convexity=job.shop.weld_convexity, **common)]
     else:
@@ -254,7 +255,7 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
                            key not in job.defaults_used, f"[{section}] {name}"))
     out.append(Setting("angle marking step", f"{job.shop.angle_step_deg:g}°", "CP",
                        "angle_step" in job.shop.given, "[shop] angle_step"))
-    weighing = (f"{job.shop.mass_step.m_as('g'):g} g" if job.shop.units != "imperial" else
+    weighing = (f"{job.shop.mass_step.m_as('g'):g} g" if unit_system(job.shop.units).mass == "g" else
                 f"{job.shop.mass_step.m_as('g'):g} g, read to the nearest "
                 f"{10.0 ** math.floor(math.log10(job.shop.mass_step.m_as('oz'))):g} oz")
     out.append(Setting("weighing step", weighing, "CP",
@@ -385,7 +386,7 @@ def build_order(job: Job) -> WorkOrder:
         cautions=_unique(all_cautions, words=5), sources=_unique(s for s in sources if s),
         settings=_settings(job, report) + (paper_setting(job.shop.paper, job.shop.units,
                                                          "job file" if job.shop.paper else ""),),
-        warnings=_unique(warnings), paper=job.shop.paper or ("Letter" if job.shop.units == "imperial" else "A4"),
+        warnings=_unique(warnings), paper=job.shop.paper or default_paper(job.shop.units),
         inputs={"origin": job.origin},
     )
 
@@ -397,7 +398,7 @@ def _shown_date(job: Job) -> str:
 
 
 def _details(kind: str, dims: dict, mass: float, job: Job) -> tuple[tuple[str, str], ...]:
-    unit = "oz" if job.shop.units == "imperial" else "g"  # the scale's unit follows the job's unit system
+    unit = unit_system(job.shop.units).mass  # the scale's unit follows the job's unit system
     step = job.shop.mass_step.m_as(unit)
     if unit == "oz":  # a gram step is no round number of ounces: read to the decade below it (0.1 g: 0.001 oz)
         step = 10.0 ** math.floor(math.log10(step))

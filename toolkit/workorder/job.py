@@ -676,13 +676,14 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     shop_t = _table(ck, data, ("shop",), required=False)
     _unknown(ck, shop_t, ("shop",), ("units", "drills", "plate_stock", "angle_step", "mass_step", "plate_step",
                                       "point_angle", "drilling", "weld_convexity", "fillet", "paper"))
-    units = _choice(ck, shop_t, ("shop", "units"), ("metric", "imperial"), default="metric")
+    units = _choice(ck, shop_t, ("shop", "units"), ("metric", "imperial", "inch gram"), default="metric")
+    units = "inch-gram" if units == "inch gram" else units  # _choice reads '-' as a space
     for key in ("units", "angle_step", "mass_step"):
         if key not in shop_t:
             defaults_used.append(f"shop.{key}")
     paper = {"a4": "A4", "letter": "Letter", None: ""}[_choice(ck, shop_t, ("shop", "paper"), ("a4", "letter"))]
     drills = _table_ref(ck, shop_t, ("shop", "drills"), base, ("metric", "inch"),
-                        "inch" if units == "imperial" else "metric")
+                        "inch" if units in ("imperial", "inch-gram") else "metric")
     stock = _table_ref(ck, shop_t, ("shop", "plate_stock"), base, ("plate_stock",), "plate_stock")
     from toolkit.fabricate.plates import PLATE_STEP_BOUNDS
 

@@ -17,10 +17,11 @@ import math
 from dataclasses import asdict, dataclass, field
 
 from toolkit.errors import BadInput
+from toolkit.formatting import Formatter, unit_labels  # noqa: F401 - the one formatter, used through here
 
 __all__ = [
     "Identification", "Tolerance", "Operation", "PlaneOrder", "Setting", "WorkOrder",
-    "vector", "polar", "effect",
+    "vector", "polar", "effect", "Formatter", "unit_labels",
 ]
 
 ACTIONS = ("add", "remove")
@@ -195,10 +196,17 @@ class Setting:
 PAPERS = {"A4": "A4 (210 mm × 297 mm)", "Letter": "Letter (8.5 in × 11 in)"}
 
 
+def default_paper(units: str) -> str:
+    """Letter for the inch unit systems, A4 for metric."""
+    from toolkit.units import unit_system
+
+    return "Letter" if unit_system(units).inch else "A4"
+
+
 def paper_setting(paper: str, units: str, given_by: str = "") -> Setting:
     """The values-used entry for the paper: ``paper`` (empty: the unit system's default) and who chose it
     (``given_by``, e.g. "job file"; empty: the default)."""
-    name = paper or ("Letter" if units == "imperial" else "A4")
+    name = paper or default_paper(units)
     why = f"from the {given_by}" if given_by else f"the default for {units} units"
     return Setting("paper", f"{PAPERS[name]}, {why}", "CP", bool(given_by), '[shop] paper = "A4" or "Letter"')
 
@@ -250,7 +258,7 @@ class WorkOrder:
     @property
     def paper_name(self) -> str:
         """The paper the order prints on: its own, or Letter for imperial and A4 for metric units."""
-        return self.paper or ("Letter" if self.units == "imperial" else "A4")
+        return self.paper or default_paper(self.units)
 
     @property
     def acceptance_rule(self) -> str:
@@ -282,79 +290,6 @@ class WorkOrder:
             for p in self.planes for op in p.operations
         ]
         return data
-
-
-def unit_labels(units: str) -> dict[str, tuple[str, float]]:
-    """Printed unit symbol and factor from the stored unit, for the chosen system.
-
-    Keys: ``unbalance`` (from g·mm), ``mass`` (from g), ``length`` (from mm), ``rotor_mass`` (from kg).
-    Factors are exact conversions (1 oz = 28.349523125 g, 1 in = 25.4 mm, 1 lb = 0.45359237 kg).
-
-    >>> unit_labels("imperial")["unbalance"]
-    ('oz·in', 0.001388...)
-    """
-    if units == "imperial":
-        oz, inch, lb = 28.349523125, 25.4, 0.45359237
-        return {"unbalance": ("oz·in", 1 / (oz * inch)), "mass": ("oz", 1 / oz), "length": ("in", 1 / inch),
-                "rotor_mass": ("lb", 1 / lb)}
-    return {"unbalance": ("g·mm", 1.0), "mass": ("g", 1.0), "length": ("mm", 1.0), "rotor_mass": ("kg", 1.0)}
-
-
-class Formatter:
-    """Numbers of a work order as printed text in its unit system (one place, shared by the exporters).
-
-    >>> f = Formatter("metric", "keyway", "against rotation")
-    >>> f.unbalance(2005.35), f.mass(12.345), f.angle(215.04), f.where(215.04)
-    ('2005 g·mm', '12.3 g', '215°', '215° from keyway, against rotation')
-    """
-
-    def __init__(self, units: str, reference: str, sense: str):
-        self.labels = unit_labels(units)
-        self.reference = reference
-        self.sense = sense
-
-    def value(self, kind: str, stored: float) -> float:
-        """A stored value (g·mm, g, mm, kg) in the printed unit."""
-        return stored * self.labels[kind][1]
-
-    def symbol(self, kind: str) -> str:
-        return self.labels[kind][0]
-
-    def _fmt(self, kind: str, stored: float, sig: int) -> str:
-        from toolkit.units import format_number
-
-        x = self.value(kind, stored)
-        if abs(x) >= 10 ** sig:
-            text = f"{x:.0f}"
-        else:
-            text = format_number(x, sig) if x else "0"
-        return f"{text} {self.symbol(kind)}"
-
-    def unbalance(self, g_mm: float) -> str:
-        return self._fmt("unbalance", g_mm, 4)
-
-    def mass(self, g: float) -> str:
-        return self._fmt("mass", g, 3)
-
-    def length(self, mm: float) -> str:
-        return self._fmt("length", mm, 4)
-
-    def rotor_mass(self, kg: float) -> str:
-        return self._fmt("rotor_mass", kg, 4)
-
-    @staticmethod
-    def angle(deg: float) -> str:
-        value = round(deg) % 360 if abs(deg - round(deg)) < 0.05 else round(deg, 1) % 360
-        return f"{value:g}°"
-
-    def where(self, deg: float) -> str:
-        """An angle with its reference and sense, as every operation prints it."""
-        return f"{self.angle(deg)} from {self.reference}, {self.sense}"
-
-    def convention(self) -> str:
-        """The sentence that states the angle convention of the whole order."""
-        return (f"Angles in degrees from the reference mark ({self.reference}), counted {self.sense}. "
-                f"An unbalance is the heavy spot.")
 
 
 def example_order(number: str = "INV-HAND-01", units: str = "metric") -> WorkOrder:
