@@ -214,8 +214,9 @@ def configure_washers(parser) -> None:
     _add_correction(parser, "add")
     parser.add_argument("--size", metavar="SIZE", help="washer size to use (M10, 1/2); default: chosen")
     parser.add_argument("--series", metavar="SERIES",
-                        help="washer series: 'ISO 7089' (default, also with --size alone), 'ISO 7093', "
-                             "'inch SAE' (an inch --size alone takes it, and the output says so)")
+                        help="washer series: 'ISO 7089' (default for metric units, also with --size alone), "
+                             "'ISO 7093', 'inch SAE' (default for --units imperial or inch-gram; an inch "
+                             "--size alone takes it, and the output says so)")
     parser.add_argument("--radial", action="store_true",
                         help="the bolt is radial (the stack grows away from its seat at --radius)")
     parser.add_argument("--surface", choices=("outer", "inner"), default="outer",

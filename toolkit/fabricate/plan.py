@@ -30,9 +30,29 @@ from toolkit.formatting import Formatter
 from toolkit.units import Q_, magnitude
 from toolkit.vectors import parse_angle
 
-__all__ = ["Operation", "Plan", "plan_correction", "METHODS"]
+__all__ = ["Operation", "Plan", "plan_correction", "washer_series", "METHODS", "INCH_WASHER_SERIES"]
 
 METHODS = ("drill", "plate", "washers")
+
+#: The washer series an inch shop stacks unless it names another (ASME B18.22.1 type A narrow rows).
+INCH_WASHER_SERIES = "inch SAE"
+
+
+def washer_series(units: str, size=None, series=None, table: str = "washers") -> str | None:
+    """The series to stack from: the one given; else, in an inch unit system, the inch series when the
+    table has it (and has ``size``, if one is given); else None (the washer module's default, ISO 7089).
+
+    >>> washer_series("imperial"), washer_series("imperial", size="M10"), washer_series("metric")
+    ('inch SAE', None, None)
+    """
+    from toolkit.units import unit_system
+
+    if series is not None or not unit_system(units).inch:
+        return series
+    inch = {w.size.strip().lower() for w in _stock.washers(table) if w.series == INCH_WASHER_SERIES}
+    if inch and (size is None or str(size).strip().lower() in inch):
+        return INCH_WASHER_SERIES
+    return None
 
 
 @dataclass(frozen=True)
@@ -185,8 +205,10 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
     action : ``"add"`` or ``"remove"`` (how the correction is stated). allowance : Quantity [mass·length]
     or None (the predicted residual allowed for this correction). The other keywords go to
     :func:`~toolkit.fabricate.drilling.drill_correction`, :func:`~toolkit.fabricate.plates.weld_plate` or
-    :func:`~toolkit.fabricate.washers.washer_stack`. units : ``"metric"`` or ``"imperial"``, the units of
-    the operations' descriptions and the plan's reason (numbers in the records stay mm, g, g·mm).
+    :func:`~toolkit.fabricate.washers.washer_stack`. units : ``"metric"``, ``"imperial"`` or
+    ``"inch-gram"``, the units of the operations' descriptions and the plan's reason (numbers in the
+    records stay mm, g, g·mm); an inch system also stacks inch washers unless ``series`` or a metric
+    ``size`` is given (:func:`washer_series`).
 
     >>> p = plan_correction("2400 g*mm", 131, "drill", radius="150 mm", material="steel", action="add",
     ...                     allowance="20 g*mm")
@@ -258,8 +280,8 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
                 if done:
                     break
     else:
-        kw = dict(common, orientation=orientation, surface=surface, series=series, max_count=max_count,
-                  table=washer_table)
+        kw = dict(common, orientation=orientation, surface=surface, max_count=max_count, table=washer_table,
+                  series=washer_series(units, size, series, washer_table))
         err = run("washers as chosen", washers.washer_stack, _ops_washers,
                   correction=unbalance, size=size, **kw)
     # keep the best attempt (the first one within the allowance, else the smallest error)

@@ -182,7 +182,8 @@ def _plan(job: Job, plane, u0: float, a0: float, allowance: float, method: str, 
         if len(parts) > 1:
             common["allowance"] = None  # the plane is checked as a whole below, not part by part
         plans = [plan_correction(_q(u, "g*mm"), angle, "washers", action="add", orientation=orientation,
-                                 surface=surface, size=plane.washer_size, **common) for angle, u in parts]
+                                 surface=surface, size=plane.washer_size, series=plane.washer_series, **common)
+                 for angle, u in parts]
     ops, warnings, cautions = [], [], []
     for p in plans:
         for op in p.operations:
@@ -233,6 +234,27 @@ def _order_date(job: Job) -> str:
     return given or datetime.date.today().isoformat()
 
 
+def _washer_settings(job: Job) -> list[Setting]:
+    """The washer series of each plane that may stack washers, and who chose it."""
+    from toolkit.fabricate.plan import washer_series
+    from toolkit.fabricate.washers import DEFAULT_SERIES
+
+    out = []
+    for plane in job.planes:
+        if "washers" not in plane.methods:
+            continue
+        series = washer_series(job.shop.units, plane.washer_size, plane.washer_series) or DEFAULT_SERIES
+        if plane.washer_series is not None:
+            why = "the job's series"
+        elif plane.washer_size is not None:
+            why = f"the series of the job's size {plane.washer_size}"
+        else:
+            why = f"the default for {job.shop.units} units"
+        out.append(Setting(f"washer series, plane {plane.name}", f"{series} ({why})", "CP",
+                           plane.washer_series is not None, "[[plane]] washer_series"))
+    return out
+
+
 def _settings(job: Job, report) -> tuple[Setting, ...]:
     """The values used that the job may set; a value the job gave is marked ``job`` (its default's mark, CP
     or M, no longer applies)."""
@@ -268,6 +290,7 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
         out.append(Setting("one-plane allowance rule", "whole U_per (ISO 21940-11)" if rule == "whole"
                            else "statics transfer (stricter)", "H" if rule == "whole" else "D",
                            job.one_plane_rule != "whole", "[geometry] one_plane_rule"))
+    out.extend(_washer_settings(job))
     delta = 0.0 if job.error_allowance is None else job.error_allowance.m_as("g*mm")
     shown = Formatter(job.shop.units, job.angle_reference, job.angle_sense).unbalance(delta) if delta else "0"
     out.append(Setting("measurement error allowance ΔU", shown, "M", job.error_allowance is not None,

@@ -25,7 +25,9 @@ A job file has these tables (``examples/job-*.toml`` are complete, invented exam
     must go, such as blades or tapped holes), ``max_depth`` (deepest hole tip), ``max_length`` (longest
     plate that fits), ``width`` (the plate seat's width; required when plates are allowed), ``wall``
     (material under a hole), ``plate_shape`` (``flat``, ``rolled``, ``face``), ``hole_orientation``
-    (``axial``, ``radial``), ``washer_size`` (e.g. ``"M10"``), ``material`` (default: the rotor's).
+    (``axial``, ``radial``), ``washer_size`` (e.g. ``"M10"``, ``"3/8"``), ``washer_series`` (``"ISO 7089"``,
+    ``"ISO 7093"``, ``"inch SAE"``; default: inch SAE in an inch unit system unless ``washer_size`` is a
+    metric size, else ISO 7089), ``material`` (default: the rotor's).
 ``[angles]``
     ``reference`` (what marks 0°, e.g. ``"keyway"``) and ``sense`` (how angles on the rotor are counted:
     ``"against rotation"`` or ``"with rotation"``), both required.
@@ -209,6 +211,7 @@ class PlaneSpec:
     plate_shape: str = "rolled"
     hole_orientation: str = "radial"
     washer_size: str | None = None
+    washer_series: str | None = None
 
     def to_dict(self) -> dict:
         return {
@@ -220,6 +223,7 @@ class PlaneSpec:
             "material": self.material, "width_mm": None if self.width is None else self.width.m_as("mm"),
             "wall_mm": None if self.wall is None else self.wall.m_as("mm"), "plate_shape": self.plate_shape,
             "hole_orientation": self.hole_orientation, "washer_size": self.washer_size,
+            "washer_series": self.washer_series,
         }
 
 
@@ -607,7 +611,7 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
         path = ("plane", i)
         _unknown(ck, p, path, ("name", "position", "radius", "surface", "methods", "fixed_positions",
                                "max_depth", "max_length", "material", "width", "wall", "plate_shape",
-                               "hole_orientation", "washer_size"))
+                               "hole_orientation", "washer_size", "washer_series"))
         name = _text(ck, p, path + ("name",), required=True)
         if name and name in names_seen:
             ck.add(path + ("name",), f"{name!r} is used by another plane; plane names must differ")
@@ -645,10 +649,11 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
         orientation = _choice(ck, p, path + ("hole_orientation",), ("axial", "radial"),
                               default=default_orientation)
         washer_size = _text(ck, p, path + ("washer_size",)) or None
+        washer_series = _text(ck, p, path + ("washer_series",)) or None
         if None not in (name, position, radius, surface) and methods:
             planes.append(PlaneSpec(name, position, radius, surface, methods, tuple(sorted(fixed)), max_depth,
                                     max_length, plane_material, width, wall, plate_shape, orientation,
-                                    washer_size))
+                                    washer_size, washer_series))
     if share is not None and len(planes_raw) == 1:
         ck.add(("geometry", "static_share"), "a static share needs two correction planes (static and couple "
                                              "tolerances); this job has one plane, whose allowance is set by "
