@@ -72,8 +72,9 @@ def configure_drill(parser) -> None:
                      help="holes towards the axis, into a cylinder of radius --radius")
     parser.add_argument("--diameter", metavar="LENGTH", help="drill to use; default: chosen from the drill set")
     parser.add_argument("--drills", default=None, metavar="SET",
-                        help="drill set: metric, inch, or a shop's CSV (columns size, diameter, unit, source); "
-                             "default: inch with --units imperial, otherwise metric")
+                        help="drill set: metric, inch (full ladders), metric-basic, inch-basic (short sets), a "
+                             "shop's CSV (columns size, diameter, unit, source) or the shop's drills as a list "
+                             "('6 mm,8 mm,No. 7,1/4 in'); default: inch with inch --units, otherwise metric")
     parser.add_argument("--point-angle", default="118", metavar="DEG",
                         help="included point angle, degrees (118 general, 135 hard material, 180 flat bottom)")
     parser.add_argument("--max-depth", metavar="LENGTH", help="deepest tip allowed (for example the part's room)")
@@ -92,11 +93,22 @@ def configure_drill(parser) -> None:
     parser.set_defaults(run=run_drill)
 
 
-def _drill_set(args) -> str:
-    """The drill set asked for, or the one of the unit system (an inch shop drills with inch drills)."""
+def _drill_set(args):
+    """The drill set asked for (a set name, a CSV path or a comma-separated list of sizes), or the one of
+    the unit system (an inch shop drills with inch drills)."""
+    from toolkit.errors import BadInput
+    from toolkit.units import unit_system
+
     if args.drills is not None:
-        return args.drills
-    return "inch" if getattr(args, "units", "metric") == "imperial" else "metric"
+        if "," not in args.drills:
+            return args.drills
+        from toolkit.fabricate.stock import drill_list
+
+        try:
+            return drill_list([x.strip() for x in args.drills.split(",")], "--drills")
+        except BadInput as exc:
+            raise BadInput(str(exc).replace("--drills[", "--drills item [")) from None
+    return "inch" if unit_system(getattr(args, "units", "metric")).inch else "metric"
 
 
 def run_drill(args) -> int:

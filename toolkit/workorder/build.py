@@ -234,6 +234,23 @@ def _order_date(job: Job) -> str:
     return given or datetime.date.today().isoformat()
 
 
+def _drill_settings(job: Job) -> list[Setting]:
+    """Which drill set the holes were chosen from (when a plane may drill)."""
+    from toolkit.fabricate.stock import DRILL_SETS
+
+    if not any("drill" in plane.methods for plane in job.planes):
+        return []
+    drills = job.shop.drills
+    given = "drills" in job.shop.given or "drills" in job.shop.drilling_given
+    if isinstance(drills, tuple):
+        value = "the job's list: " + ", ".join(d.size for d in drills)
+    elif drills in DRILL_SETS:
+        value = DRILL_SETS[drills] + ("" if given else f", the default for {job.shop.units} units")
+    else:
+        value = f"the shop's table {Path(drills).name}"
+    return [Setting("drill set", value, "CP", given, "[shop.drilling] drills = [\"6 mm\", ...] or a CSV path")]
+
+
 def _washer_settings(job: Job) -> list[Setting]:
     """The washer series of each plane that may stack washers, and who chose it."""
     from toolkit.fabricate.plan import washer_series
@@ -291,6 +308,7 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
                            else "statics transfer (stricter)", "H" if rule == "whole" else "D",
                            job.one_plane_rule != "whole", "[geometry] one_plane_rule"))
     out.extend(_washer_settings(job))
+    out.extend(_drill_settings(job))
     delta = 0.0 if job.error_allowance is None else job.error_allowance.m_as("g*mm")
     shown = Formatter(job.shop.units, job.angle_reference, job.angle_sense).unbalance(delta) if delta else "0"
     out.append(Setting("measurement error allowance ΔU", shown, "M", job.error_allowance is not None,

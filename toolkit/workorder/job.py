@@ -41,12 +41,14 @@ A job file has these tables (``examples/job-*.toml`` are complete, invented exam
     ``trial_change_deg`` [CP]. ``kind`` = ``"coefficients"``: ``coefficients`` (a path, relative to the
     job file, to stored influence coefficients) and ``original`` (one reading per sensor).
 ``[shop]``
-    ``units`` (``metric``/``imperial``), ``drills`` (``"metric"``, ``"inch"`` or a CSV path),
+    ``units`` (``metric``/``imperial``/``inch-gram``), ``drills`` (``"metric-basic"``, ``"inch-basic"``,
+    ``"metric"``, ``"inch"`` or a CSV path; default the basic set of the unit system [CP]),
     ``plate_stock`` (``"plate_stock"`` or a CSV path), ``angle_step`` (marking resolution, 1° [CP]),
     ``mass_step`` (weighing resolution, 0.1 g [CP]), ``plate_step`` (1 mm [CP]), ``point_angle`` (118°),
     ``weld_convexity`` (fraction added to a fillet's z²/2, 0.2 [M]), ``fillet`` (weld leg; default the
     minimum for the plate thickness [H]), ``paper`` (``"A4"`` or ``"Letter"``; default Letter for imperial
-    units, A4 for metric), and a ``[shop.drilling]`` table of drilling rules of thumb [CP]. Every default is printed on the work
+    units, A4 for metric), and a ``[shop.drilling]`` table of drilling rules of thumb [CP] and the shop's
+    ``drills`` (a list of sizes, ``["6 mm", "No. 7", "1/4 in"]``, instead of ``[shop] drills``). Every default is printed on the work
     order as used.
 
 Validation collects every problem before it stops; each names the file, the line, the key, the value
@@ -252,7 +254,7 @@ class ShopSettings:
     """The shop's settings: unit system, tables, rounding steps."""
 
     units: str
-    drills: str
+    drills: Any  # a set name, a CSV path, or the job's own list (a tuple of stock.Drill)
     plate_stock: str
     angle_step_deg: float
     mass_step: Any
@@ -263,6 +265,7 @@ class ShopSettings:
     weld_convexity: float | None = None
     fillet: Any = None
     paper: str = ""  # "A4" or "Letter"; empty: from the unit system
+    drilling_given: tuple[str, ...] = ()  # the keys of [shop.drilling] the job gave
 
 
 @dataclass(frozen=True)
@@ -687,8 +690,7 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
         if key not in shop_t:
             defaults_used.append(f"shop.{key}")
     paper = {"a4": "A4", "letter": "Letter", None: ""}[_choice(ck, shop_t, ("shop", "paper"), ("a4", "letter"))]
-    drills = _table_ref(ck, shop_t, ("shop", "drills"), base, ("metric", "inch"),
-                        "inch" if units in ("imperial", "inch-gram") else "metric")
+    drills = _drill_set(ck, shop_t, base, units)
     stock = _table_ref(ck, shop_t, ("shop", "plate_stock"), base, ("plate_stock",), "plate_stock")
     from toolkit.fabricate.plates import PLATE_STEP_BOUNDS
 
@@ -706,8 +708,10 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     drilling = {}
     drill_t = _table(ck, shop_t, ("shop", "drilling"), required=False)
     for key, value in drill_t.items():
+        if key == "drills":
+            continue  # read by _drill_set
         if key not in DRILLING_KEYS:
-            ck.add(("shop", "drilling", key), f"unknown key; allowed keys here: {', '.join(DRILLING_KEYS)}")
+            ck.add(("shop", "drilling", key), f"unknown key; allowed keys here: drills, {', '.join(DRILLING_KEYS)}")
         elif key == "max_holes":
             if isinstance(value, bool) or not isinstance(value, int) or not 1 <= value <= 36:
                 ck.add(("shop", "drilling", key), f"{_shown(value)} is not allowed; give a whole number from 1 to 36")
@@ -754,7 +758,8 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     return Job(origin, MappingProxyType(order), mass, service, balancing, grade, criterion or "iso", material,
                span, com, share, min_share, error_allowance, tuple(planes), reference, sense, measurement,
                ShopSettings(units or "metric", drills, stock, step_deg, mass_step, plate_step, point_angle,
-                            MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet, paper),
+                            MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet, paper,
+                            tuple(drill_t)),
                tuple(defaults_used), one_plane_rule=one_plane_rule or "whole", rotor_length=rotor_length)
 
 
@@ -792,6 +797,29 @@ def _methods(ck: _Checker, p: Mapping, path: tuple) -> tuple[str, ...]:
         if item.strip().lower() not in out:
             out.append(item.strip().lower())
     return tuple(out)
+
+
+def _drill_set(ck: _Checker, shop_t: Mapping, base: Path, units: str | None):
+    """The shop's drills: ``[shop.drilling] drills`` (a list of sizes, a set name or a CSV path) or
+    ``[shop] drills`` (a set name or a CSV path); by default the basic set of the unit system."""
+    from toolkit.fabricate.stock import DRILL_SETS
+
+    default = "inch-basic" if units in ("imperial", "inch-gram") else "metric-basic"
+    drill_t = shop_t.get("drilling") if isinstance(shop_t.get("drilling"), Mapping) else {}
+    if "drills" in drill_t and "drills" in shop_t:
+        ck.add(("shop", "drilling", "drills"), "the drills are given twice (also [shop] drills); keep one")
+    if "drills" not in drill_t:
+        return _table_ref(ck, shop_t, ("shop", "drills"), base, tuple(DRILL_SETS), default)
+    value, path = drill_t["drills"], ("shop", "drilling", "drills")
+    if isinstance(value, str):
+        return _table_ref(ck, drill_t, path, base, tuple(DRILL_SETS), default)
+    from toolkit.fabricate.stock import drill_list
+
+    try:
+        return drill_list(value, "drills")
+    except BadInput as exc:
+        ck.add(path, str(exc).removeprefix("drills").lstrip(": "))
+        return default
 
 
 def _table_ref(ck: _Checker, table: Mapping, path: tuple, base: Path, names: tuple[str, ...],
