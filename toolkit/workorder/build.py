@@ -32,8 +32,9 @@ from pathlib import Path
 from toolkit.errors import BadInput, Infeasible
 from toolkit.units import unit_system
 from toolkit.workorder.job import DEFAULTS, Job, load_job, parse_job
-from toolkit.workorder.model import (Formatter, Identification, Operation, PlaneOrder, Setting, Tolerance, WorkOrder,
-                                     default_paper, effect, paper_setting, polar, vector)
+from toolkit.workorder.model import (Coefficient, FieldRecord, FieldRun, Formatter, Identification, Operation,
+                                     PlaneOrder, SensorCheck, Setting, Tolerance, WorkOrder, default_paper,
+                                     effect, paper_setting, polar, vector)
 
 __all__ = ["build_order", "order_from_file", "demo_job", "demo_order", "write_examples", "GENERAL_CAUTIONS"]
 
@@ -104,12 +105,12 @@ JOB_KEYS = {"rotor_length": "[geometry] rotor_length", "correction_diameter": "[
 
 def _initial(job: Job):
     """Initial unbalance per plane as {name: (g·mm, heavy-spot angle)}, a description, warnings, sources,
-    cautions."""
+    cautions, and the influence-coefficient solution (None for balancing-machine readings)."""
     m = job.measurement
     if m.kind == "machine":
         out = {name: (amount.m_as("g*mm"), angle) for name, (amount, angle) in m.readings.items()}
         shows = "heavy spot" if m.shows == "heavy spot" else "the add position (turned to the heavy spot here)"
-        return out, f"balancing machine readings per plane (the machine's angle shows {shows})", [], [], []
+        return out, f"balancing machine readings per plane (the machine's angle shows {shows})", [], [], [], None
     if m.kind == "runs":
         from toolkit.influence import runs_from_dict, solve_runs
 
@@ -141,7 +142,7 @@ def _initial(job: Job):
     # the solver's predicted residual at the sensors is for the exact corrections; the work order predicts
     # its own residual per plane after the quantised operations, so that line would only mislead here
     warnings = [w for w in solution.warnings if not w.startswith("predicted residual after the corrections")]
-    return out, what, warnings, [solution.source], list(solution.cautions)
+    return out, what, warnings, [solution.source], list(solution.cautions), solution
 
 
 def _plan(job: Job, plane, u0: float, a0: float, allowance: float, method: str, step: float):
@@ -375,7 +376,7 @@ def build_order(job: Job) -> WorkOrder:
     from toolkit.tolerance import check_residuals
 
     report, tolerances, notes = _tolerances(job)
-    initial, measured_by, warnings, sources, cautions = _initial(job)
+    initial, measured_by, warnings, sources, cautions, solution = _initial(job)
     missing = [p.name for p in job.planes if p.name not in initial]
     if missing:
         raise BadInput(f"{job.origin}: measurement: no unbalance for plane(s) {', '.join(missing)}")
@@ -428,8 +429,41 @@ def build_order(job: Job) -> WorkOrder:
         settings=_settings(job, report) + (paper_setting(job.shop.paper, job.shop.units,
                                                          "job file" if job.shop.paper else ""),),
         warnings=_unique(warnings), paper=job.shop.paper or default_paper(job.shop.units),
-        inputs={"origin": job.origin},
+        inputs={"origin": job.origin}, field_record=None if solution is None else _field_record(solution, planes),
     )
+
+
+def _field_record(solution, planes) -> FieldRecord:
+    """The runs, the coefficients and the check run's predicted vibration per sensor after the operations
+    as planned (quantised and at their rounded angles), not after the solver's exact corrections."""
+    import numpy as np
+
+    from toolkit.influence import conjugate_needed
+
+    rs = solution.runset
+    conj = conjugate_needed(rs.weight_angles, rs.phase)
+    runs = tuple(FieldRun(run.name, tuple((plane, *polar(z)) for plane, z in run.trials),
+                          tuple(polar(v) for v in run.readings)) for run in rs.runs)
+    # in the instrument's own phase sense: the reading that 1 g at 0° in the plane causes
+    coefficients = tuple(Coefficient(rs.sensors[i], rs.planes[j], *polar(z.conjugate() if conj else z),
+                                     f"{rs.reading_unit} per g")
+                         for i, row in enumerate(solution.influence) for j, z in enumerate(row))
+    by_name = {p.name: p for p in planes}
+    last = dict(rs.runs[-1].trials) if rs.runs else {}
+    applied = np.array([sum((op.effect for op in by_name[plane].operations), 0j) / by_name[plane].radius_mm
+                        if plane in by_name else 0j for plane in rs.planes], dtype=complex)
+    if rs.trials_left_on:
+        applied = applied + np.array([last.get(plane, 0j) for plane in rs.planes], dtype=complex)
+    predicted = np.array(solution.original) + np.array(solution.influence) @ applied
+    check = []
+    for i, sensor in enumerate(rs.sensors):
+        z, o = complex(predicted[i]), complex(solution.original[i])
+        amount, angle = polar(np.conj(z) if conj else z)
+        check.append(SensorCheck(sensor, amount, angle, abs(o)))
+    trials_on = tuple((plane, *polar(z)) for plane, z in last.items() if z != 0)
+    warnings = tuple(w for w in solution.warnings if not w.startswith("predicted residual after the corrections"))
+    return FieldRecord(rs.reading_unit, rs.phase, rs.sensors, runs, coefficients, solution.condition_number,
+                       warnings, rs.trials_left_on, trials_on, tuple(check))
 
 
 def _shown_date(job: Job) -> str:

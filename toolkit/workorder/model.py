@@ -20,7 +20,8 @@ from toolkit.errors import BadInput
 from toolkit.formatting import Formatter, unit_labels  # noqa: F401 - the one formatter, used through here
 
 __all__ = [
-    "Identification", "Tolerance", "Operation", "PlaneOrder", "Setting", "WorkOrder",
+    "Identification", "Tolerance", "Operation", "PlaneOrder", "Setting", "WorkOrder", "FieldRun", "Coefficient",
+    "SensorCheck", "FieldRecord",
     "vector", "polar", "effect", "Formatter", "unit_labels",
 ]
 
@@ -192,6 +193,107 @@ class Setting:
     how: str
 
 
+@dataclass(frozen=True)
+class FieldRun:
+    """One trial-mass run as measured: its name, the trial masses on the rotor during it (plane, mass [g],
+    angle [deg] in the order's angle sense) and one reading per sensor (amount in the reading unit, phase
+    [deg] in the instrument's own sense, as written in the job)."""
+
+    name: str
+    trials: tuple[tuple[str, float, float], ...]
+    readings: tuple[tuple[float, float], ...]
+
+
+@dataclass(frozen=True)
+class Coefficient:
+    """One influence coefficient: the reading at ``sensor`` caused by 1 g at 0° in ``plane`` (``amount`` in
+    ``unit``, e.g. "um per g", at ``angle_deg`` in the solver's weight-angle frame)."""
+
+    sensor: str
+    plane: str
+    amount: float
+    angle_deg: float
+    unit: str
+
+
+@dataclass(frozen=True)
+class SensorCheck:
+    """What the check run should read at one sensor: the vibration predicted after this order's operations
+    (``amount`` at ``angle_deg``, instrument phase sense) beside the original reading (``original``)."""
+
+    sensor: str
+    amount: float
+    angle_deg: float
+    original: float
+
+
+@dataclass(frozen=True)
+class FieldRecord:
+    """A field job recorded in full: the runs, the influence coefficients, the condition number and the
+    solver's warnings, which trial masses are on the rotor after the last run and whether they come off,
+    and the check run's predicted vibration per sensor."""
+
+    reading_unit: str
+    phase: str
+    sensors: tuple[str, ...]
+    runs: tuple[FieldRun, ...]
+    coefficients: tuple[Coefficient, ...]
+    condition_number: float
+    warnings: tuple[str, ...]
+    trials_left_on: bool
+    trials_on: tuple[tuple[str, float, float], ...]
+    check: tuple[SensorCheck, ...]
+
+    # The words every exporter prints (one wording, so that the PDF and the spreadsheet agree).
+
+    def reading(self, amount: float, angle_deg: float) -> str:
+        """A vibration reading with its unit and phase sense, e.g. ``17.50 um at 253.7° (lag)``."""
+        return f"{Formatter.number(amount, 4)} {self.unit} at {angle_deg:.1f}° ({self.phase})"
+
+    @property
+    def unit(self) -> str:
+        """The reading unit as printed (``um`` as ``µm``)."""
+        from toolkit.units import METRIC
+
+        return METRIC.symbol(self.reading_unit)
+
+    def run_rows(self, fmt) -> list[list[str]]:
+        """[run, trial masses, readings per sensor] for each run."""
+        rows = []
+        for run in self.runs:
+            trials = "; ".join(f"{plane}: {fmt.mass(g)} at {fmt.where(a)}" for plane, g, a in run.trials) or "none"
+            readings = "; ".join(f"{s}: {self.reading(amount, a)}"
+                                 for s, (amount, a) in zip(self.sensors, run.readings))
+            rows.append([run.name, trials, readings])
+        return rows
+
+    def coefficient_rows(self) -> list[list[str]]:
+        """[sensor, plane, coefficient] with its unit: the reading caused by 1 g at 0° in the plane."""
+        return [[c.sensor, c.plane, f"{Formatter.number(c.amount, 4)} {self.unit} per g at {c.angle_deg:.1f}° "
+                 f"({self.phase})"]
+                for c in self.coefficients]
+
+    def conditioning(self) -> str:
+        """The condition number in words."""
+        return (f"Condition number of the coefficient matrix: {self.condition_number:.3g} (1 is ideal; large values "
+                f"mean the planes fight each other and small reading errors move the corrections a lot).")
+
+    def trial_steps(self, fmt) -> list[str]:
+        """The trial-mass step before the operations: what comes off (or stays on), one line per mass."""
+        if not self.trials_on:
+            return []
+        if self.trials_left_on:
+            return [f"Leave the trial mass on plane {plane} ({fmt.mass(g)} at {fmt.where(a)}): the corrections "
+                    f"count it" for plane, g, a in self.trials_on]
+        return [f"Remove the trial mass from plane {plane}: {fmt.mass(g)} at {fmt.where(a)}"
+                for plane, g, a in self.trials_on]
+
+    def check_rows(self) -> list[list[str]]:
+        """[sensor, original reading, predicted after the operations] for the check run."""
+        return [[c.sensor, f"{Formatter.number(c.original, 4)} {self.unit}",
+                 self.reading(c.amount, c.angle_deg)] for c in self.check]
+
+
 #: The paper sizes a work order prints on, in words.
 PAPERS = {"A4": "A4 (210 mm × 297 mm)", "Letter": "Letter (8.5 in × 11 in)"}
 
@@ -250,6 +352,8 @@ class WorkOrder:
     #: "A4" or "Letter"; empty: from the unit system (Letter for imperial, A4 for metric).
     paper: str = ""
     inputs: dict = field(default_factory=dict, compare=False, hash=False)
+    #: the runs, coefficients and check-run predictions of an order built from trial-mass runs (else None)
+    field_record: FieldRecord | None = None
 
     @property
     def passed(self) -> bool:
