@@ -88,3 +88,21 @@ def test_an_inch_gram_job_prints_grams_and_gram_inches(order):
     assert shown.endswith(" g·in")
     # 6.4 oz·in in g·in: 6.4 × 28.349523125 g (exact, international yard and pound, 1959)
     assert float(shown.split()[0]) == pytest.approx(6.4 * 28.349523125, rel=1e-3)
+
+
+def test_an_inch_job_drills_from_the_basic_inch_set_and_says_so():
+    from toolkit.fabricate.stock import drills
+    from toolkit.workorder.build import build_order
+    from toolkit.workorder.job import parse_job
+
+    fan = EXAMPLE.parent / "job-fan-readings.toml"
+    text = (fan.read_text(encoding="utf-8").replace('units = "metric" ', 'units = "imperial"', 1)
+            .replace('drills = ["6 mm", "8 mm", "10 mm", "12 mm", "14 mm", "16 mm", "20 mm"]', ""))
+    order = build_order(parse_job(text, str(fan), fan.parent))
+    holes = [op for op in order.operations if op.kind == "hole"]
+    basic = {d.size for d in drills("inch-basic")}
+    assert holes and all(any(f"drill radial {size} " in op.description for size in basic) for op in holes)
+    for op in order.operations:
+        assert not METRIC.search(op.description + " " + " ".join(v for _k, v in op.details)), op.description
+    used = {s.name: s.value for s in order.settings}["drill set"]
+    assert used.startswith("the basic inch set (1/8,") and used.endswith("the default for imperial units")
