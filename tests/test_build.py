@@ -172,7 +172,7 @@ def test_no_feasible_method_is_refused_with_the_reason():
 
 def test_a_plane_left_out_of_tolerance_fails():
     path = next(p for p in EXAMPLES if "imperial" in p.name)
-    text = path.read_text(encoding="utf-8").replace('inboard = "7.1 oz*in@90"', 'inboard = "5.1 oz*in@90"')
+    text = path.read_text(encoding="utf-8").replace('inboard = "6.4 oz*in@90"', 'inboard = "7.1 oz*in@90"')
     order = build_order(parse_job(text, str(path), path.parent))
     inboard = order.planes[0]
     assert not inboard.passed and not order.passed

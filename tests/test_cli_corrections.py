@@ -114,7 +114,20 @@ def test_coefficients_save_reuse_and_trim(capsys, tmp_path):
                          *sum((["--after", r] for r in ["9 um@190", "8 um@45", "18 um@240", "15 um@85"]), []),
                          "--save-coefficients", str(tmp_path / "fan2.json"))
     assert code == 0, err
-    assert "updated by the trim run" in out
+    assert "updated by the trim run" in out and "Trim corrections" in out
+    assert (tmp_path / "fan2.json").is_file()
+    # the trim correction without saving: printed, nothing written, the JSON says so
+    trim_argv = [*argv, "--installed", "near=10 g@20", "--installed", "far=5 g@200",
+                 *sum((["--after", r] for r in ["9 um@190", "8 um@45", "18 um@240", "15 um@85"]), [])]
+    code, out, err = run(capsys, *trim_argv, "--json")
+    assert code == 0, err
+    data = json.loads(out)
+    assert data["coefficients_file"] is None and len(data["trim"]["corrections"]) == 2
+    # the residual starts from the readings after the installed correction, as measured
+    assert [r["original_amount"] for r in data["trim"]["predicted_residual"]] == pytest.approx([9, 8, 18, 15])
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["fan.json", "fan2.json"]
+    code, out, err = run(capsys, *trim_argv)
+    assert code == 0 and "not saved (give --save-coefficients FILE to keep them)" in out
 
 
 @pytest.mark.parametrize("content, message", [

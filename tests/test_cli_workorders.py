@@ -131,7 +131,7 @@ def test_order_one_problem_stays_on_one_line(tmp_path, capsys):
 def test_order_out_of_tolerance_exits_1(tmp_path, capsys):
     job = tmp_path / "fails.toml"
     text = (EXAMPLES / "job-blower-imperial.toml").read_text(encoding="utf-8")
-    job.write_text(text.replace('inboard = "7.1 oz*in@90"', 'inboard = "5.1 oz*in@90"'), encoding="utf-8")
+    job.write_text(text.replace('inboard = "6.4 oz*in@90"', 'inboard = "7.1 oz*in@90"'), encoding="utf-8")
     assert main(["order", str(job), "--out", str(tmp_path)]) == 1
     out = capsys.readouterr().out
     assert "Result: FAIL" in out and "oz·in" in out

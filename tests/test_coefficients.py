@@ -149,3 +149,22 @@ def test_damaged_files_name_the_field(tmp_path, change, message):
     path.write_text(json.dumps(data), encoding="utf-8")
     with pytest.raises(BadInput, match=message):
         load_coefficients(path)
+
+
+def test_trim_correction_in_one_step():
+    """The trim correction is solved from the readings after the installed correction, with the updated
+    coefficients; its residual starts from those readings as measured (derived here, D: with one plane the
+    updated α' = ΔV/ΔU and the trim mass is -V1/α')."""
+    from toolkit.coefficients import trim_correction
+
+    c = _one_plane()
+    before, installed, after = _vec(2.1, 285), _vec(6, 255), _vec(0.4, 285)
+    trim = trim_correction(c, ["2.1 mm/s@285"], {"plane": "6 g@255"}, ["0.4 mm/s@285"])
+    alpha = (after - before) / installed  # D: one-plane update α' = ΔV/ΔU
+    assert trim.updated.matrix[0][0] == pytest.approx(alpha, abs=1e-9)
+    k, = trim.solution.corrections
+    want = -after / alpha  # D: the mass that cancels the reading after
+    assert k.action == "add" and k.mass.m_as("g") == pytest.approx(abs(want), rel=1e-6)
+    assert k.angle_deg == pytest.approx(math.degrees(cmath.phase(want)) % 360, abs=1e-6)
+    assert trim.solution.predicted_residual[0]["original_amount"] == pytest.approx(0.4)  # measured, not fitted
+    assert set(trim.to_dict()) == {"updated_coefficients", "trim"}

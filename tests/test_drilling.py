@@ -259,7 +259,10 @@ def test_drill_tables_fingerprint():
     assert sum(d.diameter_mm for d in metric) == pytest.approx(sum(i / 10 for i in range(30, 140))
                                                                + sum(14 + 0.25 * k for k in range(45)))
     # ANSI B94.11M fractional series (H): 1/64 to 1 in by 1/64
-    assert len(inch) == 64 and sum(d.diameter_mm for d in inch) == pytest.approx(32.5 * 25.4)
+    fractional = [d for d in inch if d.size.endswith(" in")]
+    assert len(fractional) == 64 and sum(d.diameter_mm for d in fractional) == pytest.approx(32.5 * 25.4)
+    # ASME B94.11M number sizes No. 1-80 and letter sizes A-Z (values checked in test_stock.py)
+    assert len(inch) == 64 + 80 + 26
     assert all(d.source for d in metric + inch)
 
 

@@ -208,3 +208,36 @@ def test_a_grade_from_the_job_is_marked_as_the_jobs_value():
     _order, used = _used(EXAMPLE.replace('grade = "G 6.3"\n', ""))
     # the default G 6.3 is common practice for general machinery (job.DEFAULTS, marked CP)
     assert not used["grade"].given and used["grade"].mark == "CP" and used["grade"].value == "G 6.3"
+
+
+FAN = Path(__file__).resolve().parent.parent / "examples" / "job-fan-readings.toml"
+
+
+def test_the_shop_names_its_drills_in_the_job():
+    from toolkit.workorder.build import build_order
+
+    text = FAN.read_text(encoding="utf-8")
+    job = parse_job(text, str(FAN), FAN.parent)
+    assert [d.size for d in job.shop.drills][:2] == ["6.0 mm", "8.0 mm"]
+    order = build_order(job)
+    assert all(op.radius_mm and ("20 mm" in op.description or op.kind != "hole") for op in order.operations)
+    used = {s.name: s for s in order.settings}["drill set"]
+    assert used.given and used.value.startswith("the job's list: 6.0 mm, 8.0 mm")
+    # without a list the order drills from the basic set of its unit system, and says so
+    plain = text.replace('drills = ["6 mm", "8 mm", "10 mm", "12 mm", "14 mm", "16 mm", "20 mm"]', "")
+    order = build_order(parse_job(plain, str(FAN), FAN.parent))
+    used = {s.name: s for s in order.settings}["drill set"]
+    assert not used.given and used.mark == "CP"
+    assert used.value == "the basic metric set (3, 4, 5, 6, 8, 10, 12, 14, 16, 18, 20, 22, 25 mm), the default for metric units"
+
+
+def test_a_bad_drill_list_names_its_line_and_item():
+    text = FAN.read_text(encoding="utf-8")
+    line = 1 + text[:text.index('drills = ["6 mm"')].count("\n")
+    bad = text.replace('"8 mm", "10 mm"', '"8 mm", "ten"')
+    with pytest.raises(JobError) as info:
+        parse_job(bad, "fan.toml", FAN.parent)
+    assert f"line {line}, shop.drilling.drills: [2]: 'ten' is neither a size of the drill tables" in str(info.value)
+    twice = text.replace('[shop]\n', '[shop]\ndrills = "metric"\n', 1)
+    with pytest.raises(JobError, match="the drills are given twice"):
+        parse_job(twice, "fan.toml", FAN.parent)

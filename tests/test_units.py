@@ -96,7 +96,7 @@ def test_arrays_convert_once():
 
 def test_unit_system_names():
     assert units.unit_system("Metric") is units.METRIC
-    with pytest.raises(BadInput, match="units: 'si' is not a unit system; use 'metric' or 'imperial'"):
+    with pytest.raises(BadInput, match="units: 'si' is not a unit system; use 'metric', 'imperial' or 'inch-gram'"):
         units.unit_system("si")
 
 

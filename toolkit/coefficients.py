@@ -35,7 +35,7 @@ from toolkit.runs import Run, RunSet, conjugate_needed, phase_sense, weight_sens
 from toolkit.vectors import parse_reading, polar
 
 __all__ = ["Coefficients", "coefficients_from", "save_coefficients", "load_coefficients",
-           "solve_with_coefficients", "trim_update", "FORMAT"]
+           "solve_with_coefficients", "trim_update", "trim_correction", "Trim", "FORMAT"]
 
 FORMAT = "counterpoise-influence"
 
@@ -266,3 +266,36 @@ def trim_update(coefficients: Coefficients, before, installed, after) -> Coeffic
     a_new = a + np.outer(dv - a @ du, np.conj(du)) / norm
     return replace(coefficients, matrix=tuple(tuple(map(complex, row)) for row in a_new), saved=_now(),
                    note=(coefficients.note + "; " if coefficients.note else "") + "updated by a trim run")
+
+
+@dataclass(frozen=True)
+class Trim:
+    """A trim run worked out in one step: the coefficients updated by it and the trim correction solved
+    from the readings after the installed correction with them (its predicted residual starts from those
+    readings as measured)."""
+
+    updated: Coefficients
+    solution: Solution
+
+    def to_dict(self) -> dict:
+        return {"updated_coefficients": self.updated.to_dict(), "trim": self.solution.to_dict()}
+
+
+def trim_correction(coefficients: Coefficients, before, installed, after, *, method: str = "least squares",
+                    settings: Settings | None = None, origin: str = "stored coefficients") -> Trim:
+    """The trim correction after a first correction: update the coefficients from the trim run
+    (:func:`trim_update`), then solve the readings ``after`` with the updated coefficients
+    (:func:`solve_with_coefficients`). Nothing is saved here.
+
+    >>> from toolkit.influence import solve_one_plane
+    >>> c = coefficients_from(solve_one_plane("4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49"))
+    >>> t = trim_correction(c, ["2.1 mm/s@285"], {"plane": "6 g@255"}, ["0.4 mm/s@285"])
+    >>> k = t.solution.corrections[0]; f"{k.action} {k.mass.m_as('g'):.3f} g@{k.angle_deg:.1f}"
+    'add 1.412 g@255.0'
+    >>> round(t.solution.predicted_residual[0]["original_amount"], 6)  # the reading after, as measured
+    0.4
+    """
+    updated = trim_update(coefficients, before, installed, after)
+    solution = solve_with_coefficients(updated, after, method=method, settings=settings,
+                                       origin=f"{origin}, updated by the trim run")
+    return Trim(updated, solution)

@@ -556,9 +556,9 @@ def _checks(allowance, amount: float, shares) -> tuple[Check, ...]:
 
 def _correction(amount, signed, heavy, parts, rho, w, r0, h, hk_h, Ls, zs, zk, Lk, service, fix_method,
                 fix_radius, fix_options, material, density, table, units, checks) -> KeyCorrection:
-    from toolkit.fabricate.plan import _Say
+    from toolkit.formatting import Formatter
 
-    say = _Say(units)
+    say = Formatter(units)
     add_angle = parse_angle(heavy + 180.0)
     protruding = sum(p.z_end_mm - p.z_start_mm for p in parts if p.cause == "key protrudes beyond the hub")
     # empty length of the shaft keyway now (no key in it): room for a compensating half-key
@@ -569,20 +569,20 @@ def _correction(amount, signed, heavy, parts, rho, w, r0, h, hk_h, Ls, zs, zk, L
     if amount == 0.0:
         return KeyCorrection("none", 0.0, heavy, add_angle, "nothing to correct: the key error has no resultant",
                              None, room, None, protruding, ())
-    words = (f"remove {say.unb(amount)} at {heavy:g}° (the heavy spot), or add {say.unb(amount)} at "
+    words = (f"remove {say.unbalance(amount)} at {heavy:g}° (the heavy spot), or add {say.unbalance(amount)} at "
              f"{add_angle:g}°")
     if signed < 0:
         half_len = amount / q_half
         fits = half_len <= room + 1e-9
-        options.append(f"fit a compensating half-key {say.len(half_len)} long ({say.dim(w)} wide, "
-                       f"{say.dim(hk_h)} high) in the empty shaft keyway at {parse_angle(heavy + 180):g}°"
-                       + ("" if fits else f"; only {say.len(room)} of the keyway is empty, so it does not fit "
+        options.append(f"fit a compensating half-key {say.depth(half_len)} long ({say.dimension(w)} wide, "
+                       f"{say.dimension(hk_h)} high) in the empty shaft keyway at {parse_angle(heavy + 180):g}°"
+                       + ("" if fits else f"; only {say.depth(room)} of the keyway is empty, so it does not fit "
                                            f"there: use a fabricated correction"))
     elif protruding > 0:
         q_top = _q(rho, w, r0 + hk_h, r0 + h)
         trim_len = amount / q_top
-        options.append(f"cut the key's part outside the hub down to the half-key height ({say.dim(hk_h)}) over "
-                       f"{say.len(trim_len)} (it protrudes {say.len(protruding)}), or cut the key to the hub's "
+        options.append(f"cut the key's part outside the hub down to the half-key height ({say.dimension(hk_h)}) over "
+                       f"{say.depth(trim_len)} (it protrudes {say.depth(protruding)}), or cut the key to the hub's "
                        f"length and fit a half-key in the rest of the keyway")
     if fix_method is not None:
         options.append(f"fabricated correction by {fix_method}: see the plan")

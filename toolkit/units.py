@@ -563,6 +563,11 @@ class UnitSystem:
     rotor_mass: str
     density: str
 
+    @property
+    def inch(self) -> bool:
+        """Whether lengths are in inches (inch hardware, inch drills and Letter paper by default)."""
+        return self.length == "in"
+
     def symbol(self, unit: str) -> str:
         """The printed symbol of a unit string (``g*mm`` -> ``g·mm``)."""
         return unit.replace("*", "·").replace("**3", "³").replace("um", "µm")
@@ -570,19 +575,22 @@ class UnitSystem:
 
 METRIC = UnitSystem("metric", "g*mm", "g", "mm", "kg", "kg/m**3")
 IMPERIAL = UnitSystem("imperial", "oz*in", "oz", "in", "lb", "lb/in**3")
+#: inch lengths with grams and g·in, for shops whose balancing machine and scale read grams
+INCH_GRAM = UnitSystem("inch-gram", "g*in", "g", "in", "lb", "lb/in**3")
+UNIT_SYSTEMS = (METRIC, IMPERIAL, INCH_GRAM)
 
 
 def unit_system(name: str) -> UnitSystem:
-    """``"metric"`` or ``"imperial"``; anything else is refused.
+    """``"metric"``, ``"imperial"`` or ``"inch-gram"``; anything else is refused.
 
-    >>> unit_system("imperial").unbalance
-    'oz*in'
+    >>> unit_system("imperial").unbalance, unit_system("inch-gram").unbalance
+    ('oz*in', 'g*in')
     """
     text = str(name).strip().lower()
-    for system in (METRIC, IMPERIAL):
+    for system in UNIT_SYSTEMS:
         if text == system.name:
             return system
-    raise BadInput.about("units", f"{name!r} is not a unit system; use 'metric' or 'imperial'")
+    raise BadInput.about("units", f"{name!r} is not a unit system; use 'metric', 'imperial' or 'inch-gram'")
 
 
 def format_number(x: float, sig: int = 4) -> str:

@@ -18,9 +18,22 @@ def add_json(parser) -> None:
 
 
 def add_units(parser) -> None:
-    parser.add_argument("--units", default="metric", metavar="SYSTEM",
-                        help="units of the printed results: metric (g·mm, g, mm, kg) or imperial "
-                             "(oz·in, oz, in, lb); default metric")
+    parser.add_argument("--units", default="metric", metavar="SYSTEM", type=_units,
+                        help="units of the printed results: metric (g·mm, g, mm, kg), imperial "
+                             "(oz·in, oz, in, lb) or inch-gram (g·in, g, in, lb); default metric")
+
+
+def _units(text: str) -> str:
+    """The unit system's name, or the library's refusal worded for the option."""
+    import argparse
+
+    from toolkit.errors import BadInput
+    from toolkit.units import unit_system
+
+    try:
+        return unit_system(text).name
+    except BadInput as exc:
+        raise argparse.ArgumentTypeError(str(exc).removeprefix("units: ")) from None
 
 
 def add_force(parser) -> None:

@@ -162,7 +162,7 @@ def run_solve(args) -> int:
     return 0
 
 
-def _solution_text(solution, saved=None, defaults=()) -> str:
+def _solution_text(solution, saved=None, defaults=(), measured: str = "") -> str:
     from toolkit.units import format_number
     from toolkit.vectors import polar
 
@@ -190,7 +190,7 @@ def _solution_text(solution, saved=None, defaults=()) -> str:
     lines.append("Predicted residual after the corrections:")
     for r in solution.predicted_residual:
         lines.append(f"  {r['sensor']}: {format_number(r['amount'])} {r['unit']} "
-                     f"(was {format_number(r['original_amount'])})")
+                     f"(was {format_number(r['original_amount'])}{' ' + measured if measured else ''})")
     if saved:
         lines.append(f"Coefficients saved to {saved}")
     if solution.warnings:
@@ -202,7 +202,7 @@ def _solution_text(solution, saved=None, defaults=()) -> str:
 
 
 def _run_stored(args) -> int:
-    from toolkit.coefficients import load_coefficients, save_coefficients, solve_with_coefficients, trim_update
+    from toolkit.coefficients import load_coefficients, save_coefficients, solve_with_coefficients, trim_correction
     from toolkit.errors import BadInput
 
     coefficients = load_coefficients(args.coefficients)
@@ -213,21 +213,21 @@ def _run_stored(args) -> int:
     if args.installed or args.after:
         if not (args.installed and args.after):
             raise BadInput("--installed/--after: a trim run needs both the installed masses and the readings after")
-        if not args.save_coefficients:
-            raise BadInput("--save-coefficients: give a file for the updated coefficients")
-        updated = trim_update(coefficients, args.original, _pairs(args.installed, "--installed"), args.after)
-        path = save_coefficients(updated, args.save_coefficients, force=args.force)
+        trim = trim_correction(coefficients, args.original, _pairs(args.installed, "--installed"), args.after,
+                               method=_method(args) or "least squares", settings=_settings(args),
+                               origin=str(args.coefficients))
+        updated = trim.updated
+        path = save_coefficients(updated, args.save_coefficients, force=args.force) if args.save_coefficients \
+            else None
         data = updated.to_dict()
-        data["coefficients_file"] = str(path)
-        from toolkit.units import format_number
-        from toolkit.vectors import polar
-
-        lines = [f"Coefficients updated by the trim run and saved to {path} ({updated.reading_unit} per g, "
-                 f"angles {updated.weight_angles}):"]
-        for i, s in enumerate(updated.sensors):
-            for j, p in enumerate(updated.planes):
-                amount, angle = polar(updated.matrix[i][j])
-                lines.append(f"  {s} / {p}: {format_number(amount)} at {angle:.1f}°")
+        data["coefficients_file"] = None if path is None else str(path)
+        data["trim"] = trim.solution.to_dict()
+        where = f"saved to {path}" if path else "not saved (give --save-coefficients FILE to keep them)"
+        lines = _solution_text(trim.solution, measured="measured after the installed correction").split("\n")
+        lines[0] = "Trim " + lines[0][0].lower() + lines[0][1:] + ", from the readings after the installed correction"
+        at = next(i for i, line in enumerate(lines) if line.startswith("Influence coefficients"))
+        lines[at] = lines[at].replace("Influence coefficients", "Influence coefficients updated by the trim run")
+        lines.insert(at + 1 + len(updated.sensors) * len(updated.planes), f"  (updated coefficients {where})")
         emit(args.json, data, "\n".join(lines))
         return 0
     solution = solve_with_coefficients(coefficients, args.original, method=_method(args) or "least squares",

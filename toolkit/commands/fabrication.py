@@ -72,8 +72,9 @@ def configure_drill(parser) -> None:
                      help="holes towards the axis, into a cylinder of radius --radius")
     parser.add_argument("--diameter", metavar="LENGTH", help="drill to use; default: chosen from the drill set")
     parser.add_argument("--drills", default=None, metavar="SET",
-                        help="drill set: metric, inch, or a shop's CSV (columns size, diameter, unit, source); "
-                             "default: inch with --units imperial, otherwise metric")
+                        help="drill set: metric, inch (full ladders), metric-basic, inch-basic (short sets), a "
+                             "shop's CSV (columns size, diameter, unit, source) or the shop's drills as a list "
+                             "('6 mm,8 mm,No. 7,1/4 in'); default: inch with inch --units, otherwise metric")
     parser.add_argument("--point-angle", default="118", metavar="DEG",
                         help="included point angle, degrees (118 general, 135 hard material, 180 flat bottom)")
     parser.add_argument("--max-depth", metavar="LENGTH", help="deepest tip allowed (for example the part's room)")
@@ -92,11 +93,22 @@ def configure_drill(parser) -> None:
     parser.set_defaults(run=run_drill)
 
 
-def _drill_set(args) -> str:
-    """The drill set asked for, or the one of the unit system (an inch shop drills with inch drills)."""
+def _drill_set(args):
+    """The drill set asked for (a set name, a CSV path or a comma-separated list of sizes), or the one of
+    the unit system (an inch shop drills with inch drills)."""
+    from toolkit.errors import BadInput
+    from toolkit.units import unit_system
+
     if args.drills is not None:
-        return args.drills
-    return "inch" if getattr(args, "units", "metric") == "imperial" else "metric"
+        if "," not in args.drills:
+            return args.drills
+        from toolkit.fabricate.stock import drill_list
+
+        try:
+            return drill_list([x.strip() for x in args.drills.split(",")], "--drills")
+        except BadInput as exc:
+            raise BadInput(str(exc).replace("--drills[", "--drills item [")) from None
+    return "inch" if unit_system(getattr(args, "units", "metric")).inch else "metric"
 
 
 def run_drill(args) -> int:
@@ -214,8 +226,9 @@ def configure_washers(parser) -> None:
     _add_correction(parser, "add")
     parser.add_argument("--size", metavar="SIZE", help="washer size to use (M10, 1/2); default: chosen")
     parser.add_argument("--series", metavar="SERIES",
-                        help="washer series: 'ISO 7089' (default, also with --size alone), 'ISO 7093', "
-                             "'inch SAE' (an inch --size alone takes it, and the output says so)")
+                        help="washer series: 'ISO 7089' (default for metric units, also with --size alone), "
+                             "'ISO 7093', 'inch SAE' (default for --units imperial or inch-gram; an inch "
+                             "--size alone takes it, and the output says so)")
     parser.add_argument("--radial", action="store_true",
                         help="the bolt is radial (the stack grows away from its seat at --radius)")
     parser.add_argument("--surface", choices=("outer", "inner"), default="outer",
@@ -285,27 +298,22 @@ def _plan_keys(plan) -> dict:
             "tried": list(plan.tried), "warnings": list(plan.warnings)}
 
 
+def _say(args):
+    from toolkit.formatting import Formatter
+
+    return Formatter(args.units)
+
+
 def _unb(x: float, args) -> str:
-    from toolkit.units import format_quantity, unit_system
-
-    system = unit_system(args.units)
-    from toolkit.units import Q_
-
-    return format_quantity(Q_(x, "g*mm"), system.unbalance)
+    return _say(args).unbalance(x)
 
 
 def _length(x: float, args) -> str:
-    from toolkit.units import format_number, unit_system
-
-    if unit_system(args.units).name == "metric":
-        return f"{round(x, 2):g} mm"
-    return f"{format_number(x / 25.4)} in"
+    return _say(args).dimension(x)
 
 
 def _mass(x: float, args) -> str:
-    from toolkit.units import Q_, format_quantity, unit_system
-
-    return format_quantity(Q_(x, "g"), unit_system(args.units).mass)
+    return _say(args).mass(x, sig=4)
 
 
 def _achieved(plan, args) -> list[str]:

@@ -30,28 +30,17 @@ def _fraction(text, option: str, low: float, high: float, example: str):
     return value
 
 
-class _Fmt:
-    """Numbers with units in the chosen system."""
+def _Fmt(system_name: str):  # noqa: N802 - kept as the name the calculators import
+    """The one formatter, with the calculators' short names (``unb``; ``mass`` is the rotor's mass)."""
+    from toolkit.formatting import Formatter
 
-    def __init__(self, system_name: str):
-        from toolkit.units import unit_system
+    class _Calculator(Formatter):
+        unb = Formatter.unbalance
 
-        self.system = unit_system(system_name)
+        def mass(self, q, sig: int = 4) -> str:
+            return self.rotor_mass(q, sig)
 
-    def unb(self, q) -> str:
-        from toolkit.units import format_quantity
-
-        return format_quantity(q, self.system.unbalance)
-
-    def length(self, q) -> str:
-        from toolkit.units import format_quantity
-
-        return format_quantity(q, self.system.length)
-
-    def mass(self, q) -> str:
-        from toolkit.units import format_quantity
-
-        return format_quantity(q, self.system.rotor_mass)
+    return _Calculator(system_name)
 
 
 def _table(rows: list[list[str]], indent: str = "  ") -> list[str]:

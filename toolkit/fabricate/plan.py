@@ -27,12 +27,33 @@ from toolkit.fabricate import drilling, plates, washers
 from toolkit.fabricate import stock as _stock
 from toolkit.fabricate.drilling import Limits
 from toolkit.fabricate.shared import correction_g_mm, norm_angle, offset_angle
-from toolkit.units import Q_, format_number as _fmt, magnitude
+from toolkit.formatting import Formatter
+from toolkit.units import Q_, magnitude
 from toolkit.vectors import parse_angle
 
-__all__ = ["Operation", "Plan", "plan_correction", "METHODS"]
+__all__ = ["Operation", "Plan", "plan_correction", "washer_series", "METHODS", "INCH_WASHER_SERIES"]
 
 METHODS = ("drill", "plate", "washers")
+
+#: The washer series an inch shop stacks unless it names another (ASME B18.22.1 type A narrow rows).
+INCH_WASHER_SERIES = "inch SAE"
+
+
+def washer_series(units: str, size=None, series=None, table: str = "washers") -> str | None:
+    """The series to stack from: the one given; else, in an inch unit system, the inch series when the
+    table has it (and has ``size``, if one is given); else None (the washer module's default, ISO 7089).
+
+    >>> washer_series("imperial"), washer_series("imperial", size="M10"), washer_series("metric")
+    ('inch SAE', None, None)
+    """
+    from toolkit.units import unit_system
+
+    if series is not None or not unit_system(units).inch:
+        return series
+    inch = {w.size.strip().lower() for w in _stock.washers(table) if w.series == INCH_WASHER_SERIES}
+    if inch and (size is None or str(size).strip().lower() in inch):
+        return INCH_WASHER_SERIES
+    return None
 
 
 @dataclass(frozen=True)
@@ -115,33 +136,8 @@ class Plan:
         }
 
 
-class _Say:
-    """Lengths and masses in words, in the chosen unit system (metric: mm, g; imperial: in, oz)."""
-
-    def __init__(self, units: str = "metric"):
-        from toolkit.units import unit_system
-
-        self.system = unit_system(units)
-
-    def len(self, mm: float, decimals: int = 1) -> str:
-        if self.system.name == "metric":
-            return f"{mm:.{decimals}f} mm" if decimals is not None else f"{mm:g} mm"
-        return f"{mm / 25.4:.{decimals + 2 if decimals is not None else 4}f} in"
-
-    def dim(self, mm: float) -> str:
-        return f"{mm:g} mm" if self.system.name == "metric" else f"{mm / 25.4:.4g} in"
-
-    def mass(self, g: float) -> str:
-        return f"{_fmt(g)} g" if self.system.name == "metric" else f"{_fmt(g / 28.349523125)} oz"
-
-    def unb(self, g_mm: float) -> str:
-        if self.system.name == "metric":
-            return f"{_fmt(g_mm)} g·mm"
-        return f"{_fmt(g_mm / (28.349523125 * 25.4))} oz·in"
-
-
-def _ops_drill(r: drilling.DrillResult, say: _Say | None = None) -> tuple[Operation, ...]:
-    say = say or _Say()
+def _ops_drill(r: drilling.DrillResult, say: Formatter | None = None) -> tuple[Operation, ...]:
+    say = say or Formatter()
     ops = []
     for i, h in enumerate(r.holes, 1):
         where = "pitch radius" if r.orientation == "axial" else "surface radius"
@@ -150,14 +146,14 @@ def _ops_drill(r: drilling.DrillResult, say: _Say | None = None) -> tuple[Operat
             {"diameter_mm": h.diameter_mm, "depth_mm": h.depth_mm, "tip_depth_mm": h.tip_depth_mm,
              "radius_mm": r.radius_mm},
             (f"hole {i} of {len(r.holes)}: drill {r.orientation} {r.drill} ({r.point_angle_deg:g}° point)",
-             f" on {say.dim(r.radius_mm)} {where}, {say.len(h.depth_mm)} deep to the shoulder "
-             f"({say.len(h.tip_depth_mm)} to the tip); removes {say.mass(h.mass_g)}"
-             + (f"; {say.len(r.wall_mm - h.tip_depth_mm)} of wall left under the tip" if r.wall_mm else ""))))
+             f" on {say.dimension(r.radius_mm)} {where}, {say.depth(h.depth_mm)} deep to the shoulder "
+             f"({say.depth(h.tip_depth_mm)} to the tip); removes {say.mass(h.mass_g, sig=4)}"
+             + (f"; {say.depth(r.wall_mm - h.tip_depth_mm)} of wall left under the tip" if r.wall_mm else ""))))
     return tuple(ops)
 
 
-def _ops_plate(p: plates.PlateResult, say: _Say | None = None) -> tuple[Operation, ...]:
-    say = say or _Say()
+def _ops_plate(p: plates.PlateResult, say: Formatter | None = None) -> tuple[Operation, ...]:
+    say = say or Formatter()
     ops = []
     for i, a in enumerate(p.seat_angles_deg, 1):
         one = p.achieved_g_mm / len(p.seat_angles_deg) if p.seats == 1 else \
@@ -167,20 +163,21 @@ def _ops_plate(p: plates.PlateResult, say: _Say | None = None) -> tuple[Operatio
             {"thickness_mm": p.thickness_mm, "width_mm": p.width_mm, "length_mm": p.length_mm,
              "fillet_mm": p.fillet_mm, "centroid_radius_mm": p.centroid_radius_mm},
             (f"plate{'' if p.seats == 1 else f' {i} of 2'}: weld a {p.shape} {p.thickness_label} plate "
-             f"{say.dim(p.width_mm)} × {say.dim(p.length_mm)} ({say.mass(p.mass_g)}, about {say.mass(p.weld_mass_g)} "
-             f"of weld with {say.dim(p.fillet_mm)} fillets) on the "
-             f"{p.surface + ' surface' if p.shape != 'face' else 'face'}", f", radius {say.dim(p.radius_mm)}")))
+             f"{say.dimension(p.width_mm)} × {say.dimension(p.length_mm)} ({say.mass(p.mass_g, sig=4)}, "
+             f"about {say.mass(p.weld_mass_g, sig=4)} of weld with {say.dimension(p.fillet_mm)} fillets) on the "
+             f"{p.surface + ' surface' if p.shape != 'face' else 'face'}", f", radius {say.dimension(p.radius_mm)}")))
     return tuple(ops)
 
 
-def _ops_washers(s: washers.WasherStack, say: _Say | None = None) -> tuple[Operation, ...]:
-    say = say or _Say()
+def _ops_washers(s: washers.WasherStack, say: Formatter | None = None) -> tuple[Operation, ...]:
+    say = say or Formatter()
     return (Operation(
         "washers", "add", s.add_angle_deg, s.mass_g, s.achieved_g_mm,
         {"size": s.size, "series": s.series, "count": s.count, "stack_height_mm": s.stack_height_mm,
          "centroid_radius_mm": s.centroid_radius_mm},
-        (f"washers: stack {s.count} × {s.size} {s.series} ({say.mass(s.mass_g)}) on the {s.orientation} bolt",
-         f", radius {say.dim(s.radius_mm)}")),)
+        (f"washers: stack {s.count} × {s.size} {s.series} ({say.mass(s.mass_g, sig=4)}) on the "
+         f"{s.orientation} bolt",
+         f", radius {say.dimension(s.radius_mm)}")),)
 
 
 def _summarise(ops, U, angle, action):
@@ -209,8 +206,10 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
     action : ``"add"`` or ``"remove"`` (how the correction is stated). allowance : Quantity [mass·length]
     or None (the predicted residual allowed for this correction). The other keywords go to
     :func:`~toolkit.fabricate.drilling.drill_correction`, :func:`~toolkit.fabricate.plates.weld_plate` or
-    :func:`~toolkit.fabricate.washers.washer_stack`. units : ``"metric"`` or ``"imperial"``, the units of
-    the operations' descriptions and the plan's reason (numbers in the records stay mm, g, g·mm).
+    :func:`~toolkit.fabricate.washers.washer_stack`. units : ``"metric"``, ``"imperial"`` or
+    ``"inch-gram"``, the units of the operations' descriptions and the plan's reason (numbers in the
+    records stay mm, g, g·mm); an inch system also stacks inch washers unless ``series`` or a metric
+    ``size`` is given (:func:`washer_series`).
 
     >>> p = plan_correction("2400 g*mm", 131, "drill", radius="150 mm", material="steel", action="add",
     ...                     allowance="20 g*mm")
@@ -226,7 +225,7 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
     allow = None if allowance is None else magnitude(allowance, "unbalance", "g*mm", "allowance",
                                                      nonnegative=True)
     limits = limits or Limits()
-    say = _Say(units)
+    say = Formatter(units)
     attempts: list[tuple[str, object, tuple]] = []
 
     def run(label, fn, to_ops, **kw):
@@ -282,8 +281,8 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
                 if done:
                     break
     else:
-        kw = dict(common, orientation=orientation, surface=surface, series=series, max_count=max_count,
-                  table=washer_table)
+        kw = dict(common, orientation=orientation, surface=surface, max_count=max_count, table=washer_table,
+                  series=washer_series(units, size, series, washer_table))
         err = run("washers as chosen", washers.washer_stack, _ops_washers,
                   correction=unbalance, size=size, **kw)
     # keep the best attempt (the first one within the allowance, else the smallest error)
@@ -299,8 +298,8 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
     if within is False:
         names = [a[0] for a in attempts]
         shown = ", ".join(names) if len(names) <= 4 else f"{', '.join(names[:2])}, ... {names[-1]} ({len(names)} options)"
-        reason = (f"no option within the allowance of {say.unb(allow)}: tried {shown}; "
-                  f"best leaves {say.unb(err)}; nearest: a finer tool or stock, or a second correction pass")
+        reason = (f"no option within the allowance of {say.unbalance(allow)}: tried {shown}; "
+                  f"best leaves {say.unbalance(err)}; nearest: a finer tool or stock, or a second correction pass")
     warnings = tuple(res.warnings) + ((reason,) if reason else ())
     return Plan(method, action, U, angle, ops, amount, ang, err, allow, within,
                 tuple(a[0] for a in attempts), reason, warnings, tuple(res.cautions), res)

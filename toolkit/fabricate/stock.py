@@ -6,6 +6,9 @@ file is refused with the file, line and column named. Sizes are converted once t
 Columns (one header row; a ``source`` cell on every row):
 
 - drills (``drills_metric``, ``drills_inch``): ``size, diameter, unit, source`` with unit ``mm`` or ``in``.
+  The inch table holds the fractional, number (No. 1 to No. 80) and letter (A to Z) sizes of ASME B94.11M.
+  Two short sets, ``metric-basic`` and ``inch-basic`` (:data:`BASIC_DRILLS`), are rows of those tables: the
+  drills a small shop keeps, and the work orders' default.
 - plate stock (``plate_stock``): ``thickness, unit, label, source``.
 - washers (``washers``): ``size, series, d1, d2, h, unit, source`` (d1 bore, d2 outside, h thickness).
 """
@@ -17,8 +20,8 @@ from dataclasses import dataclass
 from toolkit import catalog
 from toolkit.errors import BadInput
 
-__all__ = ["Drill", "PlateThickness", "Washer", "drills", "plate_stock", "washers",
-           "DRILL_SCHEMA", "PLATE_SCHEMA", "WASHER_SCHEMA"]
+__all__ = ["Drill", "PlateThickness", "Washer", "drills", "drill_list", "plate_stock", "washers",
+           "DRILL_SCHEMA", "PLATE_SCHEMA", "WASHER_SCHEMA", "BASIC_DRILLS", "DRILL_SETS"]
 
 _MM_PER = {"mm": 1.0, "in": 25.4}
 
@@ -66,17 +69,99 @@ class Washer:
     source: str
 
 
-def drills(table: str = "metric") -> tuple[Drill, ...]:
-    """The drill set, smallest first: ``"metric"``, ``"inch"`` or the path of a shop's CSV.
+#: The short sets: the drills a small shop keeps, by size label of the full tables (common practice, no
+#: source: whole millimetres and the common fractions up to 1 in, without the in-between jobber sizes).
+BASIC_DRILLS = {
+    "metric-basic": ("metric", ("3 mm", "4 mm", "5 mm", "6 mm", "8 mm", "10 mm", "12 mm", "14 mm", "16 mm",
+                                "18 mm", "20 mm", "22 mm", "25 mm")),
+    "inch-basic": ("inch", ("1/8 in", "5/32 in", "3/16 in", "1/4 in", "5/16 in", "3/8 in", "7/16 in", "1/2 in",
+                            "9/16 in", "5/8 in", "3/4 in", "7/8 in", "1 in")),
+}
+
+#: The built-in sets by name, in words (for the work order's values-used list and errors).
+DRILL_SETS = {
+    "metric": "the full metric jobber ladder (3 to 25 mm)",
+    "inch": "the full inch set (fractional 1/64 to 1 in, number and letter sizes)",
+    "metric-basic": "the basic metric set (" + ", ".join(s.removesuffix(" mm") for s in
+                                                          BASIC_DRILLS["metric-basic"][1]) + " mm)",
+    "inch-basic": "the basic inch set (" + ", ".join(s.removesuffix(" in") for s in
+                                                      BASIC_DRILLS["inch-basic"][1]) + " in)",
+}
+
+
+def drills(table="metric") -> tuple[Drill, ...]:
+    """The drill set, smallest first: ``"metric"``, ``"inch"``, ``"metric-basic"``, ``"inch-basic"``, the
+    path of a shop's CSV, or drills already chosen (a sequence of :class:`Drill`, see :func:`drill_list`).
 
     >>> d = drills("metric"); len(d), d[0].diameter_mm, d[-1].diameter_mm
     (155, 3.0, 25.0)
-    >>> drills("inch")[16].size, round(drills("inch")[16].diameter_mm, 4)
-    ('17/64 in', 6.7469)
+    >>> [(x.size, round(x.diameter_mm, 4)) for x in drills("inch") if x.size in ("17/64 in", "No. 7", "letter F")]
+    [('No. 7', 5.1054), ('letter F', 6.5278), ('17/64 in', 6.7469)]
+    >>> [x.diameter_mm for x in drills("metric-basic")][:4]
+    [3.0, 4.0, 5.0, 6.0]
     """
+    if isinstance(table, (tuple, list)):
+        if not table or not all(isinstance(d, Drill) for d in table):
+            raise BadInput("drills: give a set name, a CSV path or a non-empty list of drills")
+        return tuple(sorted(table, key=lambda d: d.diameter_mm))
+    if str(table) in BASIC_DRILLS:
+        full, sizes = BASIC_DRILLS[str(table)]
+        wanted = {_label_key(x) for x in sizes}
+        return tuple(d for d in drills(full) if _label_key(d.size) in wanted)
     name = {"metric": "drills_metric", "inch": "drills_inch"}.get(str(table), table)
     rows = catalog.load(name, DRILL_SCHEMA)
     out = [Drill(r["size"], r["diameter"] * _MM_PER[r["unit"]], r["source"]) for r in rows]
+    return tuple(sorted(out, key=lambda d: d.diameter_mm))
+
+
+def _label_key(text: str) -> str:
+    """A size label without case, spaces or the words that shops leave out (``#7`` = ``No. 7``,
+    ``F`` = ``letter F``, ``6 mm`` = ``6.0 mm``)."""
+    key = "".join(str(text).lower().split()).replace("no.", "#").replace("letter", "")
+    if key.startswith("#"):
+        key = key[1:]
+    if key.endswith("mm"):
+        try:
+            key = f"{float(key[:-2]):g}mm"
+        except ValueError:
+            pass
+    return key
+
+
+def drill_list(sizes, name: str = "drills") -> tuple[Drill, ...]:
+    """The drills a shop has, from a list of sizes: labels of the built-in tables (``"No. 7"`` or ``"#7"``,
+    ``"letter F"`` or ``"F"``, ``"17/64 in"``, ``"10.2 mm"``) or diameters with a unit (``"0.25 in"``,
+    ``"6 mm"``). A diameter that a table holds takes that row (with its source); any other is the shop's
+    own drill. Smallest first; a size given twice is refused.
+
+    >>> [(d.size, round(d.diameter_mm, 3)) for d in drill_list(["6 mm", "#7", "F", "0.25 in"])]
+    [('No. 7', 5.105), ('6.0 mm', 6.0), ('1/4 in', 6.35), ('letter F', 6.528)]
+    """
+    from toolkit.units import magnitude
+
+    if isinstance(sizes, (str, bytes)) or not hasattr(sizes, "__iter__"):
+        raise BadInput(f"{name}: give a list of drill sizes, e.g. [\"6 mm\", \"8 mm\", \"No. 7\", \"1/4 in\"]")
+    known = drills("metric") + drills("inch")
+    by_label = {_label_key(d.size): d for d in known}
+    out: list[Drill] = []
+    for i, item in enumerate(sizes):
+        where = f"{name}[{i}]"
+        if not isinstance(item, str) or not item.strip():
+            raise BadInput(f"{where}: {item!r} is not a drill size; give a size such as \"6 mm\" or \"No. 7\"")
+        drill = by_label.get(_label_key(item))
+        if drill is None:
+            try:
+                mm = magnitude(item, "length", "mm", where, positive=True)
+            except BadInput:
+                raise BadInput(f"{where}: {item!r} is neither a size of the drill tables (\"No. 7\", \"letter F\", "
+                               f"\"17/64 in\") nor a diameter with a unit (\"6 mm\", \"0.25 in\")") from None
+            drill = next((d for d in known if abs(d.diameter_mm - mm) < 1e-6),
+                         Drill(item.strip(), float(mm), "the shop's own drill list"))
+        if any(abs(d.diameter_mm - drill.diameter_mm) < 1e-6 for d in out):
+            raise BadInput(f"{where}: {item!r} repeats a diameter already in the list")
+        out.append(drill)
+    if not out:
+        raise BadInput(f"{name}: the list is empty; give the shop's drills, e.g. [\"6 mm\", \"8 mm\", \"10 mm\"]")
     return tuple(sorted(out, key=lambda d: d.diameter_mm))
 
 

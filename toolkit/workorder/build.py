@@ -30,8 +30,10 @@ import re
 from pathlib import Path
 
 from toolkit.errors import BadInput, Infeasible, quantity_words
+from toolkit.units import unit_system
 from toolkit.workorder.job import DEFAULTS, Job, job_key_names, load_job, parse_job
-from toolkit.workorder.model import (Formatter, Identification, Operation, PlaneOrder, Setting, Tolerance, WorkOrder,
+from toolkit.workorder.model import (Coefficient, FieldRecord, FieldRun, Formatter, Identification, Operation,
+                                     PlaneOrder, SensorCheck, Setting, Tolerance, WorkOrder, default_paper,
                                      effect, paper_setting, polar, vector)
 
 __all__ = ["build_order", "order_from_file", "demo_job", "demo_order", "write_examples", "GENERAL_CAUTIONS"]
@@ -103,12 +105,12 @@ JOB_KEYS = {"rotor_length": "[geometry] rotor_length", "correction_diameter": "[
 
 def _initial(job: Job):
     """Initial unbalance per plane as {name: (g·mm, heavy-spot angle)}, a description, warnings, sources,
-    cautions."""
+    cautions, and the influence-coefficient solution (None for balancing-machine readings)."""
     m = job.measurement
     if m.kind == "machine":
         out = {name: (amount.m_as("g*mm"), angle) for name, (amount, angle) in m.readings.items()}
         shows = "heavy spot" if m.shows == "heavy spot" else "the add position (turned to the heavy spot here)"
-        return out, f"balancing machine readings per plane (the machine's angle shows {shows})", [], [], []
+        return out, f"balancing machine readings per plane (the machine's angle shows {shows})", [], [], [], None
     if m.kind == "arbor-index":
         return _arbor_initial(job)
     if m.kind == "runs":
@@ -142,7 +144,7 @@ def _initial(job: Job):
     # the solver's predicted residual at the sensors is for the exact corrections; the work order predicts
     # its own residual per plane after the quantised operations, so that line would only mislead here
     warnings = [w for w in solution.warnings if not w.startswith("predicted residual after the corrections")]
-    return out, what, warnings, [solution.source], list(solution.cautions)
+    return out, what, warnings, [solution.source], list(solution.cautions), solution
 
 
 def _arbor_initial(job: Job):
@@ -169,7 +171,7 @@ def _arbor_initial(job: Job):
     source = next(iter(m.index.values())).source if m.index else ""
     cautions = ["Stop the machine before turning the part on the arbor; secure the part and any trial mass "
                 "before each run, guards closed."]
-    return out, what, warnings, [source], cautions
+    return out, what, warnings, [source], cautions, None
 
 
 def _key_notes(job: Job, fmt, shares: dict, planes) -> list[str]:
@@ -217,7 +219,7 @@ def _plan(job: Job, plane, u0: float, a0: float, allowance: float, method: str, 
         plans = [plan_correction(_q(u0, "g*mm"), a0, "plate", action="remove", shape=plane.plate_shape,
                                  surface=plane.surface if plane.surface in ("outer", "inner") else "outer",
                                  width=plane.width, stock=job.shop.plate_stock,
-                                 stock_unit="in" if job.shop.units == "imperial" else "mm",
+                                 stock_unit="in" if unit_system(job.shop.units).inch else "mm",
                                  step=job.shop.plate_step or "1 mm", max_length=plane.max_length,
                                  fillet=job.shop.fillet, convexity=job.shop.weld_convexity, **common)]
     else:
@@ -235,7 +237,8 @@ def _plan(job: Job, plane, u0: float, a0: float, allowance: float, method: str, 
         if len(parts) > 1:
             common["allowance"] = None  # the plane is checked as a whole below, not part by part
         plans = [plan_correction(_q(u, "g*mm"), angle, "washers", action="add", orientation=orientation,
-                                 surface=surface, size=plane.washer_size, **common) for angle, u in parts]
+                                 surface=surface, size=plane.washer_size, series=plane.washer_series, **common)
+                 for angle, u in parts]
     ops, warnings, cautions = [], [], []
     for p in plans:
         for op in p.operations:
@@ -287,6 +290,44 @@ def _order_date(job: Job) -> str:
     return given or datetime.date.today().isoformat()
 
 
+def _drill_settings(job: Job) -> list[Setting]:
+    """Which drill set the holes were chosen from (when a plane may drill)."""
+    from toolkit.fabricate.stock import DRILL_SETS
+
+    if not any("drill" in plane.methods for plane in job.planes):
+        return []
+    drills = job.shop.drills
+    given = "drills" in job.shop.given or "drills" in job.shop.drilling_given
+    if isinstance(drills, tuple):
+        value = "the job's list: " + ", ".join(d.size for d in drills)
+    elif drills in DRILL_SETS:
+        value = DRILL_SETS[drills] + ("" if given else f", the default for {job.shop.units} units")
+    else:
+        value = f"the shop's table {Path(drills).name}"
+    return [Setting("drill set", value, "CP", given, "[shop.drilling] drills = [\"6 mm\", ...] or a CSV path")]
+
+
+def _washer_settings(job: Job) -> list[Setting]:
+    """The washer series of each plane that may stack washers, and who chose it."""
+    from toolkit.fabricate.plan import washer_series
+    from toolkit.fabricate.washers import DEFAULT_SERIES
+
+    out = []
+    for plane in job.planes:
+        if "washers" not in plane.methods:
+            continue
+        series = washer_series(job.shop.units, plane.washer_size, plane.washer_series) or DEFAULT_SERIES
+        if plane.washer_series is not None:
+            why = "the job's series"
+        elif plane.washer_size is not None:
+            why = f"the series of the job's size {plane.washer_size}"
+        else:
+            why = f"the default for {job.shop.units} units"
+        out.append(Setting(f"washer series, plane {plane.name}", f"{series} ({why})", "CP",
+                           plane.washer_series is not None, "[[plane]] washer_series"))
+    return out
+
+
 def _settings(job: Job, report) -> tuple[Setting, ...]:
     """The values used that the job may set; a value the job gave is marked ``job`` (its default's mark, CP
     or M, no longer applies)."""
@@ -309,7 +350,7 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
                            key not in job.defaults_used, f"[{section}] {name}"))
     out.append(Setting("angle marking step", f"{job.shop.angle_step_deg:g}°", "CP",
                        "angle_step" in job.shop.given, "[shop] angle_step"))
-    weighing = (f"{job.shop.mass_step.m_as('g'):g} g" if job.shop.units != "imperial" else
+    weighing = (f"{job.shop.mass_step.m_as('g'):g} g" if unit_system(job.shop.units).mass == "g" else
                 f"{job.shop.mass_step.m_as('g'):g} g, read to the nearest "
                 f"{10.0 ** math.floor(math.log10(job.shop.mass_step.m_as('oz'))):g} oz")
     out.append(Setting("weighing step", weighing, "CP",
@@ -322,6 +363,8 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
         out.append(Setting("one-plane allowance rule", "whole U_per (ISO 21940-11)" if rule == "whole"
                            else "statics transfer (stricter)", "H" if rule == "whole" else "D",
                            job.one_plane_rule != "whole", "[geometry] one_plane_rule"))
+    out.extend(_washer_settings(job))
+    out.extend(_drill_settings(job))
     if job.key is not None:
         out.append(Setting("key marking", f"{job.key.marking}" + ("" if job.key.marking_given else
                            f" (by the {job.key.convention} convention)"), "M", job.key.marking_given,
@@ -399,7 +442,7 @@ def build_order(job: Job) -> WorkOrder:
     from toolkit.tolerance import check_residuals
 
     report, tolerances, notes = _tolerances(job)
-    initial, measured_by, warnings, sources, cautions = _initial(job)
+    initial, measured_by, warnings, sources, cautions, solution = _initial(job)
     missing = [p.name for p in job.planes if p.name not in initial]
     if missing:
         raise BadInput(f"{job.origin}: measurement: no unbalance for plane(s) {', '.join(missing)}")
@@ -466,10 +509,43 @@ def build_order(job: Job) -> WorkOrder:
         cautions=_unique(all_cautions, words=5), sources=_unique(s for s in sources if s),
         settings=_settings(job, report) + (paper_setting(job.shop.paper, job.shop.units,
                                                          "job file" if job.shop.paper else ""),),
-        warnings=_unique(warnings), paper=job.shop.paper or ("Letter" if job.shop.units == "imperial" else "A4"),
-        inputs={"origin": job.origin},
+        warnings=_unique(warnings), paper=job.shop.paper or default_paper(job.shop.units),
+        inputs={"origin": job.origin}, field_record=None if solution is None else _field_record(solution, planes),
         **_key_fields(job, planes),
     )
+
+
+def _field_record(solution, planes) -> FieldRecord:
+    """The runs, the coefficients and the check run's predicted vibration per sensor after the operations
+    as planned (quantised and at their rounded angles), not after the solver's exact corrections."""
+    import numpy as np
+
+    from toolkit.influence import conjugate_needed
+
+    rs = solution.runset
+    conj = conjugate_needed(rs.weight_angles, rs.phase)
+    runs = tuple(FieldRun(run.name, tuple((plane, *polar(z)) for plane, z in run.trials),
+                          tuple(polar(v) for v in run.readings)) for run in rs.runs)
+    # in the instrument's own phase sense: the reading that 1 g at 0° in the plane causes
+    coefficients = tuple(Coefficient(rs.sensors[i], rs.planes[j], *polar(z.conjugate() if conj else z),
+                                     f"{rs.reading_unit} per g")
+                         for i, row in enumerate(solution.influence) for j, z in enumerate(row))
+    by_name = {p.name: p for p in planes}
+    last = dict(rs.runs[-1].trials) if rs.runs else {}
+    applied = np.array([sum((op.effect for op in by_name[plane].operations), 0j) / by_name[plane].radius_mm
+                        if plane in by_name else 0j for plane in rs.planes], dtype=complex)
+    if rs.trials_left_on:
+        applied = applied + np.array([last.get(plane, 0j) for plane in rs.planes], dtype=complex)
+    predicted = np.array(solution.original) + np.array(solution.influence) @ applied
+    check = []
+    for i, sensor in enumerate(rs.sensors):
+        z, o = complex(predicted[i]), complex(solution.original[i])
+        amount, angle = polar(np.conj(z) if conj else z)
+        check.append(SensorCheck(sensor, amount, angle, abs(o)))
+    trials_on = tuple((plane, *polar(z)) for plane, z in last.items() if z != 0)
+    warnings = tuple(w for w in solution.warnings if not w.startswith("predicted residual after the corrections"))
+    return FieldRecord(rs.reading_unit, rs.phase, rs.sensors, runs, coefficients, solution.condition_number,
+                       warnings, rs.trials_left_on, trials_on, tuple(check))
 
 
 _KEY_SOURCE = ("ISO 21940-32:2012, scope (half-key convention; full-key and no-key on older parts) [S]; marking "
@@ -503,7 +579,7 @@ def _shown_date(job: Job) -> str:
 
 
 def _details(kind: str, dims: dict, mass: float, job: Job) -> tuple[tuple[str, str], ...]:
-    unit = "oz" if job.shop.units == "imperial" else "g"  # the scale's unit follows the job's unit system
+    unit = unit_system(job.shop.units).mass  # the scale's unit follows the job's unit system
     step = job.shop.mass_step.m_as(unit)
     if unit == "oz":  # a gram step is no round number of ounces: read to the decade below it (0.1 g: 0.001 oz)
         step = 10.0 ** math.floor(math.log10(step))

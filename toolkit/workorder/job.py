@@ -25,7 +25,9 @@ A job file has these tables (``examples/job-*.toml`` are complete, invented exam
     must go, such as blades or tapped holes), ``max_depth`` (deepest hole tip), ``max_length`` (longest
     plate that fits), ``width`` (the plate seat's width; required when plates are allowed), ``wall``
     (material under a hole), ``plate_shape`` (``flat``, ``rolled``, ``face``), ``hole_orientation``
-    (``axial``, ``radial``), ``washer_size`` (e.g. ``"M10"``), ``material`` (default: the rotor's).
+    (``axial``, ``radial``), ``washer_size`` (e.g. ``"M10"``, ``"3/8"``), ``washer_series`` (``"ISO 7089"``,
+    ``"ISO 7093"``, ``"inch SAE"``; default: inch SAE in an inch unit system unless ``washer_size`` is a
+    metric size, else ISO 7089), ``material`` (default: the rotor's).
 ``[angles]``
     ``reference`` (what marks 0°, e.g. ``"keyway"``) and ``sense`` (how angles on the rotor are counted:
     ``"against rotation"`` or ``"with rotation"``), both required.
@@ -43,12 +45,14 @@ A job file has these tables (``examples/job-*.toml`` are complete, invented exam
     The key convention this rotor is balanced to, what sits in its keyway, its marking and, with the key's
     geometry, the key mismatch to correct (see :mod:`toolkit.workorder.jobkey`).
 ``[shop]``
-    ``units`` (``metric``/``imperial``), ``drills`` (``"metric"``, ``"inch"`` or a CSV path),
+    ``units`` (``metric``/``imperial``/``inch-gram``), ``drills`` (``"metric-basic"``, ``"inch-basic"``,
+    ``"metric"``, ``"inch"`` or a CSV path; default the basic set of the unit system [CP]),
     ``plate_stock`` (``"plate_stock"`` or a CSV path), ``angle_step`` (marking resolution, 1° [CP]),
     ``mass_step`` (weighing resolution, 0.1 g [CP]), ``plate_step`` (1 mm [CP]), ``point_angle`` (118°),
     ``weld_convexity`` (fraction added to a fillet's z²/2, 0.2 [M]), ``fillet`` (weld leg; default the
     minimum for the plate thickness [H]), ``paper`` (``"A4"`` or ``"Letter"``; default Letter for imperial
-    units, A4 for metric), and a ``[shop.drilling]`` table of drilling rules of thumb [CP]. Every default is printed on the work
+    units, A4 for metric), and a ``[shop.drilling]`` table of drilling rules of thumb [CP] and the shop's
+    ``drills`` (a list of sizes, ``["6 mm", "No. 7", "1/4 in"]``, instead of ``[shop] drills``). Every default is printed on the work
     order as used.
 
 Validation collects every problem before it stops; each names the file, the line, the key, the value
@@ -213,6 +217,7 @@ class PlaneSpec:
     plate_shape: str = "rolled"
     hole_orientation: str = "radial"
     washer_size: str | None = None
+    washer_series: str | None = None
 
     def to_dict(self) -> dict:
         return {
@@ -224,6 +229,7 @@ class PlaneSpec:
             "material": self.material, "width_mm": None if self.width is None else self.width.m_as("mm"),
             "wall_mm": None if self.wall is None else self.wall.m_as("mm"), "plate_shape": self.plate_shape,
             "hole_orientation": self.hole_orientation, "washer_size": self.washer_size,
+            "washer_series": self.washer_series,
         }
 
 
@@ -255,7 +261,7 @@ class ShopSettings:
     """The shop's settings: unit system, tables, rounding steps."""
 
     units: str
-    drills: str
+    drills: Any  # a set name, a CSV path, or the job's own list (a tuple of stock.Drill)
     plate_stock: str
     angle_step_deg: float
     mass_step: Any
@@ -266,6 +272,7 @@ class ShopSettings:
     weld_convexity: float | None = None
     fillet: Any = None
     paper: str = ""  # "A4" or "Letter"; empty: from the unit system
+    drilling_given: tuple[str, ...] = ()  # the keys of [shop.drilling] the job gave
 
 
 @dataclass(frozen=True)
@@ -621,7 +628,7 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
         path = ("plane", i)
         _unknown(ck, p, path, ("name", "position", "radius", "surface", "methods", "fixed_positions",
                                "max_depth", "max_length", "material", "width", "wall", "plate_shape",
-                               "hole_orientation", "washer_size"))
+                               "hole_orientation", "washer_size", "washer_series"))
         name = _text(ck, p, path + ("name",), required=True)
         if name and name in names_seen:
             ck.add(path + ("name",), f"{name!r} is used by another plane; plane names must differ")
@@ -659,10 +666,11 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
         orientation = _choice(ck, p, path + ("hole_orientation",), ("axial", "radial"),
                               default=default_orientation)
         washer_size = _text(ck, p, path + ("washer_size",)) or None
+        washer_series = _text(ck, p, path + ("washer_series",)) or None
         if None not in (name, position, radius, surface) and methods:
             planes.append(PlaneSpec(name, position, radius, surface, methods, tuple(sorted(fixed)), max_depth,
                                     max_length, plane_material, width, wall, plate_shape, orientation,
-                                    washer_size))
+                                    washer_size, washer_series))
     if share is not None and len(planes_raw) == 1:
         ck.add(("geometry", "static_share"), "a static share needs two correction planes (static and couple "
                                              "tolerances); this job has one plane, whose allowance is set by "
@@ -690,13 +698,13 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     shop_t = _table(ck, data, ("shop",), required=False)
     _unknown(ck, shop_t, ("shop",), ("units", "drills", "plate_stock", "angle_step", "mass_step", "plate_step",
                                       "point_angle", "drilling", "weld_convexity", "fillet", "paper"))
-    units = _choice(ck, shop_t, ("shop", "units"), ("metric", "imperial"), default="metric")
+    units = _choice(ck, shop_t, ("shop", "units"), ("metric", "imperial", "inch gram"), default="metric")
+    units = "inch-gram" if units == "inch gram" else units  # _choice reads '-' as a space
     for key in ("units", "angle_step", "mass_step"):
         if key not in shop_t:
             defaults_used.append(f"shop.{key}")
     paper = {"a4": "A4", "letter": "Letter", None: ""}[_choice(ck, shop_t, ("shop", "paper"), ("a4", "letter"))]
-    drills = _table_ref(ck, shop_t, ("shop", "drills"), base, ("metric", "inch"),
-                        "inch" if units == "imperial" else "metric")
+    drills = _drill_set(ck, shop_t, base, units)
     stock = _table_ref(ck, shop_t, ("shop", "plate_stock"), base, ("plate_stock",), "plate_stock")
     from toolkit.fabricate.plates import PLATE_STEP_BOUNDS
 
@@ -714,8 +722,10 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     drilling = {}
     drill_t = _table(ck, shop_t, ("shop", "drilling"), required=False)
     for key, value in drill_t.items():
+        if key == "drills":
+            continue  # read by _drill_set
         if key not in DRILLING_KEYS:
-            ck.add(("shop", "drilling", key), f"unknown key; allowed keys here: {', '.join(DRILLING_KEYS)}")
+            ck.add(("shop", "drilling", key), f"unknown key; allowed keys here: drills, {', '.join(DRILLING_KEYS)}")
         elif key == "max_holes":
             if isinstance(value, bool) or not isinstance(value, int) or not 1 <= value <= 36:
                 ck.add(("shop", "drilling", key), f"{_shown(value)} is not allowed; give a whole number from 1 to 36")
@@ -765,7 +775,8 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     return Job(origin, MappingProxyType(order), mass, service, balancing, grade, criterion or "iso", material,
                span, com, share, min_share, error_allowance, tuple(planes), reference, sense, measurement,
                ShopSettings(units or "metric", drills, stock, step_deg, mass_step, plate_step, point_angle,
-                            MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet, paper),
+                            MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet, paper,
+                            tuple(drill_t)),
                tuple(defaults_used), one_plane_rule=one_plane_rule or "whole", rotor_length=rotor_length, key=key,
                key_lines=MappingProxyType(dict(lines or {})),
                key_columns=None if columns is None else MappingProxyType(dict(columns)))
@@ -843,6 +854,29 @@ def _methods(ck: _Checker, p: Mapping, path: tuple) -> tuple[str, ...]:
         if item.strip().lower() not in out:
             out.append(item.strip().lower())
     return tuple(out)
+
+
+def _drill_set(ck: _Checker, shop_t: Mapping, base: Path, units: str | None):
+    """The shop's drills: ``[shop.drilling] drills`` (a list of sizes, a set name or a CSV path) or
+    ``[shop] drills`` (a set name or a CSV path); by default the basic set of the unit system."""
+    from toolkit.fabricate.stock import DRILL_SETS
+
+    default = "inch-basic" if units in ("imperial", "inch-gram") else "metric-basic"
+    drill_t = shop_t.get("drilling") if isinstance(shop_t.get("drilling"), Mapping) else {}
+    if "drills" in drill_t and "drills" in shop_t:
+        ck.add(("shop", "drilling", "drills"), "the drills are given twice (also [shop] drills); keep one")
+    if "drills" not in drill_t:
+        return _table_ref(ck, shop_t, ("shop", "drills"), base, tuple(DRILL_SETS), default)
+    value, path = drill_t["drills"], ("shop", "drilling", "drills")
+    if isinstance(value, str):
+        return _table_ref(ck, drill_t, path, base, tuple(DRILL_SETS), default)
+    from toolkit.fabricate.stock import drill_list
+
+    try:
+        return drill_list(value, "drills")
+    except BadInput as exc:
+        ck.add(path, str(exc).removeprefix("drills").lstrip(": "))
+        return default
 
 
 def _table_ref(ck: _Checker, table: Mapping, path: tuple, base: Path, names: tuple[str, ...],

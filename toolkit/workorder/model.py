@@ -18,10 +18,12 @@ from dataclasses import asdict, dataclass, field
 
 from toolkit.errors import BadInput
 from toolkit.vectors import polar
+from toolkit.formatting import Formatter, unit_labels  # noqa: F401 - the one formatter, used through here
 
 __all__ = [
-    "Identification", "Tolerance", "Operation", "PlaneOrder", "Setting", "WorkOrder",
-    "vector", "polar", "effect",
+    "Identification", "Tolerance", "Operation", "PlaneOrder", "Setting", "WorkOrder", "FieldRun", "Coefficient",
+    "SensorCheck", "FieldRecord",
+    "vector", "polar", "effect", "Formatter", "unit_labels",
 ]
 
 ACTIONS = ("add", "remove")
@@ -186,14 +188,122 @@ class Setting:
     how: str
 
 
+@dataclass(frozen=True)
+class FieldRun:
+    """One trial-mass run as measured: its name, the trial masses on the rotor during it (plane, mass [g],
+    angle [deg] in the order's angle sense) and one reading per sensor (amount in the reading unit, phase
+    [deg] in the instrument's own sense, as written in the job)."""
+
+    name: str
+    trials: tuple[tuple[str, float, float], ...]
+    readings: tuple[tuple[float, float], ...]
+
+
+@dataclass(frozen=True)
+class Coefficient:
+    """One influence coefficient: the reading at ``sensor`` caused by 1 g at 0° in ``plane`` (``amount`` in
+    ``unit``, e.g. "um per g", at ``angle_deg`` in the solver's weight-angle frame)."""
+
+    sensor: str
+    plane: str
+    amount: float
+    angle_deg: float
+    unit: str
+
+
+@dataclass(frozen=True)
+class SensorCheck:
+    """What the check run should read at one sensor: the vibration predicted after this order's operations
+    (``amount`` at ``angle_deg``, instrument phase sense) beside the original reading (``original``)."""
+
+    sensor: str
+    amount: float
+    angle_deg: float
+    original: float
+
+
+@dataclass(frozen=True)
+class FieldRecord:
+    """A field job recorded in full: the runs, the influence coefficients, the condition number and the
+    solver's warnings, which trial masses are on the rotor after the last run and whether they come off,
+    and the check run's predicted vibration per sensor."""
+
+    reading_unit: str
+    phase: str
+    sensors: tuple[str, ...]
+    runs: tuple[FieldRun, ...]
+    coefficients: tuple[Coefficient, ...]
+    condition_number: float
+    warnings: tuple[str, ...]
+    trials_left_on: bool
+    trials_on: tuple[tuple[str, float, float], ...]
+    check: tuple[SensorCheck, ...]
+
+    # The words every exporter prints (one wording, so that the PDF and the spreadsheet agree).
+
+    def reading(self, amount: float, angle_deg: float) -> str:
+        """A vibration reading with its unit and phase sense, e.g. ``17.50 um at 253.7° (lag)``."""
+        return f"{Formatter.number(amount, 4)} {self.unit} at {angle_deg:.1f}° ({self.phase})"
+
+    @property
+    def unit(self) -> str:
+        """The reading unit as printed (``um`` as ``µm``)."""
+        from toolkit.units import METRIC
+
+        return METRIC.symbol(self.reading_unit)
+
+    def run_rows(self, fmt) -> list[list[str]]:
+        """[run, trial masses, readings per sensor] for each run."""
+        rows = []
+        for run in self.runs:
+            trials = "; ".join(f"{plane}: {fmt.mass(g)} at {fmt.where(a)}" for plane, g, a in run.trials) or "none"
+            readings = "; ".join(f"{s}: {self.reading(amount, a)}"
+                                 for s, (amount, a) in zip(self.sensors, run.readings))
+            rows.append([run.name, trials, readings])
+        return rows
+
+    def coefficient_rows(self) -> list[list[str]]:
+        """[sensor, plane, coefficient] with its unit: the reading caused by 1 g at 0° in the plane."""
+        return [[c.sensor, c.plane, f"{Formatter.number(c.amount, 4)} {self.unit} per g at {c.angle_deg:.1f}° "
+                 f"({self.phase})"]
+                for c in self.coefficients]
+
+    def conditioning(self) -> str:
+        """The condition number in words."""
+        return (f"Condition number of the coefficient matrix: {self.condition_number:.3g} (1 is ideal; large values "
+                f"mean the planes fight each other and small reading errors move the corrections a lot).")
+
+    def trial_steps(self, fmt) -> list[str]:
+        """The trial-mass step before the operations: what comes off (or stays on), one line per mass."""
+        if not self.trials_on:
+            return []
+        if self.trials_left_on:
+            return [f"Leave the trial mass on plane {plane} ({fmt.mass(g)} at {fmt.where(a)}): the corrections "
+                    f"count it" for plane, g, a in self.trials_on]
+        return [f"Remove the trial mass from plane {plane}: {fmt.mass(g)} at {fmt.where(a)}"
+                for plane, g, a in self.trials_on]
+
+    def check_rows(self) -> list[list[str]]:
+        """[sensor, original reading, predicted after the operations] for the check run."""
+        return [[c.sensor, f"{Formatter.number(c.original, 4)} {self.unit}",
+                 self.reading(c.amount, c.angle_deg)] for c in self.check]
+
+
 #: The paper sizes a work order prints on, in words.
 PAPERS = {"A4": "A4 (210 mm × 297 mm)", "Letter": "Letter (8.5 in × 11 in)"}
+
+
+def default_paper(units: str) -> str:
+    """Letter for the inch unit systems, A4 for metric."""
+    from toolkit.units import unit_system
+
+    return "Letter" if unit_system(units).inch else "A4"
 
 
 def paper_setting(paper: str, units: str, given_by: str = "") -> Setting:
     """The values-used entry for the paper: ``paper`` (empty: the unit system's default) and who chose it
     (``given_by``, e.g. "job file"; empty: the default)."""
-    name = paper or ("Letter" if units == "imperial" else "A4")
+    name = paper or default_paper(units)
     why = f"from the {given_by}" if given_by else f"the default for {units} units"
     return Setting("paper", f"{PAPERS[name]}, {why}", "CP", bool(given_by), '[shop] paper = "A4" or "Letter"')
 
@@ -237,6 +347,8 @@ class WorkOrder:
     #: "A4" or "Letter"; empty: from the unit system (Letter for imperial, A4 for metric).
     paper: str = ""
     inputs: dict = field(default_factory=dict, compare=False, hash=False)
+    #: the runs, coefficients and check-run predictions of an order built from trial-mass runs (else None)
+    field_record: FieldRecord | None = None
     #: The key convention the rotor is balanced to (ISO 21940-32 half-key, full-key, no-key; "" when the job
     #: has no [key] table), what sat in its keyway during this balancing, its marking and whether the job gave
     #: the marking (else by convention, from memory), and the key mismatch (``KeyUnbalance.to_dict()``) or None.
@@ -255,7 +367,7 @@ class WorkOrder:
     @property
     def paper_name(self) -> str:
         """The paper the order prints on: its own, or Letter for imperial and A4 for metric units."""
-        return self.paper or ("Letter" if self.units == "imperial" else "A4")
+        return self.paper or default_paper(self.units)
 
     @property
     def acceptance_rule(self) -> str:
@@ -287,79 +399,6 @@ class WorkOrder:
             for p in self.planes for op in p.operations
         ]
         return data
-
-
-def unit_labels(units: str) -> dict[str, tuple[str, float]]:
-    """Printed unit symbol and factor from the stored unit, for the chosen system.
-
-    Keys: ``unbalance`` (from g·mm), ``mass`` (from g), ``length`` (from mm), ``rotor_mass`` (from kg).
-    Factors are exact conversions (1 oz = 28.349523125 g, 1 in = 25.4 mm, 1 lb = 0.45359237 kg).
-
-    >>> unit_labels("imperial")["unbalance"]
-    ('oz·in', 0.001388...)
-    """
-    if units == "imperial":
-        oz, inch, lb = 28.349523125, 25.4, 0.45359237
-        return {"unbalance": ("oz·in", 1 / (oz * inch)), "mass": ("oz", 1 / oz), "length": ("in", 1 / inch),
-                "rotor_mass": ("lb", 1 / lb)}
-    return {"unbalance": ("g·mm", 1.0), "mass": ("g", 1.0), "length": ("mm", 1.0), "rotor_mass": ("kg", 1.0)}
-
-
-class Formatter:
-    """Numbers of a work order as printed text in its unit system (one place, shared by the exporters).
-
-    >>> f = Formatter("metric", "keyway", "against rotation")
-    >>> f.unbalance(2005.35), f.mass(12.345), f.angle(215.04), f.where(215.04)
-    ('2005 g·mm', '12.3 g', '215°', '215° from keyway, against rotation')
-    """
-
-    def __init__(self, units: str, reference: str, sense: str):
-        self.labels = unit_labels(units)
-        self.reference = reference
-        self.sense = sense
-
-    def value(self, kind: str, stored: float) -> float:
-        """A stored value (g·mm, g, mm, kg) in the printed unit."""
-        return stored * self.labels[kind][1]
-
-    def symbol(self, kind: str) -> str:
-        return self.labels[kind][0]
-
-    def _fmt(self, kind: str, stored: float, sig: int) -> str:
-        from toolkit.units import format_number
-
-        x = self.value(kind, stored)
-        if abs(x) >= 10 ** sig:
-            text = f"{x:.0f}"
-        else:
-            text = format_number(x, sig) if x else "0"
-        return f"{text} {self.symbol(kind)}"
-
-    def unbalance(self, g_mm: float) -> str:
-        return self._fmt("unbalance", g_mm, 4)
-
-    def mass(self, g: float) -> str:
-        return self._fmt("mass", g, 3)
-
-    def length(self, mm: float) -> str:
-        return self._fmt("length", mm, 4)
-
-    def rotor_mass(self, kg: float) -> str:
-        return self._fmt("rotor_mass", kg, 4)
-
-    @staticmethod
-    def angle(deg: float) -> str:
-        value = round(deg) % 360 if abs(deg - round(deg)) < 0.05 else round(deg, 1) % 360
-        return f"{value:g}°"
-
-    def where(self, deg: float) -> str:
-        """An angle with its reference and sense, as every operation prints it."""
-        return f"{self.angle(deg)} from {self.reference}, {self.sense}"
-
-    def convention(self) -> str:
-        """The sentence that states the angle convention of the whole order."""
-        return (f"Angles in degrees from the reference mark ({self.reference}), counted {self.sense}. "
-                f"An unbalance is the heavy spot.")
 
 
 def key_pairs(order: WorkOrder, fmt: Formatter) -> list[tuple[str, str]]:

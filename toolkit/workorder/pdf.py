@@ -188,10 +188,16 @@ def _first_page(w: _Writer, fmt: Formatter):
               f"{p.correction_action} {fmt.unbalance(p.correction_g_mm)} at {fmt.where(p.correction_deg)} "
               f"({p.method}, {p.surface} surface)"] for p in order.planes])
 
+    if order.field_record is not None:
+        _field_runs(w, fmt, order.field_record)
+
     w.heading("Operations: tick each when done")
     w.paragraph("Before any operation read the cautions at the end of this order: drive locked out while "
                 "drilling or welding, every mass secured and guards closed before any run.", 8, _WARN,
                 "Helvetica-Bold")
+    if order.field_record is not None and order.field_record.trial_steps(fmt):
+        w.table([("Trial masses, before the operations: tick each when done", 1.0)],
+                [[step] for step in order.field_record.trial_steps(fmt)], boxes=True)
     if order.operations:
         rows = []
         for op in order.operations:
@@ -222,11 +228,30 @@ def _first_page(w: _Writer, fmt: Formatter):
             [[p.name, fmt.unbalance(p.tolerance.u_per_g_mm), fmt.unbalance(p.limit), "", "", "", ""]
              for p in order.planes],
             row_height=18)
+    if order.field_record is not None:
+        w.paragraph("Vibration per sensor: enter what the check run reads at each sensor, at the speed of the "
+                    "runs, beside what this order predicts after its operations (the measured residual "
+                    "unbalance above is for a balancing machine that gives it).", 8, _MUTED)
+        w.table([("Sensor", 0.22), ("Original", 0.13), ("Predicted after the operations", 0.27),
+                 ("Measured", 0.14), ("Phase", 0.10), ("Initials", 0.14)],
+                [[*row, "", "", ""] for row in order.field_record.check_rows()], row_height=18)
 
     w.heading("Sign-off")
     w.table([("Role", 0.3), ("Name", 0.25), ("Signature", 0.27), ("Date", 0.18)],
             [["Operator (balancing)", "", "", ""], ["Machinist (drilling / welding)", "", "", ""],
              ["Inspector (release)", "", "", ""]], row_height=22)
+
+
+def _field_runs(w: _Writer, fmt: Formatter, record) -> None:
+    """The trial-mass runs as measured, the influence coefficients and how well they are conditioned."""
+    w.heading("Trial-mass runs")
+    w.table([("Run", 0.2), ("Trial masses on the rotor", 0.3), ("Readings per sensor", 0.5)],
+            record.run_rows(fmt))
+    w.heading("Influence coefficients (reading caused by 1 g at 0° in the plane)")
+    w.table([("Sensor", 0.3), ("Plane", 0.2), ("Coefficient", 0.5)], record.coefficient_rows())
+    w.paragraph(record.conditioning(), 8, _MUTED)
+    for text in record.warnings:
+        w.paragraph("- " + text, 8.5, _WARN)
 
 
 def _kind_word(kind: str) -> str:

@@ -221,6 +221,14 @@ class _Sheet:
             self.text(col, label, "header")
         self.row += 1
 
+    def spans(self, *cells):
+        """One row of text cells, each ``(first column, last column, text, style)``, merged across its span."""
+        for first, last, value, style in cells:
+            self.text(first, value, style)
+            if last > first:
+                self.ws.merge_cells(start_row=self.row, start_column=first, end_row=self.row, end_column=last)
+        self.row += 1
+
     def long(self, text: str, style=None):
         """A paragraph across the whole width (its row height is set by :func:`_fit_rows`)."""
         self.text(1, text, style or "wrap")
@@ -345,6 +353,9 @@ def workbook(order: WorkOrder):
         sh.text(9, p.surface)
         sh.row += 1
 
+    if order.field_record is not None:
+        _field_runs(sh, fmt, order.field_record)
+
     # operations
     sh.section("Operations (in this order; mark each one)")
     sh.header(["No.", "Plane", "What", "Action", f"Mass [{m_sym}]", f"Effect [{u_sym}]", "Angle [°]", "Status",
@@ -353,6 +364,13 @@ def workbook(order: WorkOrder):
                             showErrorMessage=True, errorTitle="Status",
                             error="Choose one of: " + ", ".join(STATUS_CHOICES))
     ws.add_data_validation(status)
+    for step in (order.field_record.trial_steps(fmt) if order.field_record is not None else ()):
+        sh.text(2, "trial")
+        sh.text(3, step, "wrap")
+        ws.merge_cells(start_row=sh.row, start_column=3, end_row=sh.row, end_column=7)
+        status.add(sh.text(8, "open", "input"))
+        sh.text(9, "", "input")
+        sh.row += 1
     for op in order.operations:
         sh.number(1, op.number, "0")
         sh.text(2, op.plane)
@@ -416,6 +434,15 @@ def workbook(order: WorkOrder):
     sh.long(f"Acceptance rule: {rule}. The limit is the allowance less the measurement error allowance ΔU "
             "(default 0, from memory: ISO 21940-14). The rotor maker's acceptance rules take precedence.", "sub")
 
+    if order.field_record is not None:
+        sh.section("Check run: vibration per sensor (operator: enter the reading beside the predicted value)")
+        sh.header(["Sensor", "", "Original", "Predicted after the operations", "", "Measured", "Phase [°]",
+                   "Initials", ""])
+        for sensor, original, predicted in order.field_record.check_rows():
+            for col in (6, 7, 8):
+                styles.apply(ws.cell(row=sh.row, column=col), "input")
+            sh.spans((1, 2, sensor, "wrap"), (3, 3, original, None), (4, 5, predicted, "wrap"))
+
     # sign-off
     sh.section("Sign-off")
     sh.header(["Role", "", "Name", "", "Signature", "", "Date", "", ""])
@@ -471,6 +498,21 @@ def workbook(order: WorkOrder):
     ws.oddFooter.right.text = "page &P of &N"
     ws.print_area = f"A1:{get_column_letter(_COLUMNS)}{sh.row}"
     return wb
+
+
+def _field_runs(sh: _Sheet, fmt, record) -> None:
+    """The trial-mass runs, the influence coefficients, the condition number and the solver's warnings."""
+    sh.section("Trial-mass runs")
+    sh.header(["Run", "", "Trial masses on the rotor", "", "Readings per sensor", "", "", "", ""])
+    for run, trials, readings in record.run_rows(fmt):
+        sh.spans((1, 2, run, "wrap"), (3, 4, trials, "wrap"), (5, _COLUMNS, readings, "wrap"))
+    sh.section("Influence coefficients (reading caused by 1 g at 0° in the plane)")
+    sh.header(["Sensor", "", "Plane", "Coefficient", "", "", "", "", ""])
+    for sensor, plane, text in record.coefficient_rows():
+        sh.spans((1, 2, sensor, "wrap"), (3, 3, plane, None), (4, _COLUMNS, text, "wrap"))
+    sh.long(record.conditioning(), "sub")
+    for text in record.warnings:
+        sh.long(text)
 
 
 def _fit_rows(ws) -> None:
