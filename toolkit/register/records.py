@@ -15,7 +15,7 @@ import tomllib
 from dataclasses import replace
 from pathlib import Path
 
-from toolkit.errors import BadInput
+from toolkit.errors import BadInput, OutputError
 from toolkit.register.store import DEFAULT_STALE_DAYS, Register, now
 
 __all__ = ["STATUSES", "TRANSITIONS", "ROLES", "save_type", "list_types", "type_info", "template",
@@ -37,6 +37,8 @@ ROLES = ("operator", "machinist", "inspector")
 #: The placeholder order number of a job that the register numbers.
 PLACEHOLDER = "(allocated by the register)"
 MAX_TEXT = 1_000_000
+#: The JSON text of stored values (UTF-8 as it is; the values are made here, never circular).
+_JSON = json.JSONEncoder(ensure_ascii=False, check_circular=False)
 
 
 def sha256_text(text: str) -> str:
@@ -303,35 +305,43 @@ def record_job(reg: Register, job_text: str, *, origin: str = "job", base=None, 
 
 def store_order(reg: Register, built, job_text: str, order_data: dict, *, type_version_id: int | None = None,
                 allocate: bool = True, by: str = "", extra_warnings: tuple[str, ...] = ()):
-    """The recording transaction of :func:`record_job` for a work order already built from ``job_text``."""
-    from toolkit.register.schema import job_planes, jobs, job_status
+    """The recording transaction of :func:`record_job` for a work order already built from ``job_text``.
 
+    Everything that needs no database is made before the transaction (the work order's dictionary, the
+    JSON of the order data, the plane rows); inside it, one statement each on the driver's cursor
+    (:meth:`Register.execute`): the shop's pattern, the counter, the job row (whose insert also refuses a
+    number already used: then the next number is drawn), its planes and its first status."""
     digest = sha256_text(job_text)
     when = now()
+    by = _by(by)
+    warnings = built.warnings + tuple(extra_warnings)
+    data = built.to_dict()  # the recorded order's dictionary: its input hash, warnings and number set here
+    data["ident"]["input_sha256"] = digest
+    data["warnings"] = warnings
+    planes = [{"idx": n, "plane": p.name, "u_per_g_mm": p.tolerance.u_per_g_mm, "limit_g_mm": p.limit,
+               "initial_g_mm": p.initial_g_mm, "initial_deg": p.initial_deg, "predicted_g_mm": p.predicted_g_mm,
+               "operations": len(p.operations), "mass_g": sum(op.mass_g for op in p.operations), "created": when}
+              for n, p in enumerate(built.planes, start=1)]
+    row = {"type_version_id": type_version_id, "serial": built.ident.serial, "customer": built.ident.customer,
+           "order_data": _JSON.encode(order_data), "job_text": job_text, "job_sha256": digest,
+           "predicted_pass": int(built.passed), "status": "planned", "created": when, "created_by": by}
     with reg.write() as conn:
-        number = reg.allocate_number(conn) if allocate else built.ident.number
-        order = replace(built, ident=replace(built.ident, number=number, input_sha256=digest),
-                        warnings=built.warnings + tuple(extra_warnings))
-        data = order.to_dict()
-        from sqlalchemy import select
-
-        if not allocate and conn.execute(select(jobs.c.id).where(jobs.c.order_number == number)).first():
-            raise BadInput(f"order {number!r} is already in the register; a correction is a new job (or let "
-                           "the register number it)")
-        job_id = conn.execute(jobs.insert().values(
-            order_number=number, type_version_id=type_version_id, serial=order.ident.serial,
-            customer=order.ident.customer, order_data=json.dumps(order_data, ensure_ascii=False),
-            job_text=job_text, job_sha256=digest, workorder=json.dumps(data, ensure_ascii=False),
-            predicted_pass=int(order.passed), status="planned", created=when, created_by=_by(by))
-            .returning(jobs.c.id)).scalar_one()
-        conn.execute(job_planes.insert(), [
-            {"job_id": job_id, "idx": n, "plane": p.name, "u_per_g_mm": p.tolerance.u_per_g_mm,
-             "limit_g_mm": p.limit, "initial_g_mm": p.initial_g_mm, "initial_deg": p.initial_deg,
-             "predicted_g_mm": p.predicted_g_mm, "operations": len(p.operations),
-             "mass_g": sum(op.mass_g for op in p.operations), "created": when}
-            for n, p in enumerate(order.planes, start=1)])
-        conn.execute(job_status.insert().values(job_id=job_id, status="planned", at=when, by=_by(by),
-                                                source="recorded", note=""))
+        for _ in range(1000):
+            number = reg.allocate_number(conn, skip_used=False) if allocate else built.ident.number
+            data["ident"]["number"] = number
+            inserted = reg.execute(conn, "job", {**row, "order_number": number, "workorder": _JSON.encode(data)})
+            if inserted:
+                job_id = inserted[0][0]
+                break
+            if not allocate:
+                raise BadInput(f"order {number!r} is already in the register; a correction is a new job (or let "
+                               "the register number it)")
+        else:
+            raise OutputError(f"register {reg.where}: the order pattern yields only numbers already used")
+        reg.execute(conn, "planes", [{**p, "job_id": job_id} for p in planes])
+        reg.execute(conn, "status", {"job_id": job_id, "status": "planned", "at": when, "by": by,
+                                     "source": "recorded", "note": ""})
+    order = replace(built, ident=replace(built.ident, number=number, input_sha256=digest), warnings=warnings)
     return order, {"order_number": number, "job_sha256": digest, "status": "planned", "created": when}
 
 
