@@ -37,8 +37,8 @@ ROLES = ("operator", "machinist", "inspector")
 #: The placeholder order number of a job that the register numbers.
 PLACEHOLDER = "(allocated by the register)"
 MAX_TEXT = 1_000_000
-#: The JSON text of stored values (UTF-8 as it is; the values are made here, never circular).
-_JSON = json.JSONEncoder(ensure_ascii=False, check_circular=False)
+#: The JSON text of stored values (UTF-8 as it is, compact; the values are made here, never circular).
+_JSON = json.JSONEncoder(ensure_ascii=False, check_circular=False, separators=(",", ":"))
 
 
 def sha256_text(text: str) -> str:
@@ -325,7 +325,7 @@ def store_order(reg: Register, built, job_text: str, order_data: dict, *, type_v
     row = {"type_version_id": type_version_id, "serial": built.ident.serial, "customer": built.ident.customer,
            "order_data": _JSON.encode(order_data), "job_text": job_text, "job_sha256": digest,
            "predicted_pass": int(built.passed), "status": "planned", "created": when, "created_by": by}
-    with reg.write() as conn:
+    with reg.write_direct() as conn:
         for _ in range(1000):
             number = reg.allocate_number(conn, skip_used=False) if allocate else built.ident.number
             data["ident"]["number"] = number

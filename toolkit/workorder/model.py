@@ -290,17 +290,20 @@ def _field_names(cls) -> tuple[str, ...]:
     return tuple(f.name for f in fields(cls))
 
 
+_LEAVES = frozenset((str, float, int, bool, type(None)))
+
+
 def _plain(value):
     """``dataclasses.asdict`` of a work-order part, the same dictionaries, lists and tuples, without
     deep-copying the leaves that cannot change (numbers, text, None), which made most of its time (the
     register converts the order of every job it records)."""
     cls = type(value)
-    if cls in (str, float, int, bool) or value is None:
+    if cls in _LEAVES:
         return value
     if hasattr(cls, "__dataclass_fields__"):
         return {name: _plain(getattr(value, name)) for name in _field_names(cls)}
     if cls is tuple or cls is list:
-        return cls(_plain(v) for v in value)
+        return cls([v if type(v) in _LEAVES else _plain(v) for v in value])
     if cls is dict:
         return {_plain(k): _plain(v) for k, v in value.items()}
     return copy.deepcopy(value)
