@@ -417,3 +417,26 @@ def test_rotor_type_by_options_with_the_checks_of_a_job_file(capsys, where, tmp_
     data = cli(capsys, "order", rotor, "--rotor-type", "fan X", "--serial", "SN-1", "--record", "--register",
                where, "--out", tmp_path / "out", "--json")
     assert data["order"]["grade"] == "G 2.5" and data["order"]["ident"]["serial"] == "SN-1"
+
+
+def test_a_read_only_register_refuses_every_write_with_one_line_and_keeps_its_jobs(capsys, tmp_path):
+    """A register file without its owner's write permission: recording a job (its own transaction on the
+    driver's connection), a check run and a new rotor type are refused with one line and exit status 2;
+    what was recorded before is still there and still read."""
+    import os
+    import stat
+
+    where = str(tmp_path / "ro.sqlite3")
+    number, _data = _order(capsys, where, tmp_path)
+    os.chmod(where, stat.S_IRUSR)
+    try:
+        for argv in (["order", EXAMPLES / "job-fan-readings.toml", "--record", "--out", tmp_path / "o2"],
+                     ["register", "record", number, "--residual", "hub=10 g*mm"],
+                     ["register", "type-save", "fan", EXAMPLES / "job-fan-readings.toml"]):
+            err = cli(capsys, *argv, "--register", where, rc=2)
+            assert "read-only" in err and "nothing was recorded" in err
+        jobs = cli(capsys, "register", "jobs", "--register", where, "--json")["jobs"]
+        assert [j["order_number"] for j in jobs] == [number]
+        assert cli(capsys, "register", "show", number, "--register", where, "--json")["check_runs"] == []
+    finally:
+        os.chmod(where, stat.S_IRUSR | stat.S_IWUSR)

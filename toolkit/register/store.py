@@ -232,6 +232,8 @@ class Register:
             return "the register is read-only"
         if "disk is full" in low or "no space" in low or "database or disk is full" in low:
             return "the disk is full"
+        if "disk i/o error" in low:  # SQLite: a write or sync refused by the system (a file size limit, say)
+            return "a write to the disk failed (the disk is full, the file may grow no larger, or the disk fails)"
         if "locked" in low or "busy" in low:
             return f"another station held the register longer than {BUSY_TIMEOUT_S:g} s; try again"
         if "unable to open" in low:
