@@ -18,7 +18,8 @@ from pathlib import Path
 from toolkit.errors import BadInput, OutputError
 from toolkit.register.store import DEFAULT_STALE_DAYS, Register, now
 
-__all__ = ["STATUSES", "TRANSITIONS", "ROLES", "save_type", "change_template", "save_type_changes", "list_types", "type_info", "template",
+__all__ = ["STATUSES", "TRANSITIONS", "ROLES", "save_type", "change_template", "save_type_changes",
+           "list_types", "type_info", "template",
            "compose_job", "record_job", "store_order", "add_files", "list_jobs", "job_detail", "set_status", "record_check",
            "record_signoff", "record_marks", "store_coefficients", "coefficient_history", "latest_coefficients",
            "trim_coefficients", "stale_warnings", "sha256_text", "toml_text"]

@@ -14,8 +14,8 @@ shows a URL's password.
 from __future__ import annotations
 
 import contextlib
-import functools
 import datetime as _dt
+import functools
 import os
 import re
 import stat
@@ -181,8 +181,8 @@ class Register:
     @contextlib.contextmanager
     def write_direct(self):
         """One write transaction on the pool's driver connection itself, for :meth:`execute` only (the
-        recording of a job, where SQLAlchemy's transaction bookkeeping cost about 0.04 ms of 0.6 ms here): committed
-        at the end, rolled back on any error, its errors worded as :meth:`write` words them."""
+        recording of a job, where SQLAlchemy's transaction bookkeeping cost about 0.04 ms of 0.6 ms here):
+        committed at the end, rolled back on any error, its errors worded as :meth:`write` words them."""
         if self._path is not None:
             _check_file_writable(self._path)
         with self._errors("write to"):
@@ -244,8 +244,8 @@ class Register:
 
     def execute(self, conn, name: str, params):
         """Run one of the :func:`recording_statements` inside ``conn``'s transaction (of :meth:`write` or
-        :meth:`write_direct`) on the driver's own cursor and return the rows it gives back (a list of tuples, empty for an insert without RETURNING);
-        ``params`` is a dictionary, or a list of them (one row each).
+        :meth:`write_direct`) on the driver's own cursor and return the rows it gives back (a list of
+        tuples, empty for an insert without RETURNING); ``params`` is a dictionary, or a list of them.
 
         The statements are SQLAlchemy Core compiled once for this database (bound parameters, the
         driver's named style); running them on the driver's cursor skips SQLAlchemy's per-statement
