@@ -147,6 +147,30 @@ def test_order_numbers_follow_the_shop_pattern(reg):
         check_pattern("WO-{year}")
 
 
+def test_a_number_already_used_is_skipped_and_a_duplicate_refused(reg):
+    import datetime as dt
+
+    from toolkit.workorder.build import build_order
+    from toolkit.workorder.job import parse_job
+
+    R.save_type(reg, "F-400", support.TEMPLATE)
+    year = dt.datetime.now(dt.timezone.utc).year
+    t, text = R.compose_job(reg, "F-400", support.readings("21000 g*mm@40", "16500 g*mm@200"), serial="SN-9")
+    text = text.replace(R.PLACEHOLDER, f"WO-{year}-00002")
+    built = build_order(parse_job(text, "job"))
+    # a job that keeps its own number (as an import brings them) takes the counter's next number
+    order, rec = R.store_order(reg, built, text, {}, allocate=False, extra_warnings=("an added warning",))
+    assert rec["order_number"] == f"WO-{year}-00002"
+    detail = R.job_detail(reg, rec["order_number"])
+    assert detail["workorder"] == json.loads(json.dumps(order.to_dict()))
+    assert detail["workorder"]["warnings"][-1] == "an added warning"
+    with pytest.raises(BadInput, match="already in the register"):
+        R.store_order(reg, built, text, {}, allocate=False)
+    numbers = [_record(reg, f"SN-{k}")[1]["order_number"] for k in range(2)]
+    assert numbers == [f"WO-{year}-00001", f"WO-{year}-00003"]  # 00002 was taken: skipped, not lost
+    assert len(R.list_jobs(reg)) == 3
+
+
 def test_status_moves_only_along_allowed_transitions(reg):
     R.save_type(reg, "F-400", support.TEMPLATE)
     _order, rec = _record(reg)
@@ -279,3 +303,60 @@ def test_distinct_running_numbers_give_distinct_order_numbers(a, b, pattern):
     when = dt.datetime(2026, 12, 2)
     check_pattern(pattern)
     assert (format_order_number(pattern, a, when) == format_order_number(pattern, b, when)) == (a == b)
+
+
+def test_statistics_equal_the_same_figures_counted_in_python(reg):
+    """The SQL aggregates of series_statistics against the same figures counted here in plain Python over
+    the rows (invented jobs of one to three planes over three months, some reworked and checked again)."""
+    import random
+
+    from toolkit.register.reports import BINS, series_statistics
+    from toolkit.register.schema import job_planes, job_status, jobs
+
+    rng = random.Random(7)
+    histories = [["planned"], ["planned", "balanced"], ["planned", "balanced", "checked"],
+                 ["planned", "balanced", "rework"], ["planned", "balanced", "rework", "balanced", "checked"],
+                 ["planned", "balanced", "checked", "released"]]
+    job_rows, plane_rows, status_rows = [], [], []
+    for k in range(1, 61):
+        created = f"2026-{1 + k % 3:02d}-{1 + k % 27:02d}T08:00:00.000000Z"
+        history = rng.choice(histories)
+        job_rows.append({"id": k, "order_number": f"INV-{k}", "type_version_id": None, "serial": f"S{k}",
+                         "customer": "", "job_sha256": "0" * 64, "predicted_pass": 1, "status": history[-1],
+                         "created": created, "created_by": "", "order_data": "{}", "job_text": "", "workorder": "{}"})
+        for idx, plane in enumerate(["A", "B", "C"][:rng.randint(1, 3)], start=1):
+            plane_rows.append({"job_id": k, "idx": idx, "plane": plane, "u_per_g_mm": rng.uniform(500, 900),
+                               "limit_g_mm": 500.0, "initial_g_mm": rng.uniform(0, 9000),
+                               "initial_deg": rng.uniform(0, 360), "predicted_g_mm": 1.0,
+                               "operations": rng.randint(0, 3), "mass_g": rng.uniform(0, 40), "created": created})
+        status_rows += [{"job_id": k, "status": s, "at": created, "by": "", "source": "test", "note": ""}
+                        for s in history]
+    with reg.write() as conn:
+        conn.execute(jobs.insert(), job_rows)
+        conn.execute(job_planes.insert(), plane_rows)
+        conn.execute(job_status.insert(), status_rows)
+
+    stats = series_statistics(reg)
+    tried = {r["job_id"] for r in status_rows if r["status"] in ("checked", "rework")}
+    reworked = {r["job_id"] for r in status_rows if r["status"] == "rework"}
+    assert stats["jobs"] == 60 and stats["checked_or_rework"] == len(tried)
+    assert stats["rework_rate"] == pytest.approx(len(reworked) / len(tried))
+    assert stats["first_pass_yield"] == pytest.approx(1 - len(reworked) / len(tried))
+    assert stats["operations_per_rotor"] == pytest.approx(sum(p["operations"] for p in plane_rows) / 60)
+    for got in stats["planes"]:
+        rows = [p for p in plane_rows if p["plane"] == got["plane"]]
+        found = [p["initial_g_mm"] for p in rows]
+        assert got["jobs"] == len(rows) and got["as_found_max_g_mm"] == pytest.approx(max(found))
+        assert got["as_found_mean_g_mm"] == pytest.approx(sum(found) / len(found))
+        assert got["correction_mass_mean_g"] == pytest.approx(sum(p["mass_g"] for p in rows) / len(rows))
+        width = max(found) / BINS
+        assert got["histogram"]["counts"] == [sum(min(int(u / width), BINS - 1) == b for u in found)
+                                              for b in range(BINS)]
+    months = sorted({j["created"][:7] for j in job_rows})
+    assert [t["month"] for t in stats["trend"]] == months
+    for t in stats["trend"]:
+        assert t["jobs"] == sum(j["created"][:7] == t["month"] for j in job_rows)
+        found = [p["initial_g_mm"] for p in plane_rows if p["created"][:7] == t["month"]]
+        assert t["as_found_mean_g_mm"] == pytest.approx(sum(found) / len(found))
+    selected = series_statistics(reg, since="2026-02-01", until="2026-02-28")
+    assert selected["jobs"] == sum(j["created"][:7] == "2026-02" for j in job_rows)

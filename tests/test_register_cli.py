@@ -367,3 +367,76 @@ def test_workbook_that_is_not_a_work_order(capsys, tmp_path):
     text.write_bytes(io.BytesIO(b"plain text").getvalue())
     assert "not an .xlsx" in cli(capsys, "register", "record", "--workbook", text, "--register",
                                  tmp_path / "r.sqlite3", rc=2)
+
+
+def test_rotor_type_by_options_with_the_checks_of_a_job_file(capsys, where, tmp_path):
+    """A rotor type described by options alone; an edit is a new version over the newest one; the same
+    problems as a job file are refused, each named by its option; an order is made from the stored type."""
+    base = ["--register", where, "--json"]
+    first = cli(capsys, "register", "type-save", "fan X", "--mass", "285 kg", "--service-speed", "1780 rpm",
+                "--balancing-speed", "700 rpm", "--bearing-span", "1100 mm", "--centre-of-mass", "610 mm",
+                "--plane", "hub: position=260 mm; radius=180 mm; surface=outer; methods=drill; wall=60 mm",
+                "--plane", "back plate: position=930 mm; radius=640 mm; surface=outer; methods=plate,washers; "
+                           "width=40 mm; max_length=120 mm",
+                "--angle-reference", "keyway", "--angle-sense", "against rotation",
+                "--description", "Supply fan rotor (invented example)", *base)
+    assert first["version"] == 1 and first["based_on"] is None
+    edit = cli(capsys, "register", "type-save", "fan X", "--grade", "G 2.5", "--plane", "hub: radius=190 mm",
+               "--set", "shop.drilling.min_wall_mm=3", "--note", "finer grade", *base)
+    assert edit["version"] == 2 and edit["based_on"] == 1
+    import tomllib
+
+    data = tomllib.loads(edit["template"])
+    assert data["rotor"]["grade"] == "G 2.5" and data["rotor"]["mass"] == "285 kg"
+    assert [p["radius"] for p in data["plane"]] == ["190 mm", "640 mm"]
+    assert data["shop"]["drilling"]["min_wall_mm"] == 3  # a TOML number, as a job file writes it
+    shown = cli(capsys, "register", "type-show", "fan X", "--version", "1", *base)
+    assert [v["version"] for v in shown["versions"]] == [1, 2]
+    assert tomllib.loads(shown["template"])["plane"][0]["radius"] == "180 mm"  # version 1 is kept as it was
+
+    def refused(*argv):  # one line, or a job file's count of problems and one line per problem
+        assert main([str(a) for a in (*argv, "--register", where)]) == 2
+        err = capsys.readouterr().err
+        assert "Traceback" not in err and err.startswith("counterpoise register: error: ")
+        return err
+
+    err = refused("register", "type-save", "fan X", "--mass", "285", "--plane", "hub: radius=-3 mm")
+    assert "--mass" in err and "no unit" in err
+    err = refused("register", "type-save", "fan Y", "--mass", "285 kg")
+    assert "--bearing-span" in err and "--plane" in err  # every missing part named, nothing stored
+    err = refused("register", "type-save", "fan X", "--set", "rotor.bogus=1")
+    assert "unknown key" in err
+    err = refused("register", "type-save", "fan X", "--drop-plane", "nose")
+    assert "'nose'" in err
+    assert "give a job file" in refused("register", "type-save", "fan X")
+    assert [t["versions"] for t in cli(capsys, "register", "types", *base)["types"]] == [2]
+
+    rotor = tmp_path / "rotor.toml"
+    rotor.write_text('[measurement]\nkind = "machine"\n[measurement.readings]\nhub = "9800 g*mm@318"\n'
+                     '"back plate" = "41.0 g@147"\n', encoding="utf-8")
+    data = cli(capsys, "order", rotor, "--rotor-type", "fan X", "--serial", "SN-1", "--record", "--register",
+               where, "--out", tmp_path / "out", "--json")
+    assert data["order"]["grade"] == "G 2.5" and data["order"]["ident"]["serial"] == "SN-1"
+
+
+def test_a_read_only_register_refuses_every_write_with_one_line_and_keeps_its_jobs(capsys, tmp_path):
+    """A register file without its owner's write permission: recording a job (its own transaction on the
+    driver's connection), a check run and a new rotor type are refused with one line and exit status 2;
+    what was recorded before is still there and still read."""
+    import os
+    import stat
+
+    where = str(tmp_path / "ro.sqlite3")
+    number, _data = _order(capsys, where, tmp_path)
+    os.chmod(where, stat.S_IRUSR)
+    try:
+        for argv in (["order", EXAMPLES / "job-fan-readings.toml", "--record", "--out", tmp_path / "o2"],
+                     ["register", "record", number, "--residual", "hub=10 g*mm"],
+                     ["register", "type-save", "fan", EXAMPLES / "job-fan-readings.toml"]):
+            err = cli(capsys, *argv, "--register", where, rc=2)
+            assert "read-only" in err and "nothing was recorded" in err
+        jobs = cli(capsys, "register", "jobs", "--register", where, "--json")["jobs"]
+        assert [j["order_number"] for j in jobs] == [number]
+        assert cli(capsys, "register", "show", number, "--register", where, "--json")["check_runs"] == []
+    finally:
+        os.chmod(where, stat.S_IRUSR | stat.S_IWUSR)

@@ -115,3 +115,79 @@ def test_a_writer_killed_at_random_points_leaves_the_register_consistent(where):
     numbers = _consistent(where)
     # every job the station reported as recorded (committed) is there
     assert set(acknowledged) <= set(numbers)
+
+
+#: A station on a disk that fills up: the files it writes may not grow past LIMIT bytes (RLIMIT_FSIZE, the
+#: signal ignored so that a write past it fails as on a full disk). Records jobs until a write fails, then
+#: tries the command line's own recording; prints what was acknowledged and what was said.
+FULL_DISK = r"""
+import io, json, resource, signal, sys, contextlib
+where, limit, job = sys.argv[1], int(sys.argv[2]), sys.argv[3]
+from toolkit.cli import main
+from toolkit.errors import OutputError
+from toolkit.register import open_register
+from toolkit.register import records as R
+reg = open_register(where)
+t, text = R.compose_job(reg, "F-400", "", serial="full")
+signal.signal(signal.SIGXFSZ, signal.SIG_IGN)
+resource.setrlimit(resource.RLIMIT_FSIZE, (limit, resource.getrlimit(resource.RLIMIT_FSIZE)[1]))
+said = None
+for k in range(2000):
+    try:
+        order, rec = R.record_job(reg, text, type_version_id=t["version_id"], by="full")
+    except OutputError as exc:
+        said = str(exc)
+        break
+    print(json.dumps({"recorded": rec["order_number"]}), flush=True)
+reg.close()
+# the command line, one process per command as a station runs it: each closes the register (its log is
+# folded into the file), so the file itself grows to the limit
+out, codes, stderr = [], [], []
+for k in range(200):
+    o, e = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(o), contextlib.redirect_stderr(e):
+        rc = main(["order", job, "--record", "--register", where, "--out", sys.argv[4], "--format", "xlsx",
+                   "--force", "--json"])
+    codes.append(rc)
+    if rc != 0:
+        stderr.append(e.getvalue())
+        break
+    out.append(json.loads(o.getvalue())["order"]["ident"]["number"])
+print(json.dumps({"said": said, "cli_recorded": out, "rc": codes[-1], "stderr": stderr}), flush=True)
+"""
+
+
+def test_a_full_disk_gives_one_line_and_loses_nothing_recorded(tmp_path):
+    import json
+
+    where = str(tmp_path / "full.sqlite3")
+    reg = open_register(where)
+    R.save_type(reg, "F-400", support.TEMPLATE)
+    for k in range(3):
+        R.record_job(reg, R.compose_job(reg, "F-400", "", serial=f"before-{k}")[1])
+    reg.close()
+    job = tmp_path / "job.toml"
+    job.write_text(support.TEMPLATE.replace("[order]", '[order]\nnumber = "INV-FULL"'), encoding="utf-8")
+    sizes = [os.path.getsize(p) for p in (where, where + "-wal") if os.path.exists(p)]
+    limit = max(sizes) + 300_000  # room for a few more jobs (about 70 kB of log each), then the disk is full
+    run = subprocess.run([sys.executable, "-c", FULL_DISK, where, str(limit), str(job), str(tmp_path / "out")],
+                         capture_output=True, text=True, timeout=900)
+    assert run.returncode == 0, run.stderr[-2000:]
+    lines = [json.loads(line) for line in run.stdout.splitlines()]
+    acknowledged = [x["recorded"] for x in lines if "recorded" in x] + lines[-1]["cli_recorded"]
+    last = lines[-1]
+    assert len(acknowledged) > len(last["cli_recorded"]) > 0, "the limit left no room; the test says nothing"
+    # the library: one line that says what happened
+    assert last["said"] is not None and "\n" not in last["said"] and "a write to the disk failed" in last["said"]
+    assert "nothing was changed" in last["said"]
+    # the command line: exit status 2 and one line
+    assert last["rc"] == 2 and last["stderr"][0].count("\n") == 1 and "Traceback" not in last["stderr"][0]
+    assert "a write to the disk failed" in last["stderr"][0], last
+    numbers = _consistent(where)  # every job whole, the counter moved once per job, integrity_check ok
+    assert set(acknowledged) <= set(numbers) and len(numbers) >= 3 + len(acknowledged)
+    # with room again, the register goes on where it stopped
+    reg = open_register(where)
+    R.record_job(reg, R.compose_job(reg, "F-400", "", serial="after")[1])
+    assert [t["type"] for t in R.list_types(reg)] == ["F-400"]
+    reg.close()
+    assert len(_consistent(where)) == len(numbers) + 1

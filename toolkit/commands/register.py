@@ -39,9 +39,20 @@ def configure_register(parser) -> None:
     p.add_argument("--stale-days", metavar="DAYS", help="stored coefficients older than this are flagged "
                                                         "(default 180 days)")
     _sub(sub, "types", "list the stored rotor types", run_types)
-    p = _sub(sub, "type-save", "store a rotor type from a job file (a second save is a new version)", run_type_save)
+    p = _sub(sub, "type-save", "store a rotor type from a job file or from options; a second save is a new "
+                               "version (options alone change the type's newest version)", run_type_save)
     p.add_argument("name", metavar="TYPE")
-    p.add_argument("job", metavar="JOB.toml", help="a job file; its order number may be left out")
+    p.add_argument("job", metavar="JOB.toml", nargs="?", help="a job file; its order number and measurement "
+                                                              "may be left out (options are laid over it)")
+    for flag, (_path, example) in TYPE_OPTIONS.items():
+        p.add_argument(flag, metavar="VALUE", help=f"[{'.'.join(_path)}], e.g. {example!r}")
+    p.add_argument("--plane", action="append", default=[], dest="planes", metavar="'NAME: KEY=VALUE; ...'",
+                   help="add a plane, or change the keys of the plane of that name, e.g. 'hub: position=260 mm; "
+                        "radius=180 mm; surface=outer; methods=drill' (repeat per plane; KEY= alone removes a key)")
+    p.add_argument("--drop-plane", action="append", default=[], metavar="NAME", help="remove a plane")
+    p.add_argument("--set", action="append", default=[], dest="sets", metavar="TABLE.KEY=VALUE",
+                   help="any other key of a job file, e.g. shop.mass_step=0.1 g or shop.drilling.min_wall_mm=2 "
+                        "(a TOML value, else text; TABLE.KEY= alone removes it)")
     p.add_argument("--note", default="", help="what this version changes")
     _by(p)
     p = _sub(sub, "type-show", "a rotor type's versions, template and coefficient sets", run_type_show)
@@ -172,15 +183,121 @@ def run_types(args) -> int:
     return 0
 
 
+#: type-save options for the keys of a job file: flag -> (key path, example).
+TYPE_OPTIONS = {
+    "--description": (("order", "rotor"), "Supply fan rotor, two planes"),
+    "--customer": (("order", "customer"), "Example Air Handling Ltd"),
+    "--drawing": (("order", "drawing"), "EX-2201 rev B"),
+    "--mass": (("rotor", "mass"), "285 kg"),
+    "--service-speed": (("rotor", "service_speed"), "1780 rpm"),
+    "--balancing-speed": (("rotor", "balancing_speed"), "700 rpm"),
+    "--grade": (("rotor", "grade"), "G 6.3"),
+    "--criterion": (("rotor", "criterion"), "iso"),
+    "--material": (("rotor", "material"), "carbon steel"),
+    "--error-allowance": (("rotor", "error_allowance"), "50 g*mm"),
+    "--bearing-span": (("geometry", "bearing_span"), "1100 mm"),
+    "--centre-of-mass": (("geometry", "centre_of_mass"), "610 mm"),
+    "--angle-reference": (("angles", "reference"), "keyway"),
+    "--angle-sense": (("angles", "sense"), "against rotation"),
+    "--units": (("shop", "units"), "metric"),
+}
+
+
+def _option_value(text: str):
+    """A value given on the command line: a TOML value if it reads as one (2, 0.3, true, ["a", "b"]),
+    else the text itself; nothing (``KEY=``) removes the key."""
+    import tomllib
+
+    text = text.strip()
+    if text == "":
+        return None
+    try:
+        return tomllib.loads(f"v = {text}")["v"]
+    except tomllib.TOMLDecodeError:
+        return text
+
+
+def _plane_option(item: str) -> tuple[str, dict]:
+    from toolkit.errors import BadInput
+
+    example = "'hub: position=260 mm; radius=180 mm; methods=drill'"
+    name, sep, rest = str(item).partition(":")
+    if not sep or not name.strip():
+        raise BadInput(f"--plane: {item!r} is not NAME: KEY=VALUE; ..., e.g. {example}")
+    keys = {}
+    for part in filter(str.strip, rest.split(";")):
+        key, eq, value = part.partition("=")
+        if not eq or not key.strip():
+            raise BadInput(f"--plane {name.strip()}: {part.strip()!r} is not KEY=VALUE, e.g. {example}")
+        key = key.strip()
+        if key == "methods" and value.strip():
+            keys[key] = [m.strip() for m in value.split(",") if m.strip()]
+        else:
+            keys[key] = _option_value(value)
+    return name.strip(), keys
+
+
+def _type_changes(args) -> list[tuple[tuple[str, ...], object]]:
+    from toolkit.errors import BadInput
+
+    changes = [(path, _option_value(getattr(args, flag[2:].replace("-", "_"))))
+               for flag, (path, _e) in TYPE_OPTIONS.items() if getattr(args, flag[2:].replace("-", "_")) is not None]
+    for item in args.sets:
+        key, eq, value = str(item).partition("=")
+        path = tuple(k.strip() for k in key.split("."))
+        if not eq or len(path) < 2 or not all(path):
+            raise BadInput(f"--set: {item!r} is not TABLE.KEY=VALUE, e.g. 'shop.mass_step=0.1 g'")
+        if path[0] == "plane":
+            raise BadInput(f"--set: {item!r}: planes are changed with --plane 'NAME: KEY=VALUE'")
+        changes.append((path, _option_value(value)))
+    return changes
+
+
+def _worded_for_options(exc):
+    """The template's problems with each key named by the option that sets it."""
+    from toolkit.workorder.job import JobError
+
+    if not isinstance(exc, JobError):
+        return exc
+    flags = {".".join(path): flag for flag, (path, _e) in TYPE_OPTIONS.items()}
+
+    def word(problem: str) -> str:
+        key, sep, rest = problem.partition(":")
+        if sep and key in flags:
+            return f"{key} ({flags[key]}):{rest}"
+        if sep and (key == "plane" or key.startswith("plane[")):
+            return f"{key} (--plane):{rest}"
+        if sep and "." in key and " " not in key:
+            return f"{key} (--set {key}=...):{rest}"
+        return problem
+
+    return JobError(exc.origin, [word(p) for p in exc.problems], "the rotor type")
+
+
 def run_type_save(args) -> int:
+    from toolkit.errors import BadInput
     from toolkit.fileio import read_text
     from toolkit.register import records as R
     from toolkit.workorder.job import MAX_JOB_BYTES
 
-    text = read_text(args.job, "job file (.toml)", MAX_JOB_BYTES)
+    text = read_text(args.job, "job file (.toml)", MAX_JOB_BYTES) if args.job else None
+    changes = _type_changes(args)
+    planes = [_plane_option(item) for item in args.planes]
     with _open(args) as reg:
-        saved = R.save_type(reg, args.name, text, note=args.note, by=args.by, origin=str(args.job))
-    emit(args.json, saved, f"Rotor type {saved['type']}: version {saved['version']} stored")
+        if text is not None and not changes and not planes and not args.drop_plane:
+            saved = R.save_type(reg, args.name, text, note=args.note, by=args.by, origin=str(args.job))
+        elif text is None and not changes and not planes and not args.drop_plane:
+            raise BadInput("type-save: give a job file, or options that describe or change the rotor type "
+                           "(e.g. --mass '285 kg', --plane 'hub: radius=180 mm')")
+        else:
+            origin = f"{args.job} with the options given" if args.job else "the options given"
+            try:
+                saved = R.save_type_changes(reg, args.name, base_text=text, changes=changes, planes=planes,
+                                            drop_planes=args.drop_plane, note=args.note, by=args.by, origin=origin)
+            except BadInput as exc:
+                raise _worded_for_options(exc) from None
+    based = f" (options over version {saved['based_on']})" if saved.get("based_on") else ""
+    emit(args.json, saved, f"Rotor type {saved['type']}: version {saved['version']} stored{based}")
     return 0
 
 

@@ -15,10 +15,11 @@ import tomllib
 from dataclasses import replace
 from pathlib import Path
 
-from toolkit.errors import BadInput
+from toolkit.errors import BadInput, OutputError
 from toolkit.register.store import DEFAULT_STALE_DAYS, Register, now
 
-__all__ = ["STATUSES", "TRANSITIONS", "ROLES", "save_type", "list_types", "type_info", "template",
+__all__ = ["STATUSES", "TRANSITIONS", "ROLES", "save_type", "change_template", "save_type_changes",
+           "list_types", "type_info", "template",
            "compose_job", "record_job", "store_order", "add_files", "list_jobs", "job_detail", "set_status", "record_check",
            "record_signoff", "record_marks", "store_coefficients", "coefficient_history", "latest_coefficients",
            "trim_coefficients", "stale_warnings", "sha256_text", "toml_text"]
@@ -37,6 +38,8 @@ ROLES = ("operator", "machinist", "inspector")
 #: The placeholder order number of a job that the register numbers.
 PLACEHOLDER = "(allocated by the register)"
 MAX_TEXT = 1_000_000
+#: The JSON text of stored values (UTF-8 as it is, compact; the values are made here, never circular).
+_JSON = json.JSONEncoder(ensure_ascii=False, check_circular=False, separators=(",", ":"))
 
 
 def sha256_text(text: str) -> str:
@@ -151,27 +154,129 @@ def _type_name(name) -> str:
     return text
 
 
-def _check_template(text: str, origin: str) -> None:
+def _check_template(text: str, origin: str, numbered: bool = True) -> None:
+    """The checks of a job file on a template. Its order number may be left out (the register numbers each
+    job), and so may its ``[measurement]`` (each rotor brings its own readings): the template is checked
+    with the placeholder number and, where it has no measurement, zero readings on its planes."""
     from toolkit.workorder.job import job_from_data, key_lines
 
     data = _loads(text, origin)
     order = dict(data.get("order") or {}) if isinstance(data.get("order"), dict) else {}
     order.setdefault("number", PLACEHOLDER)
     order.setdefault("rotor", "rotor type template")
-    job_from_data({**data, "order": order}, origin, lines=key_lines(text), what="the rotor-type template")
+    checked = {**data, "order": order}
+    if "measurement" not in data:
+        names = [str(p.get("name", "")) for p in data.get("plane") or [] if isinstance(p, dict)]
+        checked["measurement"] = {"kind": "machine", "readings": {n: "0 g*mm@0" for n in names}}
+    job_from_data(checked, origin, lines=key_lines(text) if numbered else None, what="the rotor-type template")
+
+
+#: The tables a template change may set a key in (the planes are changed plane by plane).
+CHANGE_TABLES = ("order", "rotor", "geometry", "angles", "measurement", "shop", "format")
+
+
+def change_template(data: dict, changes=(), planes=(), drop_planes=()) -> dict:
+    """A template's tables with changes laid over them (the tables given are not changed).
+
+    ``changes``: ``(path, value)`` pairs, the path a tuple of keys such as ``("rotor", "mass")`` or
+    ``("shop", "drilling", "min_wall_mm")``; a value ``None`` removes the key. ``planes``: ``(name, keys)``
+    pairs; a plane of that name gets the keys (``None`` removes one), another name adds a plane at the end.
+    ``drop_planes``: the names of planes to remove. What results is checked when the template is saved.
+
+    >>> data = {"rotor": {"mass": "412 kg"}, "plane": [{"name": "A", "radius": "300 mm"}]}
+    >>> new = change_template(data, [(("rotor", "grade"), "G 2.5")], [("A", {"radius": "310 mm"}), ("B", {})])
+    >>> new["rotor"], [p["name"] for p in new["plane"]], new["plane"][0]["radius"], data["plane"][0]["radius"]
+    ({'mass': '412 kg', 'grade': 'G 2.5'}, ['A', 'B'], '310 mm', '300 mm')
+    """
+    import copy
+
+    out = copy.deepcopy(dict(data))
+    for path, value in changes:
+        path = tuple(str(k) for k in path)
+        if len(path) < 2 or path[0] not in CHANGE_TABLES or not all(path):
+            raise BadInput(f"template change: {'.'.join(path)!r} is not a key of a table; give TABLE.KEY with "
+                           f"TABLE one of {', '.join(CHANGE_TABLES)} (planes are changed by name)")
+        table = out
+        for depth, key in enumerate(path[:-1]):
+            inner = table.setdefault(key, {})
+            if not isinstance(inner, dict):
+                raise BadInput(f"template change: {'.'.join(path[:depth + 1])!r} is a value, not a table")
+            table = inner
+        if value is None:
+            table.pop(path[-1], None)
+        else:
+            table[path[-1]] = value
+    plane_list = [dict(p) for p in out.get("plane") or [] if isinstance(p, dict)]
+    names = [str(p.get("name", "")) for p in plane_list]
+    for name in drop_planes:
+        if name not in names:
+            raise BadInput(f"template change: plane {name!r} to remove is not in the template; planes: "
+                           f"{', '.join(names) or 'none'}")
+        del plane_list[names.index(name)]
+        names.remove(name)
+    for name, keys in planes:
+        name = " ".join(str(name).split())
+        if not name:
+            raise BadInput("template change: a plane needs a name")
+        if name in names:
+            plane = plane_list[names.index(name)]
+        else:
+            plane = {"name": name}
+            plane_list.append(plane)
+            names.append(name)
+        for key, value in dict(keys).items():
+            if key == "name":
+                raise BadInput(f"template change: plane {name!r}: a plane is renamed by removing it and adding "
+                               "the new one")
+            if value is None:
+                plane.pop(key, None)
+            else:
+                plane[key] = value
+    if plane_list or "plane" in out:
+        out["plane"] = plane_list
+    readings = out.get("measurement", {}).get("readings") if isinstance(out.get("measurement"), dict) else None
+    if isinstance(readings, dict):  # readings of removed planes go with them
+        for key in [k for k in readings if k not in names]:
+            readings.pop(key)
+    return out
+
+
+def save_type_changes(reg: Register, name: str, *, base_text: str | None = None, changes=(), planes=(),
+                      drop_planes=(), note: str = "", by: str = "", origin: str = "template") -> dict:
+    """Store a new version of a rotor type made by :func:`change_template`: over ``base_text`` (a job
+    text) if given, else over the type's newest version, else (a new type) over nothing. The result has the
+    checks of a job file (:func:`save_type`); ``based_on`` says which version the changes were laid over."""
+    based_on = None
+    if base_text is not None:
+        data = _loads(_text(base_text, "template", MAX_TEXT), origin)
+    else:
+        from sqlalchemy import select
+
+        from toolkit.register.schema import rotor_types
+
+        with reg.read() as conn:
+            known = conn.execute(select(rotor_types.c.id).where(rotor_types.c.name == _type_name(name))).first()
+        current = template(reg, name) if known else None
+        data = _loads(current["template"], origin) if current else {}
+        based_on = current["version"] if current else None
+    text = toml_text(change_template(data, changes, planes, drop_planes),
+                     f"rotor type {_type_name(name)!r}" + (f", changed from version {based_on}" if based_on else ""))
+    saved = save_type(reg, name, text, note=note, by=by, origin=origin, numbered=False)
+    return {**saved, "based_on": based_on, "template": text}
 
 
 def save_type(reg: Register, name: str, template_text: str, *, note: str = "", by: str = "",
-              origin: str = "template") -> dict:
+              origin: str = "template", numbered: bool = True) -> dict:
     """Store a rotor type's job template (TOML job text); a second save of the same name is a new
-    version. The template must be a valid job (the order number may be left out)."""
+    version. The template must be a valid job (the order number and the measurement may be left out).
+    ``numbered`` false: the problems found name no line (for a text made here rather than written)."""
     from sqlalchemy import func, select
 
     from toolkit.register.schema import rotor_types, type_versions
 
     name = _type_name(name)
     template_text = _text(template_text, "template", MAX_TEXT)
-    _check_template(template_text, origin)
+    _check_template(template_text, origin, numbered)
     when = now()
     with reg.write() as conn:
         type_id = conn.execute(select(rotor_types.c.id).where(rotor_types.c.name == name)).scalar()
@@ -303,35 +408,43 @@ def record_job(reg: Register, job_text: str, *, origin: str = "job", base=None, 
 
 def store_order(reg: Register, built, job_text: str, order_data: dict, *, type_version_id: int | None = None,
                 allocate: bool = True, by: str = "", extra_warnings: tuple[str, ...] = ()):
-    """The recording transaction of :func:`record_job` for a work order already built from ``job_text``."""
-    from toolkit.register.schema import job_planes, jobs, job_status
+    """The recording transaction of :func:`record_job` for a work order already built from ``job_text``.
 
+    Everything that needs no database is made before the transaction (the work order's dictionary, the
+    JSON of the order data, the plane rows); inside it, one statement each on the driver's cursor
+    (:meth:`Register.execute`): the shop's pattern, the counter, the job row (whose insert also refuses a
+    number already used: then the next number is drawn), its planes and its first status."""
     digest = sha256_text(job_text)
     when = now()
-    with reg.write() as conn:
-        number = reg.allocate_number(conn) if allocate else built.ident.number
-        order = replace(built, ident=replace(built.ident, number=number, input_sha256=digest),
-                        warnings=built.warnings + tuple(extra_warnings))
-        data = order.to_dict()
-        from sqlalchemy import select
-
-        if not allocate and conn.execute(select(jobs.c.id).where(jobs.c.order_number == number)).first():
-            raise BadInput(f"order {number!r} is already in the register; a correction is a new job (or let "
-                           "the register number it)")
-        job_id = conn.execute(jobs.insert().values(
-            order_number=number, type_version_id=type_version_id, serial=order.ident.serial,
-            customer=order.ident.customer, order_data=json.dumps(order_data, ensure_ascii=False),
-            job_text=job_text, job_sha256=digest, workorder=json.dumps(data, ensure_ascii=False),
-            predicted_pass=int(order.passed), status="planned", created=when, created_by=_by(by))
-            .returning(jobs.c.id)).scalar_one()
-        conn.execute(job_planes.insert(), [
-            {"job_id": job_id, "idx": n, "plane": p.name, "u_per_g_mm": p.tolerance.u_per_g_mm,
-             "limit_g_mm": p.limit, "initial_g_mm": p.initial_g_mm, "initial_deg": p.initial_deg,
-             "predicted_g_mm": p.predicted_g_mm, "operations": len(p.operations),
-             "mass_g": sum(op.mass_g for op in p.operations), "created": when}
-            for n, p in enumerate(order.planes, start=1)])
-        conn.execute(job_status.insert().values(job_id=job_id, status="planned", at=when, by=_by(by),
-                                                source="recorded", note=""))
+    by = _by(by)
+    warnings = built.warnings + tuple(extra_warnings)
+    data = built.to_dict()  # the recorded order's dictionary: its input hash, warnings and number set here
+    data["ident"]["input_sha256"] = digest
+    data["warnings"] = warnings
+    planes = [{"idx": n, "plane": p.name, "u_per_g_mm": p.tolerance.u_per_g_mm, "limit_g_mm": p.limit,
+               "initial_g_mm": p.initial_g_mm, "initial_deg": p.initial_deg, "predicted_g_mm": p.predicted_g_mm,
+               "operations": len(p.operations), "mass_g": sum(op.mass_g for op in p.operations), "created": when}
+              for n, p in enumerate(built.planes, start=1)]
+    row = {"type_version_id": type_version_id, "serial": built.ident.serial, "customer": built.ident.customer,
+           "order_data": _JSON.encode(order_data), "job_text": job_text, "job_sha256": digest,
+           "predicted_pass": int(built.passed), "status": "planned", "created": when, "created_by": by}
+    with reg.write_direct() as conn:
+        for _ in range(1000):
+            number = reg.allocate_number(conn, skip_used=False) if allocate else built.ident.number
+            data["ident"]["number"] = number
+            inserted = reg.execute(conn, "job", {**row, "order_number": number, "workorder": _JSON.encode(data)})
+            if inserted:
+                job_id = inserted[0][0]
+                break
+            if not allocate:
+                raise BadInput(f"order {number!r} is already in the register; a correction is a new job (or let "
+                               "the register number it)")
+        else:
+            raise OutputError(f"register {reg.where}: the order pattern yields only numbers already used")
+        reg.execute(conn, "planes", [{**p, "job_id": job_id} for p in planes])
+        reg.execute(conn, "status", {"job_id": job_id, "status": "planned", "at": when, "by": by,
+                                     "source": "recorded", "note": ""})
+    order = replace(built, ident=replace(built.ident, number=number, input_sha256=digest), warnings=warnings)
     return order, {"order_number": number, "job_sha256": digest, "status": "planned", "created": when}
 
 

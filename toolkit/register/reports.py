@@ -240,18 +240,21 @@ def series_statistics(reg: Register, *, type_name=None, status=None, since=None,
         by_status = dict(conn.execute(only(select(jobs.c.status, func.count()), jobs.c.id)
                                       .group_by(jobs.c.status)).all())
         total = sum(by_status.values())
-        def jobs_with(statuses):
-            return conn.execute(only(select(func.count(func.distinct(job_status.c.job_id)))
-                                     .where(job_status.c.status.in_(statuses)), job_status.c.job_id)).scalar()
-
-        tried, reworked = jobs_with(("checked", "rework")), jobs_with(("rework",))
+        # jobs that were checked or sent to rework, and those sent to rework: one pass over the status index
+        reworked_job = case((job_status.c.status == "rework", job_status.c.job_id))
+        tried, reworked = conn.execute(only(select(func.count(func.distinct(job_status.c.job_id)),
+                                                   func.count(func.distinct(reworked_job)))
+                                            .where(job_status.c.status.in_(("checked", "rework"))),
+                                            job_status.c.job_id)).one()
         per_plane = conn.execute(only(select(
             job_planes.c.plane, func.count(), func.avg(job_planes.c.initial_g_mm), func.min(job_planes.c.initial_g_mm),
             func.max(job_planes.c.initial_g_mm), func.avg(job_planes.c.initial_g_mm / job_planes.c.u_per_g_mm),
-            func.avg(job_planes.c.operations), func.avg(job_planes.c.mass_g), func.max(job_planes.c.u_per_g_mm)),
+            func.avg(job_planes.c.operations), func.avg(job_planes.c.mass_g), func.max(job_planes.c.u_per_g_mm),
+            func.sum(job_planes.c.operations)),
             job_planes.c.job_id).group_by(job_planes.c.plane).order_by(job_planes.c.plane)).all()
+        ops_total = sum(int(row[-1] or 0) for row in per_plane)
         planes = []
-        for name, n, mean, low, high, ratio, ops, mass, u_per in per_plane:
+        for name, n, mean, low, high, ratio, ops, mass, u_per, _ops in per_plane:
             width = (float(high) / BINS) if high else 1.0
             scaled = job_planes.c.initial_g_mm / width
             # truncation toward zero: CAST in SQLite; PostgreSQL's CAST rounds, so floor() there
@@ -272,10 +275,10 @@ def series_statistics(reg: Register, *, type_name=None, status=None, since=None,
                 "scatter": [{"g_mm": float(a), "deg": float(d)} for a, d in points],
             })
         month = func.substr(job_planes.c.created, 1, 7)
-        trend_rows = conn.execute(only(select(month, func.count(func.distinct(job_planes.c.job_id)),
-                                              func.avg(job_planes.c.initial_g_mm)), job_planes.c.job_id)
-                                  .group_by(month).order_by(month)).all()
-        ops_total = conn.execute(only(select(func.sum(job_planes.c.operations)), job_planes.c.job_id)).scalar() or 0
+        # the jobs of a month: each has exactly one plane numbered 1 (cheaper than counting distinct jobs)
+        first_plane = func.sum(case((job_planes.c.idx == 1, 1), else_=0))
+        trend_rows = conn.execute(only(select(month, first_plane, func.avg(job_planes.c.initial_g_mm)),
+                                       job_planes.c.job_id).group_by(month).order_by(month)).all()
     tried, reworked = int(tried or 0), int(reworked or 0)
     return {
         "selection": {"type": type_name, "status": status, "since": since, "until": until},

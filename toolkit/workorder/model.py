@@ -14,7 +14,9 @@ from __future__ import annotations
 
 import cmath
 import math
-from dataclasses import asdict, dataclass, field
+import copy
+import functools
+from dataclasses import dataclass, field, fields
 
 from toolkit.errors import BadInput
 from toolkit.vectors import polar
@@ -387,8 +389,7 @@ class WorkOrder:
 
     def to_dict(self) -> dict:
         """A JSON-ready dictionary (amounts in g·mm, g, mm, degrees, as the key names say)."""
-        data = asdict(self)
-        data.pop("inputs", None)
+        data = {name: _plain(getattr(self, name)) for name in _field_names(WorkOrder) if name != "inputs"}
         data["passed"] = self.passed
         for plane, raw in zip(self.planes, data["planes"]):
             raw["passed"] = plane.passed
@@ -399,6 +400,30 @@ class WorkOrder:
             for p in self.planes for op in p.operations
         ]
         return data
+
+
+@functools.cache
+def _field_names(cls) -> tuple[str, ...]:
+    return tuple(f.name for f in fields(cls))
+
+
+_LEAVES = frozenset((str, float, int, bool, type(None)))
+
+
+def _plain(value):
+    """``dataclasses.asdict`` of a work-order part, the same dictionaries, lists and tuples, without
+    deep-copying the leaves that cannot change (numbers, text, None), which made most of its time (the
+    register converts the order of every job it records)."""
+    cls = type(value)
+    if cls in _LEAVES:
+        return value
+    if hasattr(cls, "__dataclass_fields__"):
+        return {name: _plain(getattr(value, name)) for name in _field_names(cls)}
+    if cls is tuple or cls is list:
+        return cls([v if type(v) in _LEAVES else _plain(v) for v in value])
+    if cls is dict:
+        return {_plain(k): _plain(v) for k, v in value.items()}
+    return copy.deepcopy(value)
 
 
 def key_pairs(order: WorkOrder, fmt: Formatter) -> list[tuple[str, str]]:
