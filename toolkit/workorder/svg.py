@@ -319,10 +319,10 @@ def vectors_layout(*, title: str, reference: str, angle_sense: str, vectors: lis
     biggest: dict[str, float] = {}
     for _label, amount, unit, _angle, _role, _action in items:
         biggest[unit] = max(biggest.get(unit, 0.0), amount)
-    scale = {unit: rim * 0.85 / (top_ or 1.0) for unit, top_ in biggest.items()}
+    biggest = {unit: top_ or 1.0 for unit, top_ in biggest.items()}  # the largest of each unit at 85 %
     arrows, rings, callouts, legend = [], [], [], []
     for label, amount, unit, angle, role, action in items:
-        length = amount * scale[unit]
+        length = rim * 0.85 * (amount / biggest[unit])  # a ratio first: no overflow for tiny amounts
         amount_text = f"{format_number(amount, 4) if amount else '0'} {unit}"
         if role == "allowance":
             rings.append((length, role))
@@ -338,8 +338,8 @@ def vectors_layout(*, title: str, reference: str, angle_sense: str, vectors: lis
             kind, words = _VECTOR_LEGEND[role]
             legend.append((kind, role, words))
     fmt = Formatter("metric", reference, angle_sense)
-    scale_words = "; ".join(f"{format_number(rim / s, 4)} {unit}" for unit, s in scale.items())
-    note = (f"Scale: the rotor outline stands for {scale_words}. " if scale else "No vectors given yet. ") \
+    scale_words = "; ".join(f"{format_number(top_ / 0.85, 4)} {unit}" for unit, top_ in biggest.items())
+    note = (f"Scale: the rotor outline stands for {scale_words}. " if biggest else "No vectors given yet. ") \
         + fmt.convention()
     return dia.layout(title=title, reference=reference, angles_ccw_rotation=angle_sense == "with rotation",
                       callouts=callouts, markers=[], initial=None, predicted=None, allowance=0.0, legend=legend,
@@ -408,6 +408,7 @@ def _mm(value, name: str) -> float:
 def side_view_layout(*, length_mm, bearings_mm, planes, centre_of_mass_mm, diameter_mm=None,
                      units: str = "metric") -> SideView:
     """The geometry of :func:`side_view_svg` (see there) in points, y up, with every text box."""
+    from toolkit.units import format_number
     from toolkit.workorder.model import Formatter
 
     if units not in ("metric", "imperial"):
@@ -528,9 +529,9 @@ def side_view_layout(*, length_mm, bearings_mm, planes, centre_of_mass_mm, diame
     out.texts.append(dia._text(title_lines, left, y, "bold", tsize, "left", "ink", pdfpage.width, "title"))
     top = out.texts[-1].box.y1
     nsize = 6.5
-    scale_text = (f"Drawn to scale: 100 mm on the rotor is {s * 100:.3g} pt here; lengths from the left end of the "
-                  "rotor.") if units == "metric" else (
-        f"Drawn to scale: 1 in on the rotor is {s * 25.4:.3g} pt here; lengths from the left end of the rotor.")
+    per = "100 mm" if units == "metric" else "1 in"
+    scale_text = (f"Drawn to scale: {per} on the rotor is {format_number(s * (100 if units == 'metric' else 25.4), 3)}"
+                  " pt here; lengths from the left end of the rotor.")
     if diameter is None:
         scale_text += " Diameter not given: the shaft is drawn 6 pt thick, not to scale."
     note_lines = pdfpage.wrap(scale_text, "regular", nsize, right - left)
