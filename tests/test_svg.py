@@ -255,6 +255,10 @@ def test_vector_labels_carry_unit_angle_and_action():
     note = " ".join(d.text for d in drawn_texts(root) if d.kind == "note")
     assert "4.941 mm/s" in note and "37.06 g" in note  # per unit: largest at 85 % of the outline (D)
     assert "counted against rotation" in note
+    assert "Secure every trial and correction mass before a run" in note  # a caution where masses are shown
+    bare = svg.vectors_layout(title="t", reference="keyway", angle_sense="with rotation", vectors=[
+        dict(label="C2", amount=3, unit="g", angle_deg=10, role="correction")])
+    assert "C2: correction (add or remove not stated) 3.000 g at 10°" in [" ".join(t.lines) for t in bare.texts]
     classes = {el.get("class") for el in root.iter()}
     for role in ("reading", "trial", "correction", "allowance"):
         assert any(c and f"cp-{role}" in c.split() for c in classes)

@@ -330,7 +330,7 @@ def vectors_layout(*, title: str, reference: str, angle_sense: str, vectors: lis
             continue
         arrows.append(dia.Arrow(angle, length, role, 1.8 if role in ("reading", "correction") else 1.1,
                                 filled=_VECTOR_LEGEND[role][0] == "arrow"))
-        words = f"{action} " if action else ""
+        words = f"{action} " if action else "(add or remove not stated) " if role == "correction" else ""
         text = f"{label + ': ' if label.strip() else ''}{role} {words}{amount_text} at {Formatter.angle(angle)}"
         callouts.append(dia.Callout(angle, rim, (text,), role))
     for role in VECTOR_ROLES:
@@ -341,6 +341,9 @@ def vectors_layout(*, title: str, reference: str, angle_sense: str, vectors: lis
     scale_words = "; ".join(f"{format_number(top_ / 0.85, 4)} {unit}" for unit, top_ in biggest.items())
     note = (f"Scale: the rotor outline stands for {scale_words}. " if biggest else "No vectors given yet. ") \
         + fmt.convention()
+    if any(role in ("trial", "correction") for *_x, role, _a in items):
+        note += (" Secure every trial and correction mass before a run and keep clear of the rotor while it "
+                 "turns; the rotor maker's instructions and local codes come first.")
     return dia.layout(title=title, reference=reference, angles_ccw_rotation=angle_sense == "with rotation",
                       callouts=callouts, markers=[], initial=None, predicted=None, allowance=0.0, legend=legend,
                       note=note, x0=x0, top=top, width=width, measure=pdfpage.width, wrap=pdfpage.wrap, rim=rim,
@@ -353,8 +356,9 @@ def vectors_svg(*, title: str, reference: str, angle_sense: str, vectors: list[d
     Each vector is a dict with ``label`` (text), ``amount`` (a number of 0 or more), ``unit`` (text, e.g.
     ``"mm/s"`` or ``"g"``), ``angle_deg`` (from the reference, in ``angle_sense``) and ``role``:
     ``"reading"``, ``"trial"``, ``"correction"``, ``"residual"`` (arrows from the centre, each labelled
-    with its amount, unit and angle) or ``"allowance"`` (a dashed circle). A correction may carry
-    ``action`` (``"add"`` or ``"remove"``), printed in words. Vectors of one unit share a scale: the
+    with its amount, unit and angle) or ``"allowance"`` (a dashed circle). A correction should carry
+    ``action`` (``"add"`` or ``"remove"``), printed in words; without it its label says that add or remove
+    is not stated. With trial masses or corrections shown, the note carries the caution to secure them. Vectors of one unit share a scale: the
     largest of each unit reaches 85 % of the rotor outline, and the note says what the outline stands for
     in each unit. ``angle_sense`` is ``"with rotation"`` or ``"against rotation"``; it and the reference
     are printed on the diagram. Bad input raises :class:`~toolkit.errors.BadInput` naming the field.
