@@ -400,6 +400,8 @@ def test_fonts_named_and_served():
         assert f"url('/fonts/{path.name}')" in css
     style = parse(svg.plane_svg(example_order(), 0)).find("s:style", NS).text
     assert f"'{svg.FONT_FAMILY}'" in style and "sans-serif" in style  # the font, and a fallback
+    selectors = [sel.strip() for rule in style.split("}") if "{" in rule for sel in rule.split("{")[0].split(",")]
+    assert selectors and all(sel.startswith("svg.cp-diagram ") for sel in selectors)  # nothing else on a page
 
 
 def test_the_checks_see_a_collision():

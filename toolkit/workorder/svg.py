@@ -93,12 +93,16 @@ def _n(v: float) -> str:
 
 
 def _style_sheet() -> str:
-    rules = [f"text {{ font-family: {_FAMILIES}; }}", ".cp-stroke { fill: none; }",
-             ".cp-hole { fill: #ffffff; stroke: #1a1f24; }", ".cp-shape { fill: #595e66; stroke: #1a1f24; }"]
+    """The SVG's colours and font. Every rule is scoped to ``svg.cp-diagram``: a style element inside an SVG
+    that sits in an HTML page applies to the whole page."""
+    d = "svg.cp-diagram"
+    rules = [f"{d} text {{ font-family: {_FAMILIES}; }}", f"{d} .cp-stroke {{ fill: none; }}",
+             f"{d} .cp-hole {{ fill: #ffffff; stroke: #1a1f24; }}",
+             f"{d} .cp-shape {{ fill: #595e66; stroke: #1a1f24; }}"]
     for role, colour in ROLES.items():
-        rules.append(f"text.cp-{role}, .cp-fill.cp-{role} {{ fill: {colour}; }}")
-        rules.append(f".cp-stroke.cp-{role}, .cp-fill.cp-{role} {{ stroke: {colour}; }}")
-    rules.append(".cp-fill.cp-body { stroke: #1a1f24; }")
+        rules.append(f"{d} text.cp-{role}, {d} .cp-fill.cp-{role} {{ fill: {colour}; }}")
+        rules.append(f"{d} .cp-stroke.cp-{role}, {d} .cp-fill.cp-{role} {{ stroke: {colour}; }}")
+    rules.append(f"{d} .cp-fill.cp-body {{ stroke: #1a1f24; }}")
     return "<style>" + " ".join(rules) + "</style>"
 
 
@@ -195,7 +199,7 @@ class _Canvas:
 
 def _document(canvas: _Canvas, width: float, height: float, title: str, label: str) -> str:
     vb = f"{_n(-_PAD)} {_n(-_PAD)} {_n(width + 2 * _PAD)} {_n(height + 2 * _PAD)}"
-    return (f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="{vb}" width="{_n(width + 2 * _PAD)}" '
+    return (f'<svg xmlns="http://www.w3.org/2000/svg" class="cp-diagram" viewBox="{vb}" width="{_n(width + 2 * _PAD)}" '
             f'height="{_n(height + 2 * _PAD)}" role="img" aria-label="{escape(pdfpage.clean(label), _QUOTE)}">'
             f"<title>{escape(pdfpage.clean(title))}</title>{_style_sheet()}"
             + "".join(canvas.parts) + "</svg>")
