@@ -362,10 +362,11 @@ def vectors_svg(*, title: str, reference: str, angle_sense: str, vectors: list[d
     ``"reading"``, ``"trial"``, ``"correction"``, ``"residual"`` (arrows from the centre, each labelled
     with its amount, unit and angle) or ``"allowance"`` (a dashed circle). A correction should carry
     ``action`` (``"add"`` or ``"remove"``), printed in words; without it its label says that add or remove
-    is not stated. With trial masses or corrections shown, the note carries the caution to secure them. Vectors of one unit share a scale: the
-    largest of each unit reaches 85 % of the rotor outline, and the note says what the outline stands for
-    in each unit. ``angle_sense`` is ``"with rotation"`` or ``"against rotation"``; it and the reference
-    are printed on the diagram. Bad input raises :class:`~toolkit.errors.BadInput` naming the field.
+    is not stated. With trial masses or corrections shown, the note carries the caution to secure them.
+    Vectors of one unit share a scale: the largest of each unit reaches 85 % of the rotor outline, and the
+    note says what the outline stands for in each unit. ``angle_sense`` is ``"with rotation"`` or
+    ``"against rotation"``; it and the reference are printed on the diagram. Bad input raises
+    :class:`~toolkit.errors.BadInput` naming the field.
 
     >>> svg = vectors_svg(title="Run 1", reference="keyway", angle_sense="against rotation",
     ...                   vectors=[dict(label="original", amount=4.2, unit="mm/s", angle_deg=75, role="reading")])
