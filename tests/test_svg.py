@@ -360,7 +360,7 @@ def test_side_view_to_scale_with_its_dimensions():
     x0, y0, x1, y1, _role = lay.rects[0]
     assert (x1 - x0) / (y1 - y0) == pytest.approx(1200 / 300)  # length and diameter on one scale
     words = [" ".join(t.lines) for t in lay.texts]
-    for expected in ("plane drive end", "plane fan end", "bearing 1", "bearing 2", "centre of mass",
+    for expected in ("plane drive end", "plane fan end", "bearing A", "bearing B", "centre of mass",
                      "plane drive end: 150.0 mm", "centre of mass: 540.0 mm", "overall length: 1200 mm",
                      "Ø 300.0 mm"):
         assert expected in words

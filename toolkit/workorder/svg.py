@@ -472,7 +472,7 @@ def side_view_layout(*, length_mm, bearings_mm, planes, centre_of_mass_mm, diame
     # the lowest row where neither its box nor its leader meets what is already placed
     labels = [(X(pos), pdfpage.shorten(f"plane {name}", "bold", size, 200), "accent", "bold")
               for name, pos in named]
-    labels += [(X(b), f"bearing {k}", "ink", "regular") for k, b in enumerate(bearings, start=1)]
+    labels += [(X(b), f"bearing {chr(65 + k)}", "ink", "regular") for k, b in enumerate(bearings)]
     labels.append((X(com), "centre of mass", "warn", "regular"))
     placed: list[tuple[dia.Box, tuple]] = []
     for x, text, role, style in sorted(labels, key=lambda item: -item[0]):
@@ -493,7 +493,7 @@ def side_view_layout(*, length_mm, bearings_mm, planes, centre_of_mass_mm, diame
     # dimensions below: one row per feature, from the left end, shortest on top; the text inside its span
     # when it fits, else to the left of the left end (no extension line passes either place)
     features = sorted([(pos, f"plane {name}") for name, pos in named]
-                      + [(b, f"bearing {k}") for k, b in enumerate(bearings, start=1)]
+                      + [(b, f"bearing {chr(65 + k)}") for k, b in enumerate(bearings)]
                       + [(com, "centre of mass"), (length, "overall length")], key=lambda f: f[0])
     row_step = size * dia.LINE + 8.0
     first = -h - 16 - size * (dia.ASCENT + dia.DESCENT)
@@ -554,7 +554,7 @@ def side_view_layout(*, length_mm, bearings_mm, planes, centre_of_mass_mm, diame
 def side_view_svg(*, length_mm, bearings_mm: list[float], planes: list[tuple[str, float]],
                   centre_of_mass_mm: float, diameter_mm: float | None = None, units: str = "metric") -> str:
     """The rotor seen from the side, to scale: the shaft (its diameter to the same scale when given),
-    bearings as supports below it, correction planes as dashed lines with their names, the centre of mass,
+    bearings as supports below it (named A, B, ... in the order given), correction planes as dashed lines with their names, the centre of mass,
     and a dimension line from the left end to each of them and to the right end, with units (``units``
     ``"metric"`` or ``"imperial"`` for the printed lengths).
 
