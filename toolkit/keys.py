@@ -41,7 +41,7 @@ from toolkit.units import Q_, magnitude
 from toolkit.vectors import parse_angle
 
 __all__ = ["CONVENTIONS", "FILLS", "SERVICE", "MARKINGS", "KeyBody", "KeyPart", "KeyCorrection", "KeyUnbalance",
-           "bar_unbalance", "default_fill", "key_unbalance", "HIGH_SPEED_RPM"]
+           "KeyConvention", "bar_unbalance", "default_fill", "key_convention", "key_unbalance", "HIGH_SPEED_RPM"]
 
 #: The key conventions a component can be balanced to; half-key is the standard's (ISO 21940-32:2012).
 CONVENTIONS = ("half-key", "full-key", "no-key")
@@ -225,6 +225,60 @@ def default_fill(convention: str, component: str) -> str:
     if convention == "full-key":
         return "key" if component == "shaft" else "nothing"
     return "nothing"
+
+
+@dataclass(frozen=True)
+class KeyConvention:
+    """What a component is balanced to, what sits in its keyway while it is balanced, and its marking."""
+
+    component: str
+    convention: str
+    fill: str
+    marking: str
+    marking_given: bool
+    source: str
+    warnings: tuple[str, ...]
+
+    @property
+    def words(self) -> str:
+        """One sentence for an output: e.g. 'balanced to the half-key convention with a half-key in the keyway,
+        marked H (by convention)'."""
+        fill = {"key": "the key", "half-key": "a half-key", "nothing": "the keyway empty"}[self.fill]
+        return (f"balanced to the {self.convention} convention with {fill}"
+                + (" in the keyway" if self.fill != "nothing" else "") + f", marked {self.marking}"
+                + ("" if self.marking_given else " (by convention)"))
+
+    def to_dict(self) -> dict:
+        d = dict(self.__dict__)
+        d["warnings"] = list(self.warnings)
+        d["marking_mark"] = "given" if self.marking_given else "M"
+        return d
+
+
+def key_convention(convention="half-key", fill=None, marking=None, component="shaft") -> KeyConvention:
+    """The key convention a component is balanced to (:data:`CONVENTIONS`; half-key is ISO 21940-32:2012's),
+    what sat in its keyway (:data:`FILLS`; default :func:`default_fill`) and its marking (default by
+    convention, :data:`MARKINGS`, from memory [M] and overridable). A fill that does not follow the
+    convention gives a warning.
+
+    >>> k = key_convention("full-key", component="shaft")
+    >>> k.fill, k.marking, k.words
+    ('key', 'F', 'balanced to the full-key convention with the key in the keyway, marked F (by convention)')
+    >>> key_convention("half-key", fill="nothing").warnings[0][:40]
+    'fill: an empty keyway does not follow th'
+    """
+    comp = _choice(component, ("shaft", "hub"), "component")
+    conv = _choice(convention, CONVENTIONS, "convention")
+    expected = default_fill(conv, comp)
+    got = expected if fill is None else _choice(fill, FILLS, "fill")
+    warnings = []
+    if got != expected:
+        words = {"key": "a key", "half-key": "a half-key", "nothing": "an empty keyway"}
+        warnings.append(f"fill: {words[got]} does not follow the {conv} convention this {comp} is balanced to "
+                        f"({words[expected]} in its keyway)")
+    given = marking is not None and str(marking).strip() != ""
+    return KeyConvention(comp, conv, got, str(marking).strip() if given else MARKINGS[conv], given,
+                         _CONVENTION_SOURCE + "; marking: " + MARKING_MARK, tuple(warnings))
 
 
 def _choice(value, allowed, name: str) -> str:

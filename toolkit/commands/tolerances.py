@@ -134,6 +134,16 @@ def configure_tolerance(parser) -> None:
     parser.add_argument("--check-stage", default="after-balancing", metavar="STAGE",
                         help="after-balancing (pass when residual <= allowance - dU, default) or later-check "
                              "(fail only when residual > allowance + dU)")
+    k = parser.add_argument_group("key convention (ISO 21940-32; printed with the allowance)")
+    k.add_argument("--key-convention", metavar="CONVENTION",
+                   help="what the rotor is balanced to: half-key (the standard's), full-key or no-key")
+    k.add_argument("--keyway-fill", metavar="WHAT",
+                   help="what sits in its keyway while it is balanced: key, half-key or nothing (default: what "
+                        "the convention says)")
+    k.add_argument("--key-marking", metavar="TEXT",
+                   help="the component's stamp (default by convention: H half-key, F full-key; from memory)")
+    k.add_argument("--key-component", choices=("shaft", "hub"), default="shaft",
+                   help="the rotor is the keyed joint's shaft (default) or a hub (fitment)")
     add_units(parser)
     add_json(parser)
     parser.set_defaults(run=run_tolerance)
@@ -167,13 +177,36 @@ def run_tolerance(args) -> int:
         raise BadInput("--one-plane-rule, --show-other-rule, --rotor-length and --correction-diameter apply to one "
                        "correction plane: give --plane NAME=POSITION once with --bearing-span and --com-from-a")
     doubts = [] if report.one_plane is None else [d.text(OPTION_NAMES) for d in report.one_plane.doubts]
+    key = _key_convention(args)
     data = report.to_dict()
     data["units"] = fmt.system.name
+    if key is not None:
+        data["key"] = key.to_dict()
+        data["key"]["warnings"] = ["--keyway-fill" + w[len("fill"):] for w in key.warnings]
+        doubts = doubts + data["key"]["warnings"]
+        data["warnings"] = data["warnings"] + data["key"]["warnings"]
     if report.one_plane is not None:
         data["one_plane"] = report.one_plane.to_dict(OPTION_NAMES)
         data["warnings"] = data["warnings"] + doubts
-    emit(args.json, data, None if args.json else _tolerance_text(report, fmt, args.show_other_rule, doubts))
+    emit(args.json, data, None if args.json else _tolerance_text(report, fmt, args.show_other_rule, doubts, key))
     return 1 if report.passed is False else 0
+
+
+def _key_convention(args):
+    """The key convention options as a :class:`toolkit.keys.KeyConvention`, or None when none is given."""
+    from toolkit.errors import BadInput
+    from toolkit.keys import key_convention
+
+    if args.key_convention is None:
+        if args.keyway_fill is not None or args.key_marking is not None:
+            raise BadInput("--keyway-fill/--key-marking: give --key-convention (half-key, full-key or no-key) too")
+        return None
+    try:
+        return key_convention(args.key_convention, args.keyway_fill, args.key_marking, args.key_component)
+    except BadInput as exc:
+        head, _sep, rest = str(exc).partition(":")
+        option = {"convention": "--key-convention", "fill": "--keyway-fill"}.get(head, head)
+        raise BadInput(f"{option}:{rest}") from None
 
 
 #: The tolerance library's parameter names as this command's options, for warnings that name what to check.
@@ -182,7 +215,7 @@ OPTION_NAMES = {"rotor_length": "--rotor-length", "correction_diameter": "--corr
                 "one_plane_rule": "--one-plane-rule"}
 
 
-def _tolerance_text(report, fmt: _Fmt, show_other: bool = False, doubts=()) -> str:
+def _tolerance_text(report, fmt: _Fmt, show_other: bool = False, doubts=(), key=None) -> str:
     g = report.grade
     lines = [f"Permissible residual unbalance, {report.method}",
              f"  grade       {g.label}  ({g.machinery}; source mark {g.mark})",
@@ -190,6 +223,9 @@ def _tolerance_text(report, fmt: _Fmt, show_other: bool = False, doubts=()) -> s
              f"  max speed   {report.speed_rpm:g} r/min",
              f"  e_per       {report.e_per.m_as('um'):.4g} µm (g·mm per kg)",
              f"  U_per       {fmt.unb(report.u_per)}  (whole rotor)"]
+    if key is not None:
+        lines.append(f"  key         {key.component} {key.words}; the allowance applies in that state "
+                     f"(ISO 21940-32:2012{'' if key.marking_given else '; marking letters from memory'})")
     if report.bearing_span is not None:
         lines.append(f"  geometry    bearing span {fmt.length(report.bearing_span)}, centre of mass "
                      f"{fmt.length(report.com_from_a)} from bearing A")

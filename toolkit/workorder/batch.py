@@ -20,6 +20,12 @@ criterion           ``iso`` (default), ``api``, ``mil-std-167``
 material            e.g. ``carbon steel``
 bearing_span        e.g. ``1200 mm``
 centre_of_mass      from bearing A, e.g. ``540 mm``
+one_plane_rule      one plane: ``whole`` (default, ISO 21940-11) or ``statics``
+static_share        two planes of a narrow or overhung rotor: the static part's fraction, e.g. ``0.5``
+rotor_length        one plane: the rotor body's axial length, to check that one plane suffices
+key_convention      ``half-key`` (ISO 21940-32), ``full-key`` or ``no-key`` (the job's ``[key] convention``)
+keyway_fill         what sits in the keyway while balancing: ``key``, ``half-key`` or ``nothing``
+key_marking         the component's stamp (default by convention)
 reference, sense    angle reference mark; ``against rotation`` or ``with rotation``
 shows               what the machine's angle shows: ``heavy spot`` (default) or ``add``
 units               ``metric`` or ``imperial``
@@ -66,6 +72,9 @@ COLUMNS = {
     "balancing_speed": ("rotor", "balancing_speed"), "grade": ("rotor", "grade"),
     "criterion": ("rotor", "criterion"), "material": ("rotor", "material"),
     "bearing_span": ("geometry", "bearing_span"), "centre_of_mass": ("geometry", "centre_of_mass"),
+    "one_plane_rule": ("geometry", "one_plane_rule"), "static_share": ("geometry", "static_share"),
+    "rotor_length": ("geometry", "rotor_length"),
+    "key_convention": ("key", "convention"), "keyway_fill": ("key", "fill"), "key_marking": ("key", "marking"),
     "reference": ("angles", "reference"), "sense": ("angles", "sense"),
     "shows": ("measurement", "shows"),
     "units": ("shop", "units"), "drills": ("shop", "drills"), "plate_stock": ("shop", "plate_stock"),
@@ -348,8 +357,10 @@ def row_job(cells: dict, origin: str, base: Path):
     for column, path in COLUMNS.items():
         text = cells.get(column, "")
         if text:
-            _put(data, path, text)
+            _put(data, path, _number(text) if column in _NUMBERS else text)
             columns[path] = column
+    if "key" in data and not template:  # a fill or marking without its convention: name the missing column
+        columns.setdefault(("key", "convention"), "key_convention")
     planes = data.get("plane") if template else None
     planes = list(planes) if isinstance(planes, list) else []
     for n in range(1, MAX_PLANES + 1):
@@ -373,6 +384,20 @@ def row_job(cells: dict, origin: str, base: Path):
     if planes:
         data["plane"] = planes
     return job_from_data(data, origin, base, columns=columns, what="the row")
+
+
+#: Columns whose job key takes a plain number (a fraction), not text.
+_NUMBERS = ("static_share",)
+
+
+def _number(text: str):
+    """A cell's number as the job key wants it; text that is no number is left for the row's check to refuse."""
+    from toolkit.units import plain_number
+
+    try:
+        return plain_number(text)
+    except ValueError:
+        return text
 
 
 def _template(file: Path) -> dict:

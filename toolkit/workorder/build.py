@@ -109,6 +109,8 @@ def _initial(job: Job):
         out = {name: (amount.m_as("g*mm"), angle) for name, (amount, angle) in m.readings.items()}
         shows = "heavy spot" if m.shows == "heavy spot" else "the add position (turned to the heavy spot here)"
         return out, f"balancing machine readings per plane (the machine's angle shows {shows})", [], [], []
+    if m.kind == "arbor-index":
+        return _arbor_initial(job)
     if m.kind == "runs":
         from toolkit.influence import runs_from_dict, solve_runs
 
@@ -141,6 +143,58 @@ def _initial(job: Job):
     # its own residual per plane after the quantised operations, so that line would only mislead here
     warnings = [w for w in solution.warnings if not w.startswith("predicted residual after the corrections")]
     return out, what, warnings, [solution.source], list(solution.cautions)
+
+
+def _arbor_initial(job: Job):
+    """The part's shares of arbor-index readings as the initial unbalance; the arbor's shares in the
+    description, the consistency checks' warnings per plane."""
+    m = job.measurement
+    fmt = Formatter(job.shop.units, job.angle_reference, job.angle_sense)
+    out, arbor, warnings = {}, [], []
+    for name, r in m.index.items():
+        out[name] = (r.part_g_mm, r.part_angle_deg)
+        arbor.append(f"plane {name} {fmt.unbalance(r.arbor_g_mm)} at {fmt.angle(r.arbor_angle_deg)} from the "
+                     f"arbor's mark")
+        check = ("" if r.consistent is None else
+                 f"; readings {'consistent' if r.consistent else 'NOT consistent'}: spread {r.spread_fraction:.1%} "
+                 f"of the mean reading (limit {r.max_spread:.0%})")
+        warnings.append(f"plane {name}: arbor's share {fmt.unbalance(r.arbor_g_mm)} at {fmt.angle(r.arbor_angle_deg)} "
+                        f"from the arbor's mark stays with the arbor (not corrected on the part){check}")
+        warnings += [f"plane {name}: arbor index readings ([measurement.readings] {name}): "
+                     + w.partition(":")[2].strip() for w in r.warnings]
+    counts = sorted({len(r.readings) for r in m.index.values()})
+    what = (f"part read on an arbor at {'/'.join(map(str, counts))} index positions per plane (index method: "
+            f"the part's own share is corrected, from the part's reference mark; the arbor's share stays with the "
+            f"arbor: {'; '.join(arbor)})")
+    source = next(iter(m.index.values())).source if m.index else ""
+    cautions = ["Stop the machine before turning the part on the arbor; secure the part and any trial mass "
+                "before each run, guards closed."]
+    return out, what, warnings, [source], cautions
+
+
+def _key_notes(job: Job, fmt, shares: dict, planes) -> list[str]:
+    """The key's part in each plane in words: what the correction covers, what the check run reads in this
+    set-up, and the key's own remedies where its share alone exceeds the allowance."""
+    k = job.key
+    fill = {"key": "the key", "half-key": "a half-key", "nothing": "nothing"}[k.fill]
+    notes = [f"[key]: this rotor ({k.component}) is balanced to the {k.convention} convention with "
+             f"{fill} in its keyway; the key "
+             f"mismatch in service is {fmt.unbalance(k.result.amount_g_mm)} at {fmt.angle(k.result.angle_deg)} "
+             f"(heavy spot); each plane's correction includes its share of it"]
+    for p in planes:
+        if p.key_g_mm is None:
+            continue
+        machine = vector(p.predicted_g_mm, p.predicted_deg) - vector(p.key_g_mm, p.key_deg)
+        amount, angle = polar(machine)
+        notes.append(f"plane {p.name}: key share {fmt.unbalance(p.key_g_mm)} at {fmt.angle(p.key_deg)} is "
+                     f"corrected with the measured unbalance; with {fill} in the keyway as now, the check run reads about {fmt.unbalance(amount)} at "
+                     f"{fmt.angle(angle)}, and the assembly in service the predicted residual")
+        if p.key_g_mm > p.tolerance.u_per_g_mm:
+            remedies = "; ".join(k.result.correction.options) or k.result.correction.words
+            notes.append(f"plane {p.name}: the key share alone exceeds the allowance "
+                         f"({fmt.unbalance(p.tolerance.u_per_g_mm)}); instead of correcting it on the rotor: "
+                         f"{remedies}")
+    return notes
 
 
 def _plan(job: Job, plane, u0: float, a0: float, allowance: float, method: str, step: float):
@@ -267,6 +321,17 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
         out.append(Setting("one-plane allowance rule", "whole U_per (ISO 21940-11)" if rule == "whole"
                            else "statics transfer (stricter)", "H" if rule == "whole" else "D",
                            job.one_plane_rule != "whole", "[geometry] one_plane_rule"))
+    if job.key is not None:
+        out.append(Setting("key marking", f"{job.key.marking}" + ("" if job.key.marking_given else
+                           f" (by the {job.key.convention} convention)"), "M", job.key.marking_given,
+                           '[key] marking = "H"'))
+    if job.measurement.kind == "arbor-index":
+        from toolkit.arbor import DEFAULT_MAX_SPREAD
+
+        spread = job.measurement.max_spread
+        out.append(Setting("arbor index: largest consistent spread",
+                           f"{DEFAULT_MAX_SPREAD if spread is None else spread:g} of the mean reading", "CP",
+                           spread is not None, "[measurement] max_spread"))
     delta = 0.0 if job.error_allowance is None else job.error_allowance.m_as("g*mm")
     shown = Formatter(job.shop.units, job.angle_reference, job.angle_sense).unbalance(delta) if delta else "0"
     out.append(Setting("measurement error allowance ΔU", shown, "M", job.error_allowance is not None,
@@ -341,9 +406,13 @@ def build_order(job: Job) -> WorkOrder:
     delta = 0.0 if job.error_allowance is None else job.error_allowance.m_as("g*mm")
     planes, number = [], 1
     kinds_used = set()
+    key = job.key.result if job.key is not None else None
+    key_shares = {s.plane: (s.amount_g_mm, s.angle_deg) for s in key.planes} if key is not None else {}
     for spec in job.planes:
         tol = tolerances[spec.name]
-        u0, a0 = initial[spec.name]
+        measured = u0, a0 = initial[spec.name]
+        if spec.name in key_shares:  # the key mismatch in service is corrected with the measured unbalance
+            u0, a0 = polar(vector(*measured) + vector(*key_shares[spec.name]))
         limit = tol.u_per_g_mm - delta
         if limit <= 0:
             raise BadInput(f"{job.origin}: rotor.error_allowance: {delta:g} g·mm is not below the allowance of "
@@ -364,9 +433,20 @@ def build_order(job: Job) -> WorkOrder:
                                  error_allowance=job.error_allowance)
         correction_action = "remove" if method == "drill" else "add"
         correction_angle = a0 if correction_action == "remove" else (a0 + 180.0) % 360.0
+        share = key_shares.get(spec.name, (None, None))
         planes.append(PlaneOrder(spec.name, spec.position.m_as("mm"), spec.radius.m_as("mm"), spec.surface, method,
-                                 tol, u0, a0, correction_action, u0, correction_angle, tuple(ops), amount, angle,
-                                 (check.rule,), check.limit.m_as("g*mm"), check.rule))
+                                 tol, *measured, correction_action, u0, correction_angle, tuple(ops), amount, angle,
+                                 (check.rule,), check.limit.m_as("g*mm"), check.rule, key_g_mm=share[0],
+                                 key_deg=share[1]))
+    if job.key is not None:
+        fmt = Formatter(job.shop.units, job.angle_reference, job.angle_sense)
+        warnings.extend(job.key.warnings)
+        if key is not None:
+            warnings.extend(_key_notes(job, fmt, key_shares, planes))
+            cautions.extend(key.cautions)
+            sources.append("Key mismatch: " + key.method + "; " + key.source)
+        else:
+            sources.append("Key convention: " + _KEY_SOURCE)
     all_cautions = list(GENERAL_CAUTIONS) + cautions
     sources = [tolerances[p.name].source for p in job.planes] + sources
     sources.append("Residual check: " + planes[0].rule if planes else "")
@@ -387,7 +467,32 @@ def build_order(job: Job) -> WorkOrder:
                                                          "job file" if job.shop.paper else ""),),
         warnings=_unique(warnings), paper=job.shop.paper or ("Letter" if job.shop.units == "imperial" else "A4"),
         inputs={"origin": job.origin},
+        **_key_fields(job, planes),
     )
+
+
+_KEY_SOURCE = ("ISO 21940-32:2012, scope (half-key convention; full-key and no-key on older parts) [S]; marking "
+               "letters as motor makers stamp them [H], as the standard's own wording [M]")
+
+
+def _key_fields(job: Job, planes) -> dict:
+    """The WorkOrder's key and arbor fields (by keyword); the key mismatch's share in each plane checked
+    against that plane's allowance."""
+    out = {}
+    if job.key is not None:
+        k = job.key
+        unbalance = None
+        if k.result is not None:
+            unbalance = k.result.to_dict()
+            unbalance["checks"] = [{"where": p.name, "amount_g_mm": p.key_g_mm, "allowance_g_mm": p.tolerance.u_per_g_mm,
+                                    "passed": p.key_g_mm <= p.tolerance.u_per_g_mm} for p in planes
+                                   if p.key_g_mm is not None]
+            unbalance["passed"] = all(c["passed"] for c in unbalance["checks"]) if unbalance["checks"] else None
+        out.update(key_convention=k.convention, keyway_fill=k.fill, key_marking=k.marking,
+                   key_marking_given=k.marking_given, key_unbalance=unbalance)
+    if job.measurement.kind == "arbor-index":
+        out["arbor_index"] = {name: r.to_dict() for name, r in job.measurement.index.items()}
+    return out
 
 
 def _shown_date(job: Job) -> str:

@@ -37,7 +37,11 @@ A job file has these tables (``examples/job-*.toml`` are complete, invented exam
     ``"lead"``), ``sensors`` and ``[[measurement.run]]`` tables in the same form as the ``solve`` runs
     file (planes, radii and the weight-angle sense come from the job), optional ``trial_change_pct`` and
     ``trial_change_deg`` [CP]. ``kind`` = ``"coefficients"``: ``coefficients`` (a path, relative to the
-    job file, to stored influence coefficients) and ``original`` (one reading per sensor).
+    job file, to stored influence coefficients) and ``original`` (one reading per sensor). ``kind`` =
+    ``"arbor-index"``: readings per plane at index positions on an arbor (see :mod:`toolkit.workorder.jobkey`).
+``[key]`` (optional)
+    The key convention this rotor is balanced to, what sits in its keyway, its marking and, with the key's
+    geometry, the key mismatch to correct (see :mod:`toolkit.workorder.jobkey`).
 ``[shop]``
     ``units`` (``metric``/``imperial``), ``drills`` (``"metric"``, ``"inch"`` or a CSV path),
     ``plate_stock`` (``"plate_stock"`` or a CSV path), ``angle_step`` (marking resolution, 1° [CP]),
@@ -77,7 +81,7 @@ SURFACES = ("outer", "inner", "face")
 #: Angle senses.
 SENSES = ("against rotation", "with rotation")
 #: Kinds of measurement.
-KINDS = ("machine", "runs", "coefficients")
+KINDS = ("machine", "runs", "coefficients", "arbor index")
 #: Tolerance criteria (names as in :data:`toolkit.tolerance.CRITERIA`).
 CRITERIA = ("iso", "api", "mil-std-167")
 #: Drilling limits a job may override ([shop.drilling]; common practice, see toolkit.fabricate.drilling.Limits).
@@ -241,6 +245,9 @@ class Measurement:
     original: tuple[str, ...] = ()
     raw: Mapping = field(default_factory=dict)
     thresholds: Mapping = field(default_factory=dict)
+    #: kind "arbor-index": plane name -> :class:`toolkit.arbor.IndexResult` (``readings`` holds the part's shares)
+    index: Mapping = field(default_factory=dict)
+    max_spread: float | None = None
 
 
 @dataclass(frozen=True)
@@ -291,6 +298,8 @@ class Job:
     rotor_length: Any = None
     #: SHA-256 (hex) of the UTF-8 job text, set by :func:`parse_job` ("" for a job built from data)
     input_sha256: str = ""
+    #: the [key] table (:class:`toolkit.workorder.jobkey.KeySpec`), None when the job has none
+    key: Any = None
 
     @property
     def number(self) -> str:
@@ -533,7 +542,7 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     base = Path(base) if base is not None else Path(".")
     defaults_used: list[str] = []
 
-    _unknown(ck, data, (), ("order", "rotor", "geometry", "plane", "angles", "measurement", "shop", "format"))
+    _unknown(ck, data, (), ("order", "rotor", "geometry", "plane", "angles", "measurement", "shop", "format", "key"))
 
     # [order]
     order_t = _table(ck, data, ("order",))
@@ -743,13 +752,16 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
 
         mass_step = Q_(0.1, "g")
 
+    from toolkit.workorder.jobkey import parse_key
+
+    key = parse_key(ck, data, planes if len(planes) == len(planes_raw) else [], material)
     if ck.problems:
         raise JobError(origin, ck.problems, what)
     return Job(origin, MappingProxyType(order), mass, service, balancing, grade, criterion or "iso", material,
                span, com, share, min_share, error_allowance, tuple(planes), reference, sense, measurement,
                ShopSettings(units or "metric", drills, stock, step_deg, mass_step, plate_step, point_angle,
                             MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet, paper),
-               tuple(defaults_used), one_plane_rule=one_plane_rule or "whole", rotor_length=rotor_length)
+               tuple(defaults_used), one_plane_rule=one_plane_rule or "whole", rotor_length=rotor_length, key=key)
 
 
 def _speed(ck: _Checker, table: Mapping, path: tuple, required: bool = False) -> float | None:
@@ -875,6 +887,10 @@ def _measurement(ck: _Checker, meas: Mapping, names: list[str], planes: list[Pla
                                          "per sensor, e.g. [\"4.2 mm/s@285\"]")
             original = []
         return Measurement("coefficients", coefficients=file, original=tuple(original), raw=raw)
+    if kind == "arbor index":
+        from toolkit.workorder.jobkey import arbor_measurement
+
+        return arbor_measurement(ck, meas, names, planes, raw)
     return Measurement(kind or "machine", raw=raw)
 
 

@@ -158,6 +158,10 @@ class PlaneOrder:
     limit_g_mm: float | None = None
     #: The acceptance rule of the check run, in words (the rule that decided ``limit_g_mm``).
     rule: str = ""
+    #: The share of the key mismatch in this plane (heavy spot, in service), None without key geometry. The
+    #: correction covers it: ``correction`` and ``predicted`` include it, ``initial`` is as measured.
+    key_g_mm: float | None = None
+    key_deg: float | None = None
 
     @property
     def limit(self) -> float:
@@ -242,6 +246,16 @@ class WorkOrder:
     #: "A4" or "Letter"; empty: from the unit system (Letter for imperial, A4 for metric).
     paper: str = ""
     inputs: dict = field(default_factory=dict, compare=False, hash=False)
+    #: The key convention the rotor is balanced to (ISO 21940-32 half-key, full-key, no-key; "" when the job
+    #: has no [key] table), what sat in its keyway during this balancing, its marking and whether the job gave
+    #: the marking (else by convention, from memory), and the key mismatch (``KeyUnbalance.to_dict()``) or None.
+    key_convention: str = ""
+    keyway_fill: str = ""
+    key_marking: str = ""
+    key_marking_given: bool = False
+    key_unbalance: dict | None = None
+    #: kind "arbor-index": plane name -> ``IndexResult.to_dict()`` (the arbor's and the part's shares)
+    arbor_index: dict | None = None
 
     @property
     def passed(self) -> bool:
@@ -355,6 +369,23 @@ class Formatter:
         """The sentence that states the angle convention of the whole order."""
         return (f"Angles in degrees from the reference mark ({self.reference}), counted {self.sense}. "
                 f"An unbalance is the heavy spot.")
+
+
+def key_pairs(order: WorkOrder, fmt: Formatter) -> list[tuple[str, str]]:
+    """The key convention, the keyway's fill, the marking and the key mismatch as (label, text) pairs; none
+    when the job has no [key] table. Both exporters print them."""
+    if not order.key_convention:
+        return []
+    fill = {"key": "the key", "half-key": "a half-key", "nothing": "nothing"}.get(order.keyway_fill, order.keyway_fill)
+    pairs = [("Key convention", f"{order.key_convention} (ISO 21940-32); {fill} in the keyway while balanced"),
+             ("Key marking", order.key_marking + ("" if order.key_marking_given else " (by convention)"))]
+    k = order.key_unbalance
+    if k is not None:
+        shares = "; ".join(f"{p.name} {fmt.unbalance(p.key_g_mm)} at {fmt.angle(p.key_deg)}" for p in order.planes
+                           if p.key_g_mm is not None)
+        pairs.append(("Key mismatch in service", f"{fmt.unbalance(k['amount_g_mm'])} at {fmt.angle(k['angle_deg'])}"
+                      f" (heavy spot), corrected with the measured unbalance: {shares}"))
+    return pairs
 
 
 def example_order(number: str = "INV-HAND-01", units: str = "metric") -> WorkOrder:

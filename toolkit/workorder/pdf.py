@@ -21,7 +21,7 @@ from pathlib import Path
 
 from toolkit.workorder import diagram as dia
 from toolkit.workorder import pdfpage
-from toolkit.workorder.model import Formatter, PlaneOrder, WorkOrder, example_order
+from toolkit.workorder.model import Formatter, PlaneOrder, WorkOrder, example_order, key_pairs
 from toolkit.workorder.pdfpage import MARGIN as _M
 from toolkit.workorder.pdfpage import Pages
 
@@ -165,7 +165,7 @@ def _first_page(w: _Writer, fmt: Formatter):
          else f"{order.criterion.upper()} criterion"),
         ("Permissible residual, whole rotor", fmt.unbalance(order.u_per_total_g_mm)),
         ("Material", order.material), ("Measurement", order.measurement),
-    ]
+    ] + key_pairs(order, fmt)
     half = (len(pairs) + 1) // 2
     rows = [[a, b, *(pairs[k + half] if k + half < len(pairs) else ("", ""))] for k, (a, b) in
             enumerate(pairs[:half])]

@@ -45,7 +45,7 @@ import re
 from io import BytesIO
 from pathlib import Path
 
-from toolkit.workorder.model import Formatter, WorkOrder
+from toolkit.workorder.model import Formatter, WorkOrder, key_pairs
 
 __all__ = ["workbook", "to_bytes", "write_xlsx", "STATUS_CHOICES", "SHEET", "safe_text", "clean_text",
            "FORMULA_START", "text_width", "wrapped_lines", "row_height", "MAX_ROW_HEIGHT"]
@@ -301,6 +301,7 @@ def workbook(order: WorkOrder):
         ("Permissible residual unbalance, whole rotor", fmt.unbalance(order.u_per_total_g_mm)),
         ("Material", order.material), ("Measurement", order.measurement),
         ("Angle reference", order.angle_reference), ("Angle sense", order.angle_sense),
+        *key_pairs(order, fmt),
         ("Notes", i.notes),
     ]
     for label, value in rows:
