@@ -20,8 +20,8 @@ import math
 from dataclasses import dataclass, field
 from typing import Callable
 
-__all__ = ["Box", "Text", "Line", "Marker", "Callout", "Layout", "layout", "overlaps", "segment_hits_box", "circle_meets_box",
-           "ASCENT", "DESCENT", "LINE"]
+__all__ = ["Box", "Text", "Line", "Marker", "Callout", "Arrow", "Layout", "layout", "plane_layout", "overlaps",
+           "segment_hits_box", "circle_meets_box", "arrow_head", "ASCENT", "DESCENT", "LINE"]
 
 #: Text box extent above and below the baseline, and the line step, as fractions of the font size
 #: (DejaVu Sans: ascender 0.93, descender 0.24 of the em; accents and CJK stay inside).
@@ -138,6 +138,18 @@ class Callout:
     style: str = "bold"
 
 
+@dataclass(frozen=True)
+class Arrow:
+    """An arrow from the centre: its page angle (degrees, counter-clockwise from the top), its length in
+    points, its colour role, line width and whether its head is filled."""
+
+    angle_deg: float
+    length: float
+    role: str
+    width: float = 1.4
+    filled: bool = True
+
+
 @dataclass
 class Layout:
     x0: float
@@ -159,6 +171,23 @@ class Layout:
 
     def arcs(self) -> list[Line]:
         return [line for line in self.lines if line.kind == "arc"]
+
+
+def arrow_head(pts, head: float):
+    """The shaft and head of a polyline whose last point carries an arrow head ``head`` points long: the
+    shaft's points (ending where the head begins) and the head's triangle, or None for a zero-length end.
+    On an arc (more than two points) the head follows its last two samples."""
+    (x0, y0), (x1, y1) = pts[-2], pts[-1]
+    if len(pts) > 2:
+        x0, y0 = pts[-3]
+    length = math.hypot(x1 - x0, y1 - y0)
+    if length < 1e-9:
+        return None
+    ux, uy = (x1 - x0) / length, (y1 - y0) / length
+    bx, by = x1 - ux * head, y1 - uy * head
+    shaft = list(pts[:-1]) + [(bx, by)] if len(pts) > 2 else [pts[0], (bx, by)]
+    return shaft, ((x1, y1), (bx - uy * head * 0.45, by + ux * head * 0.45),  # same float order as before
+                   (bx + uy * head * 0.45, by - ux * head * 0.45))
 
 
 def _text(lines, x, y, style, size, align, role, measure: Measure, kind="text") -> Text:
@@ -205,16 +234,19 @@ def _spread(wanted: list[tuple[float, float]], gap: float) -> list[float]:
 
 
 def layout(*, title: str, reference: str, angles_ccw_rotation: bool, callouts: list[Callout],
-           markers: list[tuple[str, float]], initial: tuple[float, float], predicted: tuple[float, float],
-           allowance: float, legend: list[tuple[str, str, str]], note: str, x0: float, top: float,
-           width: float, measure: Measure, wrap: Wrap, rim: float = 82.0) -> Layout:
+           markers: list[tuple[str, float]], initial: tuple[float, float] | None,
+           predicted: tuple[float, float] | None, allowance: float, legend: list[tuple[str, str, str]], note: str,
+           x0: float, top: float, width: float, measure: Measure, wrap: Wrap, rim: float = 82.0,
+           arrows: tuple[Arrow, ...] = (), rings: tuple[tuple[float, str], ...] = ()) -> Layout:
     """Lay out one polar diagram in a box ``width`` points wide whose top edge is at ``top``.
 
     ``callouts`` are the operations' labels (anchor angle in page degrees); ``markers`` the shapes on the
     rim as (kind, page angle); ``initial`` and ``predicted`` are (angle, length in points) of the two
     arrows; ``allowance`` is the radius of the allowance circle in points; ``legend`` lists (symbol kind,
     colour role, text); ``note`` is the scale note. ``angles_ccw_rotation``: the rotor turns
-    counter-clockwise on the page. Returns the :class:`Layout` with its height.
+    counter-clockwise on the page. ``initial`` or ``predicted`` may be None (no such arrow); ``arrows``
+    are further arrows from the centre and ``rings`` further dashed circles (radius in points, colour role),
+    all inside the rim. Returns the :class:`Layout` with its height.
     """
     out = Layout(x0, top, width)
     y = top
@@ -292,12 +324,24 @@ def layout(*, title: str, reference: str, angles_ccw_rotation: bool, callouts: l
     # allowance circle and the arrows
     if allowance > 0:
         out.circles.append(Circle(cx, cy, allowance, "accent", 0.9, (3, 2)))
-    out.lines.append(Line((at(0, 0), at(initial[0], initial[1])), "warn", 1.8, "arrow", head=True))
-    if predicted[1] > 2:
+    for radius, role in rings:
+        if radius > 0:
+            out.circles.append(Circle(cx, cy, radius, role, 0.9, (3, 2)))
+    if initial is not None:
+        out.lines.append(Line((at(0, 0), at(initial[0], initial[1])), "warn", 1.8, "arrow", head=True))
+    if predicted is None:
+        pass
+    elif predicted[1] > 2:
         out.lines.append(Line((at(0, 0), at(predicted[0], predicted[1])), "ink", 0.9, "arrow", head=True,
                               filled=False))
     else:
         out.circles.append(Circle(cx, cy, 1.5, "ink", 0, fill=True))
+    for arrow in arrows:
+        if arrow.length > 2:
+            out.lines.append(Line((at(0, 0), at(arrow.angle_deg, arrow.length)), arrow.role, arrow.width, "arrow",
+                                  head=True, filled=arrow.filled))
+        else:
+            out.circles.append(Circle(cx, cy, 1.5, arrow.role, 0, fill=True))
     lowest = cy - keep
     for side, t_rel, (_ay, _ax, c, lines) in placed:
         t = cy + t_rel
@@ -340,3 +384,46 @@ def layout(*, title: str, reference: str, angles_ccw_rotation: bool, callouts: l
     y -= 2 + len(lines) * nsize * LINE
     out.height = top - y + 4
     return out
+
+
+def _kind_word(kind: str) -> str:
+    return {"hole": "drilled hole", "plate": "weld-on plate", "washers": "washers", "mass": "mass"}[kind]
+
+
+_SHAPES = {"hole": "ring inside rim: drilled hole (remove)",
+           "plate": "bar outside rim: weld-on plate (add), drawn with its length along the rim; its width runs "
+                    "across the seat, along the shaft axis (into the page)",
+           "washers": "stacked bars: washers (add)", "mass": "diamond: added mass"}
+
+
+def plane_layout(plane, fmt, order, x0: float, top: float, width: float, *, measure: Measure,
+                 wrap: Wrap) -> Layout:
+    """The polar diagram of one correction plane of a work order (a ``model.PlaneOrder`` printed with a
+    ``model.Formatter``), in a box ``width`` points wide whose top edge is at ``top``, with text measured
+    and wrapped by ``measure`` and ``wrap``. The PDF and the SVG face both draw this layout."""
+    rim = 82.0
+    scale_top = max(plane.initial_g_mm, plane.tolerance.u_per_g_mm, plane.predicted_g_mm, 1e-12)
+    scale = rim * 0.85 / scale_top  # the largest vector reaches 85 % of the rim
+    callouts = []
+    for op in plane.operations:
+        lines = [f"{op.number}: {_kind_word(op.kind)}, {op.action} {fmt.mass(op.mass_g)}"]
+        if op.kind == "plate":
+            lines.append("length along the rim, width across the seat")
+        callouts.append(Callout(op.angle_deg, rim, tuple(lines)))
+    legend = [
+        ("arrow", "warn", f"initial unbalance {fmt.unbalance(plane.initial_g_mm)} at {fmt.angle(plane.initial_deg)}"),
+        ("open", "ink", f"predicted residual {fmt.unbalance(plane.predicted_g_mm)} at "
+                        f"{fmt.angle(plane.predicted_deg)}"),
+        ("dash", "accent", f"allowance circle {fmt.unbalance(plane.tolerance.u_per_g_mm)}"),
+    ]
+    for kind in sorted({op.kind for op in plane.operations}):
+        legend.append((kind, "ink", _SHAPES[kind]))
+    return layout(
+        title=f"Plane {plane.name}: {plane.method}, {plane.surface} surface, radius {fmt.length(plane.radius_mm)}",
+        reference=order.angle_reference, angles_ccw_rotation=order.angle_sense == "with rotation",
+        callouts=callouts, markers=[(op.kind, op.angle_deg) for op in plane.operations],
+        initial=(plane.initial_deg, plane.initial_g_mm * scale), predicted=(plane.predicted_deg,
+                                                                            plane.predicted_g_mm * scale),
+        allowance=plane.tolerance.u_per_g_mm * scale, legend=legend,
+        note=f"Scale: the rotor outline stands for {fmt.unbalance(rim / scale)}. {fmt.convention()}",
+        x0=x0, top=top, width=width, measure=measure, wrap=wrap, rim=rim)

@@ -254,46 +254,12 @@ def _field_runs(w: _Writer, fmt: Formatter, record) -> None:
         w.paragraph("- " + text, 8.5, _WARN)
 
 
-def _kind_word(kind: str) -> str:
-    return {"hole": "drilled hole", "plate": "weld-on plate", "washers": "washers", "mass": "mass"}[kind]
-
-
-_SHAPES = {"hole": "ring inside rim: drilled hole (remove)",
-           "plate": "bar outside rim: weld-on plate (add), drawn with its length along the rim; its width runs "
-                    "across the seat, along the shaft axis (into the page)",
-           "washers": "stacked bars: washers (add)", "mass": "diamond: added mass"}
-
-
 def diagram_layout(plane: PlaneOrder, fmt: Formatter, order: WorkOrder, x0: float, top: float,
                    width: float) -> dia.Layout:
-    """The geometry of one plane's polar diagram (see :mod:`toolkit.workorder.diagram`), in a box
-    ``width`` points wide whose top edge is at ``top``; its height is the layout's."""
-    rim = 82.0
-    scale_top = max(plane.initial_g_mm, plane.tolerance.u_per_g_mm, plane.predicted_g_mm, 1e-12)
-    scale = rim * 0.85 / scale_top  # the largest vector reaches 85 % of the rim
-    callouts = []
-    for op in plane.operations:
-        lines = [f"{op.number}: {_kind_word(op.kind)}, {op.action} {fmt.mass(op.mass_g)}"]
-        if op.kind == "plate":
-            lines.append("length along the rim, width across the seat")
-        callouts.append(dia.Callout(op.angle_deg, rim, tuple(lines)))
-    legend = [
-        ("arrow", "warn", f"initial unbalance {fmt.unbalance(plane.initial_g_mm)} at {fmt.angle(plane.initial_deg)}"),
-        ("open", "ink", f"predicted residual {fmt.unbalance(plane.predicted_g_mm)} at "
-                        f"{fmt.angle(plane.predicted_deg)}"),
-        ("dash", "accent", f"allowance circle {fmt.unbalance(plane.tolerance.u_per_g_mm)}"),
-    ]
-    for kind in sorted({op.kind for op in plane.operations}):
-        legend.append((kind, "ink", _SHAPES[kind]))
-    return dia.layout(
-        title=f"Plane {plane.name}: {plane.method}, {plane.surface} surface, radius {fmt.length(plane.radius_mm)}",
-        reference=order.angle_reference, angles_ccw_rotation=order.angle_sense == "with rotation",
-        callouts=callouts, markers=[(op.kind, op.angle_deg) for op in plane.operations],
-        initial=(plane.initial_deg, plane.initial_g_mm * scale), predicted=(plane.predicted_deg,
-                                                                            plane.predicted_g_mm * scale),
-        allowance=plane.tolerance.u_per_g_mm * scale, legend=legend,
-        note=f"Scale: the rotor outline stands for {fmt.unbalance(rim / scale)}. {fmt.convention()}",
-        x0=x0, top=top, width=width, measure=pdfpage.width, wrap=pdfpage.wrap, rim=rim)
+    """The geometry of one plane's polar diagram (see :func:`toolkit.workorder.diagram.plane_layout`), in a
+    box ``width`` points wide whose top edge is at ``top``, measured with the PDF's fonts; its height is
+    the layout's."""
+    return dia.plane_layout(plane, fmt, order, x0, top, width, measure=pdfpage.width, wrap=pdfpage.wrap)
 
 
 def _draw_layout(c, lay: dia.Layout) -> None:
@@ -340,19 +306,15 @@ def _polyline_arrow(c, pts, colour, width, head, filled) -> None:
     c.setStrokeColorRGB(*colour)
     c.setFillColorRGB(*colour)
     c.setLineWidth(width)
-    (x0, y0), (x1, y1) = pts[-2], pts[-1]
-    if len(pts) > 2:  # an arc: the head follows its last two samples
-        x0, y0 = pts[-3]
-    length = math.hypot(x1 - x0, y1 - y0)
-    if length < 1e-9:
+    parts = dia.arrow_head(pts, head)
+    if parts is None:
         return
-    ux, uy = (x1 - x0) / length, (y1 - y0) / length
-    bx, by = x1 - ux * head, y1 - uy * head
-    _polyline(c, list(pts[:-1]) + [(bx, by)] if len(pts) > 2 else [pts[0], (bx, by)])
+    shaft, (tip, left, right) = parts
+    _polyline(c, shaft)
     p = c.beginPath()
-    p.moveTo(x1, y1)
-    p.lineTo(bx - uy * head * 0.45, by + ux * head * 0.45)
-    p.lineTo(bx + uy * head * 0.45, by - ux * head * 0.45)
+    p.moveTo(*tip)
+    p.lineTo(*left)
+    p.lineTo(*right)
     p.close()
     c.setLineWidth(0.8)
     c.drawPath(p, stroke=1, fill=1 if filled else 0)
