@@ -79,7 +79,10 @@ def run_serve(args) -> int:
     host, port = _host(args.host), _port(args.port)
     reg = open_register(args.register)
     try:
-        loopback = is_loopback(host)
+        loopback = is_loopback(host) and not args.tls_proxy  # a proxy forwards the shop network
+        if args.tls_proxy and accounts.count(reg) == 0:
+            raise BadInput(f"--tls-proxy: a proxy serves the shop network, which needs accounts, and the register "
+                           f"{reg.where} has none; add one first: counterpoise accounts add NAME --role ROLE")
         if not loopback and accounts.count(reg) == 0:
             raise BadInput(f"--host {host}: listening beyond this computer needs accounts, and the register "
                            f"{reg.where} has none; add one first: counterpoise accounts add NAME --role ROLE")

@@ -210,6 +210,7 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
 
     async def units_choice(request):
         form = await form_of(request)
+        need_user(request)
         units = str(form.get("units", ""))
         if units not in ("metric", "imperial"):
             raise _Refused(400, "units: choose metric or imperial")

@@ -206,6 +206,12 @@ def _run(argv: list[str]) -> tuple[int, str, str]:
 def run_page(page: Page, values: dict, units: str) -> Outcome:
     """Compute what the form asks for with the subcommand itself: its JSON result and its text."""
     fields = fields_of(page)
+    for f in fields:  # a choice is one of the offered values, whatever a crafted request sends
+        value = str(values.get(f.name, ""))
+        allowed = f.choices if f.kind == "choice" else tuple(c for _f, c in f.consts) if f.kind == "radio" else None
+        if allowed is not None and value and value not in allowed:
+            return Outcome(status=2, errors={f.name: f"{value[:40]!r} is not one of the choices: "
+                                                     f"{', '.join(c for c in allowed if c)}"})
     argv = argv_of(page, values, units)
     outcome = Outcome(argv=argv)
     status, out, err = _run(argv_of(page, values, units, ["--json"]))
