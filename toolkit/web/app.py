@@ -73,9 +73,12 @@ def _secret(reg) -> str:
     return key
 
 
-def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures: Failures | None = None):
+def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures: Failures | None = None,
+               out=None):
     """The application over the open register ``reg``.
 
+    out : the folder the work-order files of recorded jobs are written to (default ``counterpoise-orders``
+    beside an SQLite register, else in the current folder); downloads are served from there only.
     loopback : whether the server listens on a loopback address only (then, while no account exists, the
     computing pages are open without signing in). tls_proxy : cookies marked Secure (the server sits behind
     a TLS reverse proxy).
@@ -93,6 +96,10 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
     env = Environment(loader=FileSystemLoader(str(_HERE / "templates")), autoescape=select_autoescape(["html"]),
                       trim_blocks=True, lstrip_blocks=True)
     env.filters["num"] = _num
+    if out is None:
+        base = Path(reg.url.database).parent if reg.dialect == "sqlite" else Path.cwd()
+        out = base / "counterpoise-orders"
+    out = Path(out).resolve()
     failures = failures or Failures()
     state = {"accounts_at": 0.0, "accounts": None}
     state_lock = threading.Lock()
@@ -125,13 +132,13 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
             request.session["csrf"] = token
         return token
 
-    def render(request, template: str, status: int = 200, **context) -> HTMLResponse:
+    def render(request, template: str, code: int = 200, **context) -> HTMLResponse:
         user = context.pop("user", None) if "user" in context else current_user(request)
         units = context.pop("units", None) or (user or {}).get("units") or request.session.get("units") or "metric"
         page = env.get_template(template).render(
             request=request, user=user, csrf=csrf_token(request), open_mode=open_mode(), units=units,
             pages=PAGES, **context)
-        return HTMLResponse(page, status_code=status, headers=_SECURITY_HEADERS)
+        return HTMLResponse(page, status_code=code, headers=_SECURITY_HEADERS)
 
     async def form_of(request) -> dict:
         """The posted form, refused (403) without the session's CSRF token; bounded in size."""
@@ -250,7 +257,13 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
         user = current_user(request)
         return (user or {}).get("units") or request.session.get("units") or "metric"
 
+    from toolkit.web import register_pages
+
+    pages_routes = register_pages.routes(reg=reg, render=render, form_of=form_of, need_user=need_user, out=out,
+                                         refused=_Refused)
+
     routes = [
+        *pages_routes,
         Route("/", home),
         Route("/ping", ping),
         Route("/signin", signin_page, methods=["GET"]),
