@@ -34,6 +34,54 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused):
         except CounterpoiseError:
             return None
 
+    from toolkit.web.planner import Batches
+
+    batches = Batches()
+
+    # -- planner batches ------------------------------------------------------------------------------
+
+    async def planner_page(request):
+        user = need_user(request, "plan")
+        if request.method == "GET":
+            return render(request, "planner.html", batch=None)
+        form = await form_of(request)
+        upload = form.get("sheet")
+        paper = str(form.get("paper", "")) or None
+        if paper not in (None, "A4", "Letter"):
+            paper = None
+        if upload is None or isinstance(upload, str) or not upload.filename:
+            return render(request, "planner.html", 422, batch=None, error="choose a planner sheet (.csv or .xlsx)")
+        data = await upload.read()
+        try:
+            batch = await run_in_threadpool(batches.start, user["name"], upload.filename, data, paper)
+        except CounterpoiseError as exc:
+            return render(request, "planner.html", 422, batch=None, error=str(exc))
+        return RedirectResponse(f"/planner/{batch.ident}", status_code=303)
+
+    def _batch(request):
+        user = need_user(request, "plan")
+        batch = batches.get(request.path_params["ident"], user["name"])
+        if batch is None:
+            raise refused(404, "no such batch")
+        return batch
+
+    async def batch_page(request):
+        batch = _batch(request)
+        return render(request, "planner.html", batch=batch, state=batch.state())
+
+    async def batch_state(request):
+        from starlette.responses import JSONResponse
+
+        return JSONResponse(_batch(request).state())
+
+    async def batch_zip(request):
+        batch = _batch(request)
+        if not batch.state()["finished"]:
+            raise refused(409, "the batch is still running")
+        data = await run_in_threadpool(batches.zip_bytes, batch)
+        return Response(data, media_type="application/zip",
+                        headers={"content-disposition": 'attachment; filename="work-orders.zip"'})
+
     # -- the guided run -------------------------------------------------------------------------------
 
     async def run_page(request):
@@ -186,6 +234,10 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused):
         Route("/jobs/{number}/files/{name}", job_file),
         Route("/jobs/{number}/certificate.pdf", certificate),
         Route("/types", types_page),
+        Route("/planner", planner_page, methods=["GET", "POST"]),
+        Route("/planner/{ident}", batch_page),
+        Route("/planner/{ident}/state", batch_state),
+        Route("/planner/{ident}/orders.zip", batch_zip),
     ]
 
 
