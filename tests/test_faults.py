@@ -214,15 +214,22 @@ BASES: dict[str, list[list[tuple]]] = {
                       ("--units", "imperial"), ("--json", None))],
     "register": [_pairs((None, "jobs"), ("--register", str(Path(tempfile.gettempdir()) / "cp-fuzz-register.sqlite3")),
                         ("--status", "planned"), ("--since", "2026-01-01"), ("--limit", "5"), ("--json", None))],
+    "accounts": [_pairs((None, "list"), ("--register", str(Path(tempfile.gettempdir()) / "cp-fuzz-register.sqlite3")),
+                        ("--json", None))],
 }
 
 # demo/order/batch write files: their bases are built per example with a temporary output folder.
 FILE_COMMANDS = {"demo", "order", "batch"}
 
 
+# serve runs a server until stopped: a spoiled command line that happens to be valid would not return. Its
+# refusals (address, port, no accounts) are tested in tests/test_web.py.
+SERVER_COMMANDS = {"serve"}
+
+
 def test_every_subcommand_is_fuzzed():
     names = {name for name, _module, _help in COMMANDS}
-    assert names == set(BASES) | FILE_COMMANDS
+    assert names == set(BASES) | FILE_COMMANDS | SERVER_COMMANDS
 
 
 def flatten(pairs) -> list[str]:
