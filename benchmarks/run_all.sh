@@ -13,10 +13,12 @@ if [ "${1:-}" = "--quick" ]; then
     "$python" "$here/bench_arrays.py" --runs 5 || status=1
     "$python" "$here/bench_batch.py" --rotors 100 --runs 3 --memory-rows 1000 || status=1
     "$python" "$here/bench_register.py" --jobs 10000 --records 50 --runs 3 || status=1
+    "$python" "$here/bench_web.py" --clients 2 --requests 50 --seconds 20 || status=1
 else
     "$python" "$here/bench_startup.py" --runs 15 || status=1
     "$python" "$here/bench_arrays.py" --runs 7 || status=1
     "$python" "$here/bench_batch.py" --rotors 1000 --runs 3 --memory-rows 10000 || status=1
     "$python" "$here/bench_register.py" --jobs 100000 --records 200 --runs 5 || status=1
+    "$python" "$here/bench_web.py" --clients 4 --requests 200 --seconds 60 || status=1
 fi
 exit $status

@@ -15,6 +15,7 @@ one line on stderr; issue 6); the generated values are not published figures, so
 
 from __future__ import annotations
 
+import atexit
 import contextlib
 import io
 import json
@@ -28,6 +29,10 @@ from pathlib import Path
 from hypothesis import HealthCheck, settings, strategies as st
 
 from toolkit.cli import COMMANDS, main
+
+#: a register file of this test run only (a fixed name in the shared temporary folder met files of other runs)
+_FUZZ_DIR = tempfile.mkdtemp(prefix="cp-fuzz-")
+atexit.register(shutil.rmtree, _FUZZ_DIR, True)
 
 _NAMES = {name for name, _module, _help in COMMANDS}
 
@@ -210,12 +215,18 @@ BASES: dict[str, list[list[tuple]]] = {
                _pairs(("--grade", "G2.5"), ("--mass", "80 kg"), ("--speed", "2950 rpm"),
                       ("--fit", "hub=12 kg,runout 0.03 mm@120"), ("--other", "machine=40 g*mm"),
                       ("--units", "imperial"), ("--json", None))],
-    "register": [_pairs((None, "jobs"), ("--register", str(Path(tempfile.gettempdir()) / "cp-fuzz-register.sqlite3")),
+    "register": [_pairs((None, "jobs"), ("--register", str(Path(_FUZZ_DIR) / "register.sqlite3")),
                         ("--status", "planned"), ("--since", "2026-01-01"), ("--limit", "5"), ("--json", None))],
+    "accounts": [_pairs((None, "list"), ("--register", str(Path(_FUZZ_DIR) / "register.sqlite3")),
+                        ("--json", None))],
 }
 
 # demo/order/batch write files: their bases are built per example with a temporary output folder.
 FILE_COMMANDS = {"demo", "order", "batch"}
+
+# serve runs a server until stopped: a spoiled command line that happens to be valid would not return. Its
+# refusals (address, port, no accounts) are tested in tests/test_web.py.
+SERVER_COMMANDS = {"serve"}
 
 
 def flatten(pairs) -> list[str]:

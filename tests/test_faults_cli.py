@@ -16,13 +16,13 @@ import sys
 import pytest
 from hypothesis import given, strategies as st
 
-from fault_support import (BASES, EXAMPLES, FILE_COMMANDS, SETTINGS, VALUE, check, flatten, spoiled)
+from fault_support import (BASES, EXAMPLES, FILE_COMMANDS, SERVER_COMMANDS, SETTINGS, VALUE, check, flatten, spoiled)
 from toolkit.cli import COMMANDS
 
 
 def test_every_subcommand_is_fuzzed():
     names = {name for name, _module, _help in COMMANDS}
-    assert names == set(BASES) | FILE_COMMANDS
+    assert names == set(BASES) | FILE_COMMANDS | SERVER_COMMANDS
 
 
 @pytest.mark.parametrize("command", sorted(BASES))

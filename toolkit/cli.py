@@ -42,6 +42,8 @@ COMMANDS: tuple[tuple[str, str, str], ...] = (
     ("budget", "toolkit.commands.assembly", "error budget of an assembly: components, fits and keys"),
     ("register", "toolkit.commands.register", "the shop register: rotor types, jobs, check runs, sign-offs, "
                                               "certificates, statistics"),
+    ("serve", "toolkit.commands.serve", "the browser face: tolerance and calculators in a web browser"),
+    ("accounts", "toolkit.commands.serve", "accounts of the browser face: add, list, remove, password, role"),
 )
 
 

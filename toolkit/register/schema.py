@@ -166,6 +166,19 @@ coefficient_sets = Table(
     Column("created_by", Text, nullable=False),
 )
 
+# -- version 3 -----------------------------------------------------------------------------------------
+
+accounts = Table(
+    "accounts", metadata,
+    Column("id", Integer, primary_key=True),
+    Column("name", Text, nullable=False, unique=True),
+    Column("role", Text, nullable=False),          # operator, machinist, planner, inspector, administrator
+    Column("password", Text, nullable=False),      # scrypt$N$r$p$salt_hex$hash_hex (toolkit/web/accounts.py)
+    Column("units", Text, nullable=False),         # the person's own units: metric or imperial
+    Column("created", Text, nullable=False),
+    Column("changed", Text, nullable=False),       # last password or role change
+)
+
 _V1 = (settings, counters, rotor_types, type_versions, jobs, job_planes, job_files, job_status, check_runs,
        operation_marks, signoffs)
 _V1_INDEXES = (
@@ -202,12 +215,18 @@ def _migrate_2(conn) -> None:
     _create(conn, (coefficient_sets,), _V2_INDEXES)
 
 
+def _migrate_3(conn) -> None:
+    _create(conn, (accounts,))
+
+
 #: (version, what it does, function) in order; the newest version is the last.
 MIGRATIONS = (
     (1, "rotor types, jobs, check runs, sign-offs, order numbers", _migrate_1),
     (2, "influence coefficients per rotor type with trim history", _migrate_2),
+    (3, "accounts of the browser face (names, roles, password hashes)", _migrate_3),
 )
 LATEST = MIGRATIONS[-1][0]
-#: Tables in the order an export writes them (parents before children).
+#: Tables in the order an export writes them (parents before children). ``accounts`` is not among them: an
+#: export never carries password hashes; accounts are made again on the new register.
 TABLES = (settings, counters, rotor_types, type_versions, jobs, job_planes, job_files, job_status, check_runs,
           operation_marks, signoffs, coefficient_sets)

@@ -1,0 +1,247 @@
+"""Pages of the guided balancing run and of the register: jobs, their check runs, sign-offs and status, the
+work-order files and the certificate, rotor types.
+
+Every change is a POST with the session's CSRF token and needs a signed-in person whose role may do it
+(:data:`toolkit.web.accounts.MAY`); what is recorded carries that person's name and the time. Files are
+served from the output folder only, and only files the register lists for that job.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+from pathlib import Path
+
+from toolkit.web import run as RUN
+
+
+def routes(*, reg, render, form_of, need_user, out: Path, refused):
+    from starlette.concurrency import run_in_threadpool
+    from starlette.responses import FileResponse, RedirectResponse, Response
+    from starlette.routing import Route
+
+    from toolkit.errors import CounterpoiseError
+    from toolkit.register import records as R
+
+    def _types() -> list[str]:
+        return [t["type"] for t in R.list_types(reg)]
+
+    def _template_of(values):
+        name = str(values.get("type", "") or "").strip()
+        if not name:
+            return None
+        try:
+            return R._loads(R.template(reg, name)["template"], name)
+        except CounterpoiseError:
+            return None
+
+    from toolkit.web.planner import Batches
+
+    batches = Batches()
+
+    # -- planner batches ------------------------------------------------------------------------------
+
+    async def planner_page(request):
+        user = need_user(request, "plan")
+        if request.method == "GET":
+            return render(request, "planner.html", batch=None)
+        form = await form_of(request)
+        upload = form.get("sheet")
+        paper = str(form.get("paper", "")) or None
+        if paper not in (None, "A4", "Letter"):
+            paper = None
+        if upload is None or isinstance(upload, str) or not upload.filename:
+            return render(request, "planner.html", 422, batch=None, error="choose a planner sheet (.csv or .xlsx)")
+        data = await upload.read()
+        try:
+            batch = await run_in_threadpool(batches.start, user["name"], upload.filename, data, paper)
+        except CounterpoiseError as exc:
+            return render(request, "planner.html", 422, batch=None, error=str(exc))
+        return RedirectResponse(f"/planner/{batch.ident}", status_code=303)
+
+    def _batch(request):
+        user = need_user(request, "plan")
+        batch = batches.get(request.path_params["ident"], user["name"])
+        if batch is None:
+            raise refused(404, "no such batch")
+        return batch
+
+    async def batch_page(request):
+        batch = _batch(request)
+        return render(request, "planner.html", batch=batch, state=batch.state())
+
+    async def batch_state(request):
+        from starlette.responses import JSONResponse
+
+        return JSONResponse(_batch(request).state())
+
+    async def batch_zip(request):
+        batch = _batch(request)
+        if not batch.state()["finished"]:
+            raise refused(409, "the batch is still running")
+        data = await run_in_threadpool(batches.zip_bytes, batch)
+        return Response(data, media_type="application/zip",
+                        headers={"content-disposition": 'attachment; filename="work-orders.zip"'})
+
+    # -- the guided run -------------------------------------------------------------------------------
+
+    async def run_page(request):
+        need_user(request)
+        if request.method == "GET":
+            values = RUN.example_values()
+            return render(request, "run.html", **_context(values, "rotor", {}, None, None))
+        form = await form_of(request)
+        values = {f.name: str(form.get(f.name, "")) for f in RUN.FIELDS}
+        step = str(form.get("step", "rotor"))
+        step = step if step in RUN.STEPS else "rotor"
+        go = str(form.get("go", "next"))
+        at = RUN.STEPS.index(step)
+        if go == "back":
+            target = RUN.STEPS[max(0, at - 1)]
+        elif go.startswith("to:") and go[3:] in RUN.STEPS:
+            target = go[3:]
+        elif go == "record":
+            target = "record"
+        else:
+            target = RUN.STEPS[min(len(RUN.STEPS) - 1, at + 1)]
+        text = order = None
+        errors: dict = {}
+        if RUN.STEPS.index(target) >= RUN.STEPS.index("corrections"):
+            text, order, errors, version_id = await run_in_threadpool(RUN.preview, values, reg)
+            if errors:  # back to the first step with a problem, with the message beside its field
+                steps = [RUN.BY_NAME[k].step for k in errors if k in RUN.BY_NAME]
+                target = min(steps, key=RUN.STEPS.index) if steps else "runs"
+            elif go == "record":
+                user = need_user(request, "record")
+                number = await run_in_threadpool(_record, values, text, order, version_id, user)
+                return RedirectResponse(f"/jobs/{_quote(number)}", status_code=303)
+        return render(request, "run.html", 422 if errors else 200, **_context(values, target, errors, order, text))
+
+    def _record(values, text, order, version_id, user) -> str:
+        from toolkit.commands.workorders import write_order_files
+        from toolkit.workorder.job import parse_job
+
+        job = parse_job(text, "the balancing run")
+        recorded, rec = R.store_order(reg, order, text, dict(job.order), type_version_id=version_id,
+                                      by=user["name"])
+        files = write_order_files(recorded, str(out), ("pdf", "xlsx"), False)
+        R.add_files(reg, rec["order_number"], files)
+        return rec["order_number"]
+
+    def _context(values, step, errors, order, text):
+        template = _template_of(values)
+        return {"values": values, "step": step, "errors": errors, "order": order, "job_text": text,
+                "fields": RUN.FIELDS, "steps": RUN.STEPS, "titles": RUN.STEP_TITLES, "types": _types(),
+                "planes": RUN.plane_names(values, template), "rotor_template": template}
+
+    # -- jobs -----------------------------------------------------------------------------------------
+
+    async def jobs_page(request):
+        need_user(request)
+        status = request.query_params.get("status") or None
+        if status is not None and status not in R.STATUSES:
+            status = None
+        rows = await run_in_threadpool(R.list_jobs, reg, status=status, limit=200)
+        return render(request, "jobs.html", jobs=rows, status=status, statuses=R.STATUSES)
+
+    def _detail(number: str) -> dict:
+        try:
+            return R.job_detail(reg, number)
+        except CounterpoiseError:
+            raise refused(404, f"no job {number[:60]!r} in the register") from None
+
+    async def job_page(request):
+        need_user(request)
+        number = request.path_params["number"]
+        d = await run_in_threadpool(_detail, number)
+        return render(request, "job.html", job=d, transitions=R.TRANSITIONS.get(d["status"], ()),
+                      files=[Path(f["path"]).name for f in d["files"]], message=request.query_params.get("done"))
+
+    async def job_check(request):
+        form = await form_of(request)
+        user = need_user(request, "check")
+        number = request.path_params["number"]
+        d = await run_in_threadpool(_detail, number)
+        residuals = {p["name"]: str(form.get(f"res{n}", "")).strip() for n, p in enumerate(d["workorder"]["planes"])}
+        residuals = {k: v for k, v in residuals.items() if v}
+        return await _change(request, number, d, R.record_check, reg, number, residuals=residuals,
+                             by=user["name"], source="browser")
+
+    async def job_sign(request):
+        await form_of(request)
+        user = need_user(request, "sign")
+        number = request.path_params["number"]
+        d = await run_in_threadpool(_detail, number)
+        at = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
+        return await _change(request, number, d, R.record_signoff, reg, number, user["role"], user["name"],
+                             signed=at, source="browser")
+
+    async def job_status(request):
+        form = await form_of(request)
+        status = str(form.get("status", ""))
+        user = need_user(request, "release" if status == "released" else "check")
+        number = request.path_params["number"]
+        d = await run_in_threadpool(_detail, number)
+        return await _change(request, number, d, R.set_status, reg, number, status, by=user["name"],
+                             note=str(form.get("note", ""))[:500], source="browser")
+
+    async def _change(request, number, d, function, *args, **kwargs):
+        try:
+            await run_in_threadpool(function, *args, **kwargs)
+        except CounterpoiseError as exc:
+            return render(request, "job.html", 422, job=d, transitions=R.TRANSITIONS.get(d["status"], ()),
+                          files=[Path(f["path"]).name for f in d["files"]], error=str(exc))
+        return RedirectResponse(f"/jobs/{_quote(number)}?done=recorded", status_code=303)
+
+    async def job_file(request):
+        need_user(request)
+        number, name = request.path_params["number"], request.path_params["name"]
+        d = await run_in_threadpool(_detail, number)
+        for f in d["files"]:
+            path = Path(f["path"]).resolve()
+            if path.name == name and path.parent == out and path.is_file():
+                kind = ("application/pdf" if path.suffix == ".pdf" else
+                        "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet")
+                return FileResponse(path, media_type=kind, filename=path.name)
+        raise refused(404, f"no file {name[:80]!r} recorded for job {number[:60]!r}")
+
+    async def certificate(request):
+        need_user(request)
+        number = request.path_params["number"]
+        from toolkit.register.reports import certificate_data, certificate_pdf
+
+        try:
+            data = await run_in_threadpool(certificate_data, reg, number)
+        except CounterpoiseError as exc:
+            raise refused(409, str(exc)) from None
+        pdf = await run_in_threadpool(certificate_pdf, data)
+        from toolkit.fileio import safe_filename
+
+        return Response(pdf, media_type="application/pdf", headers={
+            "content-disposition": f'attachment; filename="{safe_filename(number)}-certificate.pdf"'})
+
+    async def types_page(request):
+        need_user(request)
+        rows = await run_in_threadpool(R.list_types, reg)
+        return render(request, "types.html", types=rows)
+
+    return [
+        Route("/run", run_page, methods=["GET", "POST"]),
+        Route("/jobs", jobs_page),
+        Route("/jobs/{number}", job_page),
+        Route("/jobs/{number}/check", job_check, methods=["POST"]),
+        Route("/jobs/{number}/sign", job_sign, methods=["POST"]),
+        Route("/jobs/{number}/status", job_status, methods=["POST"]),
+        Route("/jobs/{number}/files/{name}", job_file),
+        Route("/jobs/{number}/certificate.pdf", certificate),
+        Route("/types", types_page),
+        Route("/planner", planner_page, methods=["GET", "POST"]),
+        Route("/planner/{ident}", batch_page),
+        Route("/planner/{ident}/state", batch_state),
+        Route("/planner/{ident}/orders.zip", batch_zip),
+    ]
+
+
+def _quote(text: str) -> str:
+    from urllib.parse import quote
+
+    return quote(text, safe="")
