@@ -1,5 +1,5 @@
 """Planner batches through the browser: an uploaded sheet runs in the background through the same
-:func:`toolkit.workorder.batch.run_batch` as ``counterpoise batch``; the page shows its progress, every
+:func:`toolkit.export.files.write_batch` as ``counterpoise batch``; the page shows its progress, every
 failed row with its row number and reason, and the orders as one zip download.
 
 An uploaded sheet is read with the command line's own bounded readers. A row that names a job file (the
@@ -82,14 +82,14 @@ class Batches:
         return batch
 
     def _run(self, batch: Batch, sheet: Path, paper: str | None) -> None:
-        from toolkit.workorder.batch import run_batch
+        from toolkit.export.files import write_batch
 
         def progress(done, total, failed, final=False):
             with batch.lock:
                 batch.done, batch.total, batch.failed = done, total, failed
 
         try:
-            result = run_batch(sheet, batch.folder / "out", progress=progress, paper=paper).to_dict()
+            result = write_batch(sheet, batch.folder / "out", progress=progress, paper=paper).to_dict()
             with batch.lock:
                 batch.result = result
         except CounterpoiseError as exc:

@@ -117,13 +117,13 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused):
         return render(request, "run.html", 422 if errors else 200, **_context(values, target, errors, order, text))
 
     def _record(values, text, order, version_id, user) -> str:
-        from toolkit.commands.workorders import write_order_files
+        from toolkit.export.files import write_order
         from toolkit.workorder.job import parse_job
 
         job = parse_job(text, "the balancing run")
         recorded, rec = R.store_order(reg, order, text, dict(job.order), type_version_id=version_id,
                                       by=user["name"])
-        files = write_order_files(recorded, str(out), ("pdf", "xlsx"), False)
+        files = write_order(recorded, str(out), ("pdf", "xlsx"), force=False)
         R.add_files(reg, rec["order_number"], files)
         return rec["order_number"]
 
