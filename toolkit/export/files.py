@@ -184,12 +184,9 @@ def write_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False
     unknown columns) and :class:`~toolkit.errors.OutputError` when the summary or combined files exist
     without ``force`` (or, with ``carry_on``, were not made by the recorded batch), or cannot be written.
     """
-    import json
-
-    from toolkit.errors import OutputError
-    from toolkit.fileio import check_writable, output_error, safe_filename, write_atomic, write_together
+    from toolkit.fileio import safe_filename
     from toolkit.workorder import pdf
-    from toolkit.workorder.batch import orders, reason_of
+    from toolkit.workorder.batch import orders
 
     start = time.perf_counter()
     sheet = Path(sheet)
@@ -201,21 +198,9 @@ def write_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False
     combined_path = out / f"{stem}-orders.pdf"
     summary_path = out / f"{stem}-summary.xlsx"
     manifest_path = out / f"{stem}-batch.json"
-    own = {p.name.casefold(): p.name for p in (combined_path, summary_path, manifest_path)}
     earlier = _load_manifest(manifest_path) if (carry_on and not force) else None
-    recorded = earlier.get("orders", {}) if earlier else {}
-    batch_force = force
-    if carry_on and not force:
-        # the batch's own files may be replaced when the record says the recorded batch made them, or when
-        # it records a batch that did not finish (it was stopped after writing one of them)
-        for path, key in ((combined_path, "combined"), (summary_path, "summary")):
-            if path.exists() and (earlier is None or (earlier.get("complete") is not False
-                                                      and earlier.get(key) != _file_digest(path))):
-                check_writable(path, False)
-        batch_force = earlier is not None
-    for path in (combined_path, summary_path, manifest_path):
-        check_writable(path, batch_force)
-    failures: list[tuple[int, str]] = []
+    batch_force = _check_own_files(combined_path, summary_path, manifest_path, earlier, force=force,
+                                   carry_on=carry_on)
     here = [0]  # rows failed here (file names taken), beside those the rows' reader counted
 
     def report(done: int, total, failed: int, final: bool) -> None:
@@ -227,105 +212,179 @@ def write_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False
     try:
         combined = pdf.Document()
     except OSError as exc:
+        from toolkit.fileio import output_error
+
         summary.discard()
         raise output_error(combined_path, exc) from None
-    seen: dict[str, int] = {}
-    failing: list[str] = []
-    files: list[str] = []
-    kept: list[str] = []
-    record: dict[str, dict] = {}
+    batch = _Batch(sheet, out, formats, (combined_path, summary_path, manifest_path), earlier, here, summary,
+                   combined, force=force, batch_force=batch_force, carry_on=carry_on, prepare=prepare,
+                   written=written)
     count = 0
-    last_save = [time.monotonic()]
-    saved = [False]
-
-    def save_record(final: dict | None = None) -> None:
-        data = {"format": MANIFEST_FORMAT, "version": 1, "sheet": str(sheet), "orders": record,
-                **(final or {"complete": False})}
-        text = json.dumps(data, indent=1, ensure_ascii=True) + "\n"
-        write_atomic(manifest_path, text, force=saved[0] or batch_force)
-        saved[0] = True
-
-    def fail(row, reason: str) -> None:
-        failures.append((row.number, reason))
-        summary.failed(row.number, row.cells, reason)
-
-    def one(row) -> None:
-        if row.failed:
-            fail(row, row.reason)
-            return
-        try:
-            order = prepare(row) if prepare else row.order
-            name = safe_filename(order.ident.number)
-            key = f"{name}.pdf".casefold()
-            if key in own:
-                raise BadInput(f"order number {order.ident.number!r} gives the file name {name}.pdf, which is "
-                               f"the batch's own {own[key]}")
-            if key in seen:
-                raise BadInput(f"order number {order.ident.number!r} gives the same file name as row {seen[key]}")
-            seen[key] = row.number
-            made = {fmt: _render(fmt, order) for fmt in formats}
-            pages = made["pdf"][1]
-            paths = {fmt: out / f"{name}.{fmt}" for fmt in formats}
-            digests = {fmt: _digest(made[fmt][0]) for fmt in formats}
-            entry = recorded.get(paths["pdf"].name)
-            keep = {}
-            for fmt in formats:
-                keep[fmt] = False
-                if carry_on and paths[fmt].exists():
-                    on_disk = _file_digest(paths[fmt])
-                    same_inputs = entry is not None and entry.get("inputs") == row.inputs
-                    keep[fmt] = (fmt == "pdf" and on_disk == digests[fmt]) or (same_inputs and
-                                                                              entry.get(fmt) == on_disk)
-                    if keep[fmt]:
-                        digests[fmt] = on_disk
-            new = [(paths[fmt], made[fmt][0]) for fmt in formats if not keep[fmt]]
-            placed = {str(p) for p in write_together(new, force=force)} if new else set()
-        except CounterpoiseError as exc:
-            here[0] += 1
-            fail(row, reason_of(exc, row.origin))
-            return
-        try:
-            combined.add_pages(pages)
-        except OSError as exc:  # the combined document's temporary storage: the batch cannot go on
-            raise output_error(combined_path, exc) from None
-        for fmt in formats:
-            (files if str(paths[fmt]) in placed else kept).append(str(paths[fmt]))
-        record[paths["pdf"].name] = {"row": row.number, "inputs": row.inputs, **digests}
-        summary.ok(row.number, order, ", ".join(paths[fmt].name for fmt in formats))
-        if not order.passed:
-            failing.append(order.ident.number)
-        if written:
-            written(row, order, [str(paths[fmt]) for fmt in formats])
-        if time.monotonic() - last_save[0] >= MANIFEST_EVERY:
-            save_record()
-            last_save[0] = time.monotonic()
-
     try:
         if first is not None:
             for row in _chain(first, rows):
                 count += 1
-                one(row)
-        final = {"complete": True, "combined": None, "summary": None}
-        if combined.orders:
-            files.append(str(write_atomic(combined_path, combined.write_to, force=batch_force)))
-            final["combined"] = _file_digest(combined_path)
-        summary_bytes = summary.finish()
-        files.append(str(write_atomic(summary_path, summary_bytes, force=batch_force)))
-        final["summary"] = _digest(summary_bytes)
-        save_record(final)
-        files.append(str(manifest_path))
+                batch.one(row)
+        batch.finish()
     except BaseException:
-        summary.discard()
-        if record:
-            try:  # what was written so far, so that the batch can be continued
-                save_record()
-            except BaseException:
-                pass
+        batch.abandon()
         raise
     finally:
         combined.close()
-    return BatchResult(str(sheet), count, count - len(failures), tuple(failures), tuple(failing), tuple(files),
-                       time.perf_counter() - start, tuple(kept))
+    return BatchResult(str(sheet), count, count - len(batch.failures), tuple(batch.failures),
+                       tuple(batch.failing), tuple(batch.files), time.perf_counter() - start, tuple(batch.kept))
+
+
+def _check_own_files(combined_path: Path, summary_path: Path, manifest_path: Path, earlier: dict | None, *,
+                     force: bool, carry_on: bool) -> bool:
+    """Check that the batch's own files (combined PDF, summary, record) may be written; return whether they
+    may be replaced."""
+    from toolkit.fileio import check_writable
+
+    batch_force = force
+    if carry_on and not force:
+        # the batch's own files may be replaced when the record says the recorded batch made them, or when
+        # it records a batch that did not finish (it was stopped after writing one of them)
+        for path, key in ((combined_path, "combined"), (summary_path, "summary")):
+            if path.exists() and (earlier is None or (earlier.get("complete") is not False
+                                                      and earlier.get(key) != _file_digest(path))):
+                check_writable(path, False)
+        batch_force = earlier is not None
+    for path in (combined_path, summary_path, manifest_path):
+        check_writable(path, batch_force)
+    return batch_force
+
+
+class _Batch:
+    """One batch being written: each row's files, the batch's record, the summary and the combined PDF."""
+
+    def __init__(self, sheet: Path, out: Path, formats: tuple[str, ...], own_paths: tuple[Path, Path, Path],
+                 earlier: dict | None, here: list[int], summary, combined, *, force: bool, batch_force: bool,
+                 carry_on: bool, prepare, written):
+        self.sheet, self.out, self.formats = sheet, out, formats
+        self.combined_path, self.summary_path, self.manifest_path = own_paths
+        self.own = {p.name.casefold(): p.name for p in own_paths}
+        self.recorded = earlier.get("orders", {}) if earlier else {}
+        self.here, self.summary, self.combined = here, summary, combined
+        self.force, self.batch_force, self.carry_on = force, batch_force, carry_on
+        self.prepare, self.written = prepare, written
+        self.failures: list[tuple[int, str]] = []
+        self.seen: dict[str, int] = {}
+        self.failing: list[str] = []
+        self.files: list[str] = []
+        self.kept: list[str] = []
+        self.record: dict[str, dict] = {}
+        self.last_save = time.monotonic()
+        self.saved = False
+
+    def save_record(self, final: dict | None = None) -> None:
+        """Write the batch's record (``<sheet>-batch.json``): the rows done so far, or the finished batch."""
+        import json
+
+        from toolkit.fileio import write_atomic
+
+        data = {"format": MANIFEST_FORMAT, "version": 1, "sheet": str(self.sheet), "orders": self.record,
+                **(final or {"complete": False})}
+        text = json.dumps(data, indent=1, ensure_ascii=True) + "\n"
+        write_atomic(self.manifest_path, text, force=self.saved or self.batch_force)
+        self.saved = True
+
+    def fail(self, row, reason: str) -> None:
+        """Record a row that gave no order, with its reason."""
+        self.failures.append((row.number, reason))
+        self.summary.failed(row.number, row.cells, reason)
+
+    def one(self, row) -> None:
+        """Write one row's files, or record why it failed; add it to the combined PDF, summary and record."""
+        from toolkit.fileio import output_error
+        from toolkit.workorder.batch import reason_of
+
+        if row.failed:
+            self.fail(row, row.reason)
+            return
+        try:
+            order, paths, pages, digests, placed = self._write_files(row)
+        except CounterpoiseError as exc:
+            self.here[0] += 1
+            self.fail(row, reason_of(exc, row.origin))
+            return
+        try:
+            self.combined.add_pages(pages)
+        except OSError as exc:  # the combined document's temporary storage: the batch cannot go on
+            raise output_error(self.combined_path, exc) from None
+        for fmt in self.formats:
+            (self.files if str(paths[fmt]) in placed else self.kept).append(str(paths[fmt]))
+        self.record[paths["pdf"].name] = {"row": row.number, "inputs": row.inputs, **digests}
+        self.summary.ok(row.number, order, ", ".join(paths[fmt].name for fmt in self.formats))
+        if not order.passed:
+            self.failing.append(order.ident.number)
+        if self.written:
+            self.written(row, order, [str(paths[fmt]) for fmt in self.formats])
+        if time.monotonic() - self.last_save >= MANIFEST_EVERY:
+            self.save_record()
+            self.last_save = time.monotonic()
+
+    def _write_files(self, row):
+        """Make a built row's files and write those not kept from an earlier run; return the order, the
+        paths, the PDF's pages, the files' digests and the paths written now."""
+        from toolkit.fileio import safe_filename, write_together
+
+        order = self.prepare(row) if self.prepare else row.order
+        name = safe_filename(order.ident.number)
+        key = f"{name}.pdf".casefold()
+        if key in self.own:
+            raise BadInput(f"order number {order.ident.number!r} gives the file name {name}.pdf, which is "
+                           f"the batch's own {self.own[key]}")
+        if key in self.seen:
+            raise BadInput(f"order number {order.ident.number!r} gives the same file name as row {self.seen[key]}")
+        self.seen[key] = row.number
+        made = {fmt: _render(fmt, order) for fmt in self.formats}
+        pages = made["pdf"][1]
+        paths = {fmt: self.out / f"{name}.{fmt}" for fmt in self.formats}
+        digests = {fmt: _digest(made[fmt][0]) for fmt in self.formats}
+        keep = self._kept(row, paths, digests)
+        new = [(paths[fmt], made[fmt][0]) for fmt in self.formats if not keep[fmt]]
+        placed = {str(p) for p in write_together(new, force=self.force)} if new else set()
+        return order, paths, pages, digests, placed
+
+    def _kept(self, row, paths: dict, digests: dict) -> dict[str, bool]:
+        """Which of a row's files an interrupted batch keeps (same inputs, or the same PDF); a kept file's
+        digest becomes the one on disk."""
+        entry = self.recorded.get(paths["pdf"].name)
+        keep = {}
+        for fmt in self.formats:
+            keep[fmt] = False
+            if self.carry_on and paths[fmt].exists():
+                on_disk = _file_digest(paths[fmt])
+                same_inputs = entry is not None and entry.get("inputs") == row.inputs
+                keep[fmt] = (fmt == "pdf" and on_disk == digests[fmt]) or (same_inputs and
+                                                                          entry.get(fmt) == on_disk)
+                if keep[fmt]:
+                    digests[fmt] = on_disk
+        return keep
+
+    def finish(self) -> None:
+        """Write the combined PDF (if any order was made), the summary workbook and the finished record."""
+        from toolkit.fileio import write_atomic
+
+        final = {"complete": True, "combined": None, "summary": None}
+        if self.combined.orders:
+            self.files.append(str(write_atomic(self.combined_path, self.combined.write_to, force=self.batch_force)))
+            final["combined"] = _file_digest(self.combined_path)
+        summary_bytes = self.summary.finish()
+        self.files.append(str(write_atomic(self.summary_path, summary_bytes, force=self.batch_force)))
+        final["summary"] = _digest(summary_bytes)
+        self.save_record(final)
+        self.files.append(str(self.manifest_path))
+
+    def abandon(self) -> None:
+        """After an error: drop the summary and record the rows written so far, so the batch can go on later."""
+        self.summary.discard()
+        if self.record:
+            try:  # what was written so far, so that the batch can be continued
+                self.save_record()
+            except BaseException:
+                pass
 
 
 def _chain(first, rest):

@@ -253,12 +253,7 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     rho = dens.g_mm3
     given = parse_angle(angle_deg, "angle")
     add_angle = norm_angle(given + 180.0) if action == "remove" else given
-    if convexity is None:
-        conv, conv_src = DEFAULT_CONVEXITY, "default 20 % [M: 10–30 %]"
-    else:
-        if isinstance(convexity, bool) or not isinstance(convexity, (int, float)) or not 0 <= convexity <= 1:
-            raise BadInput.about("convexity", f"{convexity!r} must be a fraction from 0 to 1 (e.g. 0.2)")
-        conv, conv_src = float(convexity), "given"
+    conv, conv_src = _convexity(convexity)
     if not (isinstance(aspect, (int, float)) and aspect > 0):
         raise BadInput(f"aspect: {aspect!r} must be a number greater than zero")
     warnings = []
@@ -270,19 +265,9 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     if abs(w - w0) > 1e-9:
         warnings.append(f"width {w0:g} mm rounded to the {st:g} mm step: {w:g} mm")
     room = None if max_length is None else magnitude(max_length, "length", "mm", "max_length", positive=True)
-    if thickness is not None:
-        tv = float(magnitude(thickness, "length", "mm", "thickness", positive=True))
-        options = [_stock.PlateThickness(f"{tv:g} mm", tv, "given")]
-    else:
-        options = list(_stock.plate_stock(stock, stock_unit))
+    options = _thickness_options(thickness, stock, stock_unit)
     fillet_mm = None if fillet is None else magnitude(fillet, "length", "mm", "fillet", positive=True)
-    offset = None
-    if seat_offset_deg is not None:
-        if isinstance(seat_offset_deg, bool) or not isinstance(seat_offset_deg, (int, float)) \
-                or not 0 < seat_offset_deg < 90:
-            raise BadInput.about("seat_offset_deg", f"{seat_offset_deg!r} must be an angle between 0 and 90 "
-                                                    "degrees")
-        offset = float(seat_offset_deg)
+    offset = _seat_offset(seat_offset_deg)
 
     seat = _Seat(shape, surface, R, w, rho, conv, weld_run, fillet_mm, include_weld)
     chosen, too_small = _first_fit(seat, options, U, offset, room, aspect * w if thickness is None else math.inf,
@@ -301,34 +286,81 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
                                                       weld_run)
         if most is not None and U > most and U - most <= allow:
             # the largest plate that fits leaves a residual within the allowance: take it
-            try:
-                got = weld_plate(f"{most * (1 - 1e-6)!r} g*mm", radius=radius, width=f"{w!r} mm",
-                                 thickness=f"{options[-1].thickness_mm!r} mm", shape=shape, surface=surface,
-                                 angle_deg=add_angle, action="add", density=f"{dens.kg_m3!r} kg/m^3", step=step,
-                                 fillet=fillet, convexity=convexity, weld_run=weld_run, max_length=max_length,
-                                 aspect=aspect, include_weld=include_weld)
-            except Infeasible:
-                got = None
-            if got is not None and abs(got.achieved_g_mm - U) <= allow + 1e-9:
-                import dataclasses
-
-                note = (f"{_fmt(U)} g·mm is more than the largest plate adds; it adds {_fmt(got.achieved_g_mm)} "
-                        f"g·mm and leaves {_fmt(abs(got.achieved_g_mm - U))} g·mm, within the allowance of "
-                        f"{_fmt(allow)} g·mm: taken")
-                return dataclasses.replace(
-                    got, thickness_label=options[-1].label, requested_g_mm=U, given_action=action,
-                    given_angle_deg=given, error_g_mm=abs(got.achieved_g_mm - U), density_source=dens.source,
-                    material=dens.material.name if dens.material else None,
-                    warnings=tuple(warnings) + got.warnings + (note,))
+            got = _largest_within(most, U, allow, options, dens, warnings, radius=radius, w=w, shape=shape,
+                                  surface=surface, add_angle=add_angle, action=action, given=given, step=step,
+                                  fillet=fillet, convexity=convexity, weld_run=weld_run, max_length=max_length,
+                                  aspect=aspect, include_weld=include_weld)
+            if got is not None:
+                return got
         raise reason
     seats, (t_opt, z, b_exact, _total, _U1) = chosen
+    b = _rounded_length(b_exact, st, room, smallest_taken)
+    return _plate_result(seat, seats, t_opt, z, b, offset, U, add_angle, action, given, st, dens, conv_src,
+                         warnings)
+
+
+def _convexity(convexity) -> tuple[float, str]:
+    """The weld's convexity as a fraction, and where it came from (the default, or "given")."""
+    if convexity is None:
+        return DEFAULT_CONVEXITY, "default 20 % [M: 10–30 %]"
+    if isinstance(convexity, bool) or not isinstance(convexity, (int, float)) or not 0 <= convexity <= 1:
+        raise BadInput.about("convexity", f"{convexity!r} must be a fraction from 0 to 1 (e.g. 0.2)")
+    return float(convexity), "given"
+
+
+def _thickness_options(thickness, stock, stock_unit: str) -> list:
+    """The plate thicknesses to try: the one given, else every thickness of the ``stock`` table."""
+    if thickness is not None:
+        tv = float(magnitude(thickness, "length", "mm", "thickness", positive=True))
+        return [_stock.PlateThickness(f"{tv:g} mm", tv, "given")]
+    return list(_stock.plate_stock(stock, stock_unit))
+
+
+def _seat_offset(seat_offset_deg) -> float | None:
+    """The angle [degrees] of two split seats either side of the correction, or None (one seat only)."""
+    if seat_offset_deg is None:
+        return None
+    if isinstance(seat_offset_deg, bool) or not isinstance(seat_offset_deg, (int, float)) \
+            or not 0 < seat_offset_deg < 90:
+        raise BadInput.about("seat_offset_deg", f"{seat_offset_deg!r} must be an angle between 0 and 90 "
+                                                "degrees")
+    return float(seat_offset_deg)
+
+
+def _largest_within(most, U, allow, options, dens, warnings, *, radius, w, shape, surface, add_angle, action,
+                    given, step, fillet, convexity, weld_run, max_length, aspect, include_weld):
+    """The largest plate that fits (adding ``most`` g·mm of the ``U`` asked), as the plate of this request,
+    if what it leaves is within ``allow``; else None."""
+    try:
+        got = weld_plate(f"{most * (1 - 1e-6)!r} g*mm", radius=radius, width=f"{w!r} mm",
+                         thickness=f"{options[-1].thickness_mm!r} mm", shape=shape, surface=surface,
+                         angle_deg=add_angle, action="add", density=f"{dens.kg_m3!r} kg/m^3", step=step,
+                         fillet=fillet, convexity=convexity, weld_run=weld_run, max_length=max_length,
+                         aspect=aspect, include_weld=include_weld)
+    except Infeasible:
+        return None
+    if abs(got.achieved_g_mm - U) > allow + 1e-9:
+        return None
+    import dataclasses
+
+    note = (f"{_fmt(U)} g·mm is more than the largest plate adds; it adds {_fmt(got.achieved_g_mm)} "
+            f"g·mm and leaves {_fmt(abs(got.achieved_g_mm - U))} g·mm, within the allowance of "
+            f"{_fmt(allow)} g·mm: taken")
+    return dataclasses.replace(
+        got, thickness_label=options[-1].label, requested_g_mm=U, given_action=action,
+        given_angle_deg=given, error_g_mm=abs(got.achieved_g_mm - U), density_source=dens.source,
+        material=dens.material.name if dens.material else None,
+        warnings=tuple(warnings) + got.warnings + (note,))
+
+
+def _rounded_length(b_exact: float, st: float, room, smallest_taken: bool) -> float:
+    """The plate's length [mm] on the ``st`` step, one step shorter if rounding up leaves the ``room``."""
     b = float(max(st, round(round(b_exact / st) * st, 9)))
     if smallest_taken:
         b = float(b_exact)  # already the shortest plate, on the step
     elif room is not None and b > room + 1e-9:
         b = round(b - st, 9)
-    return _plate_result(seat, seats, t_opt, z, b, offset, U, add_angle, action, given, st, dens, conv_src,
-                         warnings)
+    return b
 
 
 @dataclass(frozen=True)

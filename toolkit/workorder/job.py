@@ -68,7 +68,7 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
-from typing import Any, Mapping
+from typing import Any, Mapping, NamedTuple
 
 from toolkit.errors import BadInput
 
@@ -555,8 +555,36 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
     defaults_used: list[str] = []
 
     _unknown(ck, data, (), ("order", "rotor", "geometry", "plane", "angles", "measurement", "shop", "format", "key"))
+    order = _read_order(ck, data, defaults_used)
+    rotor = _read_rotor(ck, data, defaults_used)
+    geometry = _read_geometry(ck, data)
+    planes_raw, planes = _read_planes(ck, data, rotor.material)
+    _check_plane_count(ck, geometry, planes_raw, planes)
+    reference, sense = _read_angles(ck, data)
 
-    # [order]
+    # [measurement]
+    meas_t = _table(ck, data, ("measurement",))
+    all_names = [p.get("name") for p in planes_raw if isinstance(p.get("name"), str)]
+    measurement = _measurement(ck, meas_t, all_names, planes, base, sense)
+
+    shop = _read_shop(ck, data, base, defaults_used)
+
+    from toolkit.workorder.jobkey import parse_key
+
+    key = parse_key(ck, data, planes if len(planes) == len(planes_raw) else [], rotor.material)
+    if ck.problems:
+        raise JobError(origin, ck.problems, what)
+    return Job(origin, MappingProxyType(order), rotor.mass, rotor.service, rotor.balancing, rotor.grade,
+               rotor.criterion or "iso", rotor.material, geometry.span, geometry.com, geometry.share,
+               geometry.min_share, rotor.error_allowance, tuple(planes), reference, sense, measurement, shop,
+               tuple(defaults_used), one_plane_rule=geometry.one_plane_rule or "whole",
+               rotor_length=geometry.rotor_length, key=key,
+               key_lines=MappingProxyType(dict(lines or {})),
+               key_columns=None if columns is None else MappingProxyType(dict(columns)))
+
+
+def _read_order(ck: _Checker, data: Mapping, defaults_used: list[str]) -> dict[str, str]:
+    """Read the [order] table: the order number, the rotor's name and the free-text fields."""
     order_t = _table(ck, data, ("order",))
     _unknown(ck, order_t, ("order",), ("number", "rotor", "customer", "drawing", "serial", "date", "notes"))
     order = {
@@ -569,8 +597,23 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
         defaults_used.append("order.date")
     if order["number"] and len(order["number"]) > 80:
         ck.add(("order", "number"), f"{len(order['number'])} characters; an order number has at most 80")
+    return order
 
-    # [rotor]
+
+class _Rotor(NamedTuple):
+    """What the [rotor] table gives (None where a value is missing or wrong)."""
+
+    mass: Any
+    service: float | None
+    balancing: float | None
+    grade: str | None
+    criterion: str | None
+    error_allowance: Any
+    material: str
+
+
+def _read_rotor(ck: _Checker, data: Mapping, defaults_used: list[str]) -> _Rotor:
+    """Read the [rotor] table: mass, speeds, grade, criterion, error allowance and material."""
     rotor_t = _table(ck, data, ("rotor",))
     _unknown(ck, rotor_t, ("rotor",), ("mass", "service_speed", "balancing_speed", "grade", "criterion",
                                         "material", "error_allowance"))
@@ -592,8 +635,23 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
         ck.add(("rotor", "balancing_speed"), f"{rotor_t.get('balancing_speed')!r} is above the service speed "
                                              f"{rotor_t.get('service_speed')!r}; a rigid-rotor balancing "
                                              "speed is at most the service speed")
+    return _Rotor(mass, service, balancing, grade, criterion, error_allowance, material)
 
-    # [geometry]
+
+class _Geometry(NamedTuple):
+    """What the [geometry] table gives (None where a value is missing or wrong), and the table itself."""
+
+    table: Mapping
+    span: Any
+    com: Any
+    share: float | None
+    one_plane_rule: str | None
+    rotor_length: Any
+    min_share: float | None
+
+
+def _read_geometry(ck: _Checker, data: Mapping) -> _Geometry:
+    """Read the [geometry] table: bearing span, centre of mass, static share and the one-plane rule."""
     geo_t = _table(ck, data, ("geometry",))
     _unknown(ck, geo_t, ("geometry",), ("bearing_span", "centre_of_mass", "static_share", "min_share",
                                          "one_plane_rule", "rotor_length"))
@@ -611,8 +669,11 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
                                   or not 0 <= min_share <= 0.5):
         ck.add(("geometry", "min_share"), f"{_shown(min_share)} is not allowed; give a fraction from 0 to 0.5")
         min_share = None
+    return _Geometry(geo_t, span, com, share, one_plane_rule, rotor_length, min_share)
 
-    # [[plane]]
+
+def _read_planes(ck: _Checker, data: Mapping, material: str) -> tuple[list, list[PlaneSpec]]:
+    """Read the [[plane]] tables: the raw tables as given, and the planes that passed every check."""
     planes_raw = data.get("plane", _MISSING)
     planes: list[PlaneSpec] = []
     if planes_raw is _MISSING:
@@ -625,76 +686,95 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
         ck.add(("plane",), f"{len(planes_raw)} planes given; a work order handles one or two correction planes")
     names_seen: set[str] = set()
     for i, p in enumerate(planes_raw):
-        path = ("plane", i)
-        _unknown(ck, p, path, ("name", "position", "radius", "surface", "methods", "fixed_positions",
-                               "max_depth", "max_length", "material", "width", "wall", "plate_shape",
-                               "hole_orientation", "washer_size", "washer_series"))
-        name = _text(ck, p, path + ("name",), required=True)
-        if name and name in names_seen:
-            ck.add(path + ("name",), f"{name!r} is used by another plane; plane names must differ")
-        names_seen.add(name)
-        position = _quantity(ck, p, path + ("position",), "length", required=True)
-        radius = _quantity(ck, p, path + ("radius",), "length", required=True, positive=True)
-        surface = _choice(ck, p, path + ("surface",), SURFACES, required=True)
-        methods = _methods(ck, p, path + ("methods",))
-        fixed = []
-        raw_fixed = p.get("fixed_positions", [])
-        if not isinstance(raw_fixed, list):
-            ck.add(path + ("fixed_positions",), f"{_shown(raw_fixed)} is not a list; write e.g. [0, 60, 120]")
-        else:
-            for value in raw_fixed:
-                angle = _angle(ck, value, path + ("fixed_positions",))
-                if angle is not None:
-                    fixed.append(angle)
-            if fixed and len(fixed) < 2:
-                ck.add(path + ("fixed_positions",), "one position given; give two or more, or none")
-            if len(set(fixed)) != len(fixed):
-                ck.add(path + ("fixed_positions",), f"{_shown(raw_fixed)} repeats an angle")
-        max_depth = _quantity(ck, p, path + ("max_depth",), "length", positive=True)
-        max_length = _quantity(ck, p, path + ("max_length",), "length", positive=True)
-        plane_material = _text(ck, p, path + ("material",), default=material)
-        width = _quantity(ck, p, path + ("width",), "length", positive=True)
-        if "plate" in methods and width is None and "width" not in p:
-            ck.add(path + ("width",), "missing; a plane that allows plates needs the seat width for the plate, "
-                                      "e.g. \"40 mm\"")
-        wall = _quantity(ck, p, path + ("wall",), "length", positive=True)
-        default_shape = "face" if surface == "face" else "rolled"
-        plate_shape = _choice(ck, p, path + ("plate_shape",), ("flat", "rolled", "face"), default=default_shape)
-        if surface == "face" and plate_shape != "face":
-            ck.add(path + ("plate_shape",), f"{plate_shape!r} does not suit a face; use 'face' or leave it out")
-        default_orientation = "radial" if surface == "outer" else "axial"
-        orientation = _choice(ck, p, path + ("hole_orientation",), ("axial", "radial"),
-                              default=default_orientation)
-        washer_size = _text(ck, p, path + ("washer_size",)) or None
-        washer_series = _text(ck, p, path + ("washer_series",)) or None
-        if None not in (name, position, radius, surface) and methods:
-            planes.append(PlaneSpec(name, position, radius, surface, methods, tuple(sorted(fixed)), max_depth,
-                                    max_length, plane_material, width, wall, plate_shape, orientation,
-                                    washer_size, washer_series))
-    if share is not None and len(planes_raw) == 1:
+        plane = _read_plane(ck, p, ("plane", i), material, names_seen)
+        if plane is not None:
+            planes.append(plane)
+    return planes_raw, planes
+
+
+def _read_plane(ck: _Checker, p: Mapping, path: tuple, material: str, names_seen: set[str]) -> PlaneSpec | None:
+    """Read one [[plane]] table (``material`` is the rotor's, the plane's default); None if it has problems."""
+    _unknown(ck, p, path, ("name", "position", "radius", "surface", "methods", "fixed_positions",
+                           "max_depth", "max_length", "material", "width", "wall", "plate_shape",
+                           "hole_orientation", "washer_size", "washer_series"))
+    name = _text(ck, p, path + ("name",), required=True)
+    if name and name in names_seen:
+        ck.add(path + ("name",), f"{name!r} is used by another plane; plane names must differ")
+    names_seen.add(name)
+    position = _quantity(ck, p, path + ("position",), "length", required=True)
+    radius = _quantity(ck, p, path + ("radius",), "length", required=True, positive=True)
+    surface = _choice(ck, p, path + ("surface",), SURFACES, required=True)
+    methods = _methods(ck, p, path + ("methods",))
+    fixed = _fixed_positions(ck, p, path + ("fixed_positions",))
+    max_depth = _quantity(ck, p, path + ("max_depth",), "length", positive=True)
+    max_length = _quantity(ck, p, path + ("max_length",), "length", positive=True)
+    plane_material = _text(ck, p, path + ("material",), default=material)
+    width = _quantity(ck, p, path + ("width",), "length", positive=True)
+    if "plate" in methods and width is None and "width" not in p:
+        ck.add(path + ("width",), "missing; a plane that allows plates needs the seat width for the plate, "
+                                  "e.g. \"40 mm\"")
+    wall = _quantity(ck, p, path + ("wall",), "length", positive=True)
+    default_shape = "face" if surface == "face" else "rolled"
+    plate_shape = _choice(ck, p, path + ("plate_shape",), ("flat", "rolled", "face"), default=default_shape)
+    if surface == "face" and plate_shape != "face":
+        ck.add(path + ("plate_shape",), f"{plate_shape!r} does not suit a face; use 'face' or leave it out")
+    default_orientation = "radial" if surface == "outer" else "axial"
+    orientation = _choice(ck, p, path + ("hole_orientation",), ("axial", "radial"),
+                          default=default_orientation)
+    washer_size = _text(ck, p, path + ("washer_size",)) or None
+    washer_series = _text(ck, p, path + ("washer_series",)) or None
+    if None in (name, position, radius, surface) or not methods:
+        return None
+    return PlaneSpec(name, position, radius, surface, methods, tuple(sorted(fixed)), max_depth,
+                     max_length, plane_material, width, wall, plate_shape, orientation,
+                     washer_size, washer_series)
+
+
+def _fixed_positions(ck: _Checker, p: Mapping, path: tuple) -> list[float]:
+    """Read a plane's ``fixed_positions`` list: the angles in degrees as given (empty if none)."""
+    fixed = []
+    raw_fixed = p.get("fixed_positions", [])
+    if not isinstance(raw_fixed, list):
+        ck.add(path, f"{_shown(raw_fixed)} is not a list; write e.g. [0, 60, 120]")
+    else:
+        for value in raw_fixed:
+            angle = _angle(ck, value, path)
+            if angle is not None:
+                fixed.append(angle)
+        if fixed and len(fixed) < 2:
+            ck.add(path, "one position given; give two or more, or none")
+        if len(set(fixed)) != len(fixed):
+            ck.add(path, f"{_shown(raw_fixed)} repeats an angle")
+    return fixed
+
+
+def _check_plane_count(ck: _Checker, geometry: _Geometry, planes_raw: list, planes: list[PlaneSpec]) -> None:
+    """Check the [geometry] keys that depend on the number of planes, and that two planes are apart."""
+    geo_t = geometry.table
+    if geometry.share is not None and len(planes_raw) == 1:
         ck.add(("geometry", "static_share"), "a static share needs two correction planes (static and couple "
                                              "tolerances); this job has one plane, whose allowance is set by "
                                              "one_plane_rule: remove static_share")
     if len(planes_raw) == 2 and ("one_plane_rule" in geo_t or "rotor_length" in geo_t):
         key = "one_plane_rule" if "one_plane_rule" in geo_t else "rotor_length"
         ck.add(("geometry", key), "applies to a job with one correction plane; this job has two: remove it")
-    if len(planes) == 2 and span is not None:
+    if len(planes) == 2 and geometry.span is not None:
         gap = abs((planes[0].position - planes[1].position).m_as("mm"))
         if gap == 0:
             ck.add(("plane", 1, "position"), "both planes at the same axial position; two planes must be apart")
 
-    # [angles]
+
+def _read_angles(ck: _Checker, data: Mapping) -> tuple[str, str | None]:
+    """Read the [angles] table: the angle reference and the angle sense."""
     ang_t = _table(ck, data, ("angles",))
     _unknown(ck, ang_t, ("angles",), ("reference", "sense"))
     reference = _text(ck, ang_t, ("angles", "reference"), required=True)
     sense = _choice(ck, ang_t, ("angles", "sense"), SENSES, required=True)
+    return reference, sense
 
-    # [measurement]
-    meas_t = _table(ck, data, ("measurement",))
-    all_names = [p.get("name") for p in planes_raw if isinstance(p.get("name"), str)]
-    measurement = _measurement(ck, meas_t, all_names, planes, base, sense)
 
-    # [shop]
+def _read_shop(ck: _Checker, data: Mapping, base: Path, defaults_used: list[str]) -> ShopSettings:
+    """Read the [shop] table (optional): unit system, paper, stock tables, rounding steps, drilling limits."""
     shop_t = _table(ck, data, ("shop",), required=False)
     _unknown(ck, shop_t, ("shop",), ("units", "drills", "plate_stock", "angle_step", "mass_step", "plate_step",
                                       "point_angle", "drilling", "weld_convexity", "fillet", "paper"))
@@ -710,6 +790,25 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
 
     plate_step = _quantity(ck, shop_t, ("shop", "plate_step"), "length", positive=True, bounds=PLATE_STEP_BOUNDS,
                            what="plate size step")
+    point_angle = _shop_point_angle(ck, shop_t)
+    drill_t = _table(ck, shop_t, ("shop", "drilling"), required=False)
+    drilling = _shop_drilling(ck, drill_t)
+    step_deg = _shop_angle_step(ck, shop_t)
+    fillet = _quantity(ck, shop_t, ("shop", "fillet"), "length", positive=True)
+    convexity = _shop_convexity(ck, shop_t)
+    mass_step = _quantity(ck, shop_t, ("shop", "mass_step"), "mass", positive=True, bounds=MASS_STEP_BOUNDS,
+                          what="weighing step")
+    if mass_step is None:
+        from toolkit.units import Q_
+
+        mass_step = Q_(0.1, "g")
+    return ShopSettings(units or "metric", drills, stock, step_deg, mass_step, plate_step, point_angle,
+                        MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet, paper,
+                        tuple(drill_t))
+
+
+def _shop_point_angle(ck: _Checker, shop_t: Mapping) -> float:
+    """Read [shop] point_angle: the drill's included angle in degrees (118 if not given or wrong)."""
     point_angle = 118.0
     if "point_angle" in shop_t:
         raw = shop_t["point_angle"]
@@ -719,8 +818,12 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
                                             "degrees (118 for general twist drills)")
         elif value is not None:
             point_angle = value
+    return point_angle
+
+
+def _shop_drilling(ck: _Checker, drill_t: Mapping) -> dict:
+    """Read the [shop.drilling] limits (its drills key is read by _drill_set): the limits that passed."""
     drilling = {}
-    drill_t = _table(ck, shop_t, ("shop", "drilling"), required=False)
     for key, value in drill_t.items():
         if key == "drills":
             continue  # read by _drill_set
@@ -739,6 +842,11 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
                 ck.add(("shop", "drilling", key), f"{_shown(value)} is not allowed; it {problem}")
             else:
                 drilling[key] = value
+    return drilling
+
+
+def _shop_angle_step(ck: _Checker, shop_t: Mapping) -> float:
+    """Read [shop] angle_step: the rounding step of angles in degrees (1 if not given or wrong)."""
     step_deg = 1.0
     if "angle_step" in shop_t:
         raw = shop_t["angle_step"]
@@ -750,7 +858,11 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
                                                 "(bounds of our own [CP])")
             else:
                 step_deg = angle
-    fillet = _quantity(ck, shop_t, ("shop", "fillet"), "length", positive=True)
+    return step_deg
+
+
+def _shop_convexity(ck: _Checker, shop_t: Mapping) -> float | None:
+    """Read [shop] weld_convexity: the fillet's extra cross-section as a fraction (None if not given)."""
     convexity = None
     if "weld_convexity" in shop_t:
         raw = shop_t["weld_convexity"]
@@ -760,26 +872,7 @@ def job_from_data(data: Mapping, origin: str = "<job>", base: Path | None = None
                                                  "(0.2 adds 20 % to the fillet's z²/2 cross-section)")
         else:
             convexity = float(raw)
-    mass_step = _quantity(ck, shop_t, ("shop", "mass_step"), "mass", positive=True, bounds=MASS_STEP_BOUNDS,
-                          what="weighing step")
-    if mass_step is None:
-        from toolkit.units import Q_
-
-        mass_step = Q_(0.1, "g")
-
-    from toolkit.workorder.jobkey import parse_key
-
-    key = parse_key(ck, data, planes if len(planes) == len(planes_raw) else [], material)
-    if ck.problems:
-        raise JobError(origin, ck.problems, what)
-    return Job(origin, MappingProxyType(order), mass, service, balancing, grade, criterion or "iso", material,
-               span, com, share, min_share, error_allowance, tuple(planes), reference, sense, measurement,
-               ShopSettings(units or "metric", drills, stock, step_deg, mass_step, plate_step, point_angle,
-                            MappingProxyType(drilling), tuple(k for k in shop_t), convexity, fillet, paper,
-                            tuple(drill_t)),
-               tuple(defaults_used), one_plane_rule=one_plane_rule or "whole", rotor_length=rotor_length, key=key,
-               key_lines=MappingProxyType(dict(lines or {})),
-               key_columns=None if columns is None else MappingProxyType(dict(columns)))
+    return convexity
 
 
 #: Library parameters of the fabrication planner and the job key that sets each: in the plane's own

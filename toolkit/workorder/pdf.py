@@ -138,10 +138,27 @@ class _Writer:
 
 
 def _first_page(w: _Writer, fmt: Formatter):
+    """Draw the order's tables from the header band to the sign-off (they run on over pages as needed)."""
+    order = w.order
+    _header(w, fmt)
+    _identification(w, fmt)
+    _plane_tables(w, fmt)
+    if order.field_record is not None:
+        _field_runs(w, fmt, order.field_record)
+    _operations(w, fmt)
+    _predicted(w, fmt)
+    _check_run(w, fmt)
+    w.heading("Sign-off")
+    w.table([("Role", 0.3), ("Name", 0.25), ("Signature", 0.27), ("Date", 0.18)],
+            [["Operator (balancing)", "", "", ""], ["Machinist (drilling / welding)", "", "", ""],
+             ["Inspector (release)", "", "", ""]], row_height=22)
+
+
+def _header(w: _Writer, fmt: Formatter) -> None:
+    """Draw the header band (title, order number), the predicted result and the angle convention."""
     order, c = w.order, w.c
     i = order.ident
     _W, _H = w.W, w.H
-    # header band
     c.setFillColorRGB(*_ACCENT)
     c.rect(_M, _H - _M - 30, _W - 2 * _M, 34, stroke=0, fill=1)
     c.setFillColorRGB(1, 1, 1)
@@ -155,6 +172,11 @@ def _first_page(w: _Writer, fmt: Formatter):
                 _ACCENT if order.passed else _WARN, "Helvetica-Bold")
     w.paragraph(fmt.convention(), 8.5, _MUTED, "Helvetica-Oblique")
 
+
+def _identification(w: _Writer, fmt: Formatter) -> None:
+    """Draw the identification table (two pairs a row), the job text's SHA-256 and the notes."""
+    order = w.order
+    i = order.ident
     w.heading("Identification")
     pairs = [
         ("Rotor", i.rotor), ("Customer", i.customer), ("Drawing", i.drawing), ("Serial number", i.serial),
@@ -175,6 +197,10 @@ def _first_page(w: _Writer, fmt: Formatter):
     if i.notes:
         w.paragraph(f"Notes: {i.notes}", 8.5)
 
+
+def _plane_tables(w: _Writer, fmt: Formatter) -> None:
+    """Draw the tolerance of each correction plane, then its initial unbalance and correction."""
+    order = w.order
     w.heading("Tolerance per correction plane")
     w.table([("Plane", 0.16), ("Position / radius", 0.17), ("Allowance", 0.14), ("Method", 0.21),
              ("Source", 0.32)],
@@ -188,9 +214,10 @@ def _first_page(w: _Writer, fmt: Formatter):
               f"{p.correction_action} {fmt.unbalance(p.correction_g_mm)} at {fmt.where(p.correction_deg)} "
               f"({p.method}, {p.surface} surface)"] for p in order.planes])
 
-    if order.field_record is not None:
-        _field_runs(w, fmt, order.field_record)
 
+def _operations(w: _Writer, fmt: Formatter) -> None:
+    """Draw the operations to tick (trial masses first), with the caution that comes before them."""
+    order = w.order
     w.heading("Operations: tick each when done")
     w.paragraph("Before any operation read the cautions at the end of this order: drive locked out while "
                 "drilling or welding, every mass secured and guards closed before any run.", 8, _WARN,
@@ -212,12 +239,20 @@ def _first_page(w: _Writer, fmt: Formatter):
     else:
         w.paragraph("No operation: the initial unbalance is already within the allowance.")
 
+
+def _predicted(w: _Writer, fmt: Formatter) -> None:
+    """Draw the predicted residual of each plane after the operations, against its allowance."""
+    order = w.order
     w.ensure(40 + 18 * (len(order.planes) + 1))  # the heading stays with its table, never alone at a page end
     w.heading("Predicted residual after the operations")
     w.table([("Plane", 0.16), ("Predicted residual", 0.42), ("Allowance", 0.2), ("Result", 0.22)],
             [[p.name, f"{fmt.unbalance(p.predicted_g_mm)} at {fmt.where(p.predicted_deg)}",
               fmt.unbalance(p.tolerance.u_per_g_mm), "PASS" if p.passed else "FAIL"] for p in order.planes])
 
+
+def _check_run(w: _Writer, fmt: Formatter) -> None:
+    """Draw the check-run table (allowance, limit, cells to fill in) and, for field runs, the sensor table."""
+    order = w.order
     w.ensure(60 + 18 * len(order.planes) + 40 + 3 * 22 + 40)
     w.heading("Check run after correction")
     w.paragraph("Run only with every mass secured, guards closed and people clear of the plane of rotation. "
@@ -235,11 +270,6 @@ def _first_page(w: _Writer, fmt: Formatter):
         w.table([("Sensor", 0.22), ("Original", 0.13), ("Predicted after the operations", 0.27),
                  ("Measured", 0.14), ("Phase", 0.10), ("Initials", 0.14)],
                 [[*row, "", "", ""] for row in order.field_record.check_rows()], row_height=18)
-
-    w.heading("Sign-off")
-    w.table([("Role", 0.3), ("Name", 0.25), ("Signature", 0.27), ("Date", 0.18)],
-            [["Operator (balancing)", "", "", ""], ["Machinist (drilling / welding)", "", "", ""],
-             ["Inspector (release)", "", "", ""]], row_height=22)
 
 
 def _field_runs(w: _Writer, fmt: Formatter, record) -> None:

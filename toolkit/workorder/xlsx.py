@@ -273,20 +273,37 @@ def workbook(order: WorkOrder):
     """
     from openpyxl import Workbook
     from openpyxl.utils import get_column_letter
-    from openpyxl.worksheet.datavalidation import DataValidation
-    from openpyxl.workbook.defined_name import DefinedName
 
     fmt = Formatter(order.units, order.angle_reference, order.angle_sense)
-    u_sym, m_sym, l_sym = fmt.symbol("unbalance"), fmt.symbol("mass"), fmt.symbol("length")
     wb = Workbook()
     ws = wb.active
     ws.title = SHEET
-    styles = _Styles()
-    sh = _Sheet(ws, styles)
+    sh = _Sheet(ws, _Styles())
     for col, width in enumerate(_WIDTHS, start=1):
         ws.column_dimensions[get_column_letter(col)].width = width
 
-    # title rows (repeated on every printed page)
+    _title_rows(sh, fmt, order)
+    _identification_rows(sh, wb, fmt, order)
+    _tolerance_rows(sh, fmt, order)
+    _initial_rows(sh, fmt, order)
+    if order.field_record is not None:
+        _field_runs(sh, fmt, order.field_record)
+    _operation_rows(sh, wb, fmt, order)
+    _predicted_rows(sh, fmt, order)
+    _check_run_rows(sh, wb, fmt, order)
+    if order.field_record is not None:
+        _sensor_check_rows(sh, order.field_record)
+    _signoff_rows(sh, wb)
+    _closing_rows(sh, order)
+    _fit_rows(ws)
+    _print_setup(ws, order, sh.row)
+    return wb
+
+
+def _title_rows(sh: _Sheet, fmt, order: WorkOrder) -> None:
+    """Write the two title rows (the order number; the angle convention and units), repeated on every page."""
+    ws = sh.ws
+    u_sym, m_sym, l_sym = fmt.symbol("unbalance"), fmt.symbol("mass"), fmt.symbol("length")
     sh.text(1, f"Balancing work order {order.ident.number}", "title")
     ws.merge_cells(start_row=1, start_column=1, end_row=1, end_column=_COLUMNS)
     sh.row = 2
@@ -296,7 +313,10 @@ def workbook(order: WorkOrder):
     ws.freeze_panes = "A3"
     sh.row = 3
 
-    # identification
+
+def _identification_rows(sh: _Sheet, wb, fmt, order: WorkOrder) -> None:
+    """Write the identification block: order, rotor, speeds, criterion, whole-rotor allowance, angles, key."""
+    ws = sh.ws
     sh.section("Identification")
     i = order.ident
     rows = [
@@ -320,7 +340,11 @@ def workbook(order: WorkOrder):
         ws.merge_cells(start_row=sh.row, start_column=3, end_row=sh.row, end_column=_COLUMNS)
         sh.row += 1
 
-    # tolerance
+
+def _tolerance_rows(sh: _Sheet, fmt, order: WorkOrder) -> None:
+    """Write the tolerance block: each correction plane's position, radius, allowance and its source."""
+    ws = sh.ws
+    u_sym, l_sym = fmt.symbol("unbalance"), fmt.symbol("length")
     sh.section("Tolerance per correction plane")
     sh.header(["Plane", "Name", "Method", f"Position [{l_sym}]", f"Radius [{l_sym}]",
                f"Allowance U_per [{u_sym}]", "Source", "", ""])
@@ -336,7 +360,10 @@ def workbook(order: WorkOrder):
         ws.merge_cells(start_row=sh.row, start_column=7, end_row=sh.row, end_column=_COLUMNS)
         sh.row += 1
 
-    # initial unbalance
+
+def _initial_rows(sh: _Sheet, fmt, order: WorkOrder) -> None:
+    """Write the initial unbalance (heavy spot) of each plane and the correction it calls for."""
+    u_sym = fmt.symbol("unbalance")
     sh.section("Initial unbalance (heavy spot) and correction")
     sh.header(["Plane", "Name", "Correction", f"Angle [°]", f"Unbalance [{u_sym}]", "Correction angle [°]",
                f"Correction [{u_sym}]", "Action", "Surface"])
@@ -353,10 +380,13 @@ def workbook(order: WorkOrder):
         sh.text(9, p.surface)
         sh.row += 1
 
-    if order.field_record is not None:
-        _field_runs(sh, fmt, order.field_record)
 
-    # operations
+def _operation_rows(sh: _Sheet, wb, fmt, order: WorkOrder) -> None:
+    """Write the operations in order (trial steps first), each with a status choice and a remark cell."""
+    from openpyxl.worksheet.datavalidation import DataValidation
+
+    ws = sh.ws
+    u_sym, m_sym = fmt.symbol("unbalance"), fmt.symbol("mass")
     sh.section("Operations (in this order; mark each one)")
     sh.header(["No.", "Plane", "What", "Action", f"Mass [{m_sym}]", f"Effect [{u_sym}]", "Angle [°]", "Status",
                "Done by / remark"])
@@ -388,7 +418,10 @@ def workbook(order: WorkOrder):
     if not order.operations:
         sh.long("No operation: the initial unbalance is already within the allowance.")
 
-    # predicted residual
+
+def _predicted_rows(sh: _Sheet, fmt, order: WorkOrder) -> None:
+    """Write the predicted residual of each plane after the operations, against its allowance."""
+    u_sym = fmt.symbol("unbalance")
     sh.section("Predicted residual after the operations")
     sh.header(["Plane", "Name", "Predicted residual", "Angle [°]", f"Residual [{u_sym}]", f"Allowance [{u_sym}]",
                "Result", "", ""])
@@ -402,7 +435,13 @@ def workbook(order: WorkOrder):
         sh.text(7, "PASS" if p.passed else "FAIL", "pass" if p.passed else "fail")
         sh.row += 1
 
-    # check run
+
+def _check_run_rows(sh: _Sheet, wb, fmt, order: WorkOrder) -> None:
+    """Write the check-run block: measured-residual input cells, their pass/fail formulas and the rule."""
+    from openpyxl.workbook.defined_name import DefinedName
+
+    ws, styles = sh.ws, sh.s
+    u_sym = fmt.symbol("unbalance")
     sh.section("Check run after correction (operator: enter the measured residual of each plane)")
     sh.header(["Plane", "Name", "Instruction", f"Limit [{u_sym}]", f"Measured [{u_sym}]", "Angle [°]",
                "Result", "", ""])
@@ -434,16 +473,21 @@ def workbook(order: WorkOrder):
     sh.long(f"Acceptance rule: {rule}. The limit is the allowance less the measurement error allowance ΔU "
             "(default 0, from memory: ISO 21940-14). The rotor maker's acceptance rules take precedence.", "sub")
 
-    if order.field_record is not None:
-        sh.section("Check run: vibration per sensor (operator: enter the reading beside the predicted value)")
-        sh.header(["Sensor", "", "Original", "Predicted after the operations", "", "Measured", "Phase [°]",
-                   "Initials", ""])
-        for sensor, original, predicted in order.field_record.check_rows():
-            for col in (6, 7, 8):
-                styles.apply(ws.cell(row=sh.row, column=col), "input")
-            sh.spans((1, 2, sensor, "wrap"), (3, 3, original, None), (4, 5, predicted, "wrap"))
 
-    # sign-off
+def _sensor_check_rows(sh: _Sheet, record) -> None:
+    """Write the check run per vibration sensor of a field record: original, predicted, input cells."""
+    sh.section("Check run: vibration per sensor (operator: enter the reading beside the predicted value)")
+    sh.header(["Sensor", "", "Original", "Predicted after the operations", "", "Measured", "Phase [°]",
+               "Initials", ""])
+    for sensor, original, predicted in record.check_rows():
+        for col in (6, 7, 8):
+            sh.s.apply(sh.ws.cell(row=sh.row, column=col), "input")
+        sh.spans((1, 2, sensor, "wrap"), (3, 3, original, None), (4, 5, predicted, "wrap"))
+
+
+def _signoff_rows(sh: _Sheet, wb) -> None:
+    """Write the sign-off block: name, signature and date input cells for each role."""
+    ws = sh.ws
     sh.section("Sign-off")
     sh.header(["Role", "", "Name", "", "Signature", "", "Date", "", ""])
     ws.merge_cells(start_row=sh.row - 1, start_column=1, end_row=sh.row - 1, end_column=2)
@@ -453,11 +497,14 @@ def workbook(order: WorkOrder):
         sh.text(1, role, "label")
         ws.merge_cells(start_row=sh.row, start_column=1, end_row=sh.row, end_column=2)
         for col in (3, 5, 7):
-            styles.apply(ws.cell(row=sh.row, column=col), "input")
+            sh.s.apply(ws.cell(row=sh.row, column=col), "input")
         ws.row_dimensions[sh.row].height = 24
         sh.row += 1
 
-    # settings, warnings, cautions, sources
+
+def _closing_rows(sh: _Sheet, order: WorkOrder) -> None:
+    """Write the closing blocks: the values used (with their marks), warnings, cautions and sources."""
+    ws = sh.ws
     if order.settings:
         sh.section("Values used (marked common practice or from memory: override in the job file)")
         sh.header(["Setting", "", "Value", "Mark", "Given by", "How to override", "", "", ""])
@@ -483,9 +530,11 @@ def workbook(order: WorkOrder):
     for source in order.sources:
         sh.long(source)
 
-    _fit_rows(ws)
 
-    # print set-up
+def _print_setup(ws, order: WorkOrder, last_row: int) -> None:
+    """Set the sheet's printing: paper, landscape fitted to the width, headers, footers, print area."""
+    from openpyxl.utils import get_column_letter
+
     ws.page_setup.paperSize = ws.PAPERSIZE_LETTER if order.paper_name == "Letter" else ws.PAPERSIZE_A4
     ws.page_setup.orientation = "landscape"
     ws.page_setup.fitToWidth = 1
@@ -496,8 +545,7 @@ def workbook(order: WorkOrder):
     ws.oddHeader.right.text = _hf(order.ident.rotor, _HF_CHARS)
     ws.oddFooter.left.text = _hf(f"Work order {order.ident.number}", _HF_CHARS)
     ws.oddFooter.right.text = "page &P of &N"
-    ws.print_area = f"A1:{get_column_letter(_COLUMNS)}{sh.row}"
-    return wb
+    ws.print_area = f"A1:{get_column_letter(_COLUMNS)}{last_row}"
 
 
 def _field_runs(sh: _Sheet, fmt, record) -> None:
