@@ -384,8 +384,14 @@ def _read_text(text: str):
         return registry().Quantity(*known)
     q = _parse(_normalise(text))
     if len(_TEXTS) < 4096:
-        _TEXTS[text] = (q.magnitude, q.units)
+        _TEXTS[text] = (q.magnitude, _units_of(q))
     return q
+
+
+def _units_of(q):
+    """A quantity's units as pint keeps them (its hashable units container), which every use here accepts
+    as a unit; ``q.units`` builds a new Unit object on each call."""
+    return getattr(q, "_units", None) or q.units
 
 
 #: Whether a unit has a kind's dimension, per (unit, kind name): the answer depends on nothing else.
@@ -393,7 +399,7 @@ _DIMENSION_OK: dict = {}
 
 
 def _has_dimension(q, k: "Kind") -> bool:
-    key = (q.units, k.name)
+    key = (_units_of(q), k.name)
     ok = _DIMENSION_OK.get(key)
     if ok is None:
         try:
@@ -462,7 +468,7 @@ def _check_bounds(q, k: Kind, name: str, shown, bounds, what: str, zero: bool = 
         return
     if raw == 0.0 and bounds is None:
         return
-    size = raw * _kernel_factor(q.units, k)  # 0.0 when a subnormal magnitude vanishes: below every bound
+    size = raw * _kernel_factor(_units_of(q), k)  # 0.0 when a subnormal magnitude vanishes: below every bound
     unit = k.kernel_unit
     if bounds is not None:
         low_m, high_m = _bound_magnitudes(bounds, k)
@@ -541,7 +547,7 @@ def quantity(value, kind: str | Kind, name: str = "value", *, positive: bool = F
         shown = value if isinstance(value, str) else f"{q:~P}"
         raise BadInput.about(name, f"{shown!r} is not a {k.name} ({q.dimensionality} given); give e.g. "
                        f"'{k.example}'")
-    if text_given and k.name != "speed" and _is_angle(q.units):
+    if text_given and k.name != "speed" and _is_angle(_units_of(q)):
         raise BadInput.about(name, f"{value!r} holds an angle unit, which a {k.name} has not; give e.g. "
                        f"'{k.example}'")
     shown = value if isinstance(value, str) else q
