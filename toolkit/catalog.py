@@ -199,7 +199,27 @@ def load(name_or_path: str | Path, schema: Mapping[str, Converter]) -> Table:
     ...
     toolkit.errors.BadInput: no built-in table named 'no-such-table'; ...
     """
-    if isinstance(name_or_path, Path) or str(name_or_path).endswith(".csv") or "/" in str(name_or_path):
+    if is_path(name_or_path):
         path = Path(name_or_path)
         return parse(_read_file(path), schema, str(path), path.stem)
     return _load_builtin(str(name_or_path), tuple(schema.items()))
+
+
+def is_path(name_or_path: str | Path) -> bool:
+    """Whether :func:`load` reads ``name_or_path`` as a shop's file (else as a built-in table's name)."""
+    return isinstance(name_or_path, Path) or str(name_or_path).endswith(".csv") or "/" in str(name_or_path)
+
+
+def load_derived(name_or_path: str | Path, schema: Mapping[str, Converter], build: Callable):
+    """``build(load(name_or_path, schema), name_or_path)``: what a module makes of a table's rows (its
+    objects, an index), made once per built-in table and kept, like the table; a shop's file is read and
+    built on every call, as :func:`load` reads it. ``build`` is a module-level function whose result is
+    immutable (tuples, read-only mappings), since every caller gets the same value."""
+    if is_path(name_or_path):
+        return build(load(name_or_path, schema), name_or_path)
+    return _derived_builtin(str(name_or_path), tuple(schema.items()), build)
+
+
+@functools.lru_cache(maxsize=None)
+def _derived_builtin(name: str, schema_items: tuple, build: Callable):
+    return build(_load_builtin(name, schema_items), name)

@@ -372,6 +372,59 @@ def _parse(text: str):
 #: Unit texts already read ("g*mm", "kg/m^3"): shops' sheets repeat a few units (errors are not kept).
 _READ: dict[str, object] = {}
 
+#: Whole texts already read ("38 g", "2400 g*mm"), as (magnitude, unit): a sheet or a job repeats its values
+#: (errors are not kept). Each call builds its own quantity from them, so no caller shares an object.
+_TEXTS: dict[str, tuple] = {}
+
+
+def _read_text(text: str):
+    """``_parse(_normalise(text))``, with the magnitude and unit of a text read before taken as read."""
+    known = _TEXTS.get(text)
+    if known is not None:
+        return registry().Quantity(*known)
+    q = _parse(_normalise(text))
+    if len(_TEXTS) < 4096:
+        _TEXTS[text] = (q.magnitude, _units_of(q))
+    return q
+
+
+def _units_of(q):
+    """A quantity's units as pint keeps them (its hashable units container), which every use here accepts
+    as a unit; ``q.units`` builds a new Unit object on each call."""
+    return getattr(q, "_units", None) or q.units
+
+
+#: Whether a unit has a kind's dimension, per (unit, kind name): the answer depends on nothing else.
+_DIMENSION_OK: dict = {}
+
+
+def _has_dimension(q, k: "Kind") -> bool:
+    key = (_units_of(q), k.name)
+    ok = _DIMENSION_OK.get(key)
+    if ok is None:
+        try:
+            ok = bool(q.check(k.dimensionality))
+        except Exception:
+            ok = False
+        if len(_DIMENSION_OK) < 1024:
+            _DIMENSION_OK[key] = ok
+    return ok
+
+
+#: A pair of bound texts read as magnitudes in a kind's kernel unit, per (bounds, kind name).
+_BOUNDS: dict = {}
+
+
+def _bound_magnitudes(bounds, k: "Kind") -> tuple[float, float]:
+    key = (tuple(bounds), k.name)
+    known = _BOUNDS.get(key)
+    if known is None:
+        low, high = (quantity(b, k, "bound") for b in bounds)
+        known = tuple(float(magnitude(b, k, k.kernel_unit)) for b in (low, high))
+        if len(_BOUNDS) < 256:
+            _BOUNDS[key] = known
+    return known
+
 
 def _is_bare_number(text: str) -> bool:
     try:
@@ -415,11 +468,10 @@ def _check_bounds(q, k: Kind, name: str, shown, bounds, what: str, zero: bool = 
         return
     if raw == 0.0 and bounds is None:
         return
-    size = raw * _kernel_factor(q.units, k)  # 0.0 when a subnormal magnitude vanishes: below every bound
+    size = raw * _kernel_factor(_units_of(q), k)  # 0.0 when a subnormal magnitude vanishes: below every bound
     unit = k.kernel_unit
     if bounds is not None:
-        low, high = (quantity(b, k, "bound") for b in bounds)
-        low_m, high_m = (float(magnitude(b, k, unit)) for b in (low, high))
+        low_m, high_m = _bound_magnitudes(bounds, k)
         if not low_m <= size <= high_m:
             side = "below the smallest" if size < low_m else "above the largest"
             limit = bounds[0] if size < low_m else bounds[1]
@@ -474,7 +526,7 @@ def quantity(value, kind: str | Kind, name: str = "value", *, positive: bool = F
         if _is_bare_number(text):
             raise BadInput.about(name, f"{text!r} has no unit; give a {k.name} with its unit, e.g. '{k.example}'")
         try:
-            q = _parse(_normalise(text))
+            q = _read_text(text)
         except _Unreadable as exc:
             raise BadInput.about(name, f"cannot read {text!r} as a {k.name}: {exc}; write a number and a unit, "
                            f"e.g. '{k.example}'") from None
@@ -491,26 +543,27 @@ def quantity(value, kind: str | Kind, name: str = "value", *, positive: bool = F
     else:
         raise BadInput.about(name, f"{value!r} is not a quantity; give a {k.name} with its unit, "
                        f"e.g. '{k.example}'")
-    try:
-        ok = q.check(k.dimensionality)
-    except Exception:
-        ok = False
-    if not ok:
+    if not _has_dimension(q, k):
         shown = value if isinstance(value, str) else f"{q:~P}"
         raise BadInput.about(name, f"{shown!r} is not a {k.name} ({q.dimensionality} given); give e.g. "
                        f"'{k.example}'")
-    if text_given and k.name != "speed" and _is_angle(q.units):
+    if text_given and k.name != "speed" and _is_angle(_units_of(q)):
         raise BadInput.about(name, f"{value!r} holds an angle unit, which a {k.name} has not; give e.g. "
                        f"'{k.example}'")
     shown = value if isinstance(value, str) else q
     _check_finite(q.magnitude, name, shown)
     if positive or nonnegative:
-        import numpy as np
+        mag = q.magnitude
+        if isinstance(mag, (int, float)):  # a scalar (finite, checked above): no array needed
+            low_side, below = mag <= 0, mag < 0
+        else:
+            import numpy as np
 
-        mag = np.asarray(q.magnitude)
-        if positive and np.any(mag <= 0):
+            mag = np.asarray(mag)
+            low_side, below = np.any(mag <= 0), np.any(mag < 0)
+        if positive and low_side:
             raise BadInput.about(name, f"{shown!s} must be greater than zero")
-        if nonnegative and np.any(mag < 0):
+        if nonnegative and below:
             raise BadInput.about(name, f"{shown!s} must not be negative")
     if text_given or bounds is not None:
         _check_bounds(q, k, name, shown, bounds, what, zero=not positive)

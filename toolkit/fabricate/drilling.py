@@ -17,6 +17,7 @@ used. Removal is at the heavy spot: a correction written "add U at θ" is drille
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, asdict
 
@@ -166,15 +167,22 @@ def _radial_moment(R: float, r: float, L: float, h: float) -> float:
         + (math.pi * r * r * h / 3.0) * (ys - h / 4.0)
 
 
-_GL_X, _GL_W = np.polynomial.legendre.leggauss(64)
+@functools.cache
+def _gauss_legendre() -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """64-point Gauss-Legendre nodes t and weights w scaled to [−π/2, π/2], with sin t and cos t.
+
+    Computed on the first radial hole, not at import: the nodes cost a few milliseconds (numpy.polynomial and
+    an eigenvalue problem) that an axial hole, or the command line's start-up, never needs."""
+    x, w = np.polynomial.legendre.leggauss(64)
+    t = x * (math.pi / 2.0)
+    return t, w * (math.pi / 2.0), np.sin(t), np.cos(t)
 
 
 def _radial_volume(R: float, r: float, L: float, h: float) -> float:
     # cylinder part: ∫ over the hole's cross-section of (surface height − y_s); x = r sin t makes it smooth
-    t = _GL_X * (math.pi / 2.0)
-    w = _GL_W * (math.pi / 2.0)
-    x = r * np.sin(t)
-    chord = 2.0 * r * np.cos(t) * r * np.cos(t)
+    t, w, sin_t, cos_t = _gauss_legendre()
+    x = r * sin_t
+    chord = 2.0 * r * cos_t * r * cos_t
     cyl = float(np.sum(w * chord * (np.sqrt(R * R - x * x) - (R - L))))
     return cyl + math.pi * r * r * h / 3.0
 

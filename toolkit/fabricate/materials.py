@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass, field
+from types import MappingProxyType
 
 from toolkit import catalog
 from toolkit.errors import BadInput, Infeasible
@@ -56,17 +57,23 @@ def materials(table: str = "materials") -> tuple[Material, ...]:
     >>> [m.name for m in materials()][:2]
     ['carbon steel', 'low-alloy steel']
     """
-    rows = catalog.load(table, MATERIAL_SCHEMA)
+    return catalog.load_derived(table, MATERIAL_SCHEMA, _catalogue)[0]
+
+
+def _catalogue(rows: catalog.Table, table) -> tuple[tuple[Material, ...], MappingProxyType]:
+    """The table's materials and, by :func:`_key` of each name and alias, the first material carrying it
+    (made once for the built-in table)."""
     out = tuple(Material(r["name"], r["density_kg_m3"], r["weldable"], r["source"], r["aliases"], r["notes"])
                 for r in rows)
-    seen: dict[str, str] = {}
+    seen: dict[str, Material] = {}
     for m in out:
         for label in (m.name, *m.aliases):
             k = _key(label)
-            if k in seen and seen[k] != m.name:
-                raise BadInput(f"{table}: name or alias {label!r} is used by both {seen[k]!r} and {m.name!r}")
-            seen[k] = m.name
-    return out
+            if k in seen and seen[k].name != m.name:
+                raise BadInput(f"{table}: name or alias {label!r} is used by both {seen[k].name!r} and "
+                               f"{m.name!r}")
+            seen.setdefault(k, m)
+    return out, MappingProxyType(seen)
 
 
 def find(name: str, table: str = "materials") -> Material:
@@ -81,11 +88,10 @@ def find(name: str, table: str = "materials") -> Material:
     """
     if not isinstance(name, str) or not name.strip():
         raise BadInput.about("material", f"{name!r} is not a material name; e.g. 'steel' or 'S355'")
-    wanted = _key(name)
-    table_rows = materials(table)
-    for m in table_rows:
-        if wanted == _key(m.name) or any(wanted == _key(a) for a in m.aliases):
-            return m
+    table_rows, by_key = catalog.load_derived(table, MATERIAL_SCHEMA, _catalogue)
+    found = by_key.get(_key(name))
+    if found is not None:
+        return found
     raise BadInput.about("material", f"{name!r} is not in the materials table; known: "
                                      f"{', '.join(m.name for m in table_rows)} (or give a {{density}})",
                          mentions=("density",))

@@ -15,6 +15,7 @@ Columns (one header row; a ``source`` cell on every row):
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 from toolkit import catalog
@@ -105,13 +106,22 @@ def drills(table="metric") -> tuple[Drill, ...]:
             raise BadInput("drills: give a set name, a CSV path or a non-empty list of drills")
         return tuple(sorted(table, key=lambda d: d.diameter_mm))
     if str(table) in BASIC_DRILLS:
-        full, sizes = BASIC_DRILLS[str(table)]
-        wanted = {_label_key(x) for x in sizes}
-        return tuple(d for d in drills(full) if _label_key(d.size) in wanted)
+        return _basic_set(str(table))
     name = {"metric": "drills_metric", "inch": "drills_inch"}.get(str(table), table)
-    rows = catalog.load(name, DRILL_SCHEMA)
+    return catalog.load_derived(name, DRILL_SCHEMA, _drill_set)
+
+
+def _drill_set(rows: catalog.Table, _name) -> tuple[Drill, ...]:
     out = [Drill(r["size"], r["diameter"] * _MM_PER[r["unit"]], r["source"]) for r in rows]
     return tuple(sorted(out, key=lambda d: d.diameter_mm))
+
+
+@functools.lru_cache(maxsize=None)
+def _basic_set(table: str) -> tuple[Drill, ...]:
+    """A short set, picked from its full table by size label once per process (both ship with the package)."""
+    full, sizes = BASIC_DRILLS[table]
+    wanted = {_label_key(x) for x in sizes}
+    return tuple(d for d in drills(full) if _label_key(d.size) in wanted)
 
 
 def _label_key(text: str) -> str:

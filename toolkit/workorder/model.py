@@ -418,7 +418,11 @@ def _plain(value):
     if cls in _LEAVES:
         return value
     if hasattr(cls, "__dataclass_fields__"):
-        return {name: _plain(getattr(value, name)) for name in _field_names(cls)}
+        out = {}
+        for name in _field_names(cls):  # a leaf is taken as it is here, without a call per field
+            v = getattr(value, name)
+            out[name] = v if type(v) in _LEAVES else _plain(v)
+        return out
     if cls is tuple or cls is list:
         return cls([v if type(v) in _LEAVES else _plain(v) for v in value])
     if cls is dict:
