@@ -129,3 +129,36 @@ def test_the_fonts_the_diagrams_name_are_served_and_nothing_else(client):
     for crafted in ("..%2Fpdfpage.py", "LICENSE", "%2Fetc%2Fpasswd", "DejaVuSans.ttf.bak"):
         assert client.get(f"/fonts/{crafted}").status_code == 404
     assert '<link rel="stylesheet" href="/fonts.css">' in client.get("/tolerance").text
+
+
+#: Two sensors and two trial runs of the invented field job in examples/job-fan-runs.toml (invented data).
+TRIAL_RUNS = {"p1_name": "near", "p2_name": "far", "kind": "runs", "sensors": "drive end\nfree end",
+              "original": "17.50 um@253.7\n15.28 um@52.2", "trial1": "near=25 g@0",
+              "readings1": "29.94 um@230.9\n13.26 um@35.6", "trial2": "near=25 g@0\nfar=25 g@90",
+              "readings2": "35.07 um@229.3\n13.51 um@313.4"}
+
+
+def test_the_corrections_step_shows_the_influence_coefficients_with_units(client):
+    from toolkit.web.run import preview
+
+    values = example_values() | TRIAL_RUNS
+    _text, order, errors, _v = preview(values)
+    assert not errors
+    page = client.post("/run", data={"csrf": _token(client, "/run"), "step": "runs", "go": "next", **values})
+    assert page.status_code == 200
+    table = re.search(r'<table class="numbers" id="coefficients">(.*?)</table>', page.text, re.S).group(1)
+    for sensor, plane, words in order.field_record.coefficient_rows():
+        assert f"<td>{sensor}</td><td>{plane}</td><td>{words}</td>" in table
+        assert " µm per g at " in words and words.endswith("(lag)")
+    assert table.count("<tr>") == 1 + 4
+    assert "Condition number of the coefficient matrix" in page.text
+    assert "What the check run should read" in page.text
+
+
+def test_a_coefficient_warning_is_shown(client):
+    # the far trial barely changes the readings (invented): a small trial effect, ill-conditioned planes
+    values = example_values() | TRIAL_RUNS | {"trial2": "far=25 g@90", "readings2": "17.9 um@253\n15.0 um@52"}
+    page = client.post("/run", data={"csrf": _token(client, "/run"), "step": "runs", "go": "next", **values})
+    assert page.status_code == 200
+    assert "Warning (trial runs): trial effect too small in run &#39;trial run 2&#39;" in page.text
+    assert "Warning (trial runs): ill-conditioned planes: condition number 64.5" in page.text
