@@ -323,3 +323,38 @@ def test_drill_page_says_remove_in_words_with_cautions(reg):
     page = client.post("/drill", data={"csrf": token, **PAGES["drill"].example})
     assert '<strong class="remove">remove</strong>' in page.text
     assert "Caution:" in page.text and "lock-out" in page.text.lower()
+
+
+def test_pages_computed_at_once_in_many_threads_equal_those_computed_one_by_one():
+    """No lock serialises the subcommands: each thread's result, text and error stay its own."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    from toolkit.web.forms import run_page
+
+    jobs = []
+    for slug, page in PAGES.items():
+        jobs.append((page, dict(page.example)))
+        jobs.append((page, dict(page.example) | {next(iter(page.example)): "not a value"}))  # an error
+    for mass in ("100 kg", "250 kg", "412 kg", "900 kg"):
+        jobs.append((PAGES["tolerance"], dict(PAGES["tolerance"].example) | {"mass": mass}))
+    alone = [run_page(page, values, "metric") for page, values in jobs]
+    with ThreadPoolExecutor(max_workers=8) as pool:
+        together = list(pool.map(lambda job: run_page(job[0], job[1], "metric"), jobs * 3))
+    for i, outcome in enumerate(together):
+        expected = alone[i % len(jobs)]
+        assert (outcome.status, outcome.data, outcome.text, outcome.errors) == \
+            (expected.status, expected.data, expected.text, expected.errors)
+    assert any(o.errors for o in alone) and any(o.data for o in alone)
+
+
+def test_one_run_gives_the_command_lines_json_and_text(capsys):
+    from toolkit.web.forms import argv_of, run_page
+
+    page = PAGES["drill"]
+    outcome = run_page(page, dict(page.example), "metric")
+    argv = argv_of(page, dict(page.example), "metric")
+    assert main(argv) == outcome.status
+    text, _err = capsys.readouterr()
+    assert outcome.text == text
+    _status, data = _cli_json(capsys, argv)
+    assert outcome.data == data

@@ -191,3 +191,33 @@ def test_planner_upload_with_one_bad_row(server, page, tmp_path):
 
     names = zipfile.ZipFile(saved).namelist()
     assert sum(n.endswith(".pdf") and n.startswith("PL-") for n in names) == len(rows) - 1
+
+
+def test_diagrams_draw_in_the_browser_with_their_fonts_and_redraw_while_typing(server, page, tmp_path):
+    base, _reg, _folder = server
+    refused = []
+    page.on("console", lambda m: refused.append(m.text) if "Content Security Policy" in m.text else None)
+    _sign_in(page, base, "olga", "/tolerance")
+    page.fill("#f-bearing_span", "900 mm")
+    page.fill("#f-com_from_a", "400 mm")
+    page.click("button:has-text('Compute')")
+    page.wait_for_selector("figure.diagram svg")
+    family = page.evaluate("getComputedStyle(document.querySelector('figure.diagram svg text')).fontFamily")
+    assert "Counterpoise Sans" in family  # the diagram's own style element was allowed and applied
+    page.evaluate("document.fonts.ready")
+    assert page.evaluate("document.fonts.check(\"10px 'Counterpoise Sans'\")")
+    _shot(page, tmp_path, "tolerance-side-view")
+    page.goto(f"{base}/run")
+    page.click("button:has-text('Next')")            # rotor -> angles
+    page.click("button:has-text('Next')")            # angles -> readings
+    drawn = "document.querySelector('#live-diagram').textContent"
+    assert "96.50 g" in page.evaluate(drawn) and "at 112°" in page.evaluate(drawn)
+    page.fill("#r-p1_reading", "70 g@40")
+    page.wait_for_selector("#live-diagram[data-drawn]", state="attached")  # the script redrew it
+    assert "96.50 g" not in page.evaluate(drawn) and "at 40°" in page.evaluate(drawn)
+    _shot(page, tmp_path, "run-live-diagram")
+    page.click("button:has-text('Next')")            # readings -> corrections
+    assert page.locator(".plane-diagrams svg").count() == 2
+    assert "correction remove" in page.evaluate(drawn) or "correction add" in page.evaluate(drawn)
+    _shot(page, tmp_path, "run-plane-diagrams")
+    assert refused == []

@@ -96,6 +96,11 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
     env = Environment(loader=FileSystemLoader(str(_HERE / "templates")), autoescape=select_autoescape(["html"]),
                       trim_blocks=True, lstrip_blocks=True)
     env.filters["num"] = _num
+    from toolkit.web.diagrams import style_hash
+
+    headers = dict(_SECURITY_HEADERS)  # the diagrams' own style element is allowed by its hash, no other
+    headers["Content-Security-Policy"] = headers["Content-Security-Policy"].replace(
+        "style-src 'self'", "style-src 'self' " + style_hash())
     if out is None:
         base = Path(reg.url.database).parent if reg.dialect == "sqlite" else Path.cwd()
         out = base / "counterpoise-orders"
@@ -138,7 +143,7 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
         page = env.get_template(template).render(
             request=request, user=user, csrf=csrf_token(request), open_mode=open_mode(), units=units,
             pages=PAGES, **context)
-        return HTMLResponse(page, status_code=code, headers=_SECURITY_HEADERS)
+        return HTMLResponse(page, status_code=code, headers=headers)
 
     async def form_of(request) -> dict:
         """The posted form, refused (403) without the session's CSRF token; bounded in size."""
@@ -243,8 +248,13 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
                 from starlette.concurrency import run_in_threadpool
 
                 outcome = await run_in_threadpool(run_page, page, values, units or _units(request))
+                side = None
+                if slug == "tolerance" and outcome.data is not None:
+                    from toolkit.web.diagrams import side_view
+
+                    side = side_view(outcome.data, outcome.data.get("units") or units or _units(request))
                 return render(request, "calculator.html", 200 if not outcome.errors else 422, page=page,
-                              fields=fields_of(page), values=values, outcome=outcome, units=units,
+                              fields=fields_of(page), values=values, outcome=outcome, units=units, side_view=side,
                               command=shlex.join(["counterpoise", *outcome.argv]),
                               result_json=None if outcome.data is None else json.dumps(
                                   outcome.data, indent=2, ensure_ascii=False))
@@ -257,15 +267,31 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
         user = current_user(request)
         return (user or {}).get("units") or request.session.get("units") or "metric"
 
+    from toolkit.workorder.svg import font_face_css, font_files
+
+    fonts = {path.name: path for path in font_files().values()}
+    fonts_css = font_face_css(lambda name: "/fonts/" + name)
+
+    async def fonts_sheet(request):
+        return Response(fonts_css, media_type="text/css", headers={"Cache-Control": "max-age=86400"})
+
+    async def font(request):
+        path = fonts.get(request.path_params["name"])  # only the diagrams' own font files, by exact name
+        if path is None:
+            raise _Refused(404, "no such font")
+        return Response(path.read_bytes(), media_type="font/ttf", headers={"Cache-Control": "max-age=86400"})
+
     from toolkit.web import register_pages
 
     pages_routes = register_pages.routes(reg=reg, render=render, form_of=form_of, need_user=need_user, out=out,
-                                         refused=_Refused)
+                                         refused=_Refused, headers=headers)
 
     routes = [
         *pages_routes,
         Route("/", home),
         Route("/ping", ping),
+        Route("/fonts.css", fonts_sheet),
+        Route("/fonts/{name}", font),
         Route("/signin", signin_page, methods=["GET"]),
         Route("/signin", signin, methods=["POST"]),
         Route("/signout", signout, methods=["POST"]),

@@ -11,7 +11,6 @@ label; an error that names no field goes at the top of the form. What the person
 from __future__ import annotations
 
 import argparse
-import contextlib
 import io
 import json
 import re
@@ -20,8 +19,6 @@ from dataclasses import dataclass, field
 
 __all__ = ["Field", "Page", "PAGES", "fields_of", "run_page"]
 
-# the subcommands print through sys.stdout: one at a time, so that two requests never share a capture
-_CAPTURE = threading.Lock()
 
 
 @dataclass(frozen=True)
@@ -194,17 +191,88 @@ class Outcome:
     argv: list = field(default_factory=list)
 
 
-def _run(argv: list[str]) -> tuple[int, str, str]:
+class _Routed(io.TextIOBase):
+    """A stand-in for sys.stdout or sys.stderr that writes to the calling thread's buffer while that thread
+    runs a subcommand for a page, and to the real stream otherwise: two requests never share a capture, and
+    no lock serialises them."""
+
+    def __init__(self, real, name: str):
+        super().__init__()
+        self.real, self.name = real, name
+
+    @property
+    def encoding(self):
+        return "utf-8"
+
+    def write(self, text):
+        buffer = getattr(_LOCAL, self.name, None)
+        return (buffer if buffer is not None else self.real).write(text)
+
+    def flush(self):
+        buffer = getattr(_LOCAL, self.name, None)
+        (buffer if buffer is not None else self.real).flush()
+
+
+_LOCAL = threading.local()
+_INSTALL = threading.Lock()
+_HOOKED: set = set()
+
+
+def _install(command: str) -> None:
+    """Route the standard streams per thread (once), and let the subcommand's module hand its result to the
+    page: its ``emit`` is wrapped so that, for a page's thread only, the one computed result is written both
+    as ``--json`` and as text by the command line's own ``emit``. Everywhere else it behaves as before."""
+    import sys
+
+    from toolkit.cli import COMMANDS
+
+    with _INSTALL:
+        if not isinstance(sys.stdout, _Routed):
+            sys.stdout = _Routed(sys.stdout, "out")
+        if not isinstance(sys.stderr, _Routed):
+            sys.stderr = _Routed(sys.stderr, "err")
+        module_name = next(module for name, module, _help in COMMANDS if name == command)
+        if module_name in _HOOKED:
+            return
+        import importlib
+
+        module = importlib.import_module(module_name)
+        original = module.emit
+
+        def emit(as_json, data, text=None):
+            sink = getattr(_LOCAL, "sink", None)
+            if sink is None:
+                return original(as_json, data, text)
+            json_out, text_out = io.StringIO(), io.StringIO()
+            _LOCAL.out = json_out
+            original(True, data)
+            _LOCAL.out = text_out
+            original(False, data, text)
+            _LOCAL.out = sink["stdout"]
+            sink["results"].append((json_out.getvalue(), text_out.getvalue()))
+
+        module.emit = emit
+        _HOOKED.add(module_name)
+
+
+def _run(argv: list[str]) -> tuple[int, str, str, list]:
+    """Run the subcommand in this thread with its own captured streams: the status, what it printed and
+    its errors, and the (JSON, text) of each result it emitted."""
     from toolkit.cli import main
 
+    _install(argv[0])
     out, err = io.StringIO(), io.StringIO()
-    with _CAPTURE, contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+    sink = {"stdout": out, "results": []}
+    _LOCAL.out, _LOCAL.err, _LOCAL.sink = out, err, sink
+    try:
         status = main(argv)
-    return status, out.getvalue(), err.getvalue()
+    finally:
+        _LOCAL.out = _LOCAL.err = _LOCAL.sink = None
+    return status, out.getvalue(), err.getvalue(), sink["results"]
 
 
 def run_page(page: Page, values: dict, units: str) -> Outcome:
-    """Compute what the form asks for with the subcommand itself: its JSON result and its text."""
+    """Compute what the form asks for with the subcommand itself, once: its JSON result and its text."""
     fields = fields_of(page)
     for f in fields:  # a choice is one of the offered values, whatever a crafted request sends
         value = str(values.get(f.name, ""))
@@ -214,11 +282,15 @@ def run_page(page: Page, values: dict, units: str) -> Outcome:
                                                      f"{', '.join(c for c in allowed if c)}"})
     argv = argv_of(page, values, units)
     outcome = Outcome(argv=argv)
-    status, out, err = _run(argv_of(page, values, units, ["--json"]))
+    status, out, err, results = _run(argv)
     if status in (0, 1):
-        outcome.data = json.loads(out)
+        if len(results) == 1:
+            json_text, text = results[0]
+        else:  # the command printed more than one result: ask it for its JSON separately
+            _s, json_text, err, _r = _run(argv_of(page, values, units, ["--json"]))
+            text = out
+        outcome.data = json.loads(json_text)
         outcome.status = status
-        _status, text, _err = _run(argv)
         outcome.text = text
         return outcome
     outcome.status = status

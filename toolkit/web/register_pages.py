@@ -14,7 +14,7 @@ from pathlib import Path
 from toolkit.web import run as RUN
 
 
-def routes(*, reg, render, form_of, need_user, out: Path, refused):
+def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None):
     from starlette.concurrency import run_in_threadpool
     from starlette.responses import FileResponse, RedirectResponse, Response
     from starlette.routing import Route
@@ -128,10 +128,37 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused):
         return rec["order_number"]
 
     def _context(values, step, errors, order, text):
+        from toolkit.web import diagrams
+
         template = _template_of(values)
+        planes = RUN.plane_names(values, template)
+        live, skipped = diagrams.live_svg(values, order, planes) if step in ("runs", "corrections") else (None, [])
         return {"values": values, "step": step, "errors": errors, "order": order, "job_text": text,
                 "fields": RUN.FIELDS, "steps": RUN.STEPS, "titles": RUN.STEP_TITLES, "types": _types(),
-                "planes": RUN.plane_names(values, template), "rotor_template": template}
+                "planes": planes, "rotor_template": template, "live_svg": live, "not_drawn": skipped,
+                "plane_svgs": diagrams.plane_svgs(order) if order is not None and step in ("corrections", "record")
+                else []}
+
+    def _diagram(values):
+        from toolkit.web import diagrams
+
+        template = _template_of(values)
+        _text, order, _errors, _v = RUN.preview(values, reg)
+        svg, skipped = diagrams.live_svg(values, order, RUN.plane_names(values, template))
+        if skipped:
+            svg += '<p class="hint">Not drawn (not yet AMOUNT UNIT@ANGLE): ' + ", ".join(
+                _escape(s) for s in skipped) + "</p>"
+        if order is None:
+            svg += '<p class="hint">Corrections are drawn once every step is complete and valid.</p>'
+        return svg
+
+    async def run_diagram(request):
+        """The live polar diagram of the fields in the query (the page's script asks for it while typing);
+        it changes nothing, so a GET."""
+        need_user(request)
+        values = {f.name: str(request.query_params.get(f.name, ""))[:2000] for f in RUN.FIELDS}
+        body = await run_in_threadpool(_diagram, values)
+        return Response(body, media_type="text/html; charset=utf-8", headers=headers)
 
     # -- jobs -----------------------------------------------------------------------------------------
 
@@ -226,6 +253,7 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused):
 
     return [
         Route("/run", run_page, methods=["GET", "POST"]),
+        Route("/run/diagram", run_diagram),
         Route("/jobs", jobs_page),
         Route("/jobs/{number}", job_page),
         Route("/jobs/{number}/check", job_check, methods=["POST"]),
@@ -239,6 +267,12 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused):
         Route("/planner/{ident}/state", batch_state),
         Route("/planner/{ident}/orders.zip", batch_zip),
     ]
+
+
+def _escape(text: str) -> str:
+    from html import escape
+
+    return escape(text, quote=True)
 
 
 def _quote(text: str) -> str:
