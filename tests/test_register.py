@@ -76,7 +76,7 @@ def test_upgrade_from_version_1_keeps_the_records(where):
     order, rec = _record(old)
     old.close()
     new = open_register(where)
-    assert new.version() == LATEST == 3
+    assert new.version() == LATEST == 4
     detail = R.job_detail(new, rec["order_number"])
     assert detail["job_sha256"] == rec["job_sha256"] and detail["status"] == "planned"
     # version 2 adds coefficient sets: usable right away

@@ -120,7 +120,8 @@ def _routes(number):
             (f"/jobs/{number}/check", {"res0": "10 g*mm@10"}, "check"),
             (f"/jobs/{number}/sign", {}, "sign"),
             (f"/jobs/{number}/status", {"status": "balanced"}, "check"),
-            (f"/jobs/{number}/status", {"status": "released"}, "release")]
+            (f"/jobs/{number}/status", {"status": "released"}, "release"),
+            (f"/jobs/{number}/trim", {"go": "record", "after": "drive-end hub=60 g@300\nfan-end rim=3 g@20"}, "check")]
 
 
 def test_every_state_changing_route_refuses_without_the_token_without_a_session_and_without_the_role(shop):
@@ -144,6 +145,7 @@ def test_every_state_changing_route_refuses_without_the_token_without_a_session_
     after = R.job_detail(reg, number)
     assert after["status_history"] == before["status_history"] and after["signoffs"] == before["signoffs"]
     assert after["check_runs"] == before["check_runs"] and len(R.list_jobs(reg)) == jobs_before
+    assert after["trims"] == before["trims"] == []
 
 
 @pytest.mark.parametrize("crafted", ["..%2F..%2Fregister.sqlite3", "%2E%2E%2Fregister.sqlite3", "register.sqlite3",

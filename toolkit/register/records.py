@@ -22,7 +22,7 @@ __all__ = ["STATUSES", "TRANSITIONS", "ROLES", "save_type", "change_template", "
            "list_types", "type_info", "template",
            "compose_job", "record_job", "store_order", "add_files", "list_jobs", "job_detail", "set_status", "record_check",
            "record_signoff", "record_marks", "store_coefficients", "coefficient_history", "latest_coefficients",
-           "trim_coefficients", "stale_warnings", "sha256_text", "toml_text"]
+           "trim_coefficients", "record_trim", "stale_warnings", "sha256_text", "toml_text"]
 
 STATUSES = ("planned", "balanced", "checked", "released", "rework")
 #: Allowed status changes. "rework" sends a rotor back to be corrected again.
@@ -533,7 +533,7 @@ def job_detail(reg: Register, number: str, conn=None) -> dict:
     from sqlalchemy import select
 
     from toolkit.register.schema import (check_runs, job_files, job_status, operation_marks, rotor_types, signoffs,
-                                         type_versions)
+                                         trim_runs, type_versions)
 
     def get(c):
         job = _job_row(c, number)
@@ -564,6 +564,7 @@ def job_detail(reg: Register, number: str, conn=None) -> dict:
             "operation_marks": strip(rows(operation_marks, operation_marks.c.id)),
             "signoffs": strip(rows(signoffs, signoffs.c.id)),
             "files": strip(rows(job_files, job_files.c.id)),
+            "trims": [{**t, "data": json.loads(t["data"])} for t in strip(rows(trim_runs, trim_runs.c.id))],
         }
 
     if conn is not None:
@@ -714,6 +715,28 @@ def record_signoff(reg: Register, number: str, role: str, name: str, *, signed: 
         return run(conn)
     with reg.write() as c:
         return run(c)
+
+
+def record_trim(reg: Register, number: str, kind: str, data: dict, *, by: str = "", source: str = "command") -> dict:
+    """Record a trim run against job ``number`` as a new row (its step is one more than the job's last):
+    ``kind`` coefficients or machine, ``data`` what was measured and worked out (JSON-able)."""
+    from sqlalchemy import func, select
+
+    from toolkit.register.schema import trim_runs
+
+    if kind not in ("coefficients", "machine"):
+        raise BadInput(f"trim: kind {kind!r} is not coefficients or machine")
+    text = _text(_JSON.encode(data), "trim data", MAX_TEXT)
+    with reg.write() as conn:
+        job = _job_row(conn, number)
+        if job["status"] == "released":
+            raise BadInput(f"order {number}: released is final; a further correction is a new job")
+        last = conn.execute(select(func.max(trim_runs.c.step)).where(trim_runs.c.job_id == job["id"])).scalar()
+        step = int(last or 0) + 1
+        when = now()
+        conn.execute(trim_runs.insert().values(job_id=job["id"], step=step, kind=kind, data=text, at=when,
+                                               by=_by(by), source=source))
+    return {"order_number": number, "step": step, "kind": kind, "at": when}
 
 
 def record_marks(conn, job, marks: dict[int, tuple[str, str]], source: str) -> list[dict]:

@@ -179,6 +179,20 @@ accounts = Table(
     Column("changed", Text, nullable=False),       # last password or role change
 )
 
+# -- version 4 -----------------------------------------------------------------------------------------
+
+trim_runs = Table(
+    "trim_runs", metadata,
+    Column("id", Integer, primary_key=True),
+    Column("job_id", Integer, ForeignKey("jobs.id"), nullable=False),
+    Column("step", Integer, nullable=False),       # 1 for the first trim of the job, 2 for the next, ...
+    Column("kind", Text, nullable=False),          # coefficients (trial-run job) or machine (machine readings)
+    Column("data", Text, nullable=False),          # JSON: before, installed, after, trim correction, residual
+    Column("at", Text, nullable=False),
+    Column("by", Text, nullable=False),
+    Column("source", Text, nullable=False),
+)
+
 _V1 = (settings, counters, rotor_types, type_versions, jobs, job_planes, job_files, job_status, check_runs,
        operation_marks, signoffs)
 _V1_INDEXES = (
@@ -197,6 +211,10 @@ _V1_INDEXES = (
 )
 _V2_INDEXES = (
     Index("ix_coefficient_sets_type", coefficient_sets.c.type_id),
+)
+
+_V4_INDEXES = (
+    Index("ix_trim_runs_job", trim_runs.c.job_id),
 )
 
 
@@ -219,14 +237,19 @@ def _migrate_3(conn) -> None:
     _create(conn, (accounts,))
 
 
+def _migrate_4(conn) -> None:
+    _create(conn, (trim_runs,), _V4_INDEXES)
+
+
 #: (version, what it does, function) in order; the newest version is the last.
 MIGRATIONS = (
     (1, "rotor types, jobs, check runs, sign-offs, order numbers", _migrate_1),
     (2, "influence coefficients per rotor type with trim history", _migrate_2),
     (3, "accounts of the browser face (names, roles, password hashes)", _migrate_3),
+    (4, "trim runs recorded against a job", _migrate_4),
 )
 LATEST = MIGRATIONS[-1][0]
 #: Tables in the order an export writes them (parents before children). ``accounts`` is not among them: an
 #: export never carries password hashes; accounts are made again on the new register.
 TABLES = (settings, counters, rotor_types, type_versions, jobs, job_planes, job_files, job_status, check_runs,
-          operation_marks, signoffs, coefficient_sets)
+          operation_marks, signoffs, coefficient_sets, trim_runs)

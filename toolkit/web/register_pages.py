@@ -219,6 +219,43 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
                           files=[Path(f["path"]).name for f in d["files"]], error=str(exc))
         return RedirectResponse(f"/jobs/{_quote(number)}?done=recorded", status_code=303)
 
+    # -- trim runs (the guided run's last step, against a recorded job) --------------------------------
+
+    def _trim_context(d, values, result=None, errors=None):
+        from toolkit.web import trim as TRIM
+
+        b = TRIM.basis(d)
+        return {"job": d, "basis": b, "values": values if values is not None else b["values"], "result": result,
+                "errors": errors or {}, "trim_fields": TRIM.TRIM_FIELDS, "titles": RUN.STEP_TITLES,
+                "steps": RUN.STEPS}
+
+    async def trim_page(request):
+        """A trim run of a recorded job: compute (anyone who may compute), record (who may enter a check run);
+        every field comes back with the page, so nothing typed is lost."""
+        from toolkit.web import trim as TRIM
+
+        number = request.path_params["number"]
+        if request.method == "GET":
+            need_user(request)
+            d = await run_in_threadpool(_detail, number)
+            return render(request, "trim.html", **await run_in_threadpool(_trim_context, d, None))
+        form = await form_of(request)
+        go = str(form.get("go", "compute"))
+        user = need_user(request, "check" if go == "record" else None)
+        d = await run_in_threadpool(_detail, number)
+        values = {name: str(form.get(name, ""))[:4000] for name, _l, _h in TRIM.TRIM_FIELDS}
+        result, errors = await run_in_threadpool(TRIM.compute, d, values)
+        if errors or go != "record":
+            return render(request, "trim.html", 422 if errors else 200,
+                          **await run_in_threadpool(_trim_context, d, values, result, errors))
+        try:
+            await run_in_threadpool(R.record_trim, reg, number, result["kind"], result, by=user["name"],
+                                    source="browser")
+        except CounterpoiseError as exc:
+            return render(request, "trim.html", 422, **await run_in_threadpool(
+                _trim_context, d, values, result, {"": str(exc)}))
+        return RedirectResponse(f"/jobs/{_quote(number)}?done=trim", status_code=303)
+
     async def job_file(request):
         need_user(request)
         number, name = request.path_params["number"], request.path_params["name"]
@@ -259,6 +296,7 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
         Route("/jobs/{number}/check", job_check, methods=["POST"]),
         Route("/jobs/{number}/sign", job_sign, methods=["POST"]),
         Route("/jobs/{number}/status", job_status, methods=["POST"]),
+        Route("/jobs/{number}/trim", trim_page, methods=["GET", "POST"]),
         Route("/jobs/{number}/files/{name}", job_file),
         Route("/jobs/{number}/certificate.pdf", certificate),
         Route("/types", types_page),

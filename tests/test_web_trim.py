@@ -1,0 +1,142 @@
+"""The trim run of the guided balancing run: a recorded job corrected once more, recorded against the same
+job as a new row each time; the page's numbers equal the command line's ``solve --coefficients ...
+--installed ... --after`` and the work-order chain's.
+
+Behaviour checks only: the readings are invented and every expected value comes from the toolkit's own
+command line or library, so none needs a source.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from html import unescape
+
+import pytest
+
+from toolkit.cli import main
+from toolkit.errors import BadInput
+from toolkit.register import records as R
+from tests.test_web_register import _client, shop  # noqa: F401  (the fixture)
+from toolkit.web.run import example_values
+
+RUNS = {"kind": "runs", "sensors": "near\nfar", "original": "4.2 mm/s@285\n3.1 mm/s@40",
+        "trial1": "drive-end hub=25 g@0", "readings1": "6.1 mm/s@250\n3.5 mm/s@60",
+        "trial2": "fan-end rim=25 g@90", "readings2": "5.0 mm/s@270\n5.5 mm/s@100"}
+
+
+def _record(app, **changes) -> str:
+    client, token = _client(app, "operator")
+    done = client.post("/run", data={"csrf": token, "step": "record", "go": "record", **(example_values() | changes)})
+    assert done.status_code == 303, done.text[:2000]
+    return done.headers["location"].rsplit("/", 1)[1]
+
+
+def _fields(text: str) -> dict:
+    return {k: unescape(v) for k, v in re.findall(r'<textarea[^>]*name="(before|installed|after)"[^>]*>([^<]*)', text)}
+
+
+def test_a_machine_job_is_trimmed_twice_and_each_trim_is_a_new_row(shop):
+    reg, app, _out = shop
+    number = _record(app)
+    client, token = _client(app, "operator")
+    page = client.get(f"/jobs/{number}")
+    assert f"/jobs/{number}/trim" in page.text and "No trim run yet" in page.text
+    start = client.get(f"/jobs/{number}/trim")
+    assert start.status_code == 200 and "balancing machine" in start.text
+    after = "drive-end hub=60 g@300\nfan-end rim=3 g@20"
+    shown = client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "compute", **_fields(start.text),
+                                                      "after": after})
+    assert shown.status_code == 200 and _fields(shown.text)["after"] == after  # nothing typed is lost
+    assert R.job_detail(reg, number)["trims"] == []                             # computing records nothing
+    done = client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "record", "after": after})
+    assert done.status_code == 303 and done.headers["location"].endswith("done=trim")
+    trims = R.job_detail(reg, number)["trims"]
+    assert [t["step"] for t in trims] == [1] and trims[0]["by"] == "operator" and trims[0]["source"] == "browser"
+    hub = trims[0]["data"]["planes"][0]
+    # the same chain as a job with these readings: 60 g at the hub's 160 mm radius, heavy spot at 300°
+    assert hub["after_g_mm"] == pytest.approx(60 * 160) and not hub["after_within"]
+    assert hub["action"] == "remove" and hub["correction_deg"] == pytest.approx(300)
+    assert hub["passed"] and hub["predicted_g_mm"] < hub["limit_g_mm"]
+    # the next trim starts from this one's readings; the first stays as it was
+    second = client.get(f"/jobs/{number}/trim")
+    assert "Trim run 2" in second.text and _fields(second.text)["before"] == after
+    assert client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "record",
+                                                     "after": "drive-end hub=2 g@10\nfan-end rim=1 g@20"}).status_code == 303
+    again = R.job_detail(reg, number)["trims"]
+    assert [t["step"] for t in again] == [1, 2] and again[0] == trims[0]
+    assert "Trim 2" in client.get(f"/jobs/{number}").text
+
+
+def test_a_trial_run_job_trim_equals_the_command_line(shop, tmp_path, capsys):
+    reg, app, _out = shop
+    number = _record(app, **RUNS)
+    client, token = _client(app, "operator")
+    start = _fields(client.get(f"/jobs/{number}/trim").text)
+    assert start["before"] == "4.2 mm/s@285\n3.1 mm/s@40" and start["installed"].startswith("fan-end rim=")
+    after = "0.9 mm/s@100\n0.7 mm/s@200"
+    page = client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "record", **start, "after": after})
+    assert page.status_code == 303
+    trim = R.job_detail(reg, number)["trims"][0]["data"]
+    # the command line from the job's own runs: save its coefficients, then the trim with the same readings
+    job = tmp_path / "job.toml"
+    job.write_text(R.job_detail(reg, number)["job_text"], encoding="utf-8")
+    runs = tmp_path / "runs.toml"
+    from toolkit.register.records import toml_text
+    from toolkit.workorder.job import parse_job
+
+    m = parse_job(job.read_text(), "job").measurement
+    runs.write_text(toml_text(dict(m.runs)), encoding="utf-8")  # the job's runs as a runs file
+    coefficients = tmp_path / "c.json"
+    assert main(["solve", str(runs), "--save-coefficients", str(coefficients), "--json"]) == 0
+    capsys.readouterr()
+    argv = ["solve", "--coefficients", str(coefficients), "--json"]
+    for line in start["before"].splitlines():
+        argv += ["--original", line]
+    for line in start["installed"].splitlines():
+        argv += ["--installed", line]
+    for line in after.splitlines():
+        argv += ["--after", line]
+    assert main(argv) == 0
+    cli = json.loads(capsys.readouterr().out)["trim"]["corrections"]
+    assert [c["plane"] for c in cli] == [c["plane"] for c in trim["corrections"]]
+    for mine, theirs in zip(trim["corrections"], cli):
+        assert mine["action"] == theirs["action"]
+        assert mine["mass_g"] == pytest.approx(theirs["mass_g"], rel=1e-6)
+        assert mine["angle_deg"] == pytest.approx(theirs["angle_deg"], abs=1e-4)
+    # the second trim starts from the first's coefficients, readings and correction
+    second = _fields(client.get(f"/jobs/{number}/trim").text)
+    assert second["before"] == after and second["installed"] == "\n".join(trim["trim_installed"])
+
+
+def test_a_bad_reading_stays_beside_its_field_with_what_was_typed(shop):
+    reg, app, _out = shop
+    number = _record(app, **RUNS)
+    client, token = _client(app, "operator")
+    start = _fields(client.get(f"/jobs/{number}/trim").text)
+    bad = client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "record", **start,
+                                                    "after": "0.9 mm/s@100\n0.7@200"})
+    assert bad.status_code == 422 and re.search(r'id="err-after"[^>]*>line 2: [^<]*no unit', bad.text)
+    assert _fields(bad.text) == {**start, "after": "0.9 mm/s@100\n0.7@200"}
+    wrong = client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "compute", **start,
+                                                      "installed": "no such plane=3 g@10", "after": "1 mm/s@1\n1 mm/s@2"})
+    assert wrong.status_code == 422 and re.search(r'id="err-installed"[^>]*>[^<]*unknown plane', wrong.text)
+    assert R.job_detail(reg, number)["trims"] == []
+
+
+def test_a_released_job_takes_no_trim(shop):
+    reg, app, _out = shop
+    number = _record(app)
+    R.set_status(reg, number, "balanced")
+    planes = R.job_detail(reg, number)["workorder"]["planes"]
+    R.record_check(reg, number, residuals={p["name"]: "1 g*mm@0" for p in planes})
+    R.set_status(reg, number, "checked")
+    R.record_signoff(reg, number, "inspector", "inspector")
+    R.set_status(reg, number, "released")
+    with pytest.raises(BadInput, match="released is final"):
+        R.record_trim(reg, number, "machine", {})
+    client, token = _client(app, "operator")
+    refused = client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "record",
+                                                        "after": "drive-end hub=60 g@300\nfan-end rim=3 g@20"})
+    assert refused.status_code == 422 and "released is final" in refused.text
+    assert R.job_detail(reg, number)["trims"] == []
