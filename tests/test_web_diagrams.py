@@ -162,3 +162,28 @@ def test_a_coefficient_warning_is_shown(client):
     assert page.status_code == 200
     assert "Warning (trial runs): trial effect too small in run &#39;trial run 2&#39;" in page.text
     assert "Warning (trial runs): ill-conditioned planes: condition number 64.5" in page.text
+
+
+@pytest.mark.parametrize("readings, unit", [({}, "g"), ({"p1_reading": "15440 g*mm@112", "p2_reading": "50310 g*mm@251"},
+                                                         "g*mm")])
+def test_the_live_diagram_draws_corrections_and_allowances_in_the_readings_unit(client, readings, unit):
+    from toolkit.units import format_number
+    from toolkit.web.run import preview
+
+    values = example_values() | readings
+    _text, order, errors, _v = preview(values)
+    assert not errors
+    page = client.post("/run", data={"csrf": _token(client, "/run"), "step": "runs", "go": "next", **values})
+    live, *planes = _svgs(page.text)
+    words = _texts(live)
+    radius = {"g": lambda p: p.radius_mm, "g*mm": lambda p: 1.0}[unit]
+    for p in order.planes:  # one scale: the correction and the allowance in the unit the reading was typed in
+        assert f"correction {p.correction_action} {format_number(p.correction_g_mm / radius(p), 4)} {unit} at" \
+            in " ".join(words.split())
+        assert f"plane {p.name}: allowance circle {format_number(p.limit / radius(p), 4)} {unit}" in words
+    assert ("g·mm" in words) is False and words.count("Scale: the rotor outline stands for") == 1
+    assert "; " not in words.split("Scale: the rotor outline stands for", 1)[1].split(".", 1)[0]
+    for svg in [live, *planes]:  # the angle sense on every polar diagram
+        assert "counted against rotation" in _texts(svg)
+    for svg, p in zip(planes, order.planes):  # each plane's own diagram: its allowance circle, value and unit
+        assert f"allowance circle {format_number(p.limit, 4)} g·mm" in _texts(svg)

@@ -79,11 +79,34 @@ def run_vectors(values: dict, order=None, planes=()) -> tuple[list[dict], list[s
             for k, text in enumerate(_lines(values.get(f"readings{n}"))):
                 put(f"trial run {n}, {sensors[k] if k < len(sensors) else f'sensor {k + 1}'}", text, "reading")
     if order is not None:
-        for p in order.planes:
-            vectors.append({"label": f"plane {p.name}", "amount": float(p.correction_g_mm), "unit": "g·mm",
+        for n, p in enumerate(order.planes, start=1):
+            # the correction and the allowance in the unit the plane's reading was typed in (a mass at the
+            # correction radius or an unbalance), else as a mass at the radius like the trial masses
+            typed = _vector(values.get(f"p{n}_reading", "")) if values.get("kind", "machine") == "machine" else None
+            unit, factor = _unit_of(typed[1] if typed else "g", p.radius_mm)
+            vectors.append({"label": f"plane {p.name}", "amount": float(p.correction_g_mm) * factor, "unit": unit,
                             "angle_deg": float(p.correction_deg), "role": "correction",
                             "action": p.correction_action})
+            if p.limit and p.limit > 0:
+                vectors.append({"label": f"plane {p.name}", "amount": float(p.limit) * factor, "unit": unit,
+                                "angle_deg": 0.0, "role": "allowance"})
     return vectors, skipped
+
+
+def _unit_of(unit_text: str, radius_mm: float) -> tuple[str, float]:
+    """The unit to draw a plane's correction in (as the reading was typed: a mass at the correction radius
+    or an unbalance) and the factor from g·mm to it; g (a mass at the radius) when the text is neither."""
+    from toolkit.errors import BadInput
+    from toolkit.units import quantity
+
+    for kind, base in (("mass", "g"), ("unbalance", "g*mm")):
+        try:
+            one = quantity(f"1 {unit_text}", kind)
+        except BadInput:
+            continue
+        per = one.m_as(base) * (radius_mm if kind == "mass" else 1.0)  # g·mm of one unit
+        return unit_text, 1.0 / per
+    return "g", 1.0 / radius_mm
 
 
 def live_svg(values: dict, order=None, planes=()) -> tuple[str, list[str]]:
