@@ -283,6 +283,72 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
         return Response(pdf, media_type="application/pdf", headers={
             "content-disposition": f'attachment; filename="{safe_filename(number)}-certificate.pdf"'})
 
+    # -- series statistics ----------------------------------------------------------------------------
+
+    _STATS_FIELDS = ("type", "since", "until", "status")
+
+    def _stats(query) -> tuple[dict, dict | None, dict]:
+        """The selection typed (kept as typed), the statistics, and problems by field."""
+        from toolkit.register.reports import series_statistics
+
+        chosen = {k: str(query.get(k, "") or "").strip()[:200] for k in _STATS_FIELDS}
+        try:
+            stats = series_statistics(reg, type_name=chosen["type"] or None, status=chosen["status"] or None,
+                                      since=chosen["since"] or None, until=chosen["until"] or None)
+        except CounterpoiseError as exc:
+            text = str(exc)
+            field = next((k for k in ("since", "until", "status") if text.startswith(k + ":")), "type")
+            return chosen, None, {field: text}
+        return chosen, stats, {}
+
+    def _stats_page(query) -> dict:
+        from toolkit.web import charts
+
+        chosen, stats, errors = _stats(query)
+        figures = []
+        if stats is not None:
+            for p in stats["planes"]:
+                points = [(pt["g_mm"], pt["deg"]) for pt in p["scatter"]]
+                allowance = p["allowance_max_g_mm"]
+                figures.append({
+                    "plane": p,
+                    "scatter": charts.chart_svg(charts.scatter_layout(plane=p["plane"], points=points,
+                                                                      allowance_g_mm=allowance),
+                                                f"Plane {p['plane']}: as found, polar"),
+                    "histogram": charts.chart_svg(charts.histogram_layout(
+                        plane=p["plane"], counts=p["histogram"]["counts"],
+                        bin_width_g_mm=p["histogram"]["bin_width_g_mm"], allowance_g_mm=allowance),
+                        f"Plane {p['plane']}: as found, histogram")})
+        trend = (charts.chart_svg(charts.trend_layout(months=stats["trend"]), "As found per month")
+                 if stats is not None and stats["trend"] else None)
+        from urllib.parse import urlencode
+
+        return {"chosen": chosen, "stats": stats, "errors": errors, "figures": figures, "trend": trend,
+                "types": _types(), "statuses": R.STATUSES,
+                "query": urlencode({k: v for k, v in chosen.items() if v})}
+
+    async def stats_page(request):
+        need_user(request)
+        context = await run_in_threadpool(_stats_page, request.query_params)
+        return render(request, "stats.html", 422 if context["errors"] else 200, **context)
+
+    async def stats_file(request):
+        need_user(request)
+        kind = request.path_params["kind"]
+        from toolkit.register.reports import stats_pdf, stats_xlsx
+
+        maker, media = {"pdf": (stats_pdf, "application/pdf"),
+                        "xlsx": (stats_xlsx, "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet")
+                        }.get(kind, (None, None))
+        if maker is None:
+            raise refused(404, "the statistics come as pdf or xlsx")
+        _chosen, stats, errors = await run_in_threadpool(_stats, request.query_params)
+        if errors:
+            raise refused(422, " ".join(errors.values()))
+        data = await run_in_threadpool(maker, stats)
+        return Response(data, media_type=media, headers={
+            "content-disposition": f'attachment; filename="register-statistics.{kind}"'})
+
     async def types_page(request):
         need_user(request)
         rows = await run_in_threadpool(R.list_types, reg)
@@ -300,6 +366,8 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
         Route("/jobs/{number}/files/{name}", job_file),
         Route("/jobs/{number}/certificate.pdf", certificate),
         Route("/types", types_page),
+        Route("/stats", stats_page),
+        Route("/stats/register-statistics.{kind}", stats_file),
         Route("/planner", planner_page, methods=["GET", "POST"]),
         Route("/planner/{ident}", batch_page),
         Route("/planner/{ident}/state", batch_state),
