@@ -96,6 +96,9 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
     env = Environment(loader=FileSystemLoader(str(_HERE / "templates")), autoescape=select_autoescape(["html"]),
                       trim_blocks=True, lstrip_blocks=True)
     env.filters["num"] = _num
+    from toolkit.web.groups import form_groups
+
+    env.globals["form_groups"] = form_groups
     from toolkit.web.diagrams import style_hash
 
     headers = dict(_SECURITY_HEADERS)  # the diagrams' own style element is allowed by its hash, no other
