@@ -221,3 +221,58 @@ def test_diagrams_draw_in_the_browser_with_their_fonts_and_redraw_while_typing(s
     assert "correction remove" in page.evaluate(drawn) or "correction add" in page.evaluate(drawn)
     _shot(page, tmp_path, "run-plane-diagrams")
     assert refused == []
+
+
+def test_a_failed_check_run_leads_to_a_trim_recorded_against_the_same_job(server, page, tmp_path):
+    base, reg, _folder = server
+    _sign_in(page, base, "olga", "/run")
+    for _step in range(4):                          # rotor -> angles -> readings -> corrections -> record
+        page.click("button:has-text('Next')")
+    page.click("button:has-text('Record the job')")
+    page.wait_for_url(f"{base}/jobs/**")
+    number = page.url.rsplit("/", 1)[1]
+    R.set_status(reg, number, "balanced")
+    planes = R.job_detail(reg, number)["workorder"]["planes"]
+    page.reload()
+    page.fill("#res0", f"{2 * planes[0]['limit_g_mm']:.0f} g*mm@300")   # not within the limit
+    page.fill("#res1", "100 g*mm@20")
+    page.click("button:has-text('Record the check run')")
+    page.wait_for_url(f"{base}/jobs/{number}?done=recorded")
+    assert "is not within the limit" in page.inner_text(".trims")
+    page.click("a:has-text('Start trim run 1')")
+    page.wait_for_url(f"{base}/jobs/{number}/trim")
+    page.fill("#t-after", "drive-end hub=60 g@300\nfan-end rim=3 g")  # no angle: refused beside the field
+    page.click("button:has-text('Work out the trim')")
+    assert page.is_visible("#err-after") and page.input_value("#t-after").endswith("rim=3 g")
+    _shot(page, tmp_path, "trim-error")
+    page.fill("#t-after", "drive-end hub=60 g@300\nfan-end rim=3 g@20")
+    page.click("button:has-text('Work out the trim')")
+    result = page.inner_text("#trim-result")
+    assert "REMOVE" in result and "NOT within" in result and "predicted residual" in result.lower()
+    assert page.input_value("#t-after") == "drive-end hub=60 g@300\nfan-end rim=3 g@20"  # kept
+    _shot(page, tmp_path, "trim")
+    page.click("button:has-text('Record this trim')")
+    page.wait_for_url(f"{base}/jobs/{number}?done=trim")
+    assert "Trim 1" in page.inner_text(".trims")
+    _shot(page, tmp_path, "job-after-trim")
+    assert [t["step"] for t in R.job_detail(reg, number)["trims"]] == [1]
+
+
+def test_series_statistics_and_the_folded_tolerance_options(server, page, tmp_path):
+    base, _reg, _folder = server
+    _sign_in(page, base, "olga", "/jobs")
+    page.click("a:has-text('series statistics of these jobs')")
+    page.wait_for_url(f"{base}/stats")
+    assert page.locator("figure.diagram svg").count() >= 3
+    assert "first-pass yield" in page.inner_text("#series")
+    _shot(page, tmp_path, "stats")
+    page.goto(f"{base}/tolerance")
+    assert page.locator("details.more[open]").count() == 0
+    assert not page.is_visible("#f-residual")
+    _shot(page, tmp_path, "tolerance-folded")
+    page.click("summary:has-text('Check a measured residual')")
+    page.fill("#f-residual", "I=850 parsecs")
+    page.click("button:has-text('Compute')")
+    assert page.is_visible("#err-residual") and page.input_value("#f-residual") == "I=850 parsecs"
+    assert page.locator("details.more[open]").count() == 1  # only the group with the problem opens
+    _shot(page, tmp_path, "tolerance-group-error")

@@ -50,7 +50,9 @@ def test_the_common_case_comes_first_and_the_rest_folds_away(client):
 
 
 def test_a_problem_in_a_group_opens_it_with_the_message_beside_the_field(client):
-    page = client.post("/tolerance", data={"csrf": _token(client), **BASE, "residual": "I=850 parsecs"})
+    # as a browser sends it: every choice with its default selected
+    page = client.post("/tolerance", data={"csrf": _token(client), **BASE, "one_plane_rule": "whole",
+                                           "check_stage": "after-balancing", "residual": "I=850 parsecs"})
     assert page.status_code == 422
     (alloc_open, _a), (check_open, body) = _details(page.text)
     assert check_open and not alloc_open

@@ -120,7 +120,7 @@ def histogram_layout(*, plane: str, counts, bin_width_g_mm: float, allowance_g_m
     ystep = max(1.0, math.ceil(nice_step(high)))
     ytop = ystep * math.ceil(high / ystep)
     ynums = [ystep * k for k in range(int(round(ytop / ystep)) + 1)]
-    left_w = max(pdfpage.width(_number(v), "regular", _SIZE) for v in ynums) + 6
+    left_w = max(pdfpage.width(str(int(v)), "regular", _SIZE) for v in ynums) + 6  # rotors: whole numbers
     px0, px1 = x0 + left_w + 4, x0 + width - 4
     row = _SIZE * dia.LINE + 2
     ptop = title.box.y0 - 6 - row  # a row for the allowance's name
@@ -136,7 +136,7 @@ def histogram_layout(*, plane: str, counts, bin_width_g_mm: float, allowance_g_m
     for v in ynums:
         y = pbot + height * v / ytop
         out.lines.append(dia.Line(((px0 - 3, y), (px0, y)), "ink", 0.5, "tick"))
-        out.texts.append(_label((_number(v),), px0 - 5, y - _SIZE * 0.35, "right", "muted", "axis-number"))
+        out.texts.append(_label((str(int(v)),), px0 - 5, y - _SIZE * 0.35, "right", "muted", "axis-number"))
     bar_w = (px1 - px0) / max(len(counts), 1)
     for k, c in enumerate(counts):
         if c:

@@ -32,7 +32,13 @@ def form_groups(slug: str, fields, values: dict, example: dict, errors: dict) ->
         members = [f for f in fields if f.name in names]
         if not members:
             continue
-        opened = any(f.name in errors or str(values.get(f.name, "") or "").strip()
-                     != str(example.get(f.name, "") or "").strip() for f in members)
+        opened = any(f.name in errors or _own(f, values, example) for f in members)
         out.append({"title": title, "note": note, "fields": members, "open": opened})
     return common, out
+
+
+def _own(f, values: dict, example: dict) -> bool:
+    """Whether field ``f`` holds a value of the person's own: neither empty, nor the example's, nor the
+    option's default (a choice is always sent with its default selected)."""
+    value = str(values.get(f.name, "") or "").strip()
+    return value not in ("", str(example.get(f.name, "") or "").strip(), str(getattr(f, "default", "") or "").strip())

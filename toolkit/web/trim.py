@@ -25,9 +25,7 @@ TRIM_FIELDS = (
      "PLANE=MASS@ANGLE, one per line, the mass added at the angle (a removal: the mass at the angle + 180°); "
      "include a trial mass left on"),
     ("after", "readings after the correction",
-     "trial-run job: one per sensor, e.g. 0.8 mm/s@120; machine readings: one per plane, heavy spot AMOUNT@ANGLE, "
-     "e.g. 4.1 g@300"),
-)
+     "one per sensor, as the instrument shows them, e.g. 0.8 mm/s@120"),)
 
 
 def _lines(text) -> list[str]:
@@ -77,7 +75,7 @@ def basis(detail: dict) -> dict:
     kind = "coefficients" if (wo.get("field_record") or {}) else "machine"
     if kind == "machine":
         last = trims[-1]["data"] if trims else None
-        before = last["after"] if last else [f"{p['name']}={_vec(p['initial_g_mm'], p['initial_deg'], 'g*mm')}"
+        before = last["after"] if last else [f"{p['name']}={_vec(p['initial_g_mm'], p['initial_deg'], 'g·mm')}"
                                              for p in wo["planes"]]
         return {"kind": kind, "step": step, "names": planes, "values": {"before": "\n".join(before),
                 "installed": "", "after": ""}, "coefficients": None}
