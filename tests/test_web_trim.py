@@ -140,3 +140,18 @@ def test_a_released_job_takes_no_trim(shop):
                                                         "after": "drive-end hub=60 g@300\nfan-end rim=3 g@20"})
     assert refused.status_code == 422 and "released is final" in refused.text
     assert R.job_detail(reg, number)["trims"] == []
+
+
+def test_a_failed_check_run_points_to_the_trim_until_a_trim_is_recorded(shop):
+    reg, app, _out = shop
+    number = _record(app)
+    client, token = _client(app, "operator")
+    R.set_status(reg, number, "balanced")
+    planes = R.job_detail(reg, number)["workorder"]["planes"]
+    R.record_check(reg, number, residuals={planes[0]["name"]: f"{2 * planes[0]['limit_g_mm']} g*mm@300"})
+    assert "is not within the limit: a trim run corrects the same job again" in client.get(f"/jobs/{number}").text
+    assert client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "record",
+                                                     "after": "drive-end hub=60 g@300\nfan-end rim=3 g@20"}
+                       ).status_code == 303
+    page = client.get(f"/jobs/{number}").text
+    assert "is not within the limit" not in page and "Start trim run 2" in page
