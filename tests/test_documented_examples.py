@@ -1,4 +1,4 @@
-"""Every command shown with its output in README.md and docs/tour-*.md is re-run here and compared.
+"""Every command shown with its output in README.md, docs/tour-*.md and docs/web.md is re-run here and compared.
 
 A documented example is a fenced code block whose lines start with ``$ counterpoise ...``; the lines after a
 command, up to the next ``$`` line or the end of the block, are its expected output (stdout and stderr as a
@@ -36,7 +36,7 @@ import pytest
 from toolkit.cli import main
 
 ROOT = Path(__file__).resolve().parents[1]
-PAGES = [ROOT / "README.md", *sorted((ROOT / "docs").glob("tour-*.md"))]
+PAGES = [ROOT / "README.md", *sorted((ROOT / "docs").glob("tour-*.md")), ROOT / "docs" / "web.md"]
 TIMED = ("python benchmarks/",)  # re-measured by hand, never compared in a test
 
 _DATE = re.compile(r"\b\d{4}-\d{2}-\d{2}\b")

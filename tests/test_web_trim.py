@@ -155,3 +155,27 @@ def test_a_failed_check_run_points_to_the_trim_until_a_trim_is_recorded(shop):
                        ).status_code == 303
     page = client.get(f"/jobs/{number}").text
     assert "is not within the limit" not in page and "Start trim run 2" in page
+
+
+def test_a_job_of_stored_coefficients_trims_from_that_file_and_says_so_when_it_is_gone(shop, tmp_path):
+    from tests.test_build import job_text
+    from toolkit.coefficients import coefficients_from, save_coefficients
+    from toolkit.influence import solve_one_plane
+
+    reg, app, _out = shop
+    stored = tmp_path / "c.json"
+    save_coefficients(coefficients_from(solve_one_plane("4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49",
+                                                        radius="200 mm")), stored)
+    text = job_text(planes=(("plane", "250 mm", "200 mm", "drill", ""),), com="250 mm",
+                    measurement=f'[measurement]\nkind = "coefficients"\ncoefficients = "{stored.as_posix()}"\n'
+                                'original = ["4.20 mm/s@285"]\n')
+    _order, rec = R.record_job(reg, text)
+    number = rec["order_number"]
+    client, token = _client(app, "operator")
+    start = _fields(client.get(f"/jobs/{number}/trim").text)
+    assert start["before"] == "4.20 mm/s@285" and start["installed"].startswith("plane=")
+    done = client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "compute", **start, "after": "0.5 mm/s@100"})
+    assert done.status_code == 200 and 'id="trim-result"' in done.text
+    stored.unlink()
+    gone = client.get(f"/jobs/{number}/trim")
+    assert gone.status_code == 409 and "no trim run can start from it here" in gone.text

@@ -224,7 +224,10 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
     def _trim_context(d, values, result=None, errors=None):
         from toolkit.web import trim as TRIM
 
-        b = TRIM.basis(d)
+        try:
+            b = TRIM.basis(d)
+        except CounterpoiseError as exc:
+            raise refused(409, f"job {d['order_number']}: no trim run can start from it here: {exc}") from None
         return {"job": d, "basis": b, "values": values if values is not None else b["values"], "result": result,
                 "errors": errors or {}, "trim_fields": TRIM.TRIM_FIELDS, "titles": RUN.STEP_TITLES,
                 "steps": RUN.STEPS}

@@ -65,7 +65,8 @@ def _job(detail: dict):
 def basis(detail: dict) -> dict:
     """What a new trim of the job ``detail`` (:func:`toolkit.register.records.job_detail`) starts from:
     ``kind`` (coefficients or machine), the sensor or plane names, the prefilled fields, the coefficients
-    (their data) for a trial-run job, and the step number."""
+    (their data) for a trial-run job, and the step number. A job whose inputs can no longer be read (a
+    coefficients file that is gone) raises :class:`~toolkit.errors.BadInput`."""
     import cmath
 
     wo = detail["workorder"]
@@ -90,10 +91,16 @@ def basis(detail: dict) -> dict:
 
         job = _job(detail)
         m = job.measurement
-        runset = runs_from_dict(dict(m.runs), f"job {detail['order_number']} [measurement]")
-        solution = solve_runs(runset, settings=Settings(**m.thresholds))
-        coefficients = _coefficients_data(coefficients_from(solution, note=f"job {detail['order_number']}"))
-        before = list(m.raw["run"][0]["readings"])
+        if m.kind == "coefficients":  # a job solved from a stored coefficients file: those, and its original run
+            from toolkit.coefficients import load_coefficients
+
+            coefficients = _coefficients_data(load_coefficients(m.coefficients))
+            before = list(m.original)
+        else:
+            runset = runs_from_dict(dict(m.runs), f"job {detail['order_number']} [measurement]")
+            solution = solve_runs(runset, settings=Settings(**m.thresholds))
+            coefficients = _coefficients_data(coefficients_from(solution, note=f"job {detail['order_number']}"))
+            before = list(m.raw["run"][0]["readings"])
         installed = []
         for p in wo["planes"]:  # the planned operations' effect, as a mass at the plane's correction radius
             z = sum((cmath.rect(op["unbalance_g_mm"] * (1 if op["action"] == "add" else -1),
