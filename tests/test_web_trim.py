@@ -179,3 +179,17 @@ def test_a_job_of_stored_coefficients_trims_from_that_file_and_says_so_when_it_i
     stored.unlink()
     gone = client.get(f"/jobs/{number}/trim")
     assert gone.status_code == 409 and "no trim run can start from it here" in gone.text
+
+
+def test_leaving_the_trim_page_and_coming_back_keeps_what_was_typed(shop):
+    reg, app, _out = shop
+    number = _record(app)
+    client, token = _client(app, "operator")
+    typed = "drive-end hub=60 g@300\nfan-end rim=3 g"
+    assert client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "compute", "after": typed}).status_code == 422
+    client.get(f"/jobs/{number}")                                   # back to the job ...
+    assert _fields(client.get(f"/jobs/{number}/trim").text)["after"] == typed  # ... and forward again
+    assert client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "record",
+                                                     "after": "drive-end hub=60 g@300\nfan-end rim=3 g@20"}
+                       ).status_code == 303
+    assert _fields(client.get(f"/jobs/{number}/trim").text)["after"] == ""  # the next trim starts afresh

@@ -238,15 +238,20 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
         from toolkit.web import trim as TRIM
 
         number = request.path_params["number"]
+        key = "trim:" + number[:80]  # what was typed last for this job's next trim, kept in the session
         if request.method == "GET":
             need_user(request)
             d = await run_in_threadpool(_detail, number)
-            return render(request, "trim.html", **await run_in_threadpool(_trim_context, d, None))
+            draft = request.session.get(key)
+            kept = draft["values"] if isinstance(draft, dict) and draft.get("step") == len(d["trims"]) + 1 else None
+            return render(request, "trim.html", **await run_in_threadpool(_trim_context, d, kept))
         form = await form_of(request)
         go = str(form.get("go", "compute"))
         user = need_user(request, "check" if go == "record" else None)
         d = await run_in_threadpool(_detail, number)
         values = {name: str(form.get(name, ""))[:4000] for name, _l, _h in TRIM.TRIM_FIELDS}
+        if sum(map(len, values.values())) <= 1500:  # a session cookie stays small; a longer draft is not kept
+            request.session[key] = {"step": len(d["trims"]) + 1, "values": values}
         result, errors = await run_in_threadpool(TRIM.compute, d, values)
         if errors or go != "record":
             return render(request, "trim.html", 422 if errors else 200,
@@ -257,6 +262,7 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
         except CounterpoiseError as exc:
             return render(request, "trim.html", 422, **await run_in_threadpool(
                 _trim_context, d, values, result, {"": str(exc)}))
+        request.session.pop(key, None)
         return RedirectResponse(f"/jobs/{_quote(number)}?done=trim", status_code=303)
 
     async def job_file(request):
