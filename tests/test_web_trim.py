@@ -193,3 +193,21 @@ def test_leaving_the_trim_page_and_coming_back_keeps_what_was_typed(shop):
                                                      "after": "drive-end hub=60 g@300\nfan-end rim=3 g@20"}
                        ).status_code == 303
     assert _fields(client.get(f"/jobs/{number}/trim").text)["after"] == ""  # the next trim starts afresh
+
+
+def test_a_trial_mass_left_on_counts_as_installed(shop):
+    import cmath
+    import math
+
+    reg, app, _out = shop
+    number = _record(app, **RUNS, trials_left_on="on")
+    client, _token = _client(app, "operator")
+    installed = dict(line.split("=", 1) for line in _fields(client.get(f"/jobs/{number}/trim").text)["installed"]
+                     .splitlines())
+    rim = next(p for p in R.job_detail(reg, number)["workorder"]["planes"] if p["name"] == "fan-end rim")
+    planned = sum((cmath.rect(op["unbalance_g_mm"] * (1 if op["action"] == "add" else -1),
+                              math.radians(op["angle_deg"])) for op in rim["operations"]), 0j) / rim["radius_mm"]
+    expected = planned + cmath.rect(25.0, math.radians(90.0))  # the last run's trial mass stays on
+    amount, _at, angle = installed["fan-end rim"].partition(" g@")
+    got = cmath.rect(float(amount), math.radians(float(angle)))
+    assert abs(got - expected) < 0.01 * abs(expected)

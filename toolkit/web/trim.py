@@ -91,6 +91,7 @@ def basis(detail: dict) -> dict:
 
         job = _job(detail)
         m = job.measurement
+        left_on: dict = {}
         if m.kind == "coefficients":  # a job solved from a stored coefficients file: those, and its original run
             from toolkit.coefficients import load_coefficients
 
@@ -101,10 +102,13 @@ def basis(detail: dict) -> dict:
             solution = solve_runs(runset, settings=Settings(**m.thresholds))
             coefficients = _coefficients_data(coefficients_from(solution, note=f"job {detail['order_number']}"))
             before = list(m.raw["run"][0]["readings"])
+            if runset.trials_left_on and runset.runs:  # the last run's trial masses stay on: installed too
+                left_on = dict(runset.runs[-1].trials)
         installed = []
         for p in wo["planes"]:  # the planned operations' effect, as a mass at the plane's correction radius
             z = sum((cmath.rect(op["unbalance_g_mm"] * (1 if op["action"] == "add" else -1),
                                 cmath.pi * op["angle_deg"] / 180.0) for op in p["operations"]), 0j)
+            z += left_on.get(p["name"], 0j) * float(p["radius_mm"])
             if abs(z) > 0:
                 grams, angle = abs(z) / float(p["radius_mm"]), cmath.phase(z) * 180.0 / cmath.pi
                 installed.append(f"{p['name']}={_vec(grams, angle, 'g')}")
