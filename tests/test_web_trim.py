@@ -211,3 +211,19 @@ def test_a_trial_mass_left_on_counts_as_installed(shop):
     amount, _at, angle = installed["fan-end rim"].partition(" g@")
     got = cmath.rect(float(amount), math.radians(float(angle)))
     assert abs(got - expected) < 0.01 * abs(expected)
+
+
+def test_the_trim_page_draws_the_readings_after_and_the_trim_with_units_and_sense(shop):
+    import xml.etree.ElementTree as ET
+
+    reg, app, _out = shop
+    number = _record(app)
+    client, token = _client(app, "operator")
+    page = client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "compute",
+                                                     "after": "drive-end hub=60 g@300\nfan-end rim=3 g@20"})
+    (svg,) = [ET.fromstring(s) for s in re.findall(r"<svg\b.*?</svg>", page.text, re.S)]
+    words = " ".join(" ".join("".join(t.itertext()) for t in svg.iter("{http://www.w3.org/2000/svg}text")).split())
+    assert "plane drive-end hub, after: reading 60.00 g at 300°" in words
+    assert "plane drive-end hub: trim: correction remove 60.00 g at 300°" in words  # in the unit typed, at 160 mm
+    assert "allowance circle" in words and "counted against rotation" in words and "0° = keyway" in words
+    assert "fan-end rim: trim" not in words  # within its limit: no trim there

@@ -11,7 +11,7 @@ from __future__ import annotations
 import functools
 import re
 
-__all__ = ["side_view", "run_vectors", "live_svg", "plane_svgs", "style_hash"]
+__all__ = ["side_view", "run_vectors", "live_svg", "plane_svgs", "trim_svg", "style_hash"]
 
 _VECTOR = re.compile(r"^\s*([0-9]+(?:\.[0-9]*)?(?:[eE][-+]?[0-9]+)?)\s*([^@]*?)\s*@\s*(-?[0-9]+(?:\.[0-9]*)?)\s*°?\s*$")
 
@@ -119,6 +119,46 @@ def live_svg(values: dict, order=None, planes=()) -> tuple[str, list[str]]:
         else "against rotation"
     title = "Readings, trial masses and corrections" if order is not None else "Readings and trial masses"
     return vectors_svg(title=title, reference=reference, angle_sense=sense, vectors=vectors[:48]), skipped
+
+
+def trim_svg(detail: dict, basis: dict, values: dict, result: dict | None) -> str:
+    """The trim page's polar diagram: the readings after the correction as typed and, once worked out, the
+    trim corrections (add or remove in words) and, for machine readings, each plane's allowance circle, each
+    in the unit its reading was typed in; with the job's angle reference and sense."""
+    from toolkit.workorder.svg import vectors_svg
+
+    wo = detail["workorder"]
+    vectors: list[dict] = []
+    radius = {p["name"]: float(p["radius_mm"]) for p in wo["planes"]}
+    typed_unit: dict[str, str] = {}
+    for k, line in enumerate(_lines(values.get("after"))):
+        if basis["kind"] == "machine":
+            plane, _eq, text = line.partition("=")
+            label = f"plane {plane.strip()}, after"
+        else:
+            names = basis["names"]
+            plane, text, label = "", line, f"{names[k] if k < len(names) else f'sensor {k + 1}'}, after"
+        v = _vector(text)
+        if v is not None:
+            vectors.append({"label": label, "amount": v[0], "unit": v[1], "angle_deg": v[2], "role": "reading"})
+            typed_unit[plane.strip()] = v[1]
+    if result is not None and result.get("kind") == "machine":
+        for p in result["planes"]:
+            unit, factor = _unit_of(typed_unit.get(p["plane"], "g"), radius.get(p["plane"], 1.0))
+            if p["operations"]:
+                vectors.append({"label": f"plane {p['plane']}: trim", "amount": p["correction_g_mm"] * factor,
+                                "unit": unit, "angle_deg": p["correction_deg"], "role": "correction",
+                                "action": p["action"]})
+            vectors.append({"label": f"plane {p['plane']}", "amount": p["limit_g_mm"] * factor, "unit": unit,
+                            "angle_deg": 0.0, "role": "allowance"})
+    elif result is not None:
+        for c in result["corrections"]:
+            vectors.append({"label": f"plane {c['plane']}: trim", "amount": c["mass_g"], "unit": "g",
+                            "angle_deg": c["angle_deg"], "role": "correction", "action": c["action"]})
+    title = "Readings after the correction" + (" and the trim correction" if result is not None else "")
+    return vectors_svg(title=title, reference=str(wo.get("angle_reference") or "(no reference mark given)"),
+                       angle_sense=wo.get("angle_sense") if wo.get("angle_sense") in ("with rotation", "against rotation")
+                       else "against rotation", vectors=vectors[:48])
 
 
 def plane_svgs(order) -> list[str]:

@@ -228,7 +228,10 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
             b = TRIM.basis(d)
         except CounterpoiseError as exc:
             raise refused(409, f"job {d['order_number']}: no trim run can start from it here: {exc}") from None
-        return {"job": d, "basis": b, "values": values if values is not None else b["values"], "result": result,
+        from toolkit.web.diagrams import trim_svg
+
+        values = values if values is not None else b["values"]
+        return {"job": d, "basis": b, "values": values, "result": result, "svg": trim_svg(d, b, values, result),
                 "errors": errors or {}, "trim_fields": TRIM.TRIM_FIELDS, "titles": RUN.STEP_TITLES,
                 "steps": RUN.STEPS}
 
