@@ -68,6 +68,17 @@ def test_a_machine_job_is_trimmed_twice_and_each_trim_is_a_new_row(shop):
     assert "Trim 2" in client.get(f"/jobs/{number}").text
 
 
+def test_the_command_line_shows_the_trims_of_a_job(shop, capsys):
+    reg, app, _out = shop
+    number = _record(app)
+    client, token = _client(app, "operator")
+    client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "record",
+                                              "after": "drive-end hub=60 g@300\nfan-end rim=3 g@20"})
+    assert main(["register", "show", number, "--register", str(reg.url.database)]) == 0
+    out = capsys.readouterr().out
+    assert "trim 1 (machine readings) at " in out and "by operator: after drive-end hub=60 g@300; fan-end rim=3 g@20" in out
+
+
 def test_a_trial_run_job_trim_equals_the_command_line(shop, tmp_path, capsys):
     reg, app, _out = shop
     number = _record(app, **RUNS)

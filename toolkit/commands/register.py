@@ -353,6 +353,9 @@ def _show_text(d: dict) -> str:
               for m in d["operation_marks"]]
     lines += [f"  signed {s['role']}: {s['name']}{' ' + s['signed'] if s['signed'] else ''}" for s in d["signoffs"]]
     lines += [f"  file {f['path']} sha256 {f['sha256']}" for f in d["files"]]
+    lines += [f"  trim {t['step']} ({'influence coefficients' if t['kind'] == 'coefficients' else 'machine readings'})"
+              f" at {t['at'][:19]}{' by ' + t['by'] if t['by'] else ''}: after {'; '.join(t['data'].get('after', []))}"
+              for t in d.get("trims", [])]
     return "\n".join(lines)
 
 
