@@ -241,3 +241,29 @@ def test_explicit_bounds_apply_to_quantities_too():
     with pytest.raises(BadInput, match=r"--step: .* below the smallest step accepted, 0.01 mm"):
         magnitude(Q_(1e-320, "mm"), "length", "mm", "--step", bounds=("0.01 mm", "100 mm"), what="step")
     assert magnitude("2 mm", "length", "mm", bounds=("0.01 mm", "100 mm")) == 2
+
+
+def test_threads_asking_for_the_registry_at_once_get_one_registry(monkeypatch):
+    # the browser face reads quantities in a thread pool; two registries' units cannot be combined
+    import threading
+    import time
+
+    from toolkit import units
+
+    built = []
+
+    def slow_build():
+        time.sleep(0.05)  # a registry takes a while to build: long enough for the other threads to ask
+        built.append(object())
+        return built[-1]
+
+    monkeypatch.setattr(units, "_REGISTRY", None)
+    monkeypatch.setattr(units, "_build_registry", slow_build)
+    monkeypatch.setattr(units, "_remember_unit_parses", lambda reg: reg)
+    got = []
+    threads = [threading.Thread(target=lambda: got.append(units.registry())) for _ in range(8)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join()
+    assert len(built) == 1 and all(g is built[0] for g in got)

@@ -47,6 +47,7 @@ import math
 import os
 import re
 import sys
+import threading
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -69,6 +70,7 @@ __all__ = [
 ]
 
 _REGISTRY = None
+_REGISTRY_LOCK = threading.Lock()
 
 
 def cache_folder() -> Path:
@@ -134,10 +136,13 @@ def _remember_unit_parses(ureg):
 
 
 def registry():
-    """The package's one pint ``UnitRegistry`` (built on first use)."""
+    """The package's one pint ``UnitRegistry`` (built on first use, once: threads asking at the same time,
+    as the browser face's do, wait for the one being built; two registries' units cannot be combined)."""
     global _REGISTRY
     if _REGISTRY is None:
-        _REGISTRY = _remember_unit_parses(_build_registry())
+        with _REGISTRY_LOCK:
+            if _REGISTRY is None:
+                _REGISTRY = _remember_unit_parses(_build_registry())
     return _REGISTRY
 
 
