@@ -235,6 +235,6 @@ def test_the_trim_page_draws_the_readings_after_and_the_trim_with_units_and_sens
     (svg,) = [ET.fromstring(s) for s in re.findall(r"<svg\b.*?</svg>", page.text, re.S)]
     words = " ".join(" ".join("".join(t.itertext()) for t in svg.iter("{http://www.w3.org/2000/svg}text")).split())
     assert "plane drive-end hub, after: reading 60.00 g at 300°" in words
-    assert "plane drive-end hub: trim: correction remove 60.00 g at 300°" in words  # in the unit typed, at 160 mm
+    assert "trim, plane drive-end hub: correction remove 60.00 g at 300°" in words  # in the unit typed, at 160 mm
     assert "allowance circle" in words and "counted against rotation" in words and "0° = keyway" in words
-    assert "fan-end rim: trim" not in words  # within its limit: no trim there
+    assert "trim, plane fan-end rim" not in words  # within its limit: no trim there

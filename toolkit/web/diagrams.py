@@ -146,14 +146,14 @@ def trim_svg(detail: dict, basis: dict, values: dict, result: dict | None) -> st
         for p in result["planes"]:
             unit, factor = _unit_of(typed_unit.get(p["plane"], "g"), radius.get(p["plane"], 1.0))
             if p["operations"]:
-                vectors.append({"label": f"plane {p['plane']}: trim", "amount": p["correction_g_mm"] * factor,
+                vectors.append({"label": f"trim, plane {p['plane']}", "amount": p["correction_g_mm"] * factor,
                                 "unit": unit, "angle_deg": p["correction_deg"], "role": "correction",
                                 "action": p["action"]})
             vectors.append({"label": f"plane {p['plane']}", "amount": p["limit_g_mm"] * factor, "unit": unit,
                             "angle_deg": 0.0, "role": "allowance"})
     elif result is not None:
         for c in result["corrections"]:
-            vectors.append({"label": f"plane {c['plane']}: trim", "amount": c["mass_g"], "unit": "g",
+            vectors.append({"label": f"trim, plane {c['plane']}", "amount": c["mass_g"], "unit": "g",
                             "angle_deg": c["angle_deg"], "role": "correction", "action": c["action"]})
     title = "Readings after the correction" + (" and the trim correction" if result is not None else "")
     return vectors_svg(title=title, reference=str(wo.get("angle_reference") or "(no reference mark given)"),
