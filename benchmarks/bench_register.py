@@ -85,11 +85,10 @@ def bench_recording(reg, records: int, runs: int) -> tuple[float, float]:
     job = parse_job(text, str(JOB))
     built = build_order(job)
     order_data = dict(job.order)
-    data = built.to_dict()
     rows = {"job": {"type_version_id": None, "serial": built.ident.serial, "customer": built.ident.customer,
                     "job_sha256": R.sha256_text(text), "predicted_pass": 1, "status": "planned", "created": R.now(),
-                    "created_by": "", "order_data": R._JSON.encode(order_data), "job_text": text,
-                    "workorder": R._JSON.encode(data)},  # the same text as ours stores
+                    "created_by": "", "order_data": json.dumps(order_data, ensure_ascii=False, separators=(",", ":")), "job_text": text,
+                    "workorder": built.to_json()},  # the same text as ours stores
             "planes": [{"idx": n, "plane": p.name, "u_per_g_mm": p.tolerance.u_per_g_mm, "limit_g_mm": p.limit,
                         "initial_g_mm": p.initial_g_mm, "initial_deg": p.initial_deg,
                         "predicted_g_mm": p.predicted_g_mm, "operations": len(p.operations),

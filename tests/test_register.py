@@ -132,6 +132,41 @@ def test_job_keeps_its_text_hash_and_work_order(reg):
     assert detail["serial"] == "SN-77"
 
 
+@pytest.mark.parametrize("name", sorted(p.name for p in (Path(__file__).parents[1] / "examples").glob("job-*.toml")))
+def test_the_stored_json_of_an_order_is_its_dictionary(name):
+    from dataclasses import replace
+
+    from toolkit.workorder.build import order_from_file
+
+    order = order_from_file(Path(__file__).parents[1] / "examples" / name)
+    # to_json (orjson from the dataclasses) against the standard library's json of to_dict
+    assert json.loads(order.to_json()) == json.loads(json.dumps(order.to_dict()))
+    # the register's copy with a new number is dataclasses.replace without __init__
+    changed = R._replaced(order, ident=R._replaced(order.ident, number="N-1", input_sha256="0" * 64), warnings=("w",))
+    assert changed == replace(order, ident=replace(order.ident, number="N-1", input_sha256="0" * 64), warnings=("w",))
+    assert changed.ident.number == "N-1" and order.ident.number != "N-1" and changed.warnings == ("w",)
+    assert not hasattr(type(order), "__post_init__") and not hasattr(type(order.ident), "__post_init__")
+
+
+def test_threads_of_one_process_recording_at_once_share_no_number(reg):
+    from concurrent.futures import ThreadPoolExecutor
+
+    R.save_type(reg, "F-400", support.TEMPLATE)
+
+    def station(k):
+        return [_record(reg, f"SN-{k}-{n}")[1]["order_number"] for n in range(15)]
+
+    with ThreadPoolExecutor(4) as pool:
+        numbers = [n for chunk in pool.map(station, range(4)) for n in chunk]
+    assert len(set(numbers)) == 60
+    jobs = R.list_jobs(reg, limit=1000)
+    assert sorted(j["order_number"] for j in jobs) == sorted(numbers)
+    for number in numbers[::7]:
+        detail = R.job_detail(reg, number)
+        assert detail["workorder"]["ident"]["number"] == number and len(detail["workorder"]["planes"]) == 2
+        assert [s["status"] for s in detail["status_history"]] == ["planned"]
+
+
 def test_order_numbers_follow_the_shop_pattern(reg):
     import datetime as dt
 

@@ -20,9 +20,10 @@ import os
 import re
 import stat
 import string
+import threading
 from pathlib import Path
 
-from toolkit.errors import BadInput, OutputError
+from toolkit.errors import BadInput, CounterpoiseError, OutputError
 
 __all__ = ["ENV", "DEFAULT_PATTERN", "DEFAULT_STALE_DAYS", "resolve", "default_path", "open_register",
            "Register", "shown_url", "now", "format_order_number", "check_pattern", "recording_statements"]
@@ -166,6 +167,8 @@ class Register:
         self.dialect = engine.dialect.name
         self._compiled: dict[tuple, str] = {}
         self._path = Path(url.database) if self.dialect == "sqlite" else None
+        self._held = None  # (process id, pool connection) of write_direct on SQLite
+        self._held_lock = threading.Lock()
 
     # -- transactions -----------------------------------------------------------------------------------
 
@@ -180,24 +183,50 @@ class Register:
 
     @contextlib.contextmanager
     def write_direct(self):
-        """One write transaction on the pool's driver connection itself, for :meth:`execute` only (the
-        recording of a job, where SQLAlchemy's transaction bookkeeping cost about 0.04 ms of 0.6 ms here):
-        committed at the end, rolled back on any error, its errors worded as :meth:`write` words them."""
+        """One write transaction on a driver connection itself, for :meth:`execute` only (the recording of
+        a job, where SQLAlchemy's transaction bookkeeping cost about as much as the database's own work):
+        committed at the end, rolled back on any error, its errors worded as :meth:`write` words them.
+
+        On SQLite the register keeps one driver connection for these transactions (taken from the pool
+        once, guarded by a lock, given up after any error and in a forked child); on PostgreSQL each one
+        takes a connection from the pool, which checks it is alive first."""
         if self._path is not None:
             _check_file_writable(self._path)
         with self._errors("write to"):
-            connection = self.engine.raw_connection()
-            try:
-                if self.dialect == "sqlite":
-                    connection.dbapi_connection.execute("BEGIN IMMEDIATE").close()
-                yield _Direct(connection)
-                connection.dbapi_connection.commit()
-            except BaseException:
-                with contextlib.suppress(Exception):  # the error that stopped the transaction is the one told
-                    connection.dbapi_connection.rollback()
-                raise
-            finally:
-                connection.close()
+            if self._path is None:
+                connection = self.engine.raw_connection()
+                try:
+                    yield from self._direct(connection, connection.dbapi_connection)
+                finally:
+                    connection.close()
+                return
+            with self._held_lock:
+                if self._held is None or self._held[0] != os.getpid():
+                    self._held = (os.getpid(), self.engine.raw_connection())
+                connection = self._held[1]
+                try:
+                    yield from self._direct(connection, connection.dbapi_connection)
+                except BaseException as exc:
+                    if not isinstance(exc, CounterpoiseError):  # a refusal of ours leaves it rolled back and sound
+                        self._held = None  # one the driver failed on (or interrupted) is not kept
+                        with contextlib.suppress(Exception):
+                            connection.close()
+                    raise
+
+    def _direct(self, connection, dbapi):
+        """The transaction of :meth:`write_direct` on ``dbapi`` (the driver connection of ``connection``)."""
+        cursor = dbapi.cursor()
+        try:
+            if self._path is not None:
+                cursor.execute("BEGIN IMMEDIATE")
+            yield _Direct(connection, cursor)
+            dbapi.commit()
+        except BaseException:
+            with contextlib.suppress(Exception):  # the error that stopped the transaction is the one told
+                dbapi.rollback()
+            raise
+        finally:
+            cursor.close()  # a statement left open would hold SQLite's read snapshot
 
     @contextlib.contextmanager
     def read(self):
@@ -257,7 +286,8 @@ class Register:
         if sql is None:
             sql = self._compiled[(name, keys)] = _compile(recording_statements(self.dialect)[name], self.dialect,
                                                            keys)
-        cursor = conn.connection.dbapi_connection.cursor()
+        direct = type(conn) is _Direct  # then the transaction's own cursor (every statement read to its end)
+        cursor = conn.cursor if direct else conn.connection.dbapi_connection.cursor()
         try:
             if many:
                 cursor.executemany(sql, params)
@@ -265,9 +295,15 @@ class Register:
                 cursor.execute(sql, params)
             return cursor.fetchall() if cursor.description else []
         finally:
-            cursor.close()  # a statement left open would hold SQLite's read snapshot until the commit
+            if not direct:
+                cursor.close()  # a statement left open would hold SQLite's read snapshot until the commit
 
     def close(self) -> None:
+        with self._held_lock:
+            if self._held is not None and self._held[0] == os.getpid():
+                with contextlib.suppress(Exception):
+                    self._held[1].close()
+            self._held = None
         self.engine.dispose()
 
     def __enter__(self):
@@ -396,10 +432,11 @@ def recording_statements(dialect: str) -> dict:
 class _Direct:
     """What :meth:`Register.execute` needs of a transaction of :meth:`Register.write_direct`."""
 
-    __slots__ = ("connection",)
+    __slots__ = ("connection", "cursor")
 
-    def __init__(self, connection):
+    def __init__(self, connection, cursor):
         self.connection = connection
+        self.cursor = cursor
 
 
 def _compile(statement, dialect: str, keys: tuple[str, ...]) -> str:
@@ -458,7 +495,7 @@ def _sqlite_engine(url):
     elif path.is_dir():
         raise BadInput(f"register {path}: is a folder; give a file path")
     query = dict(url.query)
-    engine = create_engine(url.set(query=query), pool_size=1, max_overflow=4,
+    engine = create_engine(url.set(query=query), pool_size=2, max_overflow=4,
                            connect_args={"timeout": BUSY_TIMEOUT_S, "check_same_thread": False})
 
     @event.listens_for(engine, "connect")
