@@ -414,7 +414,7 @@ def recording_statements(dialect: str) -> dict:
     form; the values are bound parameters given at each execution)."""
     from sqlalchemy import Integer, bindparam, literal_column, select, update
 
-    from toolkit.register.schema import counters, jobs, job_planes, job_status, settings
+    from toolkit.register.schema import counters, job_files, job_planes, job_status, jobs, settings
 
     return {
         "setting": select(settings.c.value).where(settings.c.key == bindparam("key")),
@@ -426,6 +426,7 @@ def recording_statements(dialect: str) -> dict:
                .returning(jobs.c.id),
         "planes": job_planes.insert().inline(),  # inline: no id fetched back
         "status": job_status.insert().inline(),
+        "files": job_files.insert().inline(),
     }
 
 
