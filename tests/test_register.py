@@ -89,6 +89,32 @@ def test_upgrade_from_version_1_keeps_the_records(where):
     new.close()
 
 
+def test_upgrade_from_the_previous_version_keeps_the_records(where):
+    from toolkit.coefficients import coefficients_from
+    from toolkit.influence import solve_one_plane
+    from toolkit.web import accounts
+
+    old = open_register(where, migrate=False)
+    assert old.migrate(target=LATEST - 1) == list(range(1, LATEST))
+    assert old.version() == LATEST - 1 == 2
+    R.save_type(old, "F-400", support.TEMPLATE)
+    order, rec = _record(old)
+    c = coefficients_from(solve_one_plane("4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49"))
+    stored = R.store_coefficients(old, "F-400", c)
+    old.close()
+    new = open_register(where)
+    assert new.version() == LATEST
+    detail = R.job_detail(new, rec["order_number"])
+    assert detail["job_sha256"] == rec["job_sha256"] and detail["workorder"]["ident"]["number"] == rec["order_number"]
+    assert [h["set"] for h in R.coefficient_history(new, "F-400")] == [stored["set"]]
+    # version 3 adds the browser face's accounts: usable right away, beside the records kept
+    accounts.add(new, "inspector-1", "inspector", "a long invented passphrase")
+    assert accounts.authenticate(new, "inspector-1", "a long invented passphrase")["role"] == "inspector"
+    assert _record(new, "SN-2")[1]["order_number"] != rec["order_number"]
+    assert new.migrate() == []
+    new.close()
+
+
 def test_a_newer_schema_is_refused(reg, where):
     from toolkit.register.schema import schema_version
 

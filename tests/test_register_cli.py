@@ -321,6 +321,37 @@ def test_one_run_balancing_from_stored_coefficients(capsys, where, tmp_path):
     assert [h["reason"] for h in history] == ["file", "trim"] and new["parent"] == history[0]["set"]
 
 
+def test_stale_coefficients_by_the_shops_setting(capsys, tmp_path):
+    import datetime as dt
+
+    from sqlalchemy import update
+
+    from toolkit.register import open_register
+    from toolkit.register.schema import coefficient_sets
+
+    where = tmp_path / "shop.sqlite3"
+    cli(capsys, "register", "type-save", "exhaust fan", EXAMPLES / "job-fan-runs.toml", "--register", where, "--json")
+    cli(capsys, "solve", EXAMPLES / "runs-two-plane.toml", "--save-coefficients", tmp_path / "c.json", "--json")
+    cli(capsys, "register", "coeffs", "exhaust fan", "--save", tmp_path / "c.json", "--register", where, "--json")
+    # as if the set had been stored 100 days ago (the register itself never changes a recorded row)
+    then = (dt.datetime.now(dt.timezone.utc) - dt.timedelta(days=100)).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
+    reg = open_register(where)
+    with reg.write() as conn:
+        conn.execute(update(coefficient_sets).values(created=then))
+    reg.close()
+    args = ["register", "balance", "exhaust fan", "--register", where, "--out", tmp_path / "one", "--json",
+            "--original", "17.50 um@253.7", "--original", "15.28 um@52.2", "--original", "32.89 um@290.3",
+            "--original", "24.74 um@93.3"]
+    fresh = cli(capsys, *args, "--serial", "SN-1")  # the default: stale after 180 days
+    assert not any("days old" in w for w in fresh["order"]["warnings"])
+    cli(capsys, "register", "init", "--stale-days", "30", "--register", where, "--json")
+    stale = cli(capsys, *args, "--serial", "SN-2")
+    (warning,) = [w for w in stale["order"]["warnings"] if "days old" in w]
+    assert "stored influence coefficients are 100 days old (older than the shop's 30 days)" in warning
+    shown = cli(capsys, "register", "show", stale["order"]["ident"]["number"], "--register", where, "--json")
+    assert warning in shown["workorder"]["warnings"]
+
+
 def test_every_register_subcommand_answers_json(capsys, tmp_path):
     where = str(tmp_path / "j.sqlite3")
     number = _populated(capsys, where, tmp_path)
