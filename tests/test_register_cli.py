@@ -157,8 +157,18 @@ def test_workbook_of_another_job_text_is_refused(capsys, where, tmp_path):
     other = cli(capsys, "register", "record", "WO-0000-00000", "--workbook", _fill(xlsx, tmp_path / "ok.xlsx"),
                 "--register", where, rc=2)
     assert "is for order" in other
-    shown = cli(capsys, "register", "show", number, "--register", where, "--json")
-    assert shown["check_runs"] == [] and shown["status"] == "planned"  # nothing was recorded
+    # the workbook's order number changed to another recorded job's, or to one the register does not have
+    second, _data = _order(capsys, where, tmp_path, "--force", "--serial", "SN-other")  # another job text
+    for target, words in ((second, "does not match"), ("WO-1999-99999", "not in the register")):
+        wb, cell = _cells(_fill(xlsx, tmp_path / "renamed.xlsx"))
+        cell("cp_order_number").value = target
+        wb.save(tmp_path / "renamed.xlsx")
+        err = cli(capsys, "register", "record", "--workbook", tmp_path / "renamed.xlsx", "--register", where, rc=2)
+        assert words in err, err
+    for job in (number, second):
+        shown = cli(capsys, "register", "show", job, "--register", where, "--json")
+        assert shown["check_runs"] == [] and shown["status"] == "planned"  # nothing was recorded
+        assert shown["signoffs"] == [] and shown["operation_marks"] == []
 
 
 def test_imperial_workbook_readings_are_converted(capsys, where, tmp_path):
