@@ -193,7 +193,7 @@ def test_threads_of_one_process_recording_at_once_share_no_number(reg):
         assert [s["status"] for s in detail["status_history"]] == ["planned"]
 
 
-def test_order_numbers_follow_the_shop_pattern(reg):
+def test_order_numbers_follow_the_shop_pattern(reg, where):
     import datetime as dt
 
     R.save_type(reg, "F-400", support.TEMPLATE)
@@ -202,6 +202,12 @@ def test_order_numbers_follow_the_shop_pattern(reg):
     assert numbers == [f"WO-{year}-{k:05d}" for k in (1, 2, 3)]
     reg.set_setting("order_pattern", "BAL{seq:04d}")
     assert _record(reg)[1]["order_number"] == "BAL0001"
+    # another station changes the pattern: this one's next number follows it at once
+    with open_register(where) as other:
+        other.set_setting("order_pattern", "WO-{year}-{seq:05d}")
+        assert _record(reg)[1]["order_number"] == f"WO-{year}-00004"
+        other.set_setting("order_pattern", "BAL{seq:04d}")
+    assert _record(reg)[1]["order_number"] == "BAL0002"
     with pytest.raises(BadInput, match="no {seq}"):
         from toolkit.register.store import check_pattern
 

@@ -168,6 +168,7 @@ class Register:
         self._compiled: dict[tuple, str] = {}
         self._path = Path(url.database) if self.dialect == "sqlite" else None
         self._held = None  # (process id, pool connection) of write_direct on SQLite
+        self._pattern = None  # the order-number pattern last read from the settings
         self._held_lock = threading.Lock()
 
     # -- transactions -----------------------------------------------------------------------------------
@@ -395,7 +396,16 @@ class Register:
         import, say) is skipped; with ``skip_used`` false the caller does that check itself (the job's own
         insert refuses a number already used, and the caller asks for the next)."""
         when = when or _dt.datetime.now(_dt.timezone.utc)
-        pattern = _checked_pattern(self.setting("order_pattern", DEFAULT_PATTERN, conn))[0]
+        pattern = self._pattern
+        if pattern is not None:  # the pattern last seen: one statement bumps its counter if it is still the shop's
+            name = _counter_name(pattern, when)
+            row = next(iter(self.execute(conn, "bump_if", {"counter": name, "key": "order_pattern",
+                                                           "default": DEFAULT_PATTERN, "pattern": pattern})), None)
+            if row is not None:
+                number = format_order_number(pattern, int(row[0]), when)
+                if not skip_used or not self.execute(conn, "used", {"number": number}):
+                    return number
+        pattern = self._pattern = _checked_pattern(self.setting("order_pattern", DEFAULT_PATTERN, conn))[0]
         name = _counter_name(pattern, when)
         for _ in range(1000):
             row = next(iter(self.execute(conn, "bump", {"counter": name})), None)
@@ -412,7 +422,7 @@ class Register:
 def recording_statements(dialect: str) -> dict:
     """The statements of the recording path, built once per dialect (SQLAlchemy then reuses their compiled
     form; the values are bound parameters given at each execution)."""
-    from sqlalchemy import Integer, bindparam, literal_column, select, update
+    from sqlalchemy import Integer, bindparam, func, literal_column, select, update
 
     from toolkit.register.schema import counters, job_files, job_planes, job_status, jobs, settings
 
@@ -420,6 +430,11 @@ def recording_statements(dialect: str) -> dict:
         "setting": select(settings.c.value).where(settings.c.key == bindparam("key")),
         "bump": update(counters).where(counters.c.name == bindparam("counter"))
                 .values(value=counters.c.value + literal_column("1", Integer)).returning(counters.c.value),
+        # the same, only while the shop's pattern is still the one the counter's name was made from
+        "bump_if": update(counters).where(counters.c.name == bindparam("counter"))
+                   .where(func.coalesce(select(settings.c.value).where(settings.c.key == bindparam("key"))
+                                        .scalar_subquery(), bindparam("default")) == bindparam("pattern"))
+                   .values(value=counters.c.value + literal_column("1", Integer)).returning(counters.c.value),
         "counter": _insert(dialect, counters).on_conflict_do_nothing(index_elements=["name"]),
         "used": select(jobs.c.id).where(jobs.c.order_number == bindparam("number")),
         "job": _insert(dialect, jobs).on_conflict_do_nothing(index_elements=["order_number"])
