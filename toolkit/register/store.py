@@ -167,6 +167,7 @@ class Register:
         self.dialect = engine.dialect.name
         self._compiled: dict[tuple, str] = {}
         self._path = Path(url.database) if self.dialect == "sqlite" else None
+        self._file = str(self._path)  # the SQLite file's path as text (checked before each recording)
         self._held = None  # (process id, pool connection) of write_direct on SQLite
         self._pattern = None  # the order-number pattern last read from the settings
         self._held_lock = threading.Lock()
@@ -192,7 +193,7 @@ class Register:
         once, guarded by a lock, given up after any error and in a forked child); on PostgreSQL each one
         takes a connection from the pool, which checks it is alive first."""
         if self._path is not None:
-            _check_file_writable(self._path)
+            _check_file_writable(self._file)
         with self._errors("write to"):
             if self._path is None:
                 connection = self.engine.raw_connection()
@@ -480,11 +481,11 @@ def _insert(dialect: str, table):
     return insert(table)
 
 
-def _check_file_writable(path: Path) -> None:
+def _check_file_writable(path: Path | str) -> None:
     """Refuse a register file without its owner's write permission (checked by mode, so that it holds even
     for root), before anything is tried."""
     try:
-        mode = path.stat().st_mode
+        mode = os.stat(path).st_mode
     except FileNotFoundError:
         return
     except OSError as exc:
