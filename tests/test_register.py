@@ -68,6 +68,35 @@ def test_a_url_password_is_never_shown():
     assert "s3cret-Pw" not in message and "\n" not in message
 
 
+HOSTILE = "O'Brien\"; DROP TABLE jobs; -- %(x)s :name ? \\ \u00e9\u2264"
+
+
+def test_text_with_sql_in_it_is_stored_as_given(reg):
+    # every value goes to the database as a bound parameter: quotes, comment marks, placeholders and
+    # backslashes are text like any other, and no table is touched by them
+    R.save_type(reg, HOSTILE, support.TEMPLATE, note=HOSTILE, by=HOSTILE)
+    t, text = R.compose_job(reg, HOSTILE, support.readings("21000 g*mm@40", "16500 g*mm@200"), serial=HOSTILE)
+    order, rec = R.record_job(reg, text, type_version_id=t["version_id"], by=HOSTILE)
+    R.record_signoff(reg, rec["order_number"], "operator", HOSTILE)
+    detail = R.job_detail(reg, rec["order_number"])
+    assert detail["serial"] == HOSTILE and detail["type"] == HOSTILE and detail["created_by"] == HOSTILE
+    assert detail["signoffs"][0]["name"] == HOSTILE
+    assert [j["order_number"] for j in R.list_jobs(reg, type_name=HOSTILE)] == [rec["order_number"]]
+    assert R.type_info(reg, HOSTILE)["versions"][0]["note"] == HOSTILE
+
+
+def test_the_register_formats_no_value_into_sql():
+    import re
+
+    # no SQL text is made with an f-string or %-formatting where it is executed (identifiers and values go
+    # through SQLAlchemy Core and bound parameters)
+    root = Path(__file__).resolve().parents[1] / "toolkit"
+    pattern = re.compile(r"(execute|executemany|exec_driver_sql|text)\(\s*f[\"']|(execute|text)\([^)]*[\"']\s*%\s")
+    found = [f"{path.name}:{n}" for folder in ("register", "web") for path in sorted((root / folder).glob("*.py"))
+             for n, line in enumerate(path.read_text(encoding="utf-8").splitlines(), 1) if pattern.search(line)]
+    assert found == []
+
+
 def test_upgrade_from_version_1_keeps_the_records(where):
     old = open_register(where, migrate=False)
     assert old.migrate(target=1) == [1]

@@ -36,6 +36,8 @@ DEFAULT_STALE_DAYS = 180
 #: How long a writer waits for another one's lock (s) before giving up.
 BUSY_TIMEOUT_S = 60.0
 _PATTERN_FIELDS = {"year", "month", "seq"}
+#: SQLite's wait for another writer's lock (a PRAGMA takes no bound parameter; the text is a constant)
+_BUSY_PRAGMA = "PRAGMA busy_timeout = %d" % int(BUSY_TIMEOUT_S * 1000)
 
 
 def now() -> str:
@@ -519,7 +521,7 @@ def _sqlite_engine(url):
     def _connect(dbapi_connection, _record):
         dbapi_connection.isolation_level = None  # the driver's own transaction handling off: BEGIN below
         cursor = dbapi_connection.cursor()
-        cursor.execute(f"PRAGMA busy_timeout = {int(BUSY_TIMEOUT_S * 1000)}")
+        cursor.execute(_BUSY_PRAGMA)
         cursor.execute("PRAGMA foreign_keys = ON")
         if query.get("mode") != "ro":
             mode = cursor.execute("PRAGMA journal_mode").fetchone()[0]
