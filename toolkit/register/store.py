@@ -167,7 +167,7 @@ class Register:
         self.engine = engine
         self.where = shown_url(url)
         self.dialect = engine.dialect.name
-        self._compiled: dict[tuple, str] = {}
+        self._compiled: dict[tuple, tuple[str, tuple[str, ...]]] = {}
         self._path = Path(url.database) if self.dialect == "sqlite" else None
         self._file = str(self._path)  # the SQLite file's path as text (checked before each recording)
         self._held = None  # (process id, pool connection) of write_direct on SQLite
@@ -280,23 +280,26 @@ class Register:
         :meth:`write_direct`) on the driver's own cursor and return the rows it gives back (a list of
         tuples, empty for an insert without RETURNING); ``params`` is a dictionary, or a list of them.
 
-        The statements are SQLAlchemy Core compiled once for this database (bound parameters, the
-        driver's named style); running them on the driver's cursor skips SQLAlchemy's per-statement
-        bookkeeping, which cost about as much as the database's own work for each small statement of a
-        recorded job. A driver error here is turned into the one-line message by the transaction."""
+        The statements are SQLAlchemy Core compiled once for this database (bound parameters in the
+        driver's positional style, the values taken from ``params`` in the compiled order: sqlite3 binds a
+        named parameter by a look-up per name, which cost about as much as the insert itself for a job's
+        row); running them on the driver's cursor skips SQLAlchemy's per-statement bookkeeping, which cost
+        about as much as the database's own work for each small statement of a recorded job. A driver
+        error here is turned into the one-line message by the transaction."""
         many = isinstance(params, list)
         keys = tuple(params[0] if many else params)
-        sql = self._compiled.get((name, keys))
-        if sql is None:
-            sql = self._compiled[(name, keys)] = _compile(recording_statements(self.dialect)[name], self.dialect,
-                                                           keys)
+        compiled = self._compiled.get((name, keys))
+        if compiled is None:
+            compiled = self._compiled[(name, keys)] = _compile(recording_statements(self.dialect)[name],
+                                                                self.dialect, keys)
+        sql, order = compiled
         direct = type(conn) is _Direct  # then the transaction's own cursor (every statement read to its end)
         cursor = conn.cursor if direct else conn.connection.dbapi_connection.cursor()
         try:
             if many:
-                cursor.executemany(sql, params)
+                cursor.executemany(sql, [tuple([p[k] for k in order]) for p in params])
             else:
-                cursor.execute(sql, params)
+                cursor.execute(sql, tuple([params[k] for k in order]))
             return cursor.fetchall() if cursor.description else []
         finally:
             if not direct:
@@ -458,21 +461,22 @@ class _Direct:
         self.cursor = cursor
 
 
-def _compile(statement, dialect: str, keys: tuple[str, ...]) -> str:
-    """The SQL text of a Core statement for the driver's cursor: named bound parameters (``:name`` for
-    sqlite3, ``%(name)s`` for psycopg); an insert names only the columns in ``keys``."""
+def _compile(statement, dialect: str, keys: tuple[str, ...]) -> tuple[str, tuple[str, ...]]:
+    """The SQL text of a Core statement for the driver's cursor, with positional bound parameters (``?``
+    for sqlite3, ``%s`` for psycopg), and the names of its parameters in their order; an insert names only
+    the columns in ``keys``."""
     if dialect == "sqlite":
         from sqlalchemy.dialects.sqlite.pysqlite import SQLiteDialect_pysqlite
 
-        target = SQLiteDialect_pysqlite(paramstyle="named")
+        target = SQLiteDialect_pysqlite(paramstyle="qmark")
     else:
         from sqlalchemy.dialects.postgresql.psycopg import PGDialect_psycopg
 
-        target = PGDialect_psycopg(paramstyle="pyformat")
+        target = PGDialect_psycopg(paramstyle="format")
     from sqlalchemy.sql.dml import Insert
 
     compiled = statement.compile(dialect=target, column_keys=list(keys) if isinstance(statement, Insert) else None)
-    return str(compiled)
+    return str(compiled), tuple(compiled.positiontup or ())
 
 
 def _insert(dialect: str, table):
