@@ -125,7 +125,7 @@ def test_upgrade_from_the_previous_version_keeps_the_records(where):
 
     old = open_register(where, migrate=False)
     assert old.migrate(target=LATEST - 1) == list(range(1, LATEST))
-    assert old.version() == LATEST - 1 == 2
+    assert old.version() == LATEST - 1 == 3
     R.save_type(old, "F-400", support.TEMPLATE)
     order, rec = _record(old)
     c = coefficients_from(solve_one_plane("4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49"))
@@ -136,7 +136,10 @@ def test_upgrade_from_the_previous_version_keeps_the_records(where):
     detail = R.job_detail(new, rec["order_number"])
     assert detail["job_sha256"] == rec["job_sha256"] and detail["workorder"]["ident"]["number"] == rec["order_number"]
     assert [h["set"] for h in R.coefficient_history(new, "F-400")] == [stored["set"]]
-    # version 3 adds the browser face's accounts: usable right away, beside the records kept
+    # version 4 adds the trim runs: a job recorded before the upgrade takes one right away
+    assert R.record_trim(new, rec["order_number"], "machine", {"after": ["A=1 g@0"]}, by="op")["step"] == 1
+    assert [t["step"] for t in R.job_detail(new, rec["order_number"])["trims"]] == [1]
+    # the browser face's accounts (version 3) stay usable, beside the records kept
     accounts.add(new, "inspector-1", "inspector", "a long invented passphrase")
     assert accounts.authenticate(new, "inspector-1", "a long invented passphrase")["role"] == "inspector"
     assert _record(new, "SN-2")[1]["order_number"] != rec["order_number"]

@@ -777,7 +777,7 @@ def record_trim(reg: Register, number: str, kind: str, data: dict, *, by: str = 
 
     if kind not in ("coefficients", "machine"):
         raise BadInput(f"trim: kind {kind!r} is not coefficients or machine")
-    text = _text(_JSON.encode(data), "trim data", MAX_TEXT)
+    text = _text(json.dumps(data, ensure_ascii=False, separators=(",", ":")), "trim data", MAX_TEXT)
     with reg.write() as conn:
         job = _job_row(conn, number)
         if job["status"] == "released":
