@@ -93,8 +93,10 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
 
     from toolkit.web.forms import PAGES, fields_of, run_page
 
+    # built once per application; each template is compiled once and kept (no file check per request: the
+    # templates are part of the installed package)
     env = Environment(loader=FileSystemLoader(str(_HERE / "templates")), autoescape=select_autoescape(["html"]),
-                      trim_blocks=True, lstrip_blocks=True)
+                      trim_blocks=True, lstrip_blocks=True, auto_reload=False)
     env.filters["num"] = _num
     from toolkit.web.diagrams import style_hash
 
@@ -245,9 +247,11 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
                 units = str(form.get("units", "")) or None
                 if units not in (None, "metric", "imperial"):
                     units = None
-                from starlette.concurrency import run_in_threadpool
-
-                outcome = await run_in_threadpool(run_page, page, values, units or _units(request))
+                # computed here in the event loop, not in a worker thread: a page is a few milliseconds of
+                # pure Python that holds the GIL anyway, and a worker thread computing makes every socket
+                # call of the loop wait for the GIL's switch interval (5 ms), which is what made a page
+                # under load many times slower than its computation (profiled with py-spy)
+                outcome = run_page(page, values, units or _units(request))
                 side = None
                 if slug == "tolerance" and outcome.data is not None:
                     from toolkit.web.diagrams import side_view
