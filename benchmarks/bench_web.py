@@ -1,7 +1,7 @@
 """The browser face under a bounded local load: the tolerance page and the solve step of the guided run
 against the application's own trivial route (``/ping``), served the same way.
 
-    python benchmarks/bench_web.py [--clients 4] [--requests 200] [--seconds 60] [--batch-rotors 1000]
+    python benchmarks/bench_web.py [--clients 4] [--requests 200] [--seconds 60] [--vary] [--batch-rotors 1000]
 
 One uvicorn server in its own process on a free loopback port (127.0.0.1 only), over a fresh register
 with no accounts (the open mode of a loopback server). ``--clients`` threads each keep one connection
@@ -9,7 +9,9 @@ and send requests one after another, at most ``--requests`` per route and client
 ``--seconds`` per route in all, then stop. Per route: median and 95th-percentile latency and the
 throughput, and each as a ratio to ``/ping`` (goal: at most 3x; issue 14). The tolerance page posts the
 invented example of the form; the solve step posts the invented demo rotor's readings and builds its
-work order preview (step "readings" -> "corrections").
+work order preview (step "readings" -> "corrections"). With ``--vary`` each request changes the rotor (its
+mass and centre of mass; the run's first reading), so that the side view's cache of drawn geometries is
+missed as a shop with many different rotors would miss it.
 
 Then a planner batch of ``--batch-rotors`` invented rotors (0: none) through the browser upload against the
 command line's ``batch`` on the same sheet, alternately, ``--batch-runs`` times each (goal: the upload at most
@@ -91,19 +93,19 @@ def _load(port: int, method: str, path: str, form_of, clients: int, requests: in
     lock = threading.Lock()
     stop = time.monotonic() + seconds
 
-    def work(client: Client) -> None:
+    def work(client: Client, k: int) -> None:
         mine = []
-        form = None if form_of is None else form_of(client.token)
-        for _ in range(requests):
+        for i in range(requests):
             if time.monotonic() > stop:
                 break
+            form = None if form_of is None else form_of(client.token, k * requests + i)
             t0 = time.perf_counter()
             client.request(method, path, form)
             mine.append(time.perf_counter() - t0)
         with lock:
             latencies.extend(mine)
 
-    threads = [threading.Thread(target=work, args=(c,)) for c in pool]
+    threads = [threading.Thread(target=work, args=(c, k)) for k, c in enumerate(pool)]
     start = time.perf_counter()
     for t in threads:
         t.start()
@@ -241,6 +243,9 @@ def main(argv=None) -> int:
     parser.add_argument("--clients", type=int, default=4)
     parser.add_argument("--requests", type=int, default=200)
     parser.add_argument("--seconds", type=float, default=60.0)
+    parser.add_argument("--vary", action="store_true",
+                        help="every request a different rotor (mass and centre of mass; the run's first reading), "
+                             "so that no cache of a pure function of the inputs is hit")
     parser.add_argument("--batch-rotors", type=int, default=1000, help="rotors in the upload batch (0: none)")
     parser.add_argument("--batch-runs", type=int, default=1)
     parser.add_argument("--no-pages", action="store_true", help="only the upload batch")
@@ -259,19 +264,25 @@ def time_pages(args) -> None:
     folder = Path(tempfile.mkdtemp())
     server, port = _serve(folder)
     try:
+        tolerance, run = dict(PAGES["tolerance"].example), example_values()
+        vary = {"tolerance": lambda i: {"mass": f"{300 + i % 997} kg", "com_from_a": f"{300 + (7 * i) % 401} mm"},
+                "run": lambda i: {"p1_reading": f"{60 + (i % 997) / 10:g} g@{(37 * i) % 360}"}}
+        if not args.vary:
+            vary = {"tolerance": lambda i: {}, "run": lambda i: {}}
         routes = [
             ("trivial route GET /ping", "GET", "/ping", None),
             ("tolerance page POST /tolerance", "POST", "/tolerance",
-             lambda token: {"csrf": token, **PAGES["tolerance"].example}),
+             lambda token, i: {"csrf": token, **tolerance, **vary["tolerance"](i)}),
             ("solve step POST /run (readings -> corrections)", "POST", "/run",
-             lambda token: {"csrf": token, "step": "runs", "go": "next", **example_values()}),
+             lambda token, i: {"csrf": token, "step": "runs", "go": "next", **run, **vary["run"](i)}),
         ]
         results = {}
         for name, method, path, form in routes:
             _load(port, method, path, form, 1, 5, 10)  # warm-up
             results[name] = _load(port, method, path, form, args.clients, args.requests, args.seconds)
         base = results[routes[0][0]]
-        print(f"{args.clients} clients on 127.0.0.1, up to {args.requests} requests each per route")
+        print(f"{args.clients} clients on 127.0.0.1, up to {args.requests} requests each per route; "
+              + ("every request a different rotor (--vary)" if args.vary else "the same invented example each time"))
         for name, r in results.items():
             print(f"{name}: {r['n']} requests, median {r['median_ms']:.2f} ms ({r['median_ms'] / base['median_ms']:.2f}x), "
                   f"p95 {r['p95_ms']:.2f} ms ({r['p95_ms'] / base['p95_ms']:.2f}x), "
