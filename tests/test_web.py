@@ -414,3 +414,42 @@ def test_a_page_changes_no_stream_function_or_warnings_filter():
         assert run_page(page, dict(page.example), "metric").data is not None
         run_page(page, dict(page.example) | {next(iter(page.example)): "not a value"}, "metric")
     assert (sys.stdout, sys.stderr, tolerances.emit, fabrication.emit, list(warnings.filters)) == before
+
+
+def test_a_planner_upload_gives_its_orders_as_one_zip(reg, tmp_path):
+    """An uploaded sheet runs to the end; the zip holds each order's PDF (stored as it is: a PDF is compressed
+    already), the combined PDF and the summary."""
+    import csv
+    import io
+    import time
+    import zipfile
+    from pathlib import Path
+
+    examples = Path(__file__).resolve().parents[1] / "examples" / "planner.csv"
+    with examples.open(encoding="utf-8", newline="") as handle:
+        header, *rows = list(csv.reader(handle))
+    rows = [row for row in rows if not row[header.index("job")].strip()][:3]
+    sheet = io.StringIO()
+    csv.writer(sheet).writerows([header, *rows])
+    client = _signed_in(reg, "planner")
+    token = _csrf(client, "/planner")
+    sent = client.post("/planner", data={"csrf": token, "paper": ""},
+                       files={"sheet": ("planner.csv", sheet.getvalue().encode("utf-8"), "text/csv")})
+    assert sent.status_code == 303, sent.text[:2000]
+    where = sent.headers["location"]
+    for _ in range(600):
+        state = client.get(where + "/state").json()
+        if state["finished"]:
+            break
+        time.sleep(0.1)
+    assert state["finished"] and state["error"] is None and state["failed"] == 0
+    archive = zipfile.ZipFile(io.BytesIO(client.get(where + "/orders.zip").content))
+    assert archive.testzip() is None
+    infos = {i.filename: i for i in archive.infolist()}
+    for row in rows:
+        order = row[header.index("order")]
+        assert infos[f"{order}.pdf"].compress_type == zipfile.ZIP_STORED
+        assert archive.read(f"{order}.pdf").startswith(b"%PDF-")
+    assert any(name.endswith("-summary.xlsx") for name in infos)
+    assert all(i.compress_type == zipfile.ZIP_DEFLATED for name, i in infos.items()
+               if not name.endswith((".pdf", ".xlsx")))
