@@ -247,11 +247,12 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
                 units = str(form.get("units", "")) or None
                 if units not in (None, "metric", "imperial"):
                     units = None
-                # computed here in the event loop, not in a worker thread: a page is a few milliseconds of
-                # pure Python that holds the GIL anyway, and a worker thread computing makes every socket
-                # call of the loop wait for the GIL's switch interval (5 ms), which is what made a page
-                # under load many times slower than its computation (profiled with py-spy)
-                outcome = run_page(page, values, units or _units(request))
+                from starlette.concurrency import run_in_threadpool
+
+                # in a worker thread: the loop's socket calls (which release the GIL) then overlap the
+                # computation on the second core; computing in the loop instead was slower under 4 clients
+                # (bench_web, alternated three times: median 23-33 ms against 14-22 ms)
+                outcome = await run_in_threadpool(run_page, page, values, units or _units(request))
                 side = None
                 if slug == "tolerance" and outcome.data is not None:
                     from toolkit.web.diagrams import side_view

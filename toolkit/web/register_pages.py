@@ -110,7 +110,7 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
         text = order = None
         errors: dict = {}
         if RUN.STEPS.index(target) >= RUN.STEPS.index("corrections"):
-            text, order, errors, version_id = RUN.preview(values, reg)  # in the loop: see app.calculator
+            text, order, errors, version_id = await run_in_threadpool(RUN.preview, values, reg)
             if errors:  # back to the first step with a problem, with the message beside its field
                 steps = [RUN.BY_NAME[k].step for k in errors if k in RUN.BY_NAME]
                 target = min(steps, key=RUN.STEPS.index) if steps else "runs"
