@@ -1,12 +1,14 @@
 """The browser face under a bounded local load: the tolerance page and the solve step of the guided run
 against the application's own trivial route (``/ping``), served the same way.
 
-    python benchmarks/bench_web.py [--clients 4] [--requests 200] [--seconds 60] [--vary] [--batch-rotors 1000]
+    python benchmarks/bench_web.py [--clients 4] [--requests 200] [--seconds 60] [--rounds 5] [--vary]
+                                   [--batch-rotors 1000] [--batch-runs 1]
 
 One uvicorn server in its own process on a free loopback port (127.0.0.1 only), over a fresh register
 with no accounts (the open mode of a loopback server). ``--clients`` threads each keep one connection
 and send requests one after another, at most ``--requests`` per route and client and for at most
-``--seconds`` per route in all, then stop. Per route: median and 95th-percentile latency and the
+``--seconds`` per route in all, then stop; the routes take turns in ``--rounds`` rounds, so that the other
+load of a shared machine falls on all of them alike. Per route: median and 95th-percentile latency and the
 throughput, and each as a ratio to ``/ping`` (goal: at most 3x; issue 14). The tolerance page posts the
 invented example of the form; the solve step posts the invented demo rotor's readings and builds its
 work order preview (step "readings" -> "corrections"). With ``--vary`` each request changes the rotor (its
@@ -30,6 +32,8 @@ import argparse
 import csv
 import http.client
 import json
+import math
+import os
 import random
 import secrets
 import re
@@ -87,7 +91,8 @@ class Client:
         return data
 
 
-def _load(port: int, method: str, path: str, form_of, clients: int, requests: int, seconds: float) -> dict:
+def _load(port: int, method: str, path: str, form_of, clients: int, requests: int, seconds: float,
+          first: int = 0) -> dict:
     pool = [Client(port) for _ in range(clients)]
     latencies: list[float] = []
     lock = threading.Lock()
@@ -98,7 +103,7 @@ def _load(port: int, method: str, path: str, form_of, clients: int, requests: in
         for i in range(requests):
             if time.monotonic() > stop:
                 break
-            form = None if form_of is None else form_of(client.token, k * requests + i)
+            form = None if form_of is None else form_of(client.token, first + k * requests + i)
             t0 = time.perf_counter()
             client.request(method, path, form)
             mine.append(time.perf_counter() - t0)
@@ -112,9 +117,15 @@ def _load(port: int, method: str, path: str, form_of, clients: int, requests: in
     for t in threads:
         t.join()
     wall = time.perf_counter() - start
-    latencies.sort()
+    return {"latencies": latencies, "wall": wall}
+
+
+def _summary(runs: list[dict]) -> dict:
+    """Median and 95th percentile of every latency of ``runs``, and the requests per second of their wall time."""
+    latencies = sorted(x for r in runs for x in r["latencies"])
     return {"n": len(latencies), "median_ms": 1000 * statistics.median(latencies),
-            "p95_ms": 1000 * latencies[int(0.95 * (len(latencies) - 1))], "per_s": len(latencies) / wall}
+            "p95_ms": 1000 * latencies[int(0.95 * (len(latencies) - 1))],
+            "per_s": len(latencies) / sum(r["wall"] for r in runs)}
 
 
 def _serve(folder: Path, accounts=()) -> tuple[subprocess.Popen, int]:
@@ -185,6 +196,15 @@ def _multipart(fields: dict, name: str, filename: str, data: bytes) -> tuple[byt
     return b"".join(parts) + f"--{boundary}--\r\n".encode(), f"multipart/form-data; boundary={boundary}"
 
 
+def _cpu_s(pid: int) -> float:
+    """User + system CPU seconds of process ``pid`` so far (Linux /proc; NaN elsewhere)."""
+    try:
+        fields = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()
+        return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
+    except (OSError, ValueError, IndexError):
+        return math.nan
+
+
 def _upload(port: int, sheet: Path) -> tuple[float, float, dict]:
     """Sign in as the planner, upload ``sheet``; seconds to "finished", seconds with the zip downloaded, state."""
     client = Client(port, "/signin")
@@ -220,22 +240,31 @@ def time_upload(rotors: int, runs: int) -> None:
     sheet = upload_sheet(folder / "planner.csv", rotors)
     (folder / "server").mkdir()
     server, port = _serve(folder / "server", [("planner", "planner", PASSWORD)])
-    cli, web, web_zip, state = [], [], [], {}
+    cli, cli_cpu, web, web_zip, web_cpu, state = [], [], [], [], [], {}
     try:
         _child(CHILD_BATCH, str(sheet), str(folder / "cli"))  # warm-up of the files' caches
-        for _ in range(runs):
-            cli.append(_child(CHILD_BATCH, str(sheet), str(folder / "cli"))[0])
+        for k in range(runs):
+            elapsed, cpu, _peak = _child(CHILD_BATCH, str(sheet), str(folder / "cli"))
+            cli.append(elapsed)
+            cli_cpu.append(cpu)
+            before = _cpu_s(server.pid)
             finished, with_zip, state = _upload(port, sheet)
+            web_cpu.append(_cpu_s(server.pid) - before)
             web.append(finished)
             web_zip.append(with_zip)
+            print(f"  run {k + 1}: counterpoise batch {elapsed:.2f} s (CPU {cpu:.2f} s); upload to finished "
+                  f"{finished:.2f} s, with the zip {with_zip:.2f} s (server CPU {web_cpu[-1]:.2f} s)")
     finally:
         _stop(server)
         shutil.rmtree(folder, ignore_errors=True)
     a, b, c = statistics.median(cli), statistics.median(web), statistics.median(web_zip)
+    ca, cb = statistics.median(cli_cpu), statistics.median(web_cpu)
     print(f"planner batch of {rotors:,} invented rotors ({state.get('orders')} files, {state.get('failed')} rows "
           f"failed), median of {runs}:")
-    print(f"  counterpoise batch {a:.2f} s; upload to finished {b:.2f} s ({b / a:.2f}x); with the zip downloaded "
-          f"{c:.2f} s ({c / a:.2f}x); goal at most 1.3x: {'met' if c / a <= 1.3 else 'MISSED'}")
+    print(f"  wall: counterpoise batch {a:.2f} s; upload to finished {b:.2f} s ({b / a:.2f}x); with the zip "
+          f"downloaded {c:.2f} s ({c / a:.2f}x); goal at most 1.3x: {'met' if c / a <= 1.3 else 'MISSED'}")
+    print(f"  CPU: counterpoise batch {ca:.2f} s; the server for the upload, its polls and the zip {cb:.2f} s "
+          f"({cb / ca:.2f}x)")
 
 
 def main(argv=None) -> int:
@@ -243,6 +272,8 @@ def main(argv=None) -> int:
     parser.add_argument("--clients", type=int, default=4)
     parser.add_argument("--requests", type=int, default=200)
     parser.add_argument("--seconds", type=float, default=60.0)
+    parser.add_argument("--rounds", type=int, default=5,
+                        help="the routes take turns this many times, each with its share of requests and seconds")
     parser.add_argument("--vary", action="store_true",
                         help="every request a different rotor (mass and centre of mass; the run's first reading), "
                              "so that no cache of a pure function of the inputs is hit")
@@ -276,12 +307,18 @@ def time_pages(args) -> None:
             ("solve step POST /run (readings -> corrections)", "POST", "/run",
              lambda token, i: {"csrf": token, "step": "runs", "go": "next", **run, **vary["run"](i)}),
         ]
-        results = {}
         for name, method, path, form in routes:
             _load(port, method, path, form, 1, 5, 10)  # warm-up
-            results[name] = _load(port, method, path, form, args.clients, args.requests, args.seconds)
+        runs: dict[str, list] = {name: [] for name, *_rest in routes}
+        share = max(1, args.requests // args.rounds)
+        for k in range(args.rounds):  # the routes take turns, so that a change in the machine's other load
+            for name, method, path, form in routes:  # falls on all of them alike
+                runs[name].append(_load(port, method, path, form, args.clients, share, args.seconds / args.rounds,
+                                        first=k * args.clients * share))
+        results = {name: _summary(r) for name, r in runs.items()}
         base = results[routes[0][0]]
-        print(f"{args.clients} clients on 127.0.0.1, up to {args.requests} requests each per route; "
+        print(f"{args.clients} clients on 127.0.0.1, up to {share * args.rounds} requests each per route in "
+              f"{args.rounds} rounds taking turns; "
               + ("every request a different rotor (--vary)" if args.vary else "the same invented example each time"))
         for name, r in results.items():
             print(f"{name}: {r['n']} requests, median {r['median_ms']:.2f} ms ({r['median_ms'] / base['median_ms']:.2f}x), "
