@@ -358,3 +358,98 @@ def test_one_run_gives_the_command_lines_json_and_text(capsys):
     assert outcome.text == text
     _status, data = _cli_json(capsys, argv)
     assert outcome.data == data
+
+
+# -- a page is the command line's result, computed without printing -------------------------------------
+
+_AGAINST_THE_CLI = [  # (page, values over its example): results, out-of-tolerance results and refusals
+    ("tolerance", {}),
+    ("tolerance", {"residual": "I=20000 g*mm@40\nII=100 g*mm@200"}),  # plane I fails: exit status 1
+    ("tolerance", {"mass": "412"}),                                   # no unit: the library refuses
+    ("tolerance", {"grade": ""}),                                     # a required option left out: argparse
+    ("tolerance", {"plane": "I=-120 mm", "rotor_length": "300 mm", "correction_diameter": "600 mm"}),
+    ("drill", {"radius": "-5 mm"}),
+    ("plate", {"shape": "face"}),
+    ("washers", {"size": "M99"}),
+    ("split", {"at": ""}),                                            # neither --positions nor --at
+    ("verify", {"reading": "44.88@0\n53.63@60"}),                     # too few positions
+    ("verify", {"allowed": "10 g*mm"}),                               # the residual fails: exit status 1
+]
+
+
+@pytest.mark.parametrize("units", ["metric", "imperial"])
+@pytest.mark.parametrize("slug,change", _AGAINST_THE_CLI)
+def test_a_page_shows_the_command_lines_text_json_and_error(capsys, slug, change, units):
+    """The same status, text, JSON object and error message as ``counterpoise`` with the page's arguments."""
+    from toolkit.web.forms import _place, argv_of, fields_of, run_page
+
+    page = PAGES[slug]
+    values = dict(page.example) | change
+    outcome = run_page(page, values, units)
+    argv = argv_of(page, values, units)
+    status = main(argv)
+    text, err = capsys.readouterr()
+    assert outcome.status == status
+    if status in (0, 1):
+        assert outcome.text == text and err == ""
+        _status, data = _cli_json(capsys, argv)
+        assert outcome.data == data
+    else:
+        assert status == 2 and outcome.data is None and text == ""
+        message = re.sub(r"^counterpoise [a-z]+: error: (argument )?", "", err.strip().splitlines()[0])
+        assert outcome.errors == _place(message, fields_of(page), status)
+
+
+def test_a_page_changes_no_stream_function_or_warnings_filter():
+    """Nothing process-wide is replaced while a page computes (other requests and the server's own output
+    never meet a page's)."""
+    import sys
+    import warnings
+
+    from toolkit.commands import fabrication, tolerances
+    from toolkit.web.forms import run_page
+
+    before = (sys.stdout, sys.stderr, tolerances.emit, fabrication.emit, list(warnings.filters))
+    for page in PAGES.values():
+        assert run_page(page, dict(page.example), "metric").data is not None
+        run_page(page, dict(page.example) | {next(iter(page.example)): "not a value"}, "metric")
+    assert (sys.stdout, sys.stderr, tolerances.emit, fabrication.emit, list(warnings.filters)) == before
+
+
+def test_a_planner_upload_gives_its_orders_as_one_zip(reg, tmp_path):
+    """An uploaded sheet runs to the end; the zip holds each order's PDF (stored as it is: a PDF is compressed
+    already), the combined PDF and the summary."""
+    import csv
+    import io
+    import time
+    import zipfile
+    from pathlib import Path
+
+    examples = Path(__file__).resolve().parents[1] / "examples" / "planner.csv"
+    with examples.open(encoding="utf-8", newline="") as handle:
+        header, *rows = list(csv.reader(handle))
+    rows = [row for row in rows if not row[header.index("job")].strip()][:3]
+    sheet = io.StringIO()
+    csv.writer(sheet).writerows([header, *rows])
+    client = _signed_in(reg, "planner")
+    token = _csrf(client, "/planner")
+    sent = client.post("/planner", data={"csrf": token, "paper": ""},
+                       files={"sheet": ("planner.csv", sheet.getvalue().encode("utf-8"), "text/csv")})
+    assert sent.status_code == 303, sent.text[:2000]
+    where = sent.headers["location"]
+    for _ in range(600):
+        state = client.get(where + "/state").json()
+        if state["finished"]:
+            break
+        time.sleep(0.1)
+    assert state["finished"] and state["error"] is None and state["failed"] == 0
+    archive = zipfile.ZipFile(io.BytesIO(client.get(where + "/orders.zip").content))
+    assert archive.testzip() is None
+    infos = {i.filename: i for i in archive.infolist()}
+    for row in rows:
+        order = row[header.index("order")]
+        assert infos[f"{order}.pdf"].compress_type == zipfile.ZIP_STORED
+        assert archive.read(f"{order}.pdf").startswith(b"%PDF-")
+    assert any(name.endswith("-summary.xlsx") for name in infos)
+    assert all(i.compress_type == zipfile.ZIP_DEFLATED for name, i in infos.items()
+               if not name.endswith((".pdf", ".xlsx")))

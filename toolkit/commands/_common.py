@@ -10,7 +10,7 @@ import math
 import re
 import sys
 
-__all__ = ["add_json", "add_units", "add_force", "emit", "print_text", "option_names", "error_text", "parse_named"]
+__all__ = ["add_json", "add_units", "add_force", "emit", "emit_result", "print_text", "option_names", "error_text", "parse_named"]
 
 
 def add_json(parser) -> None:
@@ -60,6 +60,15 @@ def emit(as_json: bool, data: dict, text: str | None = None) -> None:
         sys.stdout.write(text + "\n")
     else:
         print_text(text if text is not None else "\n".join(f"{k}: {v}" for k, v in data.items()))
+
+
+def emit_result(args, result) -> int:
+    """Print a subcommand's ``(status, data, text)`` as :func:`emit` does and return the status. The
+    subcommands that the browser face offers as forms compute that triple in a ``result_NAME(args)`` function,
+    so that a page words the same result without printing."""
+    status, data, text = result
+    emit(args.json, data, text)
+    return status
 
 
 def _encodable(stream, text: str) -> bool:

@@ -5,7 +5,7 @@ Module-level imports stay light (no numpy, no pint): the run functions import th
 
 from __future__ import annotations
 
-from toolkit.commands._common import add_force, add_json, emit
+from toolkit.commands._common import add_force, add_json, emit, emit_result
 
 _SENSE_HELP = ("sense in which weight angles are measured from the reference mark: 'with rotation' or "
                "'against rotation' (default against rotation, printed on the output)")
@@ -294,6 +294,11 @@ def configure_split(parser) -> None:
 
 
 def run_split(args) -> int:
+    return emit_result(args, result_split(args))
+
+
+def result_split(args) -> tuple[int, dict, str | None]:
+    """What ``split`` computes, worded: (exit status, the ``--json`` object, the text or None with ``--json``)."""
     from toolkit.errors import BadInput
     from toolkit.units import format_number
     from toolkit.vectors import split_vector
@@ -305,5 +310,4 @@ def run_split(args) -> int:
              f"(same angle sense as the input; the parts add up to the input):"]
     lines += [f"  {format_number(m)} g at {a:g}°" for a, m in result.parts]
     lines.append("Weigh each part and secure it before running.")
-    emit(args.json, result.to_dict(), "\n".join(lines))
-    return 0
+    return 0, result.to_dict(), "\n".join(lines)

@@ -6,7 +6,7 @@ Heavy imports (numpy, pint) happen inside the run functions so ``--help`` stays 
 
 from __future__ import annotations
 
-from toolkit.commands._common import add_json, add_units, emit
+from toolkit.commands._common import add_json, add_units, emit, emit_result
 
 _LIMIT_HELP = "common practice, overridable"
 
@@ -112,6 +112,11 @@ def _drill_set(args):
 
 
 def run_drill(args) -> int:
+    return emit_result(args, result_drill(args))
+
+
+def result_drill(args) -> tuple[int, dict, str | None]:
+    """What ``drill`` computes, worded: (exit status, the ``--json`` object, the text or None with ``--json``)."""
     from toolkit.fabricate.drilling import Limits
     from toolkit.fabricate.plan import plan_correction
     from toolkit.units import magnitude
@@ -157,8 +162,7 @@ def run_drill(args) -> int:
               f"spacing {r.limits.spacing_ratio:g}·d; depth step {_length(r.limits.depth_step_mm, args)} "
               f"[{_LIMIT_HELP}]",
               "  depths are to the shoulder (full diameter) from first contact; the tip lies deeper"]
-    emit(args.json, data, _finish(lines, plan))
-    return 1 if plan.within_allowance is False else 0
+    return 1 if plan.within_allowance is False else 0, data, _finish(lines, plan)
 
 
 # -- plate -----------------------------------------------------------------------------------------------
@@ -193,6 +197,11 @@ def configure_plate(parser) -> None:
 
 
 def run_plate(args) -> int:
+    return emit_result(args, result_plate(args))
+
+
+def result_plate(args) -> tuple[int, dict, str | None]:
+    """What ``plate`` computes, worded: (exit status, the ``--json`` object, the text or None with ``--json``)."""
     from toolkit.fabricate.plan import plan_correction
 
     amount, angle = _split(args)
@@ -215,8 +224,7 @@ def run_plate(args) -> int:
               f"  centroid       {_length(p.centroid_radius_mm, args)} from the axis (plate alone)",
               *_achieved(plan, args),
               f"  material       {p.material or 'as given'}, {p.density_kg_m3:g} kg/m³ ({p.density_source})"]
-    emit(args.json, data, _finish(lines, plan))
-    return 1 if plan.within_allowance is False else 0
+    return 1 if plan.within_allowance is False else 0, data, _finish(lines, plan)
 
 
 # -- washers ---------------------------------------------------------------------------------------------
@@ -240,6 +248,11 @@ def configure_washers(parser) -> None:
 
 
 def run_washers(args) -> int:
+    return emit_result(args, result_washers(args))
+
+
+def result_washers(args) -> tuple[int, dict, str | None]:
+    """What ``washers`` computes, worded: (exit status, the ``--json`` object, the text or None with ``--json``)."""
     from toolkit.fabricate.plan import plan_correction
 
     amount, angle = _split(args)
@@ -259,8 +272,7 @@ def run_washers(args) -> int:
               f"  stack          {_length(s.stack_height_mm, args)} high, centroid {_length(s.centroid_radius_mm, args)} "
               "from the axis",
               *_achieved(plan, args)]
-    emit(args.json, data, _finish(lines, plan))
-    return 1 if plan.within_allowance is False else 0
+    return 1 if plan.within_allowance is False else 0, data, _finish(lines, plan)
 
 
 # -- materials -------------------------------------------------------------------------------------------

@@ -5,7 +5,7 @@ Light at import: numpy, pint and the library modules are imported inside the run
 
 from __future__ import annotations
 
-from toolkit.commands._common import add_json, add_units, emit, parse_named
+from toolkit.commands._common import add_json, add_units, emit, emit_result, parse_named
 
 _CAUTION_NOTE = ("The rotor maker's balance specification, where it is stricter, takes precedence over these "
                  "figures.")
@@ -141,6 +141,11 @@ def configure_tolerance(parser) -> None:
 
 
 def run_tolerance(args) -> int:
+    return emit_result(args, result_tolerance(args))
+
+
+def result_tolerance(args) -> tuple[int, dict, str | None]:
+    """What ``tolerance`` computes, worded: (exit status, the ``--json`` object, the text or None with ``--json``)."""
     from toolkit.tolerance import DEFAULT_MIN_SHARE, parse_grade, tolerance_report
     from toolkit.units import Q_, quantity, speed_rpm
 
@@ -185,8 +190,8 @@ def run_tolerance(args) -> int:
     if report.one_plane is not None:
         data["one_plane"] = report.one_plane.to_dict(OPTION_NAMES)
         data["warnings"] = data["warnings"] + doubts
-    emit(args.json, data, None if args.json else _tolerance_text(report, fmt, args.show_other_rule, doubts, key))
-    return 1 if report.passed is False else 0
+    return (1 if report.passed is False else 0,
+            data, None if args.json else _tolerance_text(report, fmt, args.show_other_rule, doubts, key))
 
 
 def _key_convention(args):
@@ -316,6 +321,11 @@ def configure_verify(parser) -> None:
 
 
 def run_verify(args) -> int:
+    return emit_result(args, result_verify(args))
+
+
+def result_verify(args) -> tuple[int, dict, str | None]:
+    """What ``verify`` computes, worded: (exit status, the ``--json`` object, the text or None with ``--json``)."""
     from toolkit.verify import MIN_CONSISTENCY, verify_residual
 
     fmt = _Fmt(args.units)
@@ -324,8 +334,7 @@ def run_verify(args) -> int:
                              min_consistency=MIN_CONSISTENCY if min_c is None else min_c)
     data = result.to_dict()
     data["units"] = fmt.system.name
-    emit(args.json, data, None if args.json else _verify_text(result, fmt))
-    return 1 if result.passed is False else 0
+    return 1 if result.passed is False else 0, data, None if args.json else _verify_text(result, fmt)
 
 
 def _verify_text(v, fmt: _Fmt) -> str:

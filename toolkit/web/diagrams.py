@@ -19,8 +19,6 @@ _VECTOR = re.compile(r"^\s*([0-9]+(?:\.[0-9]*)?(?:[eE][-+]?[0-9]+)?)\s*([^@]*?)\
 def side_view(data: dict, units: str) -> str | None:
     """The side view of the tolerance result ``data`` (the ``--json`` object of ``tolerance``), or None when
     the result has no bearing span (then there is nothing to draw to scale)."""
-    from toolkit.workorder.svg import side_view_svg
-
     span = data.get("bearing_span_mm")
     com = data.get("com_from_a_mm")
     if not span or com is None:
@@ -29,9 +27,19 @@ def side_view(data: dict, units: str) -> str | None:
               if p.get("position_mm") is not None]
     ends = [0.0, float(span), float(com), *(pos for _n, pos in planes)]
     left, right = min(ends), max(ends)
-    return side_view_svg(length_mm=right - left, bearings_mm=[0.0 - left, float(span) - left],
-                         planes=[(n, pos - left) for n, pos in planes], centre_of_mass_mm=float(com) - left,
-                         units=units if units in ("metric", "imperial") else "metric")
+    return _side_view_svg(right - left, (0.0 - left, float(span) - left), tuple((n, pos - left) for n, pos in planes),
+                          float(com) - left, units if units in ("metric", "imperial") else "metric")
+
+
+@functools.lru_cache(maxsize=256)
+def _side_view_svg(length_mm: float, bearings_mm: tuple, planes: tuple, com_mm: float, units: str) -> str:
+    """The side view's SVG text: a pure function of the geometry and the unit system (floats, names and
+    strings in, an immutable string out, nothing of a request or a person in it), so a geometry drawn once
+    is drawn again from this cache; another rotor's numbers can never appear in it."""
+    from toolkit.workorder.svg import side_view_svg
+
+    return side_view_svg(length_mm=length_mm, bearings_mm=list(bearings_mm), planes=list(planes),
+                         centre_of_mass_mm=com_mm, units=units)
 
 
 def _vector(text: str):

@@ -3,7 +3,9 @@
 A page names a subcommand and the options it offers; the fields (label, kind, choices, default, help) come
 from that subcommand's argument parser, the values a person types become its arguments, and the result is
 what the subcommand itself computes: its ``--json`` object and its text, produced by the same function the
-command line runs. Options that name a file on the server (a shop's CSV, a runs file, a coefficients file)
+command line runs before it prints (``result_NAME`` in the subcommand's module), with the arguments read by
+the subcommand's own parser (built once). Nothing is printed, no stream or function is replaced and no
+process-wide setting is changed while a page computes, so requests in several threads never meet. Options that name a file on the server (a shop's CSV, a runs file, a coefficients file)
 are never offered. An error goes beside the field it names, with the option's name replaced by the field's
 label; an error that names no field goes at the top of the form. What the person typed is kept.
 """
@@ -11,10 +13,9 @@ label; an error that names no field goes at the top of the form. What the person
 from __future__ import annotations
 
 import argparse
-import io
-import json
+import functools
+import logging
 import re
-import threading
 from dataclasses import dataclass, field
 
 __all__ = ["Field", "Page", "PAGES", "fields_of", "run_page"]
@@ -95,14 +96,42 @@ PAGES = {p.slug: p for p in (
 )}
 
 
+class _Usage(Exception):
+    """An argument the subcommand's parser refused, in the parser's own words (what the command line prints
+    after ``counterpoise NAME: error:``)."""
+
+
+def _refuse(message: str):
+    from toolkit.cli import _printable
+
+    raise _Usage(_printable(message))
+
+
+@functools.lru_cache(maxsize=None)
 def _subparser(command: str) -> argparse.ArgumentParser:
+    """The subcommand's own argument parser, built once per process and only read afterwards (argparse
+    keeps the state of a parse in locals and copies list defaults before appending, so requests in several
+    threads can share it). Its usage errors are raised as :class:`_Usage` instead of printed."""
     from toolkit.cli import build_parser
 
     parser = build_parser(command)
     for action in parser._actions:
         if isinstance(action, argparse._SubParsersAction):
-            return action.choices[command]
+            sub = action.choices[command]
+            sub.error = _refuse  # this parser serves the pages only: it raises, never exits or prints
+            return sub
     raise LookupError(command)  # pragma: no cover - every page names a subcommand
+
+
+@functools.lru_cache(maxsize=None)
+def _result_function(command: str):
+    """``result_NAME`` of the subcommand's module: what ``run_NAME`` computes and words before it prints."""
+    import importlib
+
+    from toolkit.cli import COMMANDS
+
+    module_name = next(module for name, module, _help in COMMANDS if name == command)
+    return getattr(importlib.import_module(module_name), "result_" + command)
 
 
 _FIELDS: dict[str, list[Field]] = {}
@@ -191,88 +220,38 @@ class Outcome:
     argv: list = field(default_factory=list)
 
 
-class _Routed(io.TextIOBase):
-    """A stand-in for sys.stdout or sys.stderr that writes to the calling thread's buffer while that thread
-    runs a subcommand for a page, and to the real stream otherwise: two requests never share a capture, and
-    no lock serialises them."""
+def _compute(page: Page, argv: list[str]) -> tuple[int, dict | None, str, str]:
+    """The subcommand's result for ``argv`` without printing anything: (status, JSON-safe data, text,
+    error). The status is the command line's: 0 or 1 with a result, 2 for refused input, 3 for a bug."""
+    from toolkit.cli import _error_lines
+    from toolkit.commands._common import _clean
+    from toolkit.errors import CounterpoiseError
 
-    def __init__(self, real, name: str):
-        super().__init__()
-        self.real, self.name = real, name
-
-    @property
-    def encoding(self):
-        return "utf-8"
-
-    def write(self, text):
-        buffer = getattr(_LOCAL, self.name, None)
-        return (buffer if buffer is not None else self.real).write(text)
-
-    def flush(self):
-        buffer = getattr(_LOCAL, self.name, None)
-        (buffer if buffer is not None else self.real).flush()
-
-
-_LOCAL = threading.local()
-_INSTALL = threading.Lock()
-_HOOKED: set = set()
-
-
-def _install(command: str) -> None:
-    """Route the standard streams per thread (once), and let the subcommand's module hand its result to the
-    page: its ``emit`` is wrapped so that, for a page's thread only, the one computed result is written both
-    as ``--json`` and as text by the command line's own ``emit``. Everywhere else it behaves as before."""
-    import sys
-
-    from toolkit.cli import COMMANDS
-
-    with _INSTALL:
-        if not isinstance(sys.stdout, _Routed):
-            sys.stdout = _Routed(sys.stdout, "out")
-        if not isinstance(sys.stderr, _Routed):
-            sys.stderr = _Routed(sys.stderr, "err")
-        module_name = next(module for name, module, _help in COMMANDS if name == command)
-        if module_name in _HOOKED:
-            return
-        import importlib
-
-        module = importlib.import_module(module_name)
-        original = module.emit
-
-        def emit(as_json, data, text=None):
-            sink = getattr(_LOCAL, "sink", None)
-            if sink is None:
-                return original(as_json, data, text)
-            json_out, text_out = io.StringIO(), io.StringIO()
-            _LOCAL.out = json_out
-            original(True, data)
-            _LOCAL.out = text_out
-            original(False, data, text)
-            _LOCAL.out = sink["stdout"]
-            sink["results"].append((json_out.getvalue(), text_out.getvalue()))
-
-        module.emit = emit
-        _HOOKED.add(module_name)
-
-
-def _run(argv: list[str]) -> tuple[int, str, str, list]:
-    """Run the subcommand in this thread with its own captured streams: the status, what it printed and
-    its errors, and the (JSON, text) of each result it emitted."""
-    from toolkit.cli import main
-
-    _install(argv[0])
-    out, err = io.StringIO(), io.StringIO()
-    sink = {"stdout": out, "results": []}
-    _LOCAL.out, _LOCAL.err, _LOCAL.sink = out, err, sink
     try:
-        status = main(argv)
-    finally:
-        _LOCAL.out = _LOCAL.err = _LOCAL.sink = None
-    return status, out.getvalue(), err.getvalue(), sink["results"]
+        args = _subparser(page.command).parse_args(argv[1:])
+    except _Usage as exc:
+        return 2, None, "", str(exc)
+    args.command = page.command
+    try:
+        import numpy
+
+        with numpy.errstate(all="ignore"):  # as the command line: no numeric warning reaches the person;
+            # numpy's error state is per thread, so this changes nothing for another request
+            status, data, text = _result_function(page.command)(args)
+    except CounterpoiseError as exc:
+        return 2, None, "", _error_lines(page.command, exc, args)[0]
+    except Exception as exc:  # a bug: one line on the page, the traceback in the server's log
+        logging.getLogger("toolkit.web").exception("page %s", page.slug)
+        detail = " ".join(str(exc).split()) or type(exc).__name__
+        return 3, None, "", f"{type(exc).__name__}: {detail}"
+    if text is None:
+        text = "\n".join(f"{k}: {v}" for k, v in data.items())
+    return status, _clean(data), text.rstrip("\n") + "\n", ""
 
 
 def run_page(page: Page, values: dict, units: str) -> Outcome:
-    """Compute what the form asks for with the subcommand itself, once: its JSON result and its text."""
+    """Compute what the form asks for with the subcommand's own parser and its ``result_NAME`` function,
+    once: its JSON result and its text, as the command line would print them."""
     fields = fields_of(page)
     for f in fields:  # a choice is one of the offered values, whatever a crafted request sends
         value = str(values.get(f.name, ""))
@@ -282,19 +261,12 @@ def run_page(page: Page, values: dict, units: str) -> Outcome:
                                                      f"{', '.join(c for c in allowed if c)}"})
     argv = argv_of(page, values, units)
     outcome = Outcome(argv=argv)
-    status, out, err, results = _run(argv)
-    if status in (0, 1):
-        if len(results) == 1:
-            json_text, text = results[0]
-        else:  # the command printed more than one result: ask it for its JSON separately
-            _s, json_text, err, _r = _run(argv_of(page, values, units, ["--json"]))
-            text = out
-        outcome.data = json.loads(json_text)
-        outcome.status = status
-        outcome.text = text
-        return outcome
+    status, data, text, error = _compute(page, argv)
     outcome.status = status
-    message = " ".join(err.strip().splitlines()[:1]) if err.strip() else "the input was refused"
+    if status in (0, 1):
+        outcome.data, outcome.text = data, text
+        return outcome
+    message = " ".join(error.strip().splitlines()[:1]) if error.strip() else "the input was refused"
     message = re.sub(r"^counterpoise [a-z]+: error: ", "", message)
     message = re.sub(r"^argument ", "", message)
     outcome.errors = _place(message, fields, status)

@@ -9,6 +9,7 @@ served from the output folder only, and only files the register lists for that j
 from __future__ import annotations
 
 import datetime as _dt
+import functools
 from pathlib import Path
 
 from toolkit.web import run as RUN
@@ -23,7 +24,10 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
     from toolkit.register import records as R
 
     def _types() -> list[str]:
-        return [t["type"] for t in R.list_types(reg)]
+        """The stored rotor types' names, as ``list_types`` lists them, without its per-type counts: the run's
+        form needs the names only, and the counting query cost more than the form's computation."""
+        with reg.read() as conn:
+            return [row[0] for row in conn.execute(_type_names())]
 
     def _template_of(values):
         name = str(values.get("type", "") or "").strip()
@@ -385,6 +389,17 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
         Route("/planner/{ident}/state", batch_state),
         Route("/planner/{ident}/orders.zip", batch_zip),
     ]
+
+
+@functools.lru_cache(maxsize=1)
+def _type_names():
+    """The statement (built once; SQLAlchemy statements are immutable) naming every type that has a version."""
+    from sqlalchemy import select
+
+    from toolkit.register.schema import rotor_types, type_versions
+
+    return (select(rotor_types.c.name).where(rotor_types.c.id.in_(select(type_versions.c.type_id)))
+            .order_by(rotor_types.c.name))
 
 
 def _escape(text: str) -> str:
