@@ -60,7 +60,7 @@ CHILD_BATCH = PEAK + (
 CHILD_FLOOR = PEAK + (
     "import resource, sys\n"
     "import toolkit.cli, toolkit.export.files, toolkit.workorder.batch, toolkit.workorder.build\n"
-    "import toolkit.workorder.pdf, openpyxl\n"
+    "import toolkit.export.pdf, openpyxl\n"
     "sys.stderr.write(f'peak-kB {peak_kb()}\\n')\n"
 )
 CHILD_BASELINE = PEAK + (

@@ -394,7 +394,7 @@ def stats_xlsx(s: dict) -> bytes:
     """The statistics as a workbook: Summary, Planes, Histogram, Trend, Scatter sheets."""
     from openpyxl import Workbook
 
-    from toolkit.workorder.xlsx import safe_text
+    from toolkit.export.xlsx import safe_text
 
     wb = Workbook()
     ws = wb.active

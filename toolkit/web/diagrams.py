@@ -1,4 +1,4 @@
-"""The diagrams of the browser face: SVG drawn by :mod:`toolkit.workorder.svg` from what a page computed.
+"""The diagrams of the browser face: SVG drawn by :mod:`toolkit.export.svg` from what a page computed.
 
 The tolerance page shows the rotor from the side (positions there are measured from bearing A; the side
 view measures from the rotor's left end, taken as the outermost of the bearings, planes and centre of
@@ -19,7 +19,7 @@ _VECTOR = re.compile(r"^\s*([0-9]+(?:\.[0-9]*)?(?:[eE][-+]?[0-9]+)?)\s*([^@]*?)\
 def side_view(data: dict, units: str) -> str | None:
     """The side view of the tolerance result ``data`` (the ``--json`` object of ``tolerance``), or None when
     the result has no bearing span (then there is nothing to draw to scale)."""
-    from toolkit.workorder.svg import side_view_svg
+    from toolkit.export.svg import side_view_svg
 
     span = data.get("bearing_span_mm")
     com = data.get("com_from_a_mm")
@@ -88,7 +88,7 @@ def run_vectors(values: dict, order=None, planes=()) -> tuple[list[dict], list[s
 
 def live_svg(values: dict, order=None, planes=()) -> tuple[str, list[str]]:
     """The live polar diagram of the guided run, and the entries it could not draw."""
-    from toolkit.workorder.svg import vectors_svg
+    from toolkit.export.svg import vectors_svg
 
     vectors, skipped = run_vectors(values, order, planes)
     reference = str(values.get("reference", "")).strip() or "(no reference mark given)"
@@ -100,7 +100,7 @@ def live_svg(values: dict, order=None, planes=()) -> tuple[str, list[str]]:
 
 def plane_svgs(order) -> list[str]:
     """Each plane's polar diagram as the work order draws it."""
-    from toolkit.workorder.svg import plane_svg
+    from toolkit.export.svg import plane_svg
 
     return [plane_svg(order, i) for i in range(len(order.planes))]
 
@@ -112,7 +112,7 @@ def style_hash() -> str:
     import base64
     import hashlib
 
-    from toolkit.workorder.svg import vectors_svg
+    from toolkit.export.svg import vectors_svg
 
     svg = vectors_svg(title="t", reference="r", angle_sense="with rotation", vectors=[])
     styles = set(re.findall(r"<style>(.*?)</style>", svg, re.S))

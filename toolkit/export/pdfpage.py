@@ -2,7 +2,7 @@
 one font, wrapping, the page-holding canvas and the combined document of a batch (reportlab underneath).
 
 Fonts: DejaVu Sans Condensed (regular, bold, oblique) for Latin, Greek, Cyrillic and the signs the orders
-use, and Droid Sans Fallback for Chinese, Japanese and Korean; both ship in ``toolkit/workorder/fonts`` with
+use, and Droid Sans Fallback for Chinese, Japanese and Korean; both ship in ``toolkit/export/fonts`` with
 their licences and are embedded as subsets (reportlab ``TTFont``). Each string is cut into runs of
 characters that one font has; a character neither font has prints as the visible replacement mark
 U+FFFD, never as a silent "?". The fallback font is read only when a text needs it.
@@ -29,7 +29,7 @@ MARGIN = 42.0
 #: What a character neither font has is printed as.
 REPLACEMENT = "\ufffd"
 
-#: Style -> (registered font name, file in toolkit/workorder/fonts).
+#: Style -> (registered font name, file in toolkit/export/fonts).
 FONT_FILES = {
     "regular": ("CP-Sans", "DejaVuSansCondensed.ttf"),
     "bold": ("CP-Sans-Bold", "DejaVuSansCondensed-Bold.ttf"),
@@ -509,7 +509,7 @@ class Document:
         return number
 
     def add_pages(self, pages: Pages) -> None:
-        """Add the pages of one order (from :func:`toolkit.workorder.pdf.render_order`)."""
+        """Add the pages of one order (from :func:`toolkit.export.pdf.render_order`)."""
         objects = _objects(pages.data)
         copied: dict[int, int] = {}
 
