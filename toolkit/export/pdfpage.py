@@ -20,7 +20,7 @@ from contextlib import contextmanager
 from io import BytesIO
 from pathlib import Path
 
-__all__ = ["PAPER", "MARGIN", "paper_size", "clean", "runs", "width", "wrap", "shorten", "draw", "Doc",
+__all__ = ["PAPER", "MARGIN", "paper_size", "clean", "runs", "width", "wrap", "shorten", "draw", "canvas", "Doc",
            "Document", "FONT_FILES", "REPLACEMENT"]
 
 #: Paper sizes in points (ISO 216 A4 is 210 mm x 297 mm; US Letter is 8.5 in x 11 in).
@@ -359,17 +359,24 @@ def binary_streams():
         rl_config.useA85 = previous
 
 
+def canvas(buffer, paper: str = "A4"):
+    """A reportlab canvas writing to ``buffer`` on ``paper``: deterministic (invariant mode), pages
+    compressed, and the embedded regular font as its initial font, so no standard font is in the file."""
+    from reportlab.pdfgen.canvas import Canvas
+
+    c = Canvas(buffer, pagesize=paper_size(paper), invariant=1, pageCompression=1,
+               initialFontName=_font("regular").fontName)
+    c.setCreator("Counterpoise")
+    return c
+
+
 class Doc:
     """A canvas whose pages are held back until their order is complete, so that each footer can say
     ``page N of M`` for its own order; then they are finished and only the PDF stream keeps them."""
 
     def __init__(self, buffer, paper: str = "A4"):
-        from reportlab.pdfgen.canvas import Canvas
-
         self.width, self.height = paper_size(paper)
-        self.c = Canvas(buffer, pagesize=(self.width, self.height), invariant=1, pageCompression=1,
-                        initialFontName=_font("regular").fontName)  # no standard font in the file
-        self.c.setCreator("Counterpoise")
+        self.c = canvas(buffer, paper)
         self.pending: list[dict] = []
         self.footer = ""
         self.colour = (0.45, 0.47, 0.50)

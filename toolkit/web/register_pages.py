@@ -234,7 +234,8 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
     async def certificate(request):
         need_user(request)
         number = request.path_params["number"]
-        from toolkit.register.reports import certificate_data, certificate_pdf
+        from toolkit.export.certificate import certificate_pdf
+        from toolkit.register.reports import certificate_data
 
         try:
             data = await run_in_threadpool(certificate_data, reg, number)
