@@ -65,16 +65,22 @@ def _round_angle(angle: float, step: float) -> float:
 
 
 def _tolerances(job: Job):
+    """The tolerance report of the job, each plane's :class:`Tolerance` and the notes to print. An error of
+    the report names the job keys it is about, with their lines (``geometry.centre_of_mass (line 27)``)."""
     from toolkit.tolerance import DEFAULT_MIN_SHARE, tolerance_report
 
     one = job.planes[0] if len(job.planes) == 1 else None
-    report = tolerance_report(
-        job.grade, job.mass, _q(job.service_speed_rpm, "rpm"), bearing_span=job.bearing_span,
-        com_from_a=job.centre_of_mass, planes={p.name: p.position for p in job.planes},
-        static_share=job.static_share, criteria=(job.criterion,),
-        min_share=DEFAULT_MIN_SHARE if job.min_share is None else job.min_share,
-        one_plane_rule=job.one_plane_rule, rotor_length=job.rotor_length,
-        correction_diameter=None if one is None else 2 * one.radius)
+    try:
+        report = tolerance_report(
+            job.grade, job.mass, _q(job.service_speed_rpm, "rpm"), bearing_span=job.bearing_span,
+            com_from_a=job.centre_of_mass, planes={p.name: p.position for p in job.planes},
+            static_share=job.static_share, criteria=(job.criterion,),
+            min_share=DEFAULT_MIN_SHARE if job.min_share is None else job.min_share,
+            one_plane_rule=job.one_plane_rule, rotor_length=job.rotor_length,
+            correction_diameter=None if one is None else 2 * one.radius)
+    except (BadInput, Infeasible) as exc:
+        words = exc.worded(job_key_names(job, 0 if one is not None else None), quantity_words(job.shop.units))
+        raise type(exc)(f"{job.origin}: {words}") from None
     by_name = {p.name: p for p in report.planes}
     tolerances = {}
     for plane in job.planes:

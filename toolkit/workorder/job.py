@@ -880,6 +880,12 @@ def _shop_convexity(ck: _Checker, shop_t: Mapping) -> float | None:
 _PLANE_KEYS = {"radius": "radius", "wall": "wall", "width": "width", "max_length": "max_length",
                "material": "material", "fixed_positions": "fixed_positions", "size": "washer_size",
                "surface": "surface", "shape": "plate_shape", "orientation": "hole_orientation"}
+#: The tolerance library's parameters (``toolkit.tolerance.tolerance_report``) as the job keys that set them.
+_TOLERANCE_KEYS = {"bearing_span": ("geometry", "bearing_span"), "com_from_a": ("geometry", "centre_of_mass"),
+                   "static_share": ("geometry", "static_share"), "min_share": ("geometry", "min_share"),
+                   "one_plane_rule": ("geometry", "one_plane_rule"), "rotor_length": ("geometry", "rotor_length"),
+                   "criteria": ("rotor", "criterion"), "grade": ("rotor", "grade"), "mass": ("rotor", "mass"),
+                   "speed": ("rotor", "service_speed"), "error_allowance": ("rotor", "error_allowance")}
 _SHOP_KEYS = {"point_angle_deg": "point_angle", "drills": "drills", "thickness": "plate_stock",
               "step": "plate_step", "fillet": "fillet", "convexity": "weld_convexity", "units": "units"}
 
@@ -887,8 +893,10 @@ _SHOP_KEYS = {"point_angle_deg": "point_angle", "drills": "drills", "thickness":
 def job_key_names(job: Job, plane: int | None = None):
     """``name(parameter) -> text``: a library parameter named as the job key that sets it, with the line
     (or planner column) where it is written, e.g. ``plane[1].wall (line 14)`` or
-    ``[shop.drilling] max_depth_ratio``; ``plane`` is the index of the plane being corrected. A parameter no
-    job key sets keeps the library's name (never a command-line option)."""
+    ``[shop.drilling] max_depth_ratio``; ``plane`` is the index of the plane being corrected. The tolerance
+    report's parameters name their keys too (``geometry.centre_of_mass (line 27)``; ``planes NAME``, a plane's
+    position, ``plane[2].position (line 43)``). A parameter no job key sets keeps the library's name (never a
+    command-line option)."""
     ck = _Checker(job.origin, dict(job.key_lines), job.key_columns)
 
     def shown(path: tuple, header: str | None = None) -> str:
@@ -908,6 +916,12 @@ def job_key_names(job: Job, plane: int | None = None):
             return shown(("shop", "drilling", parameter), "shop.drilling")
         if parameter in _SHOP_KEYS:
             return shown(("shop", _SHOP_KEYS[parameter]), "shop")
+        if parameter in _TOLERANCE_KEYS:
+            return shown(_TOLERANCE_KEYS[parameter])
+        head, _, plane_name = parameter.partition(" ")
+        if head == "planes":  # "planes NAME": that plane's position; "planes": every plane's
+            index = next((i for i, p in enumerate(job.planes) if p.name == plane_name), None)
+            return shown(("plane", index, "position")) if index is not None else "[[plane]] position"
         return parameter
 
     return name
