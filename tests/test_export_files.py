@@ -225,8 +225,64 @@ def test_a_rotor_type_column_and_a_job_column_together_fail_the_row(tmp_path):
     assert "job and rotor_type" in alone.failures[0][1]
 
 
-def test_record_and_carry_on_are_refused_together(capsys, tmp_path):
-    err = cli(capsys, "batch", EXAMPLES / "planner.csv", "--out", tmp_path, "--record", "--carry-on",
-              "--register", tmp_path / "r.sqlite3", rc=2)
-    assert "--record and --carry-on" in err
-    assert not any(tmp_path.iterdir())
+def _jobs(capsys, register) -> list[str]:
+    return sorted(j["order_number"] for j in cli(capsys, "register", "jobs", "--register", register, "--json")["jobs"])
+
+
+def test_batch_record_carry_on_records_each_row_once(capsys, tmp_path):
+    register, out = tmp_path / "shop.sqlite3", tmp_path / "out"
+    sheet = _sheet(tmp_path, serial=["SN-1", "SN-2", "SN-3"])
+    first = cli(capsys, "batch", sheet, "--out", out, "--record", "--carry-on", "--register", register, "--json")
+    numbers = [r["order_number"] for r in first["recorded"]]
+    assert [r["earlier"] for r in first["recorded"]] == [False] * 3 and first["not_recorded"] == []
+    # as if the batch had been stopped after its second rotor: the third's PDF, the batch's own files and its
+    # record are not there
+    third = out / f"{numbers[2]}.pdf"
+    for path in [third, *out.glob("plan-*")]:
+        path.unlink()
+    text = cli(capsys, "batch", sheet, "--out", out, "--record", "--carry-on", "--register", register)
+    for n, number in enumerate(numbers, start=2):
+        assert f"recorded row {n} (SHEET-{n - 1}) as {number} by the earlier run" in text
+    assert "not recorded" not in text and "3 work order(s) written" not in text
+    assert _jobs(capsys, register) == sorted(numbers)  # nothing recorded twice
+    # the third rotor's PDF is written again under its number, the same file as recorded
+    shown = cli(capsys, "register", "show", numbers[2], "--register", register, "--json")
+    assert {f["sha256"] for f in shown["files"]} == {hashlib.sha256(third.read_bytes()).hexdigest()}
+    again = cli(capsys, "batch", sheet, "--out", out, "--record", "--carry-on", "--register", register, "--json")
+    assert len(again["kept"]) == 3 and [r["earlier"] for r in again["recorded"]] == [True] * 3
+    # a continued batch in another folder is a new batch: its rows are recorded anew
+    other = cli(capsys, "batch", sheet, "--out", tmp_path / "other", "--record", "--carry-on", "--register", register,
+                "--json")
+    assert [r["earlier"] for r in other["recorded"]] == [False] * 3
+    assert len(_jobs(capsys, register)) == 6
+
+
+def test_a_row_that_fails_mid_batch_leaves_nothing_recorded(capsys, tmp_path):
+    import datetime as dt
+
+    register, out = tmp_path / "shop.sqlite3", tmp_path / "out"
+    sheet = _sheet(tmp_path, serial=["SN-1", "SN-2", "SN-3"])
+    out.mkdir()
+    year = dt.datetime.now(dt.timezone.utc).year
+    foreign = out / f"WO-{year}-00002.pdf"  # a file of something else where the second rotor's order would go
+    foreign.write_bytes(b"not one of ours\n")
+    data = cli(capsys, "batch", sheet, "--out", out, "--record", "--carry-on", "--register", register, "--json", rc=1)
+    assert [f["row"] for f in data["failures"]] == [3] and "already exists" in data["failures"][0]["reason"]
+    assert data["not_recorded"] == [3]
+    assert [(r["row"], r["order_number"]) for r in data["recorded"]] == [(2, f"WO-{year}-00001"),
+                                                                       (4, f"WO-{year}-00003")]
+    # the failed row's number is a gap: no job, no files of it in the register, the foreign file untouched
+    assert _jobs(capsys, register) == [f"WO-{year}-00001", f"WO-{year}-00003"]
+    assert foreign.read_bytes() == b"not one of ours\n"
+    for number in (f"WO-{year}-00001", f"WO-{year}-00003"):
+        shown = cli(capsys, "register", "show", number, "--register", register, "--json")
+        assert [Path(f["path"]).name for f in shown["files"]] == [f"{number}.pdf"]
+        assert [s["status"] for s in shown["status_history"]] == ["planned"]
+    foreign.unlink()
+    text = cli(capsys, "batch", sheet, "--out", out, "--record", "--carry-on", "--register", register)
+    assert "recorded row 2 (SHEET-1) as WO-%d-00001 by the earlier run" % year in text
+    assert "recorded row 3 (SHEET-2) as WO-%d-00004\n" % year in text  # recorded now, under a new number
+    assert "not recorded" not in text
+    assert len(_jobs(capsys, register)) == 3
+    text = cli(capsys, "batch", sheet, "--out", tmp_path / "o2", "--record", "--register", register)
+    assert "not recorded" not in text

@@ -68,6 +68,35 @@ def test_a_url_password_is_never_shown():
     assert "s3cret-Pw" not in message and "\n" not in message
 
 
+HOSTILE = "O'Brien\"; DROP TABLE jobs; -- %(x)s :name ? \\ \u00e9\u2264"
+
+
+def test_text_with_sql_in_it_is_stored_as_given(reg):
+    # every value goes to the database as a bound parameter: quotes, comment marks, placeholders and
+    # backslashes are text like any other, and no table is touched by them
+    R.save_type(reg, HOSTILE, support.TEMPLATE, note=HOSTILE, by=HOSTILE)
+    t, text = R.compose_job(reg, HOSTILE, support.readings("21000 g*mm@40", "16500 g*mm@200"), serial=HOSTILE)
+    order, rec = R.record_job(reg, text, type_version_id=t["version_id"], by=HOSTILE)
+    R.record_signoff(reg, rec["order_number"], "operator", HOSTILE)
+    detail = R.job_detail(reg, rec["order_number"])
+    assert detail["serial"] == HOSTILE and detail["type"] == HOSTILE and detail["created_by"] == HOSTILE
+    assert detail["signoffs"][0]["name"] == HOSTILE
+    assert [j["order_number"] for j in R.list_jobs(reg, type_name=HOSTILE)] == [rec["order_number"]]
+    assert R.type_info(reg, HOSTILE)["versions"][0]["note"] == HOSTILE
+
+
+def test_the_register_formats_no_value_into_sql():
+    import re
+
+    # no SQL text is made with an f-string or %-formatting where it is executed (identifiers and values go
+    # through SQLAlchemy Core and bound parameters)
+    root = Path(__file__).resolve().parents[1] / "toolkit"
+    pattern = re.compile(r"(execute|executemany|exec_driver_sql|text)\(\s*f[\"']|(execute|text)\([^)]*[\"']\s*%\s")
+    found = [f"{path.name}:{n}" for folder in ("register", "web") for path in sorted((root / folder).glob("*.py"))
+             for n, line in enumerate(path.read_text(encoding="utf-8").splitlines(), 1) if pattern.search(line)]
+    assert found == []
+
+
 def test_upgrade_from_version_1_keeps_the_records(where):
     old = open_register(where, migrate=False)
     assert old.migrate(target=1) == [1]
@@ -85,6 +114,32 @@ def test_upgrade_from_version_1_keeps_the_records(where):
 
     c = coefficients_from(solve_one_plane("4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49"))
     assert R.store_coefficients(new, "F-400", c)["set"] >= 1
+    assert new.migrate() == []
+    new.close()
+
+
+def test_upgrade_from_the_previous_version_keeps_the_records(where):
+    from toolkit.coefficients import coefficients_from
+    from toolkit.influence import solve_one_plane
+    from toolkit.web import accounts
+
+    old = open_register(where, migrate=False)
+    assert old.migrate(target=LATEST - 1) == list(range(1, LATEST))
+    assert old.version() == LATEST - 1 == 2
+    R.save_type(old, "F-400", support.TEMPLATE)
+    order, rec = _record(old)
+    c = coefficients_from(solve_one_plane("4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49"))
+    stored = R.store_coefficients(old, "F-400", c)
+    old.close()
+    new = open_register(where)
+    assert new.version() == LATEST
+    detail = R.job_detail(new, rec["order_number"])
+    assert detail["job_sha256"] == rec["job_sha256"] and detail["workorder"]["ident"]["number"] == rec["order_number"]
+    assert [h["set"] for h in R.coefficient_history(new, "F-400")] == [stored["set"]]
+    # version 3 adds the browser face's accounts: usable right away, beside the records kept
+    accounts.add(new, "inspector-1", "inspector", "a long invented passphrase")
+    assert accounts.authenticate(new, "inspector-1", "a long invented passphrase")["role"] == "inspector"
+    assert _record(new, "SN-2")[1]["order_number"] != rec["order_number"]
     assert new.migrate() == []
     new.close()
 
@@ -132,7 +187,42 @@ def test_job_keeps_its_text_hash_and_work_order(reg):
     assert detail["serial"] == "SN-77"
 
 
-def test_order_numbers_follow_the_shop_pattern(reg):
+@pytest.mark.parametrize("name", sorted(p.name for p in (Path(__file__).parents[1] / "examples").glob("job-*.toml")))
+def test_the_stored_json_of_an_order_is_its_dictionary(name):
+    from dataclasses import replace
+
+    from toolkit.workorder.build import order_from_file
+
+    order = order_from_file(Path(__file__).parents[1] / "examples" / name)
+    # to_json (orjson from the dataclasses) against the standard library's json of to_dict
+    assert json.loads(order.to_json()) == json.loads(json.dumps(order.to_dict()))
+    # the register's copy with a new number is dataclasses.replace without __init__
+    changed = R._replaced(order, ident=R._replaced(order.ident, number="N-1", input_sha256="0" * 64), warnings=("w",))
+    assert changed == replace(order, ident=replace(order.ident, number="N-1", input_sha256="0" * 64), warnings=("w",))
+    assert changed.ident.number == "N-1" and order.ident.number != "N-1" and changed.warnings == ("w",)
+    assert not hasattr(type(order), "__post_init__") and not hasattr(type(order.ident), "__post_init__")
+
+
+def test_threads_of_one_process_recording_at_once_share_no_number(reg):
+    from concurrent.futures import ThreadPoolExecutor
+
+    R.save_type(reg, "F-400", support.TEMPLATE)
+
+    def station(k):
+        return [_record(reg, f"SN-{k}-{n}")[1]["order_number"] for n in range(15)]
+
+    with ThreadPoolExecutor(4) as pool:
+        numbers = [n for chunk in pool.map(station, range(4)) for n in chunk]
+    assert len(set(numbers)) == 60
+    jobs = R.list_jobs(reg, limit=1000)
+    assert sorted(j["order_number"] for j in jobs) == sorted(numbers)
+    for number in numbers[::7]:
+        detail = R.job_detail(reg, number)
+        assert detail["workorder"]["ident"]["number"] == number and len(detail["workorder"]["planes"]) == 2
+        assert [s["status"] for s in detail["status_history"]] == ["planned"]
+
+
+def test_order_numbers_follow_the_shop_pattern(reg, where):
     import datetime as dt
 
     R.save_type(reg, "F-400", support.TEMPLATE)
@@ -141,6 +231,12 @@ def test_order_numbers_follow_the_shop_pattern(reg):
     assert numbers == [f"WO-{year}-{k:05d}" for k in (1, 2, 3)]
     reg.set_setting("order_pattern", "BAL{seq:04d}")
     assert _record(reg)[1]["order_number"] == "BAL0001"
+    # another station changes the pattern: this one's next number follows it at once
+    with open_register(where) as other:
+        other.set_setting("order_pattern", "WO-{year}-{seq:05d}")
+        assert _record(reg)[1]["order_number"] == f"WO-{year}-00004"
+        other.set_setting("order_pattern", "BAL{seq:04d}")
+    assert _record(reg)[1]["order_number"] == "BAL0002"
     with pytest.raises(BadInput, match="no {seq}"):
         from toolkit.register.store import check_pattern
 

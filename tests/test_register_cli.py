@@ -157,8 +157,18 @@ def test_workbook_of_another_job_text_is_refused(capsys, where, tmp_path):
     other = cli(capsys, "register", "record", "WO-0000-00000", "--workbook", _fill(xlsx, tmp_path / "ok.xlsx"),
                 "--register", where, rc=2)
     assert "is for order" in other
-    shown = cli(capsys, "register", "show", number, "--register", where, "--json")
-    assert shown["check_runs"] == [] and shown["status"] == "planned"  # nothing was recorded
+    # the workbook's order number changed to another recorded job's, or to one the register does not have
+    second, _data = _order(capsys, where, tmp_path, "--force", "--serial", "SN-other")  # another job text
+    for target, words in ((second, "does not match"), ("WO-1999-99999", "not in the register")):
+        wb, cell = _cells(_fill(xlsx, tmp_path / "renamed.xlsx"))
+        cell("cp_order_number").value = target
+        wb.save(tmp_path / "renamed.xlsx")
+        err = cli(capsys, "register", "record", "--workbook", tmp_path / "renamed.xlsx", "--register", where, rc=2)
+        assert words in err, err
+    for job in (number, second):
+        shown = cli(capsys, "register", "show", job, "--register", where, "--json")
+        assert shown["check_runs"] == [] and shown["status"] == "planned"  # nothing was recorded
+        assert shown["signoffs"] == [] and shown["operation_marks"] == []
 
 
 def test_imperial_workbook_readings_are_converted(capsys, where, tmp_path):
@@ -319,6 +329,37 @@ def test_one_run_balancing_from_stored_coefficients(capsys, where, tmp_path):
     new = cli(capsys, *trim)
     history = cli(capsys, "register", "coeffs", "exhaust fan", "--register", where, "--json")["sets"]
     assert [h["reason"] for h in history] == ["file", "trim"] and new["parent"] == history[0]["set"]
+
+
+def test_stale_coefficients_by_the_shops_setting(capsys, tmp_path):
+    import datetime as dt
+
+    from sqlalchemy import update
+
+    from toolkit.register import open_register
+    from toolkit.register.schema import coefficient_sets
+
+    where = tmp_path / "shop.sqlite3"
+    cli(capsys, "register", "type-save", "exhaust fan", EXAMPLES / "job-fan-runs.toml", "--register", where, "--json")
+    cli(capsys, "solve", EXAMPLES / "runs-two-plane.toml", "--save-coefficients", tmp_path / "c.json", "--json")
+    cli(capsys, "register", "coeffs", "exhaust fan", "--save", tmp_path / "c.json", "--register", where, "--json")
+    # as if the set had been stored 100 days ago (the register itself never changes a recorded row)
+    then = (dt.datetime.now(dt.timezone.utc) - dt.timedelta(days=100)).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
+    reg = open_register(where)
+    with reg.write() as conn:
+        conn.execute(update(coefficient_sets).values(created=then))
+    reg.close()
+    args = ["register", "balance", "exhaust fan", "--register", where, "--out", tmp_path / "one", "--json",
+            "--original", "17.50 um@253.7", "--original", "15.28 um@52.2", "--original", "32.89 um@290.3",
+            "--original", "24.74 um@93.3"]
+    fresh = cli(capsys, *args, "--serial", "SN-1")  # the default: stale after 180 days
+    assert not any("days old" in w for w in fresh["order"]["warnings"])
+    cli(capsys, "register", "init", "--stale-days", "30", "--register", where, "--json")
+    stale = cli(capsys, *args, "--serial", "SN-2")
+    (warning,) = [w for w in stale["order"]["warnings"] if "days old" in w]
+    assert "stored influence coefficients are 100 days old (older than the shop's 30 days)" in warning
+    shown = cli(capsys, "register", "show", stale["order"]["ident"]["number"], "--register", where, "--json")
+    assert warning in shown["workorder"]["warnings"]
 
 
 def test_every_register_subcommand_answers_json(capsys, tmp_path):

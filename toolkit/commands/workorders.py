@@ -45,7 +45,8 @@ def configure_batch(parser) -> None:
     parser.add_argument("--carry-on", action="store_true",
                         help="continue an interrupted batch in the same folder: keep the orders already "
                              "written from unchanged rows, write the others, then the summary and combined "
-                             "PDF over all of them")
+                             "PDF over all of them (with --record, a row the earlier run recorded keeps its "
+                             "number and is not recorded again)")
     parser.add_argument("--order-workbooks", action="store_true",
                         help="also write each rotor's work-order workbook (<order>.xlsx) beside its PDF")
     _paper_option(parser)
@@ -209,14 +210,21 @@ class Progress:
 
 class _BatchRegister:
     """The shop register as a batch uses it: stored rotor types for the sheet's ``rotor_type`` column, and
-    with ``--record`` each rotor's job recorded (the register numbers it) and its files. Opened on first
-    use only."""
+    with ``--record`` each rotor's job recorded (the register numbers it) together with its files. Opened
+    on first use only.
 
-    def __init__(self, args):
-        self.args = args
+    A row's number is reserved first, in a transaction of its own; the job, its planes, status and files
+    are then recorded in one transaction around the writing of its files, so a row whose files fail (or
+    that the register refuses) leaves nothing recorded, only a gap in the numbers. With ``--carry-on`` a
+    row that an earlier run of the batch recorded (the same job text, its files written into this folder)
+    keeps its number and is not recorded again."""
+
+    def __init__(self, args, out):
+        self.args, self.out = args, out
         self.reg = None
         self.versions: dict[str, int] = {}
         self.recorded: list[dict] = []
+        self.taken: set[str] = set()  # numbers of earlier runs given to a row of this one
 
     def _open(self):
         if self.reg is None:
@@ -232,21 +240,41 @@ class _BatchRegister:
         self.versions[name] = t["version_id"]
         return R._loads(t["template"], f"rotor type {t['type']} version {t['version']}")
 
-    def prepare(self, row):
+    def prepare(self, row, make):
+        from pathlib import Path
+
         from toolkit.register import records as R
 
+        reg = self._open()
         text = R.toml_text(row.data, f"job of {row.origin} (planner sheet row)")
+        digest = R.sha256_text(text)
+        note = {"row": row.number, "sheet_order": row.cells.get("order", "")}
+        earlier = [n for n in R.recorded_in_folder(reg, digest, self.out) if n not in self.taken] \
+            if self.args.carry_on else []
+        if earlier:  # recorded by an earlier run of this batch: the same order again, kept or written anew
+            self.taken.add(earlier[0])
+            made = make(R._replaced(row.order, ident=R._replaced(row.order.ident, number=earlier[0],
+                                                                 input_sha256=digest)))
+            self.recorded.append({**note, "order_number": earlier[0], "earlier": True})
+            return made
+        number = R.reserve_number(reg)
+        built = R._replaced(row.order, ident=R._replaced(row.order.ident, number=number))
         type_name = row.cells.get("rotor_type", "")
-        order, rec = R.store_order(self._open(), row.order, text, dict(row.job.order),
-                                   type_version_id=self.versions.get(type_name) if type_name else None)
-        self.recorded.append({"row": row.number, "order_number": rec["order_number"],
-                              "sheet_order": row.cells.get("order", "")})
-        return order
+        made = []
 
-    def written(self, row, order, paths) -> None:
-        from toolkit.register import records as R
+        def files(order):
+            made.append(make(order))
+            return [made[0][1][fmt] for fmt in made[0][1]]
 
-        R.add_files(self._open(), order.ident.number, paths)
+        try:
+            R.store_order(reg, built, text, dict(row.job.order), allocate=False, files=files,
+                          type_version_id=self.versions.get(type_name) if type_name else None)
+        except BaseException:
+            for path in made[0][4] if made else ():  # written for a job that was then not recorded
+                Path(path).unlink(missing_ok=True)
+            raise
+        self.recorded.append({**note, "order_number": number, "earlier": False})
+        return made[0]
 
     def close(self) -> None:
         if self.reg is not None:
@@ -263,18 +291,14 @@ def run_batch(args) -> int:
 
     if Path(args.sheet).is_dir():
         raise BadInput(f"{args.sheet} is a folder; give a planner sheet (.xlsx or .csv file)")
-    if args.record and args.carry_on:
-        raise BadInput("--record and --carry-on: give one of them (a continued batch would record its rows "
-                       "a second time)")
     out = out_folder(args.out)
     progress = Progress() if sys.stderr.isatty() and not args.json else None
-    register = _BatchRegister(args)
+    register = _BatchRegister(args, out)
     formats = ("pdf", "xlsx") if args.order_workbooks else ("pdf",)
     try:
         result = write_batch(args.sheet, out, force=args.force, progress=progress, carry_on=args.carry_on,
                              paper=_paper_name(args), formats=formats, template_for=register.template_for,
-                             prepare=register.prepare if args.record else None,
-                             written=register.written if args.record else None)
+                             prepare=register.prepare if args.record else None)
     except OutputError as exc:
         if not args.carry_on and "already exists" in str(exc) and any(out.glob("*-batch.json")):
             from toolkit.commands._common import error_text
@@ -293,6 +317,11 @@ def run_batch(args) -> int:
     data = result.to_dict()
     if args.record:
         data["recorded"] = register.recorded
-        lines += [f"  recorded row {r['row']} ({r['sheet_order']}) as {r['order_number']}" for r in register.recorded]
+        data["not_recorded"] = [row for row, _reason in result.failures]
+        lines += [f"  recorded row {r['row']} ({r['sheet_order']}) as {r['order_number']}"
+                  + (" by the earlier run" if r["earlier"] else "") for r in register.recorded]
+        if result.failures:
+            lines.append("  not recorded (failed): row" + "s" * (len(result.failures) > 1) + " "
+                         + ", ".join(str(row) for row, _reason in result.failures))
     emit(args.json, data, "\n".join(lines))
     return 1 if result.failures or result.out_of_tolerance else 0

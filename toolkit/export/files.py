@@ -175,10 +175,12 @@ def write_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False
 
     ``progress(done, total, failed, final)`` hears of each row (see :func:`toolkit.workorder.batch.orders`);
     ``template_for(name)`` gives the job data of a stored rotor type for the ``rotor_type`` column.
-    ``prepare(row)`` is called with each built :class:`~toolkit.workorder.batch.Row` before its files are
-    made and returns the order to write (for instance the order as a register numbered and recorded it);
-    ``written(row, order, paths)`` is called after its files are in place. An error raised by either stops
-    the batch.
+    ``prepare(row, make)`` is called with each built :class:`~toolkit.workorder.batch.Row` instead of making
+    its files: it calls ``make(order)`` with the order to write (for instance the order as a register
+    numbered it) and returns what that returns, so that it can record the row around the making of its
+    files (a row whose files fail is then not recorded); ``written(row, order, paths)`` is called after its
+    files are in place. A refusal (:class:`~toolkit.errors.CounterpoiseError`) raised by ``prepare`` fails
+    that row with its reason; any other error, and any error of ``written``, stops the batch.
 
     Raises :class:`~toolkit.errors.BadInput` only for problems of the whole sheet (missing, unreadable,
     unknown columns) and :class:`~toolkit.errors.OutputError` when the summary or combined files exist
@@ -327,9 +329,14 @@ class _Batch:
     def _write_files(self, row):
         """Make a built row's files and write those not kept from an earlier run; return the order, the
         paths, the PDF's pages, the files' digests and the paths written now."""
+        if self.prepare:
+            return self.prepare(row, lambda order: self._make(row, order))
+        return self._make(row, row.order)
+
+    def _make(self, row, order):
+        """:meth:`_write_files` for the order to write."""
         from toolkit.fileio import safe_filename, write_together
 
-        order = self.prepare(row) if self.prepare else row.order
         name = safe_filename(order.ident.number)
         key = f"{name}.pdf".casefold()
         if key in self.own:

@@ -60,7 +60,7 @@ def _empty(conn) -> bool:
 
 def import_lines(reg: Register, path) -> dict:
     """Read a file written by :func:`export_lines` into an empty register; returns the row count per table."""
-    from sqlalchemy import delete, text
+    from sqlalchemy import delete, func, select
 
     from toolkit.register.schema import LATEST, TABLES, counters, settings
 
@@ -132,7 +132,7 @@ def import_lines(reg: Register, path) -> dict:
         if reg.dialect == "postgresql":  # explicit ids were inserted: move each id sequence past them
             for table in TABLES:
                 if "id" in table.columns:
-                    conn.execute(text(f"SELECT setval(pg_get_serial_sequence('{table.name}', 'id'), "
-                                      f"COALESCE((SELECT MAX(id) FROM {table.name}), 0) + 1, false)"))
+                    top = func.coalesce(select(func.max(table.c.id)).scalar_subquery(), 0) + 1
+                    conn.execute(select(func.setval(func.pg_get_serial_sequence(table.name, "id"), top, False)))
     return counts
 

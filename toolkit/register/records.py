@@ -12,7 +12,6 @@ from __future__ import annotations
 import hashlib
 import json
 import tomllib
-from dataclasses import replace
 from pathlib import Path
 
 from toolkit.errors import BadInput, OutputError
@@ -20,7 +19,8 @@ from toolkit.register.store import DEFAULT_STALE_DAYS, Register, now
 
 __all__ = ["STATUSES", "TRANSITIONS", "ROLES", "save_type", "change_template", "save_type_changes",
            "list_types", "type_info", "template",
-           "compose_job", "record_job", "store_order", "add_files", "list_jobs", "job_detail", "set_status", "record_check",
+           "compose_job", "record_job", "store_order", "reserve_number", "recorded_in_folder", "add_files", "list_jobs",
+           "job_detail", "set_status", "record_check",
            "record_signoff", "record_marks", "store_coefficients", "coefficient_history", "latest_coefficients",
            "trim_coefficients", "stale_warnings", "sha256_text", "toml_text"]
 
@@ -38,8 +38,16 @@ ROLES = ("operator", "machinist", "inspector")
 #: The placeholder order number of a job that the register numbers.
 PLACEHOLDER = "(allocated by the register)"
 MAX_TEXT = 1_000_000
-#: The JSON text of stored values (UTF-8 as it is, compact; the values are made here, never circular).
-_JSON = json.JSONEncoder(ensure_ascii=False, check_circular=False, separators=(",", ":"))
+
+
+def _json(value) -> str:
+    """The JSON text of a stored value (compact, UTF-8 characters as they are; TOML dates as ISO text)."""
+    import orjson
+
+    try:
+        return orjson.dumps(value).decode()
+    except TypeError as exc:
+        raise BadInput(f"order data: cannot be stored ({exc})") from None
 
 
 def sha256_text(text: str) -> str:
@@ -407,32 +415,33 @@ def record_job(reg: Register, job_text: str, *, origin: str = "job", base=None, 
 
 
 def store_order(reg: Register, built, job_text: str, order_data: dict, *, type_version_id: int | None = None,
-                allocate: bool = True, by: str = "", extra_warnings: tuple[str, ...] = ()):
+                allocate: bool = True, by: str = "", extra_warnings: tuple[str, ...] = (), files=None):
     """The recording transaction of :func:`record_job` for a work order already built from ``job_text``.
 
-    Everything that needs no database is made before the transaction (the work order's dictionary, the
-    JSON of the order data, the plane rows); inside it, one statement each on the driver's cursor
-    (:meth:`Register.execute`): the shop's pattern, the counter, the job row (whose insert also refuses a
-    number already used: then the next number is drawn), its planes and its first status."""
+    Everything that needs no database is made before the transaction (the JSON of the order data, the
+    plane rows); inside it, one statement each on the driver's cursor (:meth:`Register.execute`): the shop's
+    pattern, the counter, the job row with the work order's JSON (:meth:`WorkOrder.to_json`, once its number
+    is known; the insert also refuses a number already used: then the next number is drawn), its planes and
+    its first status. ``files(order)``, if given, is called last inside the transaction with the recorded
+    order and returns the paths of the files it wrote for it, recorded in the same transaction: when it
+    raises, nothing of the job is recorded."""
     digest = sha256_text(job_text)
     when = now()
     by = _by(by)
     warnings = built.warnings + tuple(extra_warnings)
-    data = built.to_dict()  # the recorded order's dictionary: its input hash, warnings and number set here
-    data["ident"]["input_sha256"] = digest
-    data["warnings"] = warnings
     planes = [{"idx": n, "plane": p.name, "u_per_g_mm": p.tolerance.u_per_g_mm, "limit_g_mm": p.limit,
                "initial_g_mm": p.initial_g_mm, "initial_deg": p.initial_deg, "predicted_g_mm": p.predicted_g_mm,
                "operations": len(p.operations), "mass_g": sum(op.mass_g for op in p.operations), "created": when}
               for n, p in enumerate(built.planes, start=1)]
     row = {"type_version_id": type_version_id, "serial": built.ident.serial, "customer": built.ident.customer,
-           "order_data": _JSON.encode(order_data), "job_text": job_text, "job_sha256": digest,
+           "order_data": _json(order_data), "job_text": job_text, "job_sha256": digest,
            "predicted_pass": int(built.passed), "status": "planned", "created": when, "created_by": by}
     with reg.write_direct() as conn:
         for _ in range(1000):
             number = reg.allocate_number(conn, skip_used=False) if allocate else built.ident.number
-            data["ident"]["number"] = number
-            inserted = reg.execute(conn, "job", {**row, "order_number": number, "workorder": _JSON.encode(data)})
+            # the recorded order: its number, input hash and warnings set here; stored as its JSON text
+            order = _replaced(built, ident=_replaced(built.ident, number=number, input_sha256=digest), warnings=warnings)
+            inserted = reg.execute(conn, "job", {**row, "order_number": number, "workorder": order.to_json()})
             if inserted:
                 job_id = inserted[0][0]
                 break
@@ -444,8 +453,44 @@ def store_order(reg: Register, built, job_text: str, order_data: dict, *, type_v
         reg.execute(conn, "planes", [{**p, "job_id": job_id} for p in planes])
         reg.execute(conn, "status", {"job_id": job_id, "status": "planned", "at": when, "by": by,
                                      "source": "recorded", "note": ""})
-    order = replace(built, ident=replace(built.ident, number=number, input_sha256=digest), warnings=warnings)
+        if files is not None:
+            rows = [{**f, "job_id": job_id, "at": when} for f in _file_rows(files(order))]
+            if rows:
+                reg.execute(conn, "files", rows)
     return order, {"order_number": number, "job_sha256": digest, "status": "planned", "created": when}
+
+
+def reserve_number(reg: Register) -> str:
+    """Allocate the next order number in a transaction of its own (a job recorded later with
+    ``allocate=False`` takes it; one that is never recorded leaves a gap in the numbers, as a skipped
+    number does)."""
+    with reg.write() as conn:
+        return reg.allocate_number(conn)
+
+
+def recorded_in_folder(reg: Register, job_sha256: str, folder) -> list[str]:
+    """The order numbers of the jobs recorded from a job text of this SHA-256 whose files were written into
+    ``folder`` (oldest first): a batch continued in its folder finds there the rows an earlier run of it
+    recorded."""
+    from sqlalchemy import select
+
+    from toolkit.register.schema import job_files, jobs
+
+    here = Path(folder).resolve()
+    with reg.read() as conn:
+        rows = conn.execute(select(jobs.c.order_number, job_files.c.path)
+                            .join(job_files, job_files.c.job_id == jobs.c.id)
+                            .where(jobs.c.job_sha256 == str(job_sha256)).order_by(jobs.c.id, job_files.c.id)).all()
+    return list(dict.fromkeys(number for number, path in rows if Path(path).resolve().parent == here))
+
+
+def _replaced(value, **changes):
+    """``dataclasses.replace`` of a work order or its identification, made as a copy of its fields with
+    ``changes`` instead of running its ``__init__`` again (neither has a ``__post_init__``, every field is
+    an ``__init__`` field, and the values were checked when the order was built): a sixth of the time."""
+    new = object.__new__(type(value))
+    new.__dict__.update(value.__dict__, **changes)
+    return new
 
 
 def _job_row(conn, number: str):
@@ -463,15 +508,21 @@ def add_files(reg: Register, number: str, paths) -> list[dict]:
     """Record files written for a job with their SHA-256."""
     from toolkit.register.schema import job_files
 
-    out = []
-    for p in paths:
-        data = Path(p).read_bytes()
-        out.append({"path": str(p), "sha256": hashlib.sha256(data).hexdigest(), "size": len(data)})
+    out = _file_rows(paths)
     with reg.write() as conn:
         job = _job_row(conn, number)
         when = now()
         if out:
             conn.execute(job_files.insert(), [{**f, "job_id": job["id"], "at": when} for f in out])
+    return out
+
+
+def _file_rows(paths) -> list[dict]:
+    """Each file's path, SHA-256 and size, as the register keeps them."""
+    out = []
+    for p in paths:
+        data = Path(p).read_bytes()
+        out.append({"path": str(p), "sha256": hashlib.sha256(data).hexdigest(), "size": len(data)})
     return out
 
 

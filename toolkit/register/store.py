@@ -20,9 +20,10 @@ import os
 import re
 import stat
 import string
+import threading
 from pathlib import Path
 
-from toolkit.errors import BadInput, OutputError
+from toolkit.errors import BadInput, CounterpoiseError, OutputError
 
 __all__ = ["ENV", "DEFAULT_PATTERN", "DEFAULT_STALE_DAYS", "resolve", "default_path", "open_register",
            "Register", "shown_url", "now", "format_order_number", "check_pattern", "recording_statements"]
@@ -35,6 +36,8 @@ DEFAULT_STALE_DAYS = 180
 #: How long a writer waits for another one's lock (s) before giving up.
 BUSY_TIMEOUT_S = 60.0
 _PATTERN_FIELDS = {"year", "month", "seq"}
+#: SQLite's wait for another writer's lock (a PRAGMA takes no bound parameter; the text is a constant)
+_BUSY_PRAGMA = "PRAGMA busy_timeout = %d" % int(BUSY_TIMEOUT_S * 1000)
 
 
 def now() -> str:
@@ -164,8 +167,12 @@ class Register:
         self.engine = engine
         self.where = shown_url(url)
         self.dialect = engine.dialect.name
-        self._compiled: dict[tuple, str] = {}
+        self._compiled: dict[tuple, tuple[str, tuple[str, ...]]] = {}
         self._path = Path(url.database) if self.dialect == "sqlite" else None
+        self._file = str(self._path)  # the SQLite file's path as text (checked before each recording)
+        self._held = None  # (process id, pool connection) of write_direct on SQLite
+        self._pattern = None  # the order-number pattern last read from the settings
+        self._held_lock = threading.Lock()
 
     # -- transactions -----------------------------------------------------------------------------------
 
@@ -180,24 +187,50 @@ class Register:
 
     @contextlib.contextmanager
     def write_direct(self):
-        """One write transaction on the pool's driver connection itself, for :meth:`execute` only (the
-        recording of a job, where SQLAlchemy's transaction bookkeeping cost about 0.04 ms of 0.6 ms here):
-        committed at the end, rolled back on any error, its errors worded as :meth:`write` words them."""
+        """One write transaction on a driver connection itself, for :meth:`execute` only (the recording of
+        a job, where SQLAlchemy's transaction bookkeeping cost about as much as the database's own work):
+        committed at the end, rolled back on any error, its errors worded as :meth:`write` words them.
+
+        On SQLite the register keeps one driver connection for these transactions (taken from the pool
+        once, guarded by a lock, given up after any error and in a forked child); on PostgreSQL each one
+        takes a connection from the pool, which checks it is alive first."""
         if self._path is not None:
-            _check_file_writable(self._path)
+            _check_file_writable(self._file)
         with self._errors("write to"):
-            connection = self.engine.raw_connection()
-            try:
-                if self.dialect == "sqlite":
-                    connection.dbapi_connection.execute("BEGIN IMMEDIATE").close()
-                yield _Direct(connection)
-                connection.dbapi_connection.commit()
-            except BaseException:
-                with contextlib.suppress(Exception):  # the error that stopped the transaction is the one told
-                    connection.dbapi_connection.rollback()
-                raise
-            finally:
-                connection.close()
+            if self._path is None:
+                connection = self.engine.raw_connection()
+                try:
+                    yield from self._direct(connection, connection.dbapi_connection)
+                finally:
+                    connection.close()
+                return
+            with self._held_lock:
+                if self._held is None or self._held[0] != os.getpid():
+                    self._held = (os.getpid(), self.engine.raw_connection())
+                connection = self._held[1]
+                try:
+                    yield from self._direct(connection, connection.dbapi_connection)
+                except BaseException as exc:
+                    if not isinstance(exc, CounterpoiseError):  # a refusal of ours leaves it rolled back and sound
+                        self._held = None  # one the driver failed on (or interrupted) is not kept
+                        with contextlib.suppress(Exception):
+                            connection.close()
+                    raise
+
+    def _direct(self, connection, dbapi):
+        """The transaction of :meth:`write_direct` on ``dbapi`` (the driver connection of ``connection``)."""
+        cursor = dbapi.cursor()
+        try:
+            if self._path is not None:
+                cursor.execute("BEGIN IMMEDIATE")
+            yield _Direct(connection, cursor)
+            dbapi.commit()
+        except BaseException:
+            with contextlib.suppress(Exception):  # the error that stopped the transaction is the one told
+                dbapi.rollback()
+            raise
+        finally:
+            cursor.close()  # a statement left open would hold SQLite's read snapshot
 
     @contextlib.contextmanager
     def read(self):
@@ -247,27 +280,37 @@ class Register:
         :meth:`write_direct`) on the driver's own cursor and return the rows it gives back (a list of
         tuples, empty for an insert without RETURNING); ``params`` is a dictionary, or a list of them.
 
-        The statements are SQLAlchemy Core compiled once for this database (bound parameters, the
-        driver's named style); running them on the driver's cursor skips SQLAlchemy's per-statement
-        bookkeeping, which cost about as much as the database's own work for each small statement of a
-        recorded job. A driver error here is turned into the one-line message by the transaction."""
+        The statements are SQLAlchemy Core compiled once for this database (bound parameters in the
+        driver's positional style, the values taken from ``params`` in the compiled order: sqlite3 binds a
+        named parameter by a look-up per name, which cost about as much as the insert itself for a job's
+        row); running them on the driver's cursor skips SQLAlchemy's per-statement bookkeeping, which cost
+        about as much as the database's own work for each small statement of a recorded job. A driver
+        error here is turned into the one-line message by the transaction."""
         many = isinstance(params, list)
         keys = tuple(params[0] if many else params)
-        sql = self._compiled.get((name, keys))
-        if sql is None:
-            sql = self._compiled[(name, keys)] = _compile(recording_statements(self.dialect)[name], self.dialect,
-                                                           keys)
-        cursor = conn.connection.dbapi_connection.cursor()
+        compiled = self._compiled.get((name, keys))
+        if compiled is None:
+            compiled = self._compiled[(name, keys)] = _compile(recording_statements(self.dialect)[name],
+                                                                self.dialect, keys)
+        sql, order = compiled
+        direct = type(conn) is _Direct  # then the transaction's own cursor (every statement read to its end)
+        cursor = conn.cursor if direct else conn.connection.dbapi_connection.cursor()
         try:
             if many:
-                cursor.executemany(sql, params)
+                cursor.executemany(sql, [tuple([p[k] for k in order]) for p in params])
             else:
-                cursor.execute(sql, params)
+                cursor.execute(sql, tuple([params[k] for k in order]))
             return cursor.fetchall() if cursor.description else []
         finally:
-            cursor.close()  # a statement left open would hold SQLite's read snapshot until the commit
+            if not direct:
+                cursor.close()  # a statement left open would hold SQLite's read snapshot until the commit
 
     def close(self) -> None:
+        with self._held_lock:
+            if self._held is not None and self._held[0] == os.getpid():
+                with contextlib.suppress(Exception):
+                    self._held[1].close()
+            self._held = None
         self.engine.dispose()
 
     def __enter__(self):
@@ -359,7 +402,16 @@ class Register:
         import, say) is skipped; with ``skip_used`` false the caller does that check itself (the job's own
         insert refuses a number already used, and the caller asks for the next)."""
         when = when or _dt.datetime.now(_dt.timezone.utc)
-        pattern = _checked_pattern(self.setting("order_pattern", DEFAULT_PATTERN, conn))[0]
+        pattern = self._pattern
+        if pattern is not None:  # the pattern last seen: one statement bumps its counter if it is still the shop's
+            name = _counter_name(pattern, when)
+            row = next(iter(self.execute(conn, "bump_if", {"counter": name, "key": "order_pattern",
+                                                           "default": DEFAULT_PATTERN, "pattern": pattern})), None)
+            if row is not None:
+                number = format_order_number(pattern, int(row[0]), when)
+                if not skip_used or not self.execute(conn, "used", {"number": number}):
+                    return number
+        pattern = self._pattern = _checked_pattern(self.setting("order_pattern", DEFAULT_PATTERN, conn))[0]
         name = _counter_name(pattern, when)
         for _ in range(1000):
             row = next(iter(self.execute(conn, "bump", {"counter": name})), None)
@@ -376,47 +428,55 @@ class Register:
 def recording_statements(dialect: str) -> dict:
     """The statements of the recording path, built once per dialect (SQLAlchemy then reuses their compiled
     form; the values are bound parameters given at each execution)."""
-    from sqlalchemy import Integer, bindparam, literal_column, select, update
+    from sqlalchemy import Integer, bindparam, func, literal_column, select, update
 
-    from toolkit.register.schema import counters, jobs, job_planes, job_status, settings
+    from toolkit.register.schema import counters, job_files, job_planes, job_status, jobs, settings
 
     return {
         "setting": select(settings.c.value).where(settings.c.key == bindparam("key")),
         "bump": update(counters).where(counters.c.name == bindparam("counter"))
                 .values(value=counters.c.value + literal_column("1", Integer)).returning(counters.c.value),
+        # the same, only while the shop's pattern is still the one the counter's name was made from
+        "bump_if": update(counters).where(counters.c.name == bindparam("counter"))
+                   .where(func.coalesce(select(settings.c.value).where(settings.c.key == bindparam("key"))
+                                        .scalar_subquery(), bindparam("default")) == bindparam("pattern"))
+                   .values(value=counters.c.value + literal_column("1", Integer)).returning(counters.c.value),
         "counter": _insert(dialect, counters).on_conflict_do_nothing(index_elements=["name"]),
         "used": select(jobs.c.id).where(jobs.c.order_number == bindparam("number")),
         "job": _insert(dialect, jobs).on_conflict_do_nothing(index_elements=["order_number"])
                .returning(jobs.c.id),
         "planes": job_planes.insert().inline(),  # inline: no id fetched back
         "status": job_status.insert().inline(),
+        "files": job_files.insert().inline(),
     }
 
 
 class _Direct:
     """What :meth:`Register.execute` needs of a transaction of :meth:`Register.write_direct`."""
 
-    __slots__ = ("connection",)
+    __slots__ = ("connection", "cursor")
 
-    def __init__(self, connection):
+    def __init__(self, connection, cursor):
         self.connection = connection
+        self.cursor = cursor
 
 
-def _compile(statement, dialect: str, keys: tuple[str, ...]) -> str:
-    """The SQL text of a Core statement for the driver's cursor: named bound parameters (``:name`` for
-    sqlite3, ``%(name)s`` for psycopg); an insert names only the columns in ``keys``."""
+def _compile(statement, dialect: str, keys: tuple[str, ...]) -> tuple[str, tuple[str, ...]]:
+    """The SQL text of a Core statement for the driver's cursor, with positional bound parameters (``?``
+    for sqlite3, ``%s`` for psycopg), and the names of its parameters in their order; an insert names only
+    the columns in ``keys``."""
     if dialect == "sqlite":
         from sqlalchemy.dialects.sqlite.pysqlite import SQLiteDialect_pysqlite
 
-        target = SQLiteDialect_pysqlite(paramstyle="named")
+        target = SQLiteDialect_pysqlite(paramstyle="qmark")
     else:
         from sqlalchemy.dialects.postgresql.psycopg import PGDialect_psycopg
 
-        target = PGDialect_psycopg(paramstyle="pyformat")
+        target = PGDialect_psycopg(paramstyle="format")
     from sqlalchemy.sql.dml import Insert
 
     compiled = statement.compile(dialect=target, column_keys=list(keys) if isinstance(statement, Insert) else None)
-    return str(compiled)
+    return str(compiled), tuple(compiled.positiontup or ())
 
 
 def _insert(dialect: str, table):
@@ -427,11 +487,11 @@ def _insert(dialect: str, table):
     return insert(table)
 
 
-def _check_file_writable(path: Path) -> None:
+def _check_file_writable(path: Path | str) -> None:
     """Refuse a register file without its owner's write permission (checked by mode, so that it holds even
     for root), before anything is tried."""
     try:
-        mode = path.stat().st_mode
+        mode = os.stat(path).st_mode
     except FileNotFoundError:
         return
     except OSError as exc:
@@ -458,14 +518,14 @@ def _sqlite_engine(url):
     elif path.is_dir():
         raise BadInput(f"register {path}: is a folder; give a file path")
     query = dict(url.query)
-    engine = create_engine(url.set(query=query), pool_size=1, max_overflow=4,
+    engine = create_engine(url.set(query=query), pool_size=2, max_overflow=4,
                            connect_args={"timeout": BUSY_TIMEOUT_S, "check_same_thread": False})
 
     @event.listens_for(engine, "connect")
     def _connect(dbapi_connection, _record):
         dbapi_connection.isolation_level = None  # the driver's own transaction handling off: BEGIN below
         cursor = dbapi_connection.cursor()
-        cursor.execute(f"PRAGMA busy_timeout = {int(BUSY_TIMEOUT_S * 1000)}")
+        cursor.execute(_BUSY_PRAGMA)
         cursor.execute("PRAGMA foreign_keys = ON")
         if query.get("mode") != "ro":
             mode = cursor.execute("PRAGMA journal_mode").fetchone()[0]

@@ -399,6 +399,27 @@ class WorkOrder:
     def to_dict(self) -> dict:
         """A JSON-ready dictionary (amounts in g·mm, g, mm, degrees, as the key names say)."""
         data = {name: _plain(getattr(self, name)) for name in _field_names(WorkOrder) if name != "inputs"}
+        return self._completed(data)
+
+    def to_json(self) -> str:
+        """The compact JSON text of :meth:`to_dict` (UTF-8 characters as they are), made by orjson from the
+        dataclasses themselves without the dictionaries: about a fifth of the time of ``json.dumps`` of
+        :meth:`to_dict`, which the register spent on every job it records. The same data (a number may be
+        written in another form, ``1e-5`` for ``1e-05``, and a non-finite one, which JSON cannot hold, as ``null``);
+        a value orjson does not know takes the slow way."""
+        import orjson
+
+        data = {name: getattr(self, name) for name in _field_names(WorkOrder) if name != "inputs"}
+        data["planes"] = [{name: getattr(p, name) for name in _field_names(PlaneOrder)} for p in self.planes]
+        try:
+            return orjson.dumps(self._completed(data)).decode()
+        except TypeError:
+            import json
+
+            return json.dumps(self.to_dict(), ensure_ascii=False, separators=(",", ":"))
+
+    def _completed(self, data: dict) -> dict:
+        """``data`` (the fields, ``planes`` as one mapping a plane) with what :meth:`to_dict` adds."""
         data["passed"] = self.passed
         for plane, raw in zip(self.planes, data["planes"]):
             raw["passed"] = plane.passed
