@@ -17,7 +17,7 @@ import pytest
 from pypdf import PdfReader
 
 from toolkit.cli import main
-from toolkit.workorder import pdf
+from toolkit.export import pdf
 from toolkit.workorder.build import build_order
 from toolkit.workorder.job import EXAMPLE, JobError, load_job, parse_job
 

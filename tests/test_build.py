@@ -244,3 +244,46 @@ def test_error_allowance_shown_in_the_jobs_units():
     order = build_order(parse_job(text, origin=str(path), base=path.parent))
     used = {s.name: s for s in order.settings}["measurement error allowance ΔU"]
     assert used.given and used.value.endswith("oz·in") and used.value.startswith("0.05")
+
+
+def _line_of(text: str, start: str, occurrence: int = 1) -> int:
+    """The 1-based line number of the ``occurrence``-th line of ``text`` starting with ``start``."""
+    found = [n for n, line in enumerate(text.splitlines(), start=1) if line.startswith(start)]
+    return found[occurrence - 1]
+
+
+@pytest.mark.parametrize("change, key, start, occurrence, needle, error", [
+    # a plane 40 m from bearing A on a 500 mm span: refused by the tolerance report's axial bound
+    (("500 mm", "40000 mm"), "plane[2].position", 'position = "40000 mm"', 1, "more than 3 bearing spans", BadInput),
+    (("com_from", "40000 mm"), "geometry.centre_of_mass", "centre_of_mass", 1, "more than 3 bearing spans",
+     BadInput),
+    # the centre of mass near bearing A leaves no couple allowance for a large static share
+    (("static", "0.9"), "geometry.static_share", "static_share", 1, "leaves no couple allowance", Infeasible),
+])
+def test_tolerance_errors_name_the_job_key_and_its_line(change, key, start, occurrence, needle, error):
+    what, value = change
+    if what == "com_from":
+        text = job_text(com=value)
+    elif what == "static":
+        text = job_text(com="20 mm").replace("[[plane]]", f"static_share = {value}\n[[plane]]", 1)
+    else:
+        text = job_text(planes=(("A", "0 mm", "200 mm", "drill", ""),
+                                ("B", value, "200 mm", "plate", 'width = "40 mm"')))
+    with pytest.raises(error) as caught:
+        build_order(parse_job(text, origin="job.toml"))
+    message = str(caught.value)
+    assert message.startswith(f"job.toml: {key} (line {_line_of(text, start, occurrence)}): "), message
+    assert needle in message
+    assert "--" not in message  # an option of some command, which order does not have
+
+
+def test_tolerance_errors_in_order_are_one_line_naming_the_key(tmp_path, capsys):
+    from toolkit.cli import main
+
+    job = tmp_path / "job.toml"
+    job.write_text(job_text(com="40000 mm"), encoding="utf-8")
+    assert main(["order", str(job), "--out", str(tmp_path / "out")]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "Traceback" not in err
+    assert f"geometry.centre_of_mass (line {_line_of(job.read_text(), 'centre_of_mass')}):" in err
+    assert "com_from_a" not in err and "--com-from-a" not in err

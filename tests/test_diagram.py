@@ -13,8 +13,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from toolkit.workorder import diagram as dia
-from toolkit.workorder import pdf, pdfpage
+from toolkit.export import diagram as dia
+from toolkit.export import pdf, pdfpage
 from toolkit.workorder.build import demo_order, order_from_file
 from toolkit.workorder.model import Formatter, Operation, example_order
 

@@ -59,7 +59,7 @@ def _same(a: Path, b: Path) -> None:
 
 def test_timeless_sees_a_changed_cell():
     # the comparison itself must be able to fail: two workbooks that differ in one cell are told apart
-    from toolkit.workorder import xlsx
+    from toolkit.export import xlsx
     from toolkit.workorder.model import example_order
 
     a, b = xlsx.to_bytes(example_order("A-1")), xlsx.to_bytes(example_order("A-2"))

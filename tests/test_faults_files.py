@@ -552,7 +552,7 @@ def _sections(raw: str) -> list[str]:
 def test_ampersands_in_the_order_number_stay_text_in_header_and_footer(tmp_path, number):
     from openpyxl import load_workbook
 
-    from toolkit.workorder import xlsx
+    from toolkit.export import xlsx
 
     job = tmp_path / "job.toml"
     job.write_text(re.sub(r'(?m)^number = "[^"]*"', lambda m: "number = " + json.dumps(number), JOB.read_text("utf-8")),
@@ -572,7 +572,7 @@ def test_ampersands_in_the_order_number_stay_text_in_header_and_footer(tmp_path,
 @settings(max_examples=100, deadline=None)
 @given(st.text(alphabet='&LCRPN"0123456789 x', max_size=200))
 def test_header_text_never_leaves_a_lone_ampersand(text):
-    from toolkit.workorder.xlsx import _hf
+    from toolkit.export.xlsx import _hf
 
     escaped = _hf(text)
     assert "&" not in escaped.replace("&&", "")  # every & is doubled, none split by the cut

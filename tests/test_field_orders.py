@@ -15,7 +15,7 @@ from pathlib import Path
 
 import pytest
 
-from toolkit.workorder import pdf, xlsx
+from toolkit.export import pdf, xlsx
 from toolkit.workorder.build import build_order, order_from_file
 from toolkit.workorder.job import parse_job
 

@@ -14,7 +14,7 @@ from pathlib import Path
 
 import pytest
 
-from toolkit.workorder import pdf, xlsx
+from toolkit.export import pdf, xlsx
 from toolkit.workorder.build import order_from_file
 
 EXAMPLE = Path(__file__).resolve().parents[1] / "examples" / "job-blower-imperial.toml"

@@ -21,7 +21,7 @@ from hypothesis import given, settings, strategies as st
 from pypdf import PdfReader
 
 from toolkit.cli import main
-from toolkit.workorder import pdf, xlsx
+from toolkit.export import pdf, xlsx
 from toolkit.workorder.build import build_order
 from toolkit.workorder.job import JobError, load_job, parse_job
 

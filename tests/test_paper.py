@@ -9,7 +9,7 @@ import pytest
 from pypdf import PdfReader
 
 from toolkit.cli import main
-from toolkit.workorder import pdf, xlsx
+from toolkit.export import pdf, xlsx
 from toolkit.workorder.build import demo_order, order_from_file
 from toolkit.workorder.job import JobError
 

@@ -10,7 +10,7 @@ from hypothesis import strategies as st
 from pypdf import PdfReader
 
 from toolkit.errors import OutputError
-from toolkit.workorder import pdf, pdfpage
+from toolkit.export import pdf, pdfpage
 from toolkit.workorder.build import demo_order
 from toolkit.workorder.model import Identification, example_order
 
@@ -160,7 +160,7 @@ def test_fonts_are_embedded_unicode_subsets():
 def test_font_files_and_licences_ship_in_the_package():
     from importlib.resources import files
 
-    folder = files("toolkit.workorder") / "fonts"
+    folder = files("toolkit.export") / "fonts"
     for name in ("DejaVuSansCondensed.ttf", "DejaVuSansCondensed-Bold.ttf", "DejaVuSansCondensed-Oblique.ttf",
                  "DroidSansFallback.ttf"):
         assert (folder / name).read_bytes()[:4] == b"\x00\x01\x00\x00"  # TrueType outlines (glyf)

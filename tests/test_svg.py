@@ -17,8 +17,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from toolkit.errors import BadInput
-from toolkit.workorder import diagram as dia
-from toolkit.workorder import pdf, pdfpage, svg
+from toolkit.export import diagram as dia
+from toolkit.export import pdf, pdfpage, svg
 from toolkit.workorder.build import demo_order, order_from_file
 from toolkit.workorder.model import Formatter, Operation, example_order
 

@@ -79,7 +79,7 @@ def test_api_si_factor():
 
 
 def test_api_is_about_g_067_for_equal_journals():
-    # DOMAIN notes: API 4W/N "is about G 0.67 for a rotor with equal journal loads" [S: API Std 617]
+    # API Std 617, 7th ed., Annex B: 4W/N is about G 0.67 for a rotor with equal journal loads (docs/methods.md 1.7)
     m, n = 1000.0, 3600.0
     total_api = 2 * api_allowance(Q_(m / 2, "kg"), Q_(n, "rpm")).m_as("g*mm")
     g_equiv = total_api / (SHOP_CONSTANT * m / n)
@@ -113,16 +113,16 @@ def test_lever_bounds_overridable_and_named():
 
 
 def test_wide_planes_d_over_b():
-    # Bloch & Geitner ch. 6 (reduce by d/b) and the statics of the domain notes (S+D):
+    # Bloch & Geitner ch. 6 (reduce by d/b) and rigid-body statics, docs/methods.md 1.5 (S+D):
     # d = 400 mm, symmetric correction planes 500 mm apart: 800 g*mm in total, 400 per plane, rel 1e-9
     t1, t2 = transfer_to_planes("500 g*mm", "500 g*mm", "400 mm", ["-50 mm", "450 mm"])
     assert t1.m_as("g*mm") == pytest.approx(400, rel=1e-9)
     assert t2.m_as("g*mm") == pytest.approx(400, rel=1e-9)
 
 
-def test_statics_equals_domain_equal_tolerance_formula():
+def test_statics_equals_the_equal_tolerance_formula():
     # derived here (D), checks our implementation, not a published number: for equal bearing allowances the
-    # weighted transfer equals the domain notes' equal-tolerance formula
+    # weighted transfer equals the equal-tolerance formula of docs/methods.md 1.5
     d, z1, z2, ua, ub = 600.0, -80.0, 520.0, 700.0, 700.0
     expected = d * min(ua / (abs(d - z1) + abs(d - z2)), ub / (abs(z1) + abs(z2)))
     t = transfer_to_planes(Q_(ua, "g*mm"), Q_(ub, "g*mm"), Q_(d, "mm"), [Q_(z1, "mm"), Q_(z2, "mm")])

@@ -17,7 +17,7 @@ SIX = ["44.8790@0", "53.6268@60", "58.6368@120", "56.0268@180", "47.7210@240", "
 
 
 def test_six_point_reference():
-    # procedure: API Std 617 7th ed. Annex B (six positions); fit: domain notes section 1; readings
+    # procedure: API Std 617 7th ed. Annex B (six positions); fit: docs/methods.md 1.9 (D); readings
     # synthesised from a known residual (D): residual 35.00 g*mm at 130.0 deg, rel 2e-4 (readings printed
     # to 6 digits)
     v = verify_residual("200 g*mm", SIX)
@@ -28,7 +28,7 @@ def test_six_point_reference():
 
 
 def test_shortcut_underestimates_with_few_positions():
-    # domain notes section 1: the (max - min)/(max + min) shortcut underestimates with few positions [H];
+    # docs/methods.md 1.9: the (max - min)/(max + min) shortcut underestimates with few positions [H];
     # here the residual lies between two positions
     v = verify_residual("200 g*mm", SIX)
     assert v.shortcut.m_as("g*mm") < v.residual.m_as("g*mm")

@@ -12,7 +12,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from toolkit.web import charts
-from toolkit.workorder import diagram as dia
+from toolkit.export import diagram as dia
 
 names = st.text(alphabet=st.characters(codec="utf-8", categories=("L", "N", "Zs", "Pd")), min_size=1, max_size=60)
 amount = st.floats(min_value=0.0, max_value=1e7, allow_nan=False)

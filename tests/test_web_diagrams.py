@@ -17,7 +17,7 @@ from starlette.testclient import TestClient
 from toolkit.register.store import open_register
 from toolkit.web.app import create_app
 from toolkit.web.run import example_values
-from toolkit.workorder.svg import font_files
+from toolkit.export.svg import font_files
 
 SVG = "{http://www.w3.org/2000/svg}svg"
 

@@ -10,7 +10,7 @@ import openpyxl
 import pytest
 
 from toolkit.errors import OutputError
-from toolkit.workorder import xlsx
+from toolkit.export import xlsx
 from toolkit.workorder.model import Identification, example_order
 
 

@@ -28,7 +28,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 from openpyxl.utils import get_column_letter
 
-from toolkit.workorder import xlsx
+from toolkit.export import xlsx
 from toolkit.workorder.build import demo_order
 from toolkit.workorder.model import example_order
 

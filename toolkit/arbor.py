@@ -109,13 +109,13 @@ def index_separation(readings, index_angles=None, *, radius=None, max_spread=Non
     (174.93, 70.96, 174.93, 9.04)
     """
     if isinstance(readings, (str, bytes)) or not hasattr(readings, "__iter__"):
-        raise BadInput("readings: give a list of two or more readings such as '410 g*mm@30'")
+        raise BadInput.about("readings", "give a list of two or more readings such as '410 g*mm@30'")
     readings = list(readings)
     n = len(readings)
     if n < 2:
-        raise BadInput(f"readings: {n} given; the index method needs two or more (e.g. 0 and 180 degrees)")
+        raise BadInput.about("readings", f"{n} given; the index method needs two or more (e.g. 0 and 180 degrees)")
     if n > 360:
-        raise BadInput(f"readings: {n} given; at most 360")
+        raise BadInput.about("readings", f"{n} given; at most 360")
     r_mm = None if radius is None else float(magnitude(radius, "length", "mm", "radius", positive=True))
     u = np.empty(n, dtype=complex)
     for k, text in enumerate(readings):
@@ -125,36 +125,36 @@ def index_separation(readings, index_angles=None, *, radius=None, max_spread=Non
     else:
         index_angles = list(index_angles)
         if len(index_angles) != n:
-            raise BadInput(f"index_angles: {len(index_angles)} given for {n} readings; give one per reading")
-        phi = np.array([parse_angle(a, f"index angle {k + 1}") for k, a in enumerate(index_angles)])
+            raise BadInput.about("index_angles", f"{len(index_angles)} given for {n} readings; give one per reading")
+        phi = np.array([parse_angle(a, f"index_angles {k + 1}") for k, a in enumerate(index_angles)])
     if len({round(float(p), 9) % 360.0 for p in phi}) < 2:
-        raise BadInput("index_angles: every reading is at the same index; turn the part on the arbor between "
+        raise BadInput.about("index_angles", "every reading is at the same index; turn the part on the arbor between "
                        "readings (e.g. 0 and 180 degrees)")
     limit = DEFAULT_MAX_SPREAD if max_spread is None else max_spread
     if isinstance(limit, bool) or not isinstance(limit, (int, float)) or not math.isfinite(limit) \
             or not 0.0 < limit <= 1.0:
-        raise BadInput(f"max_spread: {max_spread!r} must be a fraction above 0 and at most 1, e.g. 0.1")
+        raise BadInput.about("max_spread", f"{max_spread!r} must be a fraction above 0 and at most 1, e.g. 0.1")
     allow = None if allowance is None else float(magnitude(allowance, "unbalance", "g*mm", "allowance",
                                                             positive=True))
     e = np.exp(1j * np.radians(phi))
     design = np.column_stack([np.ones(n, dtype=complex), e])
     peak = float(np.max(np.abs(u)))
     if not math.isfinite(peak) or peak > 1e150:
-        raise BadInput("readings: the readings are beyond the range this method handles; check their units")
+        raise BadInput.about("readings", "the readings are beyond the range this method handles; check their units")
     try:
         with np.errstate(all="ignore"):
             (a_c, p_c), *_ = np.linalg.lstsq(design, u, rcond=None)
     except np.linalg.LinAlgError:
-        raise BadInput("readings: the readings cannot be separated; check their values and units") from None
+        raise BadInput.about("readings", "the readings cannot be separated; check their values and units") from None
     if not (np.all(np.isfinite(u)) and np.isfinite(a_c) and np.isfinite(p_c)):
-        raise BadInput("readings: the readings are beyond the floating-point range; check their units")
+        raise BadInput.about("readings", "the readings are beyond the floating-point range; check their units")
     misfit = u - (a_c + p_c * e)
     scale = float(np.max(np.abs(u))) if n else 0.0
     misfit = np.where(np.abs(misfit) <= 1e-12 * max(scale, 1e-300), 0.0, misfit)
     warnings = []
     cond = np.linalg.cond(design)
     if not math.isfinite(cond) or cond > 1e6:
-        raise BadInput("index_angles: the index positions cannot separate the two shares; use positions spread "
+        raise BadInput.about("index_angles", "the index positions cannot separate the two shares; use positions spread "
                        "round the part (e.g. 0 and 180, or 0, 120 and 240 degrees)")
     if n == 2 and abs(abs(phi[1] - phi[0]) % 360.0 - 180.0) > 1e-9:
         warnings.append(f"index_angles: two readings {abs(phi[1] - phi[0]) % 360:g} degrees apart, not 180: the "

@@ -39,10 +39,11 @@ def format_value(value: float, unit: str, shown_in: str | None = None) -> str:
     >>> format_value(2400.0, "g*mm", "oz*in"), format_value(30.0, "mm"), format_value(150.0, "mm", "in")
     ('3.333 oz·in', '30 mm', '5.906 in')
     """
-    from toolkit.units import Q_, format_quantity
+    from toolkit.formatting import Formatter
+    from toolkit.units import Q_
 
     target = shown_in or unit
-    text = format_quantity(Q_(value, unit) if target != unit else value, target)
+    text = Formatter.quantity(Q_(value, unit) if target != unit else value, target)
     if target in _LENGTHS:
         number, _, symbol = text.partition(" ")
         if "." in number and "e" not in number:

@@ -76,19 +76,19 @@ def _plane_list(planes) -> list[tuple[str, float]]:
         try:
             name, pos = item
         except (TypeError, ValueError):
-            raise BadInput(f"planes: item {i + 1} ({item!r}) is not a pair of a name and a position, "
+            raise BadInput.about("planes", f"item {i + 1} ({item!r}) is not a pair of a name and a position, "
                            f"e.g. ('I', '120 mm')") from None
         name = str(name).strip()
         if not name:
-            raise BadInput(f"planes: item {i + 1} has an empty name")
-        out.append((name, float(magnitude(pos, "length", "mm", f"plane {name} position"))))
+            raise BadInput.about("planes", f"item {i + 1} has an empty name")
+        out.append((name, float(magnitude(pos, "length", "mm", f"planes {name}"))))
     if len(out) not in (1, 2):
-        raise BadInput(f"planes: {len(out)} correction planes given; give one or two")
+        raise BadInput.about("planes", f"{len(out)} correction planes given; give one or two")
     if len(out) == 2:
         if out[0][0] == out[1][0]:
-            raise BadInput(f"planes: both planes are called {out[0][0]!r}; give two names")
+            raise BadInput.about("planes", f"both planes are called {out[0][0]!r}; give two names")
         if abs(out[0][1] - out[1][1]) < 1e-9 * max(1.0, abs(out[0][1]), abs(out[1][1])):
-            raise BadInput(f"planes: both planes are at {out[0][1]:g} mm; give two different positions")
+            raise BadInput.about("planes", f"both planes are at {out[0][1]:g} mm; give two different positions")
     return out
 
 
@@ -178,7 +178,7 @@ def fit_unbalance(mass, *, clearance=None, runout=None, eccentricity=None, angle
     given = [(k, v) for k, v in (("clearance", clearance), ("runout", runout), ("eccentricity", eccentricity))
              if v is not None]
     if len(given) != 1:
-        raise BadInput("clearance/runout/eccentricity: give exactly one of a diametral clearance "
+        raise BadInput.about("clearance/runout/eccentricity", "give exactly one of a diametral clearance "
                        "(e.g. '0.02 mm'), a total indicated runout (e.g. '0.04 mm') or an eccentricity "
                        f"(e.g. '10 um'); {len(given)} given")
     basis, value = given[0]
@@ -193,7 +193,7 @@ def fit_unbalance(mass, *, clearance=None, runout=None, eccentricity=None, angle
     how = {"clearance": f"e = c/2 = {x:g} mm / 2", "runout": f"e = T/2 = {x:g} mm TIR / 2",
            "eccentricity": "e as given"}[basis]
     if not math.isfinite(m * e_um):
-        raise BadInput(f"{basis}: {m:g} kg at {e_um:g} um gives an unbalance beyond the floating-point range; "
+        raise BadInput.about(basis, f"{m:g} kg at {e_um:g} um gives an unbalance beyond the floating-point range; "
                        f"check the units")
     method = f"U = m*e, {how} = {e_um:g} um, m = {m:g} kg"
     return FitUnbalance(m, basis, x, e_um, m * e_um, ang, method, _FIT_SOURCE, tuple(warnings))
@@ -230,9 +230,9 @@ def budget_item(name, unbalance, *, kind: str = "component", note: str = "") -> 
 
     label = str(name).strip()
     if not label:
-        raise BadInput("name: a budget item needs a name, e.g. 'impeller'")
+        raise BadInput.about("name", "a budget item needs a name, e.g. 'impeller'")
     if kind not in ITEM_KINDS:
-        raise BadInput(f"kind: {kind!r} is not allowed; use one of {', '.join(ITEM_KINDS)}")
+        raise BadInput.about("kind", f"{kind!r} is not allowed; use one of {', '.join(ITEM_KINDS)}")
     what = f"{label} unbalance"
     if isinstance(unbalance, tuple) and len(unbalance) == 2:
         amount = magnitude(unbalance[0], "unbalance", "g*mm", what, nonnegative=True)
@@ -298,14 +298,14 @@ def error_budget(items, tolerance=None) -> Budget:
     """
     items = tuple(items)
     if not items:
-        raise BadInput("items: the budget has no contributions; give at least one")
+        raise BadInput.about("items", "the budget has no contributions; give at least one")
     for i, it in enumerate(items):
         if not isinstance(it, BudgetItem):
-            raise BadInput(f"items: item {i + 1} ({it!r}) is not a budget item; build it with budget_item()")
+            raise BadInput.about("items", f"item {i + 1} ({it!r}) is not a budget item; build it with budget_item()")
     names = [it.name for it in items]
     dupes = sorted({n for n in names if names.count(n) > 1})
     if dupes:
-        raise BadInput(f"items: the name {dupes[0]!r} is used twice; give each contribution its own name")
+        raise BadInput.about("items", f"the name {dupes[0]!r} is used twice; give each contribution its own name")
     tol = None if tolerance is None else float(magnitude(tolerance, "unbalance", "g*mm", "tolerance",
                                                           positive=True))
     known = [it for it in items if it.angle_deg is not None]
@@ -315,7 +315,7 @@ def error_budget(items, tolerance=None) -> Budget:
     worst = k_amount + sum(it.amount_g_mm for it in unknown)
     rss = math.hypot(k_amount, *(it.amount_g_mm for it in unknown))
     if not (math.isfinite(worst) and math.isfinite(rss) and math.isfinite(k_amount)):
-        raise BadInput("items: the contributions add up beyond the floating-point range; check their units")
+        raise BadInput.about("items", "the contributions add up beyond the floating-point range; check their units")
     all_known = not unknown
     verdict = None
     if tol is not None:

@@ -94,6 +94,19 @@ class Formatter:
             x = float(f"{x:.{sig}g}")  # 0.99999999 (a conversion's last bit) is 1.000, not 1.0000
         return format_number(x, sig) if x else "0"
 
+    @staticmethod
+    def quantity(value, unit: str, sig: int = 4) -> str:
+        """A quantity (or a magnitude already in ``unit``) in ``unit`` with its symbol, whatever the unit
+        system: for the values an error quotes, which may be absurd (plain notation, an exponent only
+        outside 1e-6 to 1e7, see :func:`toolkit.units.format_number`).
+
+        >>> from toolkit.units import Q_
+        >>> Formatter.quantity(Q_(1, "oz*in"), "g*mm"), Formatter.quantity(2.5e300, "kg")
+        ('720.1 g·mm', '2.500e+300 kg')
+        """
+        mag = value.m_as(unit) if isinstance(value, registry().Quantity) else float(value)
+        return f"{format_number(mag, sig)} {METRIC.symbol(unit)}"
+
     def amount(self, kind: str, stored, sig: int = 4) -> str:
         return f"{self.number(self.value(kind, stored), sig)} {self.symbol(kind)}"
 

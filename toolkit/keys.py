@@ -85,7 +85,7 @@ def bar_unbalance(width, r_in, r_out, length, density) -> object:
     L = magnitude(length, "length", "mm", "length", nonnegative=True)
     rho = magnitude(density, "density", "g/mm**3", "density", positive=True)
     if b <= a:
-        raise BadInput(f"r_out: {b:g} mm must be greater than r_in ({a:g} mm)")
+        raise BadInput.about("r_out", f"{b:g} mm must be greater than r_in ({a:g} mm)")
     return Q_(_q(rho, w, a, b) * L, "g*mm")
 
 
@@ -284,7 +284,7 @@ def key_convention(convention="half-key", fill=None, marking=None, component="sh
 def _choice(value, allowed, name: str) -> str:
     text = str(value).strip().lower() if isinstance(value, str) else value
     if text not in allowed:
-        raise BadInput(f"{name}: {value!r} is not allowed; use one of {', '.join(allowed)}")
+        raise BadInput.about(name, f"{value!r} is not allowed; use one of {', '.join(allowed)}")
     return text
 
 
@@ -357,14 +357,14 @@ def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, 
     warnings: list[str] = []
 
     if t1 >= R:
-        raise BadInput(f"shaft_depth: {t1:g} mm is not less than the shaft radius ({R:g} mm)")
+        raise BadInput.about("shaft_depth", f"{t1:g} mm is not less than the shaft radius ({R:g} mm)")
     if w >= D:
-        raise BadInput(f"width: {w:g} mm is not less than the shaft diameter ({D:g} mm)")
+        raise BadInput.about("width", f"{w:g} mm is not less than the shaft diameter ({D:g} mm)")
     if h <= t1 and service == "key":
         warnings.append(f"height: the key ({h:g} mm) is no taller than the shaft keyway is deep ({t1:g} mm); "
                         f"it cannot drive a hub")
     if Lk > Ls + 1e-9 or zk < zs - 1e-9 or zk + Lk > zs + Ls + 1e-9:
-        raise BadInput(f"key_length/key_start: the key ({Lk:g} mm from {zk:g} mm) does not lie within the shaft "
+        raise BadInput.about("key_length/key_start", f"the key ({Lk:g} mm from {zk:g} mm) does not lie within the shaft "
                        f"keyway ({Ls:g} mm from {zs:g} mm); give a key that fits the keyway")
     r0 = R - t1                                  # shaft keyway floor
     bodies: list[KeyBody] = []
@@ -379,9 +379,9 @@ def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, 
     hk_L = Ls if half_key_length is None else _len(half_key_length, "half_key_length")
     if s_fill == "half-key":
         if hk_h > h + 1e-9:
-            raise BadInput(f"half_key_height: {hk_h:g} mm is taller than the key ({h:g} mm)")
+            raise BadInput.about("half_key_height", f"{hk_h:g} mm is taller than the key ({h:g} mm)")
         if hk_L > Ls + 1e-9:
-            raise BadInput(f"half_key_length: {hk_L:g} mm is longer than the shaft keyway ({Ls:g} mm)")
+            raise BadInput.about("half_key_length", f"{hk_L:g} mm is longer than the shaft keyway ({Ls:g} mm)")
         if abs(hk_h - h / 2.0) > 1e-9 * h:
             warnings.append(f"half_key_height: the shaft's half-key was {hk_h:g} mm high, not half the key's "
                             f"{h:g} mm ({h / 2:g} mm)")
@@ -402,7 +402,7 @@ def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, 
             warnings.append(f"hub_depth: not given; taken as the key's height less the shaft keyway's depth "
                             f"({t2:g} mm), the key filling both keyways")
         if service == "key" and r0 + h > R + t2 + 1e-9:
-            raise BadInput(f"height: the key ({h:g} mm) is taller than the two keyways together ({t1:g} + {t2:g} "
+            raise BadInput.about("height", f"the key ({h:g} mm) is taller than the two keyways together ({t1:g} + {t2:g} "
                            f"mm); the hub would not go on")
         h_conv = _choice("half-key" if hub_convention is None else hub_convention, CONVENTIONS, "hub_convention")
         h_fill = default_fill(h_conv, "hub") if hub_fill is None else _choice(hub_fill, FILLS, "hub_fill")
@@ -410,9 +410,9 @@ def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, 
         hh_L = Lh if hub_half_key_length is None else _len(hub_half_key_length, "hub_half_key_length")
         if h_fill == "half-key":
             if hh_L > Lh + 1e-9:
-                raise BadInput(f"hub_half_key_length: {hh_L:g} mm is longer than the hub ({Lh:g} mm)")
+                raise BadInput.about("hub_half_key_length", f"{hh_L:g} mm is longer than the hub ({Lh:g} mm)")
             if hh_h > t2 + t1 + 1e-9 or hh_h > h + 1e-9:
-                raise BadInput(f"hub_half_key_height: {hh_h:g} mm is taller than the key ({h:g} mm)")
+                raise BadInput.about("hub_half_key_height", f"{hh_h:g} mm is taller than the key ({h:g} mm)")
             if abs(hh_h - h / 2.0) > 1e-9 * h:
                 warnings.append(f"hub_half_key_height: the hub's half-key was {hh_h:g} mm high, not half the "
                                 f"key's {h:g} mm ({h / 2:g} mm)")
@@ -451,7 +451,7 @@ def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, 
     if abs(signed) <= tiny:
         signed = 0.0
     if not all(math.isfinite(x) for x in (signed, moment, net_mass)):
-        raise BadInput("width/height/keyway_length: the key's dimensions give an unbalance beyond the "
+        raise BadInput.about("width/height/keyway_length", "the key's dimensions give an unbalance beyond the "
                        "floating-point range; check their units")
     amount = abs(signed)
     heavy = theta if signed >= 0 else parse_angle(theta + 180.0)
@@ -537,11 +537,11 @@ def _checks(allowance, amount: float, shares) -> tuple[Check, ...]:
         return ()
     if hasattr(allowance, "items"):
         if not shares:
-            raise BadInput("allowance: allowances by plane need the planes; give the planes or one allowance")
+            raise BadInput.about("allowance", "allowances by plane need the planes; give the planes or one allowance")
         names = {s.plane for s in shares}
         unknown = sorted(set(str(k) for k in allowance) - names)
         if unknown:
-            raise BadInput(f"allowance: no plane called {unknown[0]!r}; planes: {', '.join(sorted(names))}")
+            raise BadInput.about("allowance", f"no plane called {unknown[0]!r}; planes: {', '.join(sorted(names))}")
         out = []
         for s in shares:
             if s.plane in allowance:
@@ -591,7 +591,7 @@ def _correction(amount, signed, heavy, parts, rho, w, r0, h, hk_h, Ls, zs, zk, L
         from toolkit.fabricate.plan import plan_correction
 
         if fix_radius is None:
-            raise BadInput("fix_radius: a fabricated correction needs its radius, e.g. '120 mm'")
+            raise BadInput.about("fix_radius", "a fabricated correction needs its radius, e.g. '120 mm'")
         kw = dict(fix_options or {})
         allow = min((c.allowance_g_mm for c in checks), default=None)
         if allow is not None and "allowance" not in kw:
@@ -603,6 +603,6 @@ def _correction(amount, signed, heavy, parts, rho, w, r0, h, hk_h, Ls, zs, zk, L
         try:
             plan = plan_correction(Q_(amount, "g*mm"), heavy, fix_method, radius=fix_radius, action="remove", **kw)
         except Infeasible as exc:
-            raise Infeasible(f"fix_method: {fix_method} cannot carry out the key correction ({exc})") from None
+            raise Infeasible.about("fix_method", f"{fix_method} cannot carry out the key correction ({exc})") from None
     return KeyCorrection("remove", amount, heavy, add_angle, words, half_len, room, trim_len, protruding,
                          tuple(options), plan)

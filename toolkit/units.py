@@ -65,7 +65,6 @@ __all__ = [
     "IMPERIAL",
     "unit_system",
     "format_number",
-    "format_quantity",
     "cache_folder",
 ]
 
@@ -665,13 +664,3 @@ def format_number(x: float, sig: int = 4) -> str:
     decimals = max(0, sig - 1 - exponent)
     return f"{x:.{decimals}f}"
 
-
-def format_quantity(value, unit: str, sig: int = 4) -> str:
-    """A quantity (or a magnitude already in ``unit``) printed with its unit symbol.
-
-    >>> format_quantity(Q_(1, "oz*in"), "g*mm")
-    '720.1 g·mm'
-    """
-    ureg = registry()
-    mag = value.m_as(unit) if isinstance(value, ureg.Quantity) else float(value)
-    return f"{format_number(mag, sig)} {METRIC.symbol(unit)}"

@@ -35,7 +35,7 @@ TEST_RATIO_RANGE = (1.0, 2.0)
 #: expected circle. Our threshold [CP]; overridable (``min_consistency``).
 MIN_CONSISTENCY = 0.9
 
-#: Short cautions for a run with a test mass on the rotor (project domain notes, section 4).
+#: Short cautions for a run with a test mass on the rotor (docs/methods.md, section 4).
 CAUTIONS = (
     "Secure the test mass before every run; check it is tight after each stop.",
     "Guards closed and people clear of the plane of rotation while the rotor spins.",

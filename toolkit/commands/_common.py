@@ -97,11 +97,17 @@ OPTION_ALIASES = {
     "materials_table": "--materials", "washer_table": "--table", "test_unbalance": "--test",
     "readings": "--reading", "residuals": "--residual", "criteria": "--criterion", "planes": "--plane",
     "journal_loads": "--journal-load", "u_per": "--allowed", "position": "--plane",
+    # key, index, budget (toolkit.commands.assembly)
+    "reading": "--reading", "index_angles": "--reading", "fix_method": "--fix", "shaft_convention": "--shaft",
+    "hub_convention": "--hub", "shaft_marking": "--shaft-mark", "hub_marking": "--hub-mark",
+    "items": "--part/--fit/--key",
 }
 
 def option_names(parser):
     """``name(parameter) -> option``: a library parameter worded as the subcommand's option (``wall`` ->
-    ``--wall``), or left as it is when the subcommand has no such option."""
+    ``--wall``), or left as it is when the subcommand has no such option. ``"planes I"`` is the option then
+    the item (``--plane I``); ``"key_length/key_start"`` names each (``--key-length/--key-start``); an alias
+    of several options (``--part/--fit/--key``) is taken when the subcommand has each of them."""
     options = {}
     for action in getattr(parser, "_actions", ()):
         longs = [s for s in action.option_strings if s.startswith("--")]
@@ -115,8 +121,10 @@ def option_names(parser):
         head, space, rest = parameter.partition(" ")  # "planes I": the option, then the item's name
         if space:
             return f"{name(head)} {rest}"
+        if "/" in parameter:  # "key_length/key_start": two parameters the error is about together
+            return "/".join(name(part) for part in parameter.split("/"))
         alias = OPTION_ALIASES.get(parameter)
-        if alias in given:
+        if alias is not None and all(part in given for part in alias.split("/")):
             return alias
         for dest in (parameter, parameter.removesuffix("_mm").removesuffix("_deg")):
             if dest in options:

@@ -1,8 +1,8 @@
 """Subcommands key, index, budget: keyed rotors, the arbor index method and an assembly's error budget.
 
-Light at import: numpy, pint and the library modules are imported inside the run functions. The library
-names its parameters in its messages (``key_length: ...``); :func:`_reworded` turns them into the options
-of these commands (``--key-length: ...``).
+Light at import: numpy, pint and the library modules are imported inside the run functions. The library's
+errors carry the parameter they are about (``key_length``); the command line words them as these commands'
+options (``--key-length: ...``) through :func:`toolkit.commands._common.error_text`, as for every command.
 """
 
 from __future__ import annotations
@@ -16,59 +16,18 @@ _NOTE = ("The rotor maker's instructions and balance specification take preceden
 
 # -- helpers ------------------------------------------------------------------------------------------
 
-def _reworded(run):
-    """Run ``run(args)``; a library message that starts with a parameter name is re-worded with its option."""
+def _say(warnings, args) -> list[str]:
+    """Library warnings in the command's terms: the leading parameter name and the snake_case names in the
+    text become this command's options, named as its errors are (:func:`toolkit.commands._common.option_names`)."""
+    from toolkit.commands._common import option_names
 
-    def wrapper(args):
-        from toolkit.errors import BadInput, CounterpoiseError, Infeasible
-
-        try:
-            return run(args)
-        except CounterpoiseError as exc:
-            text = str(exc)
-            head, sep, rest = text.partition(":")
-            if not sep or head.startswith("--") or len(head) > 60:
-                raise
-            new = "/".join(_option(p) for p in head.split("/"))
-            cls = Infeasible if isinstance(exc, Infeasible) else BadInput if isinstance(exc, BadInput) else type(exc)
-            raise cls(new + sep + rest) from None
-
-    return wrapper
-
-
-_SPECIAL = {"readings": "--reading", "index_angles": "--reading", "items": "--part/--fit/--key",
-            "planes": "--plane", "fix_method": "--fix", "fix_radius": "--fix-radius", "tolerance": "--tolerance",
-            "shaft_convention": "--shaft", "hub_convention": "--hub", "shaft_marking": "--shaft-mark",
-            "hub_marking": "--hub-mark", "clearance": "--fit", "runout": "--fit", "mass": "--fit",
-            "clearance or runout or eccentricity": "--fit"}
-
-
-def _option(name: str) -> str:
-    name = name.strip()
-    if name in _SPECIAL:
-        return _SPECIAL[name]
-    m = re.fullmatch(r"plane (.+) position", name)
-    if m:
-        return f"--plane {m.group(1)}"
-    m = re.fullmatch(r"(reading|index angle) (\d+)", name)
-    if m:
-        return f"--reading {m.group(2)}"
-    m = re.fullmatch(r"allowance (.+)", name)
-    if m:
-        return f"--allowance {m.group(1)}"
-    if re.fullmatch(r"[a-z][a-z_]*", name):
-        return "--" + name.replace("_", "-")
-    return name
-
-
-def _say(warnings) -> list[str]:
-    """Library warnings in the command's terms: the leading parameter name and snake_case names become options."""
+    name = option_names(getattr(args, "command_parser", None))
     out = []
     for w in warnings:
         head, sep, rest = w.partition(":")
         if sep and re.fullmatch(r"[a-z][a-z_/ ]*", head):
-            w = "/".join(_option(p) for p in head.split("/")) + sep + rest
-        out.append(re.sub(r"(?<![-\w])([a-z]+(?:_[a-z]+)+)\b", lambda m: _option(m.group(1)), w))
+            w = name(head) + sep + rest
+        out.append(re.sub(r"(?<![-\w])([a-z]+(?:_[a-z]+)+)\b", lambda m: name(m.group(1)), w))
     return out
 
 
@@ -148,7 +107,7 @@ def configure_key(parser) -> None:
     p.add_argument("--fix-radial", action="store_true", help="radial holes or washers (default axial)")
     add_units(parser)
     add_json(parser)
-    parser.set_defaults(run=_reworded(run_key))
+    parser.set_defaults(run=run_key)
 
 
 def run_key(args) -> int:
@@ -188,16 +147,16 @@ def run_key(args) -> int:
                       fix_options=fix_options, materials_table=args.materials, units=args.units)
     fmt = _fmt(args.units)
     data = r.to_dict()
-    data["warnings"] = _say(data["warnings"])
+    data["warnings"] = _say(data["warnings"], args)
     data["units"] = fmt.system.name
-    emit(args.json, data, None if args.json else _key_text(r, fmt))
+    emit(args.json, data, None if args.json else _key_text(r, fmt, data["warnings"]))
     return 1 if r.passed is False or (r.correction.plan is not None and r.correction.plan.within_allowance is False) \
         else 0
 
 
-def _key_text(r, fmt) -> str:
+def _key_text(r, fmt, warnings) -> str:
     from toolkit.commands.tolerances import _table, _warnings
-    from toolkit.units import Q_, format_quantity
+    from toolkit.units import Q_
 
     L = lambda mm: fmt.length(Q_(mm, "mm"))  # noqa: E731
     U = lambda g_mm: fmt.unb(Q_(g_mm, "g*mm"))  # noqa: E731
@@ -209,7 +168,7 @@ def _key_text(r, fmt) -> str:
     if r.axial_centre_mm is not None:
         lines.append(f"  axial centre   {L(r.axial_centre_mm)} from the datum")
     sign = "+" if r.net_mass_g >= 0 else "-"
-    lines.append(f"  net key mass   {sign}{format_quantity(Q_(abs(r.net_mass_g), 'g'), fmt.system.mass)} left over "
+    lines.append(f"  net key mass   {sign}{fmt.amount('mass', abs(r.net_mass_g))} left over "
                  f"in service")
     lines += ["", "Conventions"]
     for comp, c in r.conventions.items():
@@ -254,7 +213,7 @@ def _key_text(r, fmt) -> str:
                                                              f" against {U(k.plan.allowance_g_mm)}: "
                                                              + ("within" if k.plan.within_allowance else "MISSES")))
     lines += ["", f"method: {r.method}", f"sources: {r.source}", ""]
-    _warnings(lines, _say(r.warnings))
+    _warnings(lines, warnings)
     if k.plan is not None:
         _warnings(lines, k.plan.warnings)
         for c in k.plan.cautions:
@@ -280,7 +239,7 @@ def configure_index(parser) -> None:
                              "common practice)")
     add_units(parser)
     add_json(parser)
-    parser.set_defaults(run=_reworded(run_index))
+    parser.set_defaults(run=run_index)
 
 
 def run_index(args) -> int:
@@ -302,13 +261,13 @@ def run_index(args) -> int:
     r = index_separation(readings, indexes or None, radius=args.radius, max_spread=spread, allowance=args.allowance)
     fmt = _fmt(args.units)
     data = r.to_dict()
-    data["warnings"] = _say(data["warnings"])
+    data["warnings"] = _say(data["warnings"], args)
     data["units"] = fmt.system.name
-    emit(args.json, data, None if args.json else _index_text(r, fmt))
+    emit(args.json, data, None if args.json else _index_text(r, fmt, data["warnings"]))
     return 1 if r.part_within is False else 0
 
 
-def _index_text(r, fmt) -> str:
+def _index_text(r, fmt, warnings) -> str:
     from toolkit.commands.tolerances import _table, _warnings
     from toolkit.units import Q_
 
@@ -327,7 +286,7 @@ def _index_text(r, fmt) -> str:
     if r.allowance_g_mm is not None:
         lines.append(f"  part allowance {U(r.allowance_g_mm)}: " + ("PASS" if r.part_within else "FAIL (exit status 1)"))
     lines += [f"  method         {r.method}", f"  source         {r.source}", ""]
-    _warnings(lines, _say(r.warnings))
+    _warnings(lines, warnings)
     lines.append("caution: stop the machine before turning the part on the arbor; secure the part and any trial "
                  "mass before each run, guards closed.")
     return "\n".join(lines)
@@ -353,7 +312,7 @@ def configure_budget(parser) -> None:
                         help="any other error (e.g. a systematic error of the balancing machine)")
     add_units(parser)
     add_json(parser)
-    parser.set_defaults(run=_reworded(run_budget))
+    parser.set_defaults(run=run_budget)
 
 
 _FIT = re.compile(r"^(?P<mass>[^,]+),\s*(?P<basis>clearance|runout|eccentricity)\s+(?P<len>[^@]+?)\s*"
@@ -398,8 +357,7 @@ def _as(fn, option: str, *a, **kw):
     try:
         return fn(*a, **kw)
     except BadInput as exc:
-        rest = str(exc).partition(":")[2]
-        raise BadInput(f"{option}:{rest}") from None
+        raise BadInput(f"{option}: {exc.text() if exc.parameter else str(exc).partition(': ')[2]}") from None
 
 
 def _tolerance(args):

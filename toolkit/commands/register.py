@@ -414,7 +414,8 @@ def run_certificate(args) -> int:
     from pathlib import Path
 
     from toolkit.fileio import safe_filename, write_atomic
-    from toolkit.register.reports import certificate_data, certificate_pdf
+    from toolkit.export.certificate import certificate_pdf
+    from toolkit.register.reports import certificate_data
 
     with _open(args) as reg:
         data = certificate_data(reg, args.order)
@@ -430,7 +431,8 @@ def run_stats(args) -> int:
 
     from toolkit.errors import BadInput
     from toolkit.fileio import check_writable, write_atomic
-    from toolkit.register.reports import series_statistics, stats_pdf, stats_text, stats_xlsx
+    from toolkit.export.statistics import stats_pdf, stats_text, stats_xlsx
+    from toolkit.register.reports import series_statistics
 
     formats = tuple(dict.fromkeys(p.strip().lower() for p in str(args.format).split(",") if p.strip()))
     if not formats or any(f not in ("pdf", "xlsx") for f in formats):

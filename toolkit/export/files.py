@@ -52,7 +52,7 @@ def _formats(formats) -> tuple[str, ...]:
 
 def _render(fmt: str, order):
     """The bytes of one file of an order (the PDF also gives its pages, for a combined document)."""
-    from toolkit.workorder import pdf, xlsx
+    from toolkit.export import pdf, xlsx
 
     if fmt == "pdf":
         return pdf.render_order(order)
@@ -187,7 +187,7 @@ def write_batch(sheet: str | Path, out: str | Path = ".", *, force: bool = False
     without ``force`` (or, with ``carry_on``, were not made by the recorded batch), or cannot be written.
     """
     from toolkit.fileio import safe_filename
-    from toolkit.workorder import pdf
+    from toolkit.export import pdf
     from toolkit.workorder.batch import orders
 
     start = time.perf_counter()
@@ -405,7 +405,7 @@ class _Summary:
     Printing: landscape, fitted to the page width only (as many pages down as the rows need), the header
     row repeated on every page, A4 unless most of the rotors built are in inch-pound units (then Letter).
     Every text cell wraps, top-aligned, and every row gets its height from its text (the work order's
-    font-width model, :func:`toolkit.workorder.xlsx.wrapped_lines`). Each row states its own angle
+    font-width model, :func:`toolkit.export.xlsx.wrapped_lines`). Each row states its own angle
     reference and sense, and every operation its angle with them: rows of one batch may count angles
     differently.
     """
@@ -423,7 +423,7 @@ class _Summary:
         from openpyxl import Workbook
         from openpyxl.utils import get_column_letter
 
-        from toolkit.workorder.xlsx import in_memory
+        from toolkit.export.xlsx import in_memory
 
         from openpyxl.styles import Alignment, Font
 
@@ -449,7 +449,7 @@ class _Summary:
     def _text(self, value, bold: bool = False):
         from openpyxl.cell import WriteOnlyCell
 
-        from toolkit.workorder.xlsx import FORMULA_START, clean_text
+        from toolkit.export.xlsx import FORMULA_START, clean_text
 
         value = clean_text(value) if isinstance(value, str) else value
         cell = WriteOnlyCell(self.ws, value=value)
@@ -465,7 +465,7 @@ class _Summary:
 
     def _append(self, values, bold: bool = False) -> None:
         """Append one row, every value as a top-aligned cell, with the height its wrapped text needs."""
-        from toolkit.workorder.xlsx import row_height, wrapped_lines
+        from toolkit.export.xlsx import row_height, wrapped_lines
 
         cells, lines = [], 1
         for width, value in zip(self.WIDTHS, values):
@@ -518,7 +518,7 @@ class _Summary:
             pass
 
     def finish(self) -> bytes:
-        from toolkit.workorder.xlsx import save_bytes
+        from toolkit.export.xlsx import save_bytes
 
         from openpyxl.worksheet.worksheet import Worksheet
 

@@ -3,7 +3,8 @@ per rotor type, certificates and series statistics, in SQLite (default) or Postg
 
 ``open_register(where)`` opens it (see :mod:`toolkit.register.store`); the contents are in
 :mod:`toolkit.register.records`, the workbook read-back in :mod:`toolkit.register.readback`, the
-certificate and the statistics in :mod:`toolkit.register.reports`, export and import in
+data of a certificate and of the statistics in :mod:`toolkit.register.reports` (their files are drawn by
+:mod:`toolkit.export.certificate` and :mod:`toolkit.export.statistics`), export and import in
 :mod:`toolkit.register.portable`. docs/register.md describes the schema.
 """
 

@@ -1,7 +1,7 @@
 """Reading back a returned work-order workbook: the operator's measured residuals, the operations' status
 column and the sign-off names go into the register.
 
-The workbook names its cells (see :func:`toolkit.workorder.xlsx.workbook`): ``cp_order_number`` and
+The workbook names its cells (see :func:`toolkit.export.xlsx.workbook`): ``cp_order_number`` and
 ``cp_input_sha256`` identify the job; ``measured_N`` / ``cp_measured_angle_N`` hold plane N's measured
 residual, ``cp_status_K`` / ``cp_remark_K`` operation K's mark, ``cp_signoff_ROLE_name`` / ``_date`` the
 sign-offs. A workbook whose order number is not in the register, or whose input hash differs from the
@@ -68,7 +68,7 @@ def read_workbook(path) -> dict:
 
     from openpyxl import load_workbook
 
-    from toolkit.workorder.xlsx import SIGNOFF_ROLES
+    from toolkit.export.xlsx import SIGNOFF_ROLES
 
     p = Path(path)
     try:
@@ -110,7 +110,7 @@ def record_workbook(reg: Register, path, *, number: str | None = None, by: str =
 
     from toolkit.register.schema import operation_marks, signoffs
     from toolkit.workorder.model import unit_labels
-    from toolkit.workorder.xlsx import STATUS_CHOICES
+    from toolkit.export.xlsx import STATUS_CHOICES
 
     found = read_workbook(path)
     source = f"workbook {Path(path).name}"

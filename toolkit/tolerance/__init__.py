@@ -1,7 +1,7 @@
 """Tolerances for rigid rotors: balance quality grades, e_per and U_per, allocation to planes, other
 published criteria, and the check of measured residuals against the allowances.
 
-Sources and marks (as in the project's domain notes): S stated in a published source, H stated in a
+Sources and marks (as in docs/methods.md): S stated in a published source, H stated in a
 secondary reproduction, M from memory, D derived here by statics or algebra, CP common shop practice.
 
 * Grade, e_per and U_per: ISO 21940-11:2016, clauses 6.3 and 6.3.3 [S]; the shop constant

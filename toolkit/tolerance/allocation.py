@@ -21,7 +21,7 @@ DEFAULT_MIN_SHARE = 0.3
 def check_min_share(min_share) -> float:
     if isinstance(min_share, bool) or not isinstance(min_share, (int, float)) or not math.isfinite(min_share) \
             or not 0.0 <= min_share <= 0.5:
-        raise BadInput(f"min_share: {min_share!r} must be a number from 0 to 0.5 (default 0.3, i.e. shares "
+        raise BadInput.about("min_share", f"{min_share!r} must be a number from 0 to 0.5 (default 0.3, i.e. shares "
                        f"kept between 0.3 and 0.7)")
     return float(min_share)
 
@@ -55,7 +55,7 @@ def bearing_allowances(u_per, bearing_span, com_from_a, *, min_share: float = DE
     require_positive(u, None, ("u_per", u, G_MM))
     require_positive(span, None, ("bearing_span", span, "mm"))
     if isinstance(com, np.ndarray) and not math.isfinite(np.sum(com)):
-        raise BadInput("com_from_a: every value must be a finite length")
+        raise BadInput.about("com_from_a", "every value must be a finite length")
     return Q_(u_a, unit_of(G_MM)), Q_(u - u_a, unit_of(G_MM))
 
 
@@ -134,7 +134,7 @@ AXIAL_LIMIT_SPANS = 3.0
 
 def check_axial(z_mm: float, span_mm: float, name: str) -> None:
     if not -AXIAL_LIMIT_SPANS * span_mm <= z_mm <= (1 + AXIAL_LIMIT_SPANS) * span_mm:
-        raise BadInput(f"{name}: {z_mm:g} mm is more than {AXIAL_LIMIT_SPANS:g} bearing spans "
+        raise BadInput.about(name, f"{z_mm:g} mm is more than {AXIAL_LIMIT_SPANS:g} bearing spans "
                        f"({span_mm:g} mm) outside the bearings; positions are measured from bearing A "
                        f"towards B, allowed {-AXIAL_LIMIT_SPANS * span_mm:g} to "
                        f"{(1 + AXIAL_LIMIT_SPANS) * span_mm:g} mm")
@@ -171,19 +171,19 @@ def planes_together(z1: float, z2: float, d: float) -> str:
     """Why two plane positions (mm) cannot be told apart on a bearing span d (mm): both printed exactly.
 
     >>> planes_together(260.0, 930.0, 1e20)
-    'planes: the correction planes at 260 mm and 930 mm are closer than a billionth of the bearing span (1e+20 mm); give positions further apart or check the span'
+    'the correction planes at 260 mm and 930 mm are closer than a billionth of the bearing span (1e+20 mm); give positions further apart or check the span'
     """
     if z1 == z2:
-        return f"planes: both correction planes are at {z1:.12g} mm; give two different positions"
-    return (f"planes: the correction planes at {z1:.12g} mm and {z2:.12g} mm are closer than a billionth of the "
+        return f"both correction planes are at {z1:.12g} mm; give two different positions"
+    return (f"the correction planes at {z1:.12g} mm and {z2:.12g} mm are closer than a billionth of the "
             f"bearing span ({d:.6g} mm); give positions further apart or check the span")
 
 
 def transfer_mm(ua: float, ub: float, d: float, z: list[float]) -> list[float]:
     if len(z) not in (1, 2):
-        raise BadInput(f"planes: {len(z)} correction planes given; a rigid rotor takes one or two")
+        raise BadInput.about("planes", f"{len(z)} correction planes given; a rigid rotor takes one or two")
     if len(z) == 2 and abs(z[0] - z[1]) <= 1e-9 * d:
-        raise BadInput(planes_together(z[0], z[1], d))
+        raise BadInput.about("planes", planes_together(z[0], z[1], d))
     if len(z) == 1:
         w = [1.0]
     else:

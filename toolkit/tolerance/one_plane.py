@@ -139,10 +139,10 @@ def one_plane_allowance(u_per, u_a, u_b, bearing_span, com_from_a, position, *, 
     (307.5, 274, ())
     """
     if rule not in ONE_PLANE_RULES:
-        raise BadInput(f"one_plane_rule: {rule!r} is not known; use {' or '.join(ONE_PLANE_RULES)}")
+        raise BadInput.about("one_plane_rule", f"{rule!r} is not known; use {' or '.join(ONE_PLANE_RULES)}")
     if isinstance(length_ratio, bool) or not isinstance(length_ratio, (int, float)) \
             or not math.isfinite(length_ratio) or length_ratio <= 0:
-        raise BadInput(f"one_plane_length_ratio: {length_ratio!r} must be a number greater than zero (default "
+        raise BadInput.about("one_plane_length_ratio", f"{length_ratio!r} must be a number greater than zero (default "
                        f"{ONE_PLANE_LENGTH_RATIO:g})")
     u = magnitude(u_per, "unbalance", G_MM, "u_per", positive=True)
     ua = magnitude(u_a, "unbalance", G_MM, "u_a", positive=True)

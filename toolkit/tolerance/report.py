@@ -183,7 +183,7 @@ def tolerance_report(grade, mass, speed, *, custom_grade: bool = False, bearing_
                                         length_ratio=one_plane_length_ratio)
         per_criterion["iso"] = [one_plane.used.m_as(G_MM)]
     elif one_plane_rule not in ONE_PLANE_RULES:
-        raise BadInput(f"one_plane_rule: {one_plane_rule!r} is not known; use {' or '.join(ONE_PLANE_RULES)}")
+        raise BadInput.about("one_plane_rule", f"{one_plane_rule!r} is not known; use {' or '.join(ONE_PLANE_RULES)}")
 
     results = _criterion_results(names, u_per, at_bearings, methods, notes, plane_names, per_criterion, suffix,
                                  one_plane)

@@ -52,26 +52,26 @@ def static_couple_allowance(u_a, u_b, bearing_span, com_from_a, positions, stati
     """
     if isinstance(static_share, bool) or not isinstance(static_share, (int, float)) \
             or not 0.0 < static_share < 1.0:
-        raise BadInput(f"static_share: {static_share!r} must be a fraction between 0 and 1 (exclusive), "
+        raise BadInput.about("static_share", f"{static_share!r} must be a fraction between 0 and 1 (exclusive), "
                        f"e.g. 0.5")
     ua = magnitude(u_a, "unbalance", G_MM, "u_a", positive=True)
     ub = magnitude(u_b, "unbalance", G_MM, "u_b", positive=True)
     d = magnitude(bearing_span, "length", "mm", "bearing_span", positive=True)
     zs = magnitude(com_from_a, "length", "mm", "com_from_a")
     if len(positions) != 2:
-        raise BadInput(f"planes: static and couple tolerances need two correction planes, {len(positions)} "
+        raise BadInput.about("planes", f"static and couple tolerances need two correction planes, {len(positions)} "
                        f"given")
     z1, z2 = (magnitude(p, "length", "mm", f"plane {i + 1} position") for i, p in enumerate(positions))
     b = abs(z2 - z1)
     if b <= 1e-9 * d:
-        raise BadInput(planes_together(z1, z2, d))
+        raise BadInput.about("planes", planes_together(z1, z2, d))
     total = ua + ub
     limits = [ua * d / abs(d - zs) if abs(d - zs) > 0 else math.inf, ub * d / abs(zs) if abs(zs) > 0 else math.inf]
     max_share = min(min(limits) / total, 1.0)
     s = static_share * total
     uc = (d / b) * min(ua - s * abs(d - zs) / d, ub - s * abs(zs) / d)
     if uc <= 0:
-        raise Infeasible(f"static_share: {static_share:g} leaves no couple allowance for this geometry; "
+        raise Infeasible.about("static_share", f"{static_share:g} leaves no couple allowance for this geometry; "
                          f"choose a static share below {max_share:.3f}")
     method = (f"static part {static_share:g} x (U_A + U_B) at the centre-of-mass plane; couple part the largest "
               f"that keeps both bearing planes within their allowances ({STATICS})")

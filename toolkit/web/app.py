@@ -275,7 +275,7 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
         user = current_user(request)
         return (user or {}).get("units") or request.session.get("units") or "metric"
 
-    from toolkit.workorder.svg import font_face_css, font_files
+    from toolkit.export.svg import font_face_css, font_files
 
     fonts = {path.name: path for path in font_files().values()}
     fonts_css = font_face_css(lambda name: "/fonts/" + name)

@@ -1,8 +1,8 @@
 """The series-statistics charts of the browser face as geometry, drawn as SVG by
-:func:`toolkit.workorder.svg.layout_svg`: per plane the as-found unbalance as a polar scatter and as a
+:func:`toolkit.export.svg.layout_svg`: per plane the as-found unbalance as a polar scatter and as a
 histogram, and the monthly trend of the as-found mean.
 
-Each chart is a :class:`toolkit.workorder.diagram.Layout` (page points, y up) whose text items carry
+Each chart is a :class:`toolkit.export.diagram.Layout` (page points, y up) whose text items carry
 their boxes, measured with the PDF's font metrics, so that tests check geometrically that no label
 overlaps another label, a dot, a bar, a circle or a line, and that everything lies inside the chart.
 Labels that would collide are thinned (degree numbers every 30°, axis numbers at a step wide enough for
@@ -13,8 +13,8 @@ from __future__ import annotations
 
 import math
 
-from toolkit.workorder import diagram as dia
-from toolkit.workorder import pdfpage
+from toolkit.export import diagram as dia
+from toolkit.export import pdfpage
 
 __all__ = ["scatter_layout", "histogram_layout", "trend_layout", "nice_step", "chart_svg"]
 
@@ -217,6 +217,6 @@ def trend_layout(*, months, width: float = 520.0, x0: float = 0.0, top: float = 
 
 
 def chart_svg(lay: dia.Layout, title: str) -> str:
-    from toolkit.workorder.svg import layout_svg
+    from toolkit.export.svg import layout_svg
 
     return layout_svg(lay, title)

@@ -1,4 +1,4 @@
-"""The diagrams of the browser face: SVG drawn by :mod:`toolkit.workorder.svg` from what a page computed.
+"""The diagrams of the browser face: SVG drawn by :mod:`toolkit.export.svg` from what a page computed.
 
 The tolerance page shows the rotor from the side (positions there are measured from bearing A; the side
 view measures from the rotor's left end, taken as the outermost of the bearings, planes and centre of
@@ -36,7 +36,7 @@ def _side_view_svg(length_mm: float, bearings_mm: tuple, planes: tuple, com_mm: 
     """The side view's SVG text: a pure function of the geometry and the unit system (floats, names and
     strings in, an immutable string out, nothing of a request or a person in it), so a geometry drawn once
     is drawn again from this cache; another rotor's numbers can never appear in it."""
-    from toolkit.workorder.svg import side_view_svg
+    from toolkit.export.svg import side_view_svg
 
     return side_view_svg(length_mm=length_mm, bearings_mm=list(bearings_mm), planes=list(planes),
                          centre_of_mass_mm=com_mm, units=units)
@@ -119,7 +119,7 @@ def _unit_of(unit_text: str, radius_mm: float) -> tuple[str, float]:
 
 def live_svg(values: dict, order=None, planes=()) -> tuple[str, list[str]]:
     """The live polar diagram of the guided run, and the entries it could not draw."""
-    from toolkit.workorder.svg import vectors_svg
+    from toolkit.export.svg import vectors_svg
 
     vectors, skipped = run_vectors(values, order, planes)
     reference = str(values.get("reference", "")).strip() or "(no reference mark given)"
@@ -133,7 +133,7 @@ def trim_svg(detail: dict, basis: dict, values: dict, result: dict | None) -> st
     """The trim page's polar diagram: the readings after the correction as typed and, once worked out, the
     trim corrections (add or remove in words) and, for machine readings, each plane's allowance circle, each
     in the unit its reading was typed in; with the job's angle reference and sense."""
-    from toolkit.workorder.svg import vectors_svg
+    from toolkit.export.svg import vectors_svg
 
     wo = detail["workorder"]
     vectors: list[dict] = []
@@ -171,7 +171,7 @@ def trim_svg(detail: dict, basis: dict, values: dict, result: dict | None) -> st
 
 def plane_svgs(order) -> list[str]:
     """Each plane's polar diagram as the work order draws it."""
-    from toolkit.workorder.svg import plane_svg
+    from toolkit.export.svg import plane_svg
 
     return [plane_svg(order, i) for i in range(len(order.planes))]
 
@@ -183,7 +183,7 @@ def style_hash() -> str:
     import base64
     import hashlib
 
-    from toolkit.workorder.svg import vectors_svg
+    from toolkit.export.svg import vectors_svg
 
     svg = vectors_svg(title="t", reference="r", angle_sense="with rotation", vectors=[])
     styles = set(re.findall(r"<style>(.*?)</style>", svg, re.S))

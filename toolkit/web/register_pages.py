@@ -287,7 +287,8 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
     async def certificate(request):
         need_user(request)
         number = request.path_params["number"]
-        from toolkit.register.reports import certificate_data, certificate_pdf
+        from toolkit.export.certificate import certificate_pdf
+        from toolkit.register.reports import certificate_data
 
         try:
             data = await run_in_threadpool(certificate_data, reg, number)
@@ -351,7 +352,7 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
     async def stats_file(request):
         need_user(request)
         kind = request.path_params["kind"]
-        from toolkit.register.reports import stats_pdf, stats_xlsx
+        from toolkit.export.statistics import stats_pdf, stats_xlsx
 
         maker, media = {"pdf": (stats_pdf, "application/pdf"),
                         "xlsx": (stats_xlsx, "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet")

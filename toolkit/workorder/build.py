@@ -65,16 +65,22 @@ def _round_angle(angle: float, step: float) -> float:
 
 
 def _tolerances(job: Job):
+    """The tolerance report of the job, each plane's :class:`Tolerance` and the notes to print. An error of
+    the report names the job keys it is about, with their lines (``geometry.centre_of_mass (line 27)``)."""
     from toolkit.tolerance import DEFAULT_MIN_SHARE, tolerance_report
 
     one = job.planes[0] if len(job.planes) == 1 else None
-    report = tolerance_report(
-        job.grade, job.mass, _q(job.service_speed_rpm, "rpm"), bearing_span=job.bearing_span,
-        com_from_a=job.centre_of_mass, planes={p.name: p.position for p in job.planes},
-        static_share=job.static_share, criteria=(job.criterion,),
-        min_share=DEFAULT_MIN_SHARE if job.min_share is None else job.min_share,
-        one_plane_rule=job.one_plane_rule, rotor_length=job.rotor_length,
-        correction_diameter=None if one is None else 2 * one.radius)
+    try:
+        report = tolerance_report(
+            job.grade, job.mass, _q(job.service_speed_rpm, "rpm"), bearing_span=job.bearing_span,
+            com_from_a=job.centre_of_mass, planes={p.name: p.position for p in job.planes},
+            static_share=job.static_share, criteria=(job.criterion,),
+            min_share=DEFAULT_MIN_SHARE if job.min_share is None else job.min_share,
+            one_plane_rule=job.one_plane_rule, rotor_length=job.rotor_length,
+            correction_diameter=None if one is None else 2 * one.radius)
+    except (BadInput, Infeasible) as exc:
+        words = exc.worded(job_key_names(job, 0 if one is not None else None), quantity_words(job.shop.units))
+        raise type(exc)(f"{job.origin}: {words}") from None
     by_name = {p.name: p for p in report.planes}
     tolerances = {}
     for plane in job.planes:
@@ -333,6 +339,14 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
     or M, no longer applies)."""
     from dataclasses import replace
 
+    out = (_chain_settings(job, report) + _washer_settings(job) + _drill_settings(job) + _key_settings(job)
+           + _measurement_settings(job) + _drilling_settings(job) + _plate_settings(job))
+    return tuple(replace(s, mark="job") if s.given else s for s in out)
+
+
+def _chain_settings(job: Job, report) -> list[Setting]:
+    """The order's date, the speeds, grade and material, the shop's angle and weighing steps, the lever-rule
+    bounds and the one-plane rule."""
     from toolkit.tolerance import DEFAULT_MIN_SHARE
 
     out = []
@@ -363,12 +377,20 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
         out.append(Setting("one-plane allowance rule", "whole U_per (ISO 21940-11)" if rule == "whole"
                            else "statics transfer (stricter)", "H" if rule == "whole" else "D",
                            job.one_plane_rule != "whole", "[geometry] one_plane_rule"))
-    out.extend(_washer_settings(job))
-    out.extend(_drill_settings(job))
-    if job.key is not None:
-        out.append(Setting("key marking", f"{job.key.marking}" + ("" if job.key.marking_given else
-                           f" (by the {job.key.convention} convention)"), "M", job.key.marking_given,
-                           '[key] marking = "H"'))
+    return out
+
+
+def _key_settings(job: Job) -> list[Setting]:
+    """The key marking, when the job has a [key] table."""
+    if job.key is None:
+        return []
+    return [Setting("key marking", f"{job.key.marking}" + ("" if job.key.marking_given else
+                    f" (by the {job.key.convention} convention)"), "M", job.key.marking_given, '[key] marking = "H"')]
+
+
+def _measurement_settings(job: Job) -> list[Setting]:
+    """The arbor index's spread, the measurement error allowance and the trial-run thresholds."""
+    out = []
     if job.measurement.kind == "arbor-index":
         from toolkit.arbor import DEFAULT_MAX_SPREAD
 
@@ -389,33 +411,44 @@ def _settings(job: Job, report) -> tuple[Setting, ...]:
             value = job.measurement.thresholds.get(key, getattr(defaults, key))
             out.append(Setting(label, f"{value:g}{unit}", "CP", key in job.measurement.thresholds,
                                f"[measurement] {key}"))
-    if any("drill" in p.methods for p in job.planes):
-        from dataclasses import fields
+    return out
 
-        from toolkit.fabricate.drilling import Limits
 
-        defaults = Limits()
-        for f in fields(Limits):
-            value = job.shop.drilling.get(f.name, getattr(defaults, f.name))
-            if value is None:
-                continue
-            out.append(Setting(f"drilling: {f.name.replace('_', ' ')}", f"{value:g}", "CP",
-                               f.name in job.shop.drilling, f"[shop.drilling] {f.name}"))
-        out.append(Setting("drill point angle", f"{job.shop.point_angle_deg:g}°", "S",
-                           "point_angle" in job.shop.given, "[shop] point_angle"))
-    if any("plate" in p.methods for p in job.planes):
-        step = job.shop.plate_step.m_as("mm") if job.shop.plate_step is not None else 1.0
-        out.append(Setting("plate size step", f"{step:g} mm", "CP", job.shop.plate_step is not None,
-                           "[shop] plate_step"))
-        from toolkit.fabricate.plates import DEFAULT_CONVEXITY
+def _drilling_settings(job: Job) -> list[Setting]:
+    """The drilling limits and the drill point angle (when a plane may drill)."""
+    if not any("drill" in p.methods for p in job.planes):
+        return []
+    from dataclasses import fields
 
-        convexity = DEFAULT_CONVEXITY if job.shop.weld_convexity is None else job.shop.weld_convexity
-        out.append(Setting("weld convexity allowance", f"{convexity:g}", "M", job.shop.weld_convexity is not None,
-                           "[shop] weld_convexity"))
-        fillet = ("minimum for the plate thickness (AWS D1.1 table [H])" if job.shop.fillet is None
-                  else f"{job.shop.fillet.m_as('mm'):g} mm")
-        out.append(Setting("fillet weld leg", fillet, "H", job.shop.fillet is not None, "[shop] fillet"))
-    return tuple(replace(s, mark="job") if s.given else s for s in out)
+    from toolkit.fabricate.drilling import Limits
+
+    out = []
+    defaults = Limits()
+    for f in fields(Limits):
+        value = job.shop.drilling.get(f.name, getattr(defaults, f.name))
+        if value is None:
+            continue
+        out.append(Setting(f"drilling: {f.name.replace('_', ' ')}", f"{value:g}", "CP",
+                           f.name in job.shop.drilling, f"[shop.drilling] {f.name}"))
+    out.append(Setting("drill point angle", f"{job.shop.point_angle_deg:g}°", "S",
+                       "point_angle" in job.shop.given, "[shop] point_angle"))
+    return out
+
+
+def _plate_settings(job: Job) -> list[Setting]:
+    """The plate size step, the weld convexity allowance and the fillet leg (when a plane may weld a plate)."""
+    if not any("plate" in p.methods for p in job.planes):
+        return []
+    from toolkit.fabricate.plates import DEFAULT_CONVEXITY
+
+    step = job.shop.plate_step.m_as("mm") if job.shop.plate_step is not None else 1.0
+    convexity = DEFAULT_CONVEXITY if job.shop.weld_convexity is None else job.shop.weld_convexity
+    fillet = ("minimum for the plate thickness (AWS D1.1 table [H])" if job.shop.fillet is None
+              else f"{job.shop.fillet.m_as('mm'):g} mm")
+    return [Setting("plate size step", f"{step:g} mm", "CP", job.shop.plate_step is not None, "[shop] plate_step"),
+            Setting("weld convexity allowance", f"{convexity:g}", "M", job.shop.weld_convexity is not None,
+                    "[shop] weld_convexity"),
+            Setting("fillet weld leg", fillet, "H", job.shop.fillet is not None, "[shop] fillet")]
 
 
 _SOURCES = {
@@ -439,64 +472,80 @@ def build_order(job: Job) -> WorkOrder:
     >>> [op.action for op in order.operations][:1], order.passed
     (['remove'], True)
     """
-    from toolkit.tolerance import check_residuals
-
     report, tolerances, notes = _tolerances(job)
     initial, measured_by, warnings, sources, cautions, solution = _initial(job)
     missing = [p.name for p in job.planes if p.name not in initial]
     if missing:
         raise BadInput(f"{job.origin}: measurement: no unbalance for plane(s) {', '.join(missing)}")
     warnings = list(notes) + warnings
-    delta = 0.0 if job.error_allowance is None else job.error_allowance.m_as("g*mm")
-    planes, number = [], 1
-    kinds_used = set()
+    # each plane: its correction, the operations that carry it out (numbered across planes), its check run
+    planes, kinds_used = [], set()
     key = job.key.result if job.key is not None else None
     key_shares = {s.plane: (s.amount_g_mm, s.angle_deg) for s in key.planes} if key is not None else {}
     for spec in job.planes:
-        tol = tolerances[spec.name]
-        measured = u0, a0 = initial[spec.name]
-        if spec.name in key_shares:  # the key mismatch in service is corrected with the measured unbalance
-            u0, a0 = polar(vector(*measured) + vector(*key_shares[spec.name]))
-        limit = tol.u_per_g_mm - delta
-        if limit <= 0:
-            raise BadInput(f"{job.origin}: rotor.error_allowance: {delta:g} g·mm is not below the allowance of "
-                           f"plane {spec.name} ({tol.u_per_g_mm:.4g} g·mm)")
-        method, raw_ops, residual, plane_notes, plane_cautions = _correct_plane(job, spec, u0, a0, tol.u_per_g_mm,
-                                                                               limit)
+        first = sum(len(p.operations) for p in planes) + 1
+        plane, plane_notes, plane_cautions = _plane_order(job, spec, tolerances[spec.name], initial[spec.name],
+                                                          key_shares.get(spec.name), first)
+        planes.append(plane)
         warnings.extend(plane_notes)
         cautions.extend(plane_cautions)
-        ops = []
-        for kind, action, angle, mass, u, dims, text in raw_ops:
-            kinds_used.add(kind)
-            details = _details(kind, dims, mass, job)
-            ops.append(Operation(number, spec.name, kind, action, text, angle, mass, u, spec.radius.m_as("mm"),
-                                 details))
-            number += 1
-        amount, angle = polar(residual)
-        check, = check_residuals({spec.name: _q(tol.u_per_g_mm, "g*mm")}, {spec.name: (_q(amount, "g*mm"), angle)},
-                                 error_allowance=job.error_allowance)
-        correction_action = "remove" if method == "drill" else "add"
-        correction_angle = a0 if correction_action == "remove" else (a0 + 180.0) % 360.0
-        share = key_shares.get(spec.name, (None, None))
-        planes.append(PlaneOrder(spec.name, spec.position.m_as("mm"), spec.radius.m_as("mm"), spec.surface, method,
-                                 tol, *measured, correction_action, u0, correction_angle, tuple(ops), amount, angle,
-                                 (check.rule,), check.limit.m_as("g*mm"), check.rule, key_g_mm=share[0],
-                                 key_deg=share[1]))
+        kinds_used.update(op.kind for op in plane.operations)
+    # the key mismatch's notes, cautions and source
     if job.key is not None:
-        fmt = Formatter(job.shop.units, job.angle_reference, job.angle_sense)
         warnings.extend(job.key.warnings)
         if key is not None:
+            fmt = Formatter(job.shop.units, job.angle_reference, job.angle_sense)
             warnings.extend(_key_notes(job, fmt, key_shares, planes))
             cautions.extend(key.cautions)
             sources.append("Key mismatch: " + key.method + "; " + key.source)
         else:
             sources.append("Key convention: " + _KEY_SOURCE)
-    all_cautions = list(GENERAL_CAUTIONS) + cautions
-    sources = [tolerances[p.name].source for p in job.planes] + sources
-    sources.append("Residual check: " + planes[0].rule if planes else "")
+    return _work_order(job, report, planes, measured_by, warnings, list(GENERAL_CAUTIONS) + cautions,
+                       [tolerances[p.name].source for p in job.planes] + sources + _method_sources(planes, kinds_used),
+                       solution)
+
+
+def _plane_order(job: Job, spec, tol, measured: tuple[float, float], key_share, first: int):
+    """One plane of the order: the correction of ``measured`` (with the key mismatch's share, if any), its
+    operations numbered from ``first``, the predicted residual and the check-run rule. Returns the
+    :class:`PlaneOrder`, its notes and its cautions."""
+    from toolkit.tolerance import check_residuals
+
+    delta = 0.0 if job.error_allowance is None else job.error_allowance.m_as("g*mm")
+    u0, a0 = measured
+    if key_share is not None:  # the key mismatch in service is corrected with the measured unbalance
+        u0, a0 = polar(vector(*measured) + vector(*key_share))
+    limit = tol.u_per_g_mm - delta
+    if limit <= 0:
+        raise BadInput(f"{job.origin}: rotor.error_allowance: {delta:g} g·mm is not below the allowance of "
+                       f"plane {spec.name} ({tol.u_per_g_mm:.4g} g·mm)")
+    method, raw_ops, residual, notes, cautions = _correct_plane(job, spec, u0, a0, tol.u_per_g_mm, limit)
+    ops = tuple(Operation(number, spec.name, kind, action, text, angle, mass, u, spec.radius.m_as("mm"),
+                          _details(kind, dims, mass, job))
+                for number, (kind, action, angle, mass, u, dims, text) in enumerate(raw_ops, start=first))
+    amount, angle = polar(residual)
+    check, = check_residuals({spec.name: _q(tol.u_per_g_mm, "g*mm")}, {spec.name: (_q(amount, "g*mm"), angle)},
+                             error_allowance=job.error_allowance)
+    correction_action = "remove" if method == "drill" else "add"
+    correction_angle = a0 if correction_action == "remove" else (a0 + 180.0) % 360.0
+    share = key_share or (None, None)
+    plane = PlaneOrder(spec.name, spec.position.m_as("mm"), spec.radius.m_as("mm"), spec.surface, method, tol,
+                       *measured, correction_action, u0, correction_angle, ops, amount, angle, (check.rule,),
+                       check.limit.m_as("g*mm"), check.rule, key_g_mm=share[0], key_deg=share[1])
+    return plane, notes, cautions
+
+
+def _method_sources(planes, kinds_used) -> list[str]:
+    """The sources of the residual check, of each fabrication method used and of the safety cautions."""
+    sources = ["Residual check: " + planes[0].rule if planes else ""]
     sources += [_SOURCES[k] for k in ("hole", "plate", "washers") if k in kinds_used]
     sources.append("Safety: lock-out/tag-out OSHA 29 CFR 1910.147; hot work OSHA 29 CFR 1926.352/.354; welding "
                    "procedures ISO 15614-1 or AWS D1.1.")
+    return sources
+
+
+def _work_order(job: Job, report, planes, measured_by, warnings, cautions, sources, solution) -> WorkOrder:
+    """The finished :class:`WorkOrder` from its parts."""
     order = job.order
     return WorkOrder(
         ident=Identification(order["number"], order["rotor"], order.get("customer", ""), order.get("drawing", ""),
@@ -506,7 +555,7 @@ def build_order(job: Job) -> WorkOrder:
         balancing_speed_rpm=job.balancing_speed_rpm, grade=report.grade.label, criterion=job.criterion,
         material=job.material, u_per_total_g_mm=report.u_per.m_as("g*mm"), angle_reference=job.angle_reference,
         angle_sense=job.angle_sense, units=job.shop.units, planes=tuple(planes), measurement=measured_by,
-        cautions=_unique(all_cautions, words=5), sources=_unique(s for s in sources if s),
+        cautions=_unique(cautions, words=5), sources=_unique(s for s in sources if s),
         settings=_settings(job, report) + (paper_setting(job.shop.paper, job.shop.units,
                                                          "job file" if job.shop.paper else ""),),
         warnings=_unique(warnings), paper=job.shop.paper or default_paper(job.shop.units),

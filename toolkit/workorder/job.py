@@ -880,6 +880,12 @@ def _shop_convexity(ck: _Checker, shop_t: Mapping) -> float | None:
 _PLANE_KEYS = {"radius": "radius", "wall": "wall", "width": "width", "max_length": "max_length",
                "material": "material", "fixed_positions": "fixed_positions", "size": "washer_size",
                "surface": "surface", "shape": "plate_shape", "orientation": "hole_orientation"}
+#: The tolerance library's parameters (``toolkit.tolerance.tolerance_report``) as the job keys that set them.
+_TOLERANCE_KEYS = {"bearing_span": ("geometry", "bearing_span"), "com_from_a": ("geometry", "centre_of_mass"),
+                   "static_share": ("geometry", "static_share"), "min_share": ("geometry", "min_share"),
+                   "one_plane_rule": ("geometry", "one_plane_rule"), "rotor_length": ("geometry", "rotor_length"),
+                   "criteria": ("rotor", "criterion"), "grade": ("rotor", "grade"), "mass": ("rotor", "mass"),
+                   "speed": ("rotor", "service_speed"), "error_allowance": ("rotor", "error_allowance")}
 _SHOP_KEYS = {"point_angle_deg": "point_angle", "drills": "drills", "thickness": "plate_stock",
               "step": "plate_step", "fillet": "fillet", "convexity": "weld_convexity", "units": "units"}
 
@@ -887,8 +893,10 @@ _SHOP_KEYS = {"point_angle_deg": "point_angle", "drills": "drills", "thickness":
 def job_key_names(job: Job, plane: int | None = None):
     """``name(parameter) -> text``: a library parameter named as the job key that sets it, with the line
     (or planner column) where it is written, e.g. ``plane[1].wall (line 14)`` or
-    ``[shop.drilling] max_depth_ratio``; ``plane`` is the index of the plane being corrected. A parameter no
-    job key sets keeps the library's name (never a command-line option)."""
+    ``[shop.drilling] max_depth_ratio``; ``plane`` is the index of the plane being corrected. The tolerance
+    report's parameters name their keys too (``geometry.centre_of_mass (line 27)``; ``planes NAME``, a plane's
+    position, ``plane[2].position (line 43)``). A parameter no job key sets keeps the library's name (never a
+    command-line option)."""
     ck = _Checker(job.origin, dict(job.key_lines), job.key_columns)
 
     def shown(path: tuple, header: str | None = None) -> str:
@@ -908,6 +916,12 @@ def job_key_names(job: Job, plane: int | None = None):
             return shown(("shop", "drilling", parameter), "shop.drilling")
         if parameter in _SHOP_KEYS:
             return shown(("shop", _SHOP_KEYS[parameter]), "shop")
+        if parameter in _TOLERANCE_KEYS:
+            return shown(_TOLERANCE_KEYS[parameter])
+        head, _, plane_name = parameter.partition(" ")
+        if head == "planes":  # "planes NAME": that plane's position; "planes": every plane's
+            index = next((i for i, p in enumerate(job.planes) if p.name == plane_name), None)
+            return shown(("plane", index, "position")) if index is not None else "[[plane]] position"
         return parameter
 
     return name
@@ -991,79 +1005,99 @@ def _table_ref(ck: _Checker, table: Mapping, path: tuple, base: Path, names: tup
 
 def _measurement(ck: _Checker, meas: Mapping, names: list[str], planes: list[PlaneSpec],
                  base: Path, sense: str | None) -> Measurement:
-    path = ("measurement",)
-    kind = _choice(ck, meas, path + ("kind",), KINDS, required=True)
+    """The ``[measurement]`` table, read by its ``kind``."""
+    kind = _choice(ck, meas, ("measurement", "kind"), KINDS, required=True)
     raw = MappingProxyType(dict(meas))
     if kind == "machine":
-        _unknown(ck, meas, path, ("kind", "shows", "readings"))
-        shows = _choice(ck, meas, path + ("shows",), SHOWS, default="heavy spot")
-        readings_t = _table(ck, meas, path + ("readings",))
-        readings: dict[str, tuple[Any, float]] = {}
-        for key in readings_t:
-            if key not in names:
-                ck.add(path + ("readings", key), f"no plane named {key!r}; planes: {', '.join(names) or 'none'}")
-        for plane in planes:
-            value = readings_t.get(plane.name, _MISSING)
-            vpath = path + ("readings", plane.name)
-            if value is _MISSING:
-                if readings_t:
-                    ck.add(vpath, "missing; give the reading of this plane as AMOUNT@ANGLE, e.g. \"1820 g*mm@40\"")
-                continue
-            reading = _reading(ck, value, vpath, plane)
-            if reading is not None:
-                amount, angle = reading
-                if shows == "add":
-                    angle = (angle + 180.0) % 360.0
-                readings[plane.name] = (amount, angle)
-        return Measurement("machine", MappingProxyType(readings), shows or "heavy spot", raw=raw)
+        return _machine_measurement(ck, meas, names, planes, raw)
     if kind == "runs":
-        allowed = ("kind", "sensors", "phase", "run", "weights", "trials_left_on", "method", "speed", "limits",
-                   *THRESHOLDS)
-        _unknown(ck, meas, path, allowed)
-        thresholds = {}
-        for key in THRESHOLDS:
-            if key in meas:
-                value = meas[key]
-                if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0 < value < 1000:
-                    ck.add(path + (key,), f"{_shown(value)} is not allowed; give a number greater than zero")
-                else:
-                    thresholds[key] = float(value)
-        data = {k: v for k, v in meas.items() if k in allowed and k != "kind" and k not in THRESHOLDS}
-        data["planes"] = [p.name for p in planes]
-        data["weight_angles"] = sense or "against rotation"
-        data["radius"] = {p.name: f"{p.radius.m_as('mm')!r} mm" for p in planes}
-        data["action"] = "add"
-        if "phase" not in meas:
-            ck.add(path + ("phase",), "missing; say how the instrument reports phase: 'lag' or 'lead'")
-        if len(planes) == len(names) and sense and "phase" in meas:
-            from toolkit.runs import runs_from_dict
-
-            try:
-                runs_from_dict(data, "")
-            except BadInput as exc:
-                ck.add(path + ("run",), str(exc))
-        return Measurement("runs", runs=MappingProxyType(data), raw=raw, thresholds=MappingProxyType(thresholds))
+        return _runs_measurement(ck, meas, names, planes, sense, raw)
     if kind == "coefficients":
-        _unknown(ck, meas, path, ("kind", "coefficients", "original"))
-        file_name = meas.get("coefficients")
-        file = None
-        if not isinstance(file_name, str) or not file_name.strip():
-            ck.add(path + ("coefficients",), f"{_shown(file_name)}: give the path of the stored coefficients file")
-        else:
-            file = (base / file_name) if not Path(file_name).is_absolute() else Path(file_name)
-            if not file.is_file():
-                ck.add(path + ("coefficients",), f"{file_name!r}: no such file (looked for {file.resolve()})")
-        original = meas.get("original")
-        if not isinstance(original, list) or not original or not all(isinstance(r, str) for r in original):
-            ck.add(path + ("original",), f"{_shown(original)}: give the original run as a list of readings, one "
-                                         "per sensor, e.g. [\"4.2 mm/s@285\"]")
-            original = []
-        return Measurement("coefficients", coefficients=file, original=tuple(original), raw=raw)
+        return _coefficients_measurement(ck, meas, base, raw)
     if kind == "arbor index":
         from toolkit.workorder.jobkey import arbor_measurement
 
         return arbor_measurement(ck, meas, names, planes, raw)
     return Measurement(kind or "machine", raw=raw)
+
+
+def _machine_measurement(ck: _Checker, meas: Mapping, names: list[str], planes: list[PlaneSpec],
+                         raw: Mapping) -> Measurement:
+    """``kind = "machine"``: one reading per plane (heavy spot, or where to add)."""
+    path = ("measurement",)
+    _unknown(ck, meas, path, ("kind", "shows", "readings"))
+    shows = _choice(ck, meas, path + ("shows",), SHOWS, default="heavy spot")
+    readings_t = _table(ck, meas, path + ("readings",))
+    readings: dict[str, tuple[Any, float]] = {}
+    for key in readings_t:
+        if key not in names:
+            ck.add(path + ("readings", key), f"no plane named {key!r}; planes: {', '.join(names) or 'none'}")
+    for plane in planes:
+        value = readings_t.get(plane.name, _MISSING)
+        vpath = path + ("readings", plane.name)
+        if value is _MISSING:
+            if readings_t:
+                ck.add(vpath, "missing; give the reading of this plane as AMOUNT@ANGLE, e.g. \"1820 g*mm@40\"")
+            continue
+        reading = _reading(ck, value, vpath, plane)
+        if reading is not None:
+            amount, angle = reading
+            if shows == "add":
+                angle = (angle + 180.0) % 360.0
+            readings[plane.name] = (amount, angle)
+    return Measurement("machine", MappingProxyType(readings), shows or "heavy spot", raw=raw)
+
+
+def _runs_measurement(ck: _Checker, meas: Mapping, names: list[str], planes: list[PlaneSpec], sense: str | None,
+                      raw: Mapping) -> Measurement:
+    """``kind = "runs"``: the influence-coefficient runs, checked by the runs reader itself."""
+    path = ("measurement",)
+    allowed = ("kind", "sensors", "phase", "run", "weights", "trials_left_on", "method", "speed", "limits",
+               *THRESHOLDS)
+    _unknown(ck, meas, path, allowed)
+    thresholds = {}
+    for key in THRESHOLDS:
+        if key in meas:
+            value = meas[key]
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0 < value < 1000:
+                ck.add(path + (key,), f"{_shown(value)} is not allowed; give a number greater than zero")
+            else:
+                thresholds[key] = float(value)
+    data = {k: v for k, v in meas.items() if k in allowed and k != "kind" and k not in THRESHOLDS}
+    data["planes"] = [p.name for p in planes]
+    data["weight_angles"] = sense or "against rotation"
+    data["radius"] = {p.name: f"{p.radius.m_as('mm')!r} mm" for p in planes}
+    data["action"] = "add"
+    if "phase" not in meas:
+        ck.add(path + ("phase",), "missing; say how the instrument reports phase: 'lag' or 'lead'")
+    if len(planes) == len(names) and sense and "phase" in meas:
+        from toolkit.runs import runs_from_dict
+
+        try:
+            runs_from_dict(data, "")
+        except BadInput as exc:
+            ck.add(path + ("run",), str(exc))
+    return Measurement("runs", runs=MappingProxyType(data), raw=raw, thresholds=MappingProxyType(thresholds))
+
+
+def _coefficients_measurement(ck: _Checker, meas: Mapping, base: Path, raw: Mapping) -> Measurement:
+    """``kind = "coefficients"``: a stored coefficients file and this rotor's original run."""
+    path = ("measurement",)
+    _unknown(ck, meas, path, ("kind", "coefficients", "original"))
+    file_name = meas.get("coefficients")
+    file = None
+    if not isinstance(file_name, str) or not file_name.strip():
+        ck.add(path + ("coefficients",), f"{_shown(file_name)}: give the path of the stored coefficients file")
+    else:
+        file = (base / file_name) if not Path(file_name).is_absolute() else Path(file_name)
+        if not file.is_file():
+            ck.add(path + ("coefficients",), f"{file_name!r}: no such file (looked for {file.resolve()})")
+    original = meas.get("original")
+    if not isinstance(original, list) or not original or not all(isinstance(r, str) for r in original):
+        ck.add(path + ("original",), f"{_shown(original)}: give the original run as a list of readings, one "
+                                     "per sensor, e.g. [\"4.2 mm/s@285\"]")
+        original = []
+    return Measurement("coefficients", coefficients=file, original=tuple(original), raw=raw)
 
 
 def _reading(ck: _Checker, value, path: tuple, plane: PlaneSpec):

@@ -295,6 +295,16 @@ class FieldRecord:
 PAPERS = {"A4": "A4 (210 mm × 297 mm)", "Letter": "Letter (8.5 in × 11 in)"}
 
 
+def rule_words(rules) -> str:
+    """The check-run rule of an order in words from its planes' rules (each said once, in plane order); the
+    plain rule when no plane has one. :attr:`WorkOrder.acceptance_rule` and the register's certificate use it.
+
+    >>> rule_words(["pass when residual <= 1", "", "pass when residual <= 1"])
+    'pass when residual <= 1'
+    """
+    return "; ".join(dict.fromkeys(r for r in rules if r)) or "pass when residual <= allowance"
+
+
 def default_paper(units: str) -> str:
     """Letter for the inch unit systems, A4 for metric."""
     from toolkit.units import unit_system
@@ -375,8 +385,7 @@ class WorkOrder:
     def acceptance_rule(self) -> str:
         """The check-run rule in words, decided once when the order is built: every exporter prints it and
         compares with each plane's :attr:`PlaneOrder.limit` (the allowance less ΔU where one is given)."""
-        rules = list(dict.fromkeys(p.rule for p in self.planes if p.rule))
-        return "; ".join(rules) or "pass when residual <= allowance"
+        return rule_words(p.rule for p in self.planes)
 
     @property
     def operations(self) -> tuple[Operation, ...]:

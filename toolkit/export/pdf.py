@@ -2,10 +2,10 @@
 
 Layout (our own): a header band with the order number; identification; the tolerance, initial unbalance,
 operations (each with a tick box), predicted residual and check-run tables; sign-off boxes; then one polar
-diagram per correction plane (laid out by :mod:`toolkit.workorder.diagram`); then the values used,
+diagram per correction plane (laid out by :mod:`toolkit.export.diagram`); then the values used,
 warnings, cautions and sources. Every page carries the order number and ``page N of M`` in its footer.
 The paper is the order's (A4 or Letter); text keeps every character the user wrote (fonts, runs and the
-page writer are in :mod:`toolkit.workorder.pdfpage`).
+page writer are in :mod:`toolkit.export.pdfpage`).
 
 On the page, angles increase counter-clockwise from the top, so the direction of rotation is drawn
 clockwise when angles are counted against rotation, and counter-clockwise when they are counted with it.
@@ -19,11 +19,11 @@ import math
 from io import BytesIO
 from pathlib import Path
 
-from toolkit.workorder import diagram as dia
-from toolkit.workorder import pdfpage
+from toolkit.export import diagram as dia
+from toolkit.export import pdfpage
 from toolkit.workorder.model import Formatter, PlaneOrder, WorkOrder, example_order, key_pairs
-from toolkit.workorder.pdfpage import MARGIN as _M
-from toolkit.workorder.pdfpage import Pages
+from toolkit.export.pdfpage import MARGIN as _M
+from toolkit.export.pdfpage import Pages
 
 __all__ = ["to_bytes", "render_order", "write_pdf", "render", "Document", "combined_bytes", "write_combined",
            "diagram_layout", "PLATE_ORIENTATION"]
@@ -286,7 +286,7 @@ def _field_runs(w: _Writer, fmt: Formatter, record) -> None:
 
 def diagram_layout(plane: PlaneOrder, fmt: Formatter, order: WorkOrder, x0: float, top: float,
                    width: float) -> dia.Layout:
-    """The geometry of one plane's polar diagram (see :func:`toolkit.workorder.diagram.plane_layout`), in a
+    """The geometry of one plane's polar diagram (see :func:`toolkit.export.diagram.plane_layout`), in a
     box ``width`` points wide whose top edge is at ``top``, measured with the PDF's fonts; its height is
     the layout's."""
     return dia.plane_layout(plane, fmt, order, x0, top, width, measure=pdfpage.width, wrap=pdfpage.wrap)
@@ -490,7 +490,7 @@ def to_bytes(order: WorkOrder) -> bytes:
 
 class Document(pdfpage.Document):
     """Several work orders in one PDF, added one at a time (a batch's combined document; see
-    :class:`toolkit.workorder.pdfpage.Document`).
+    :class:`toolkit.export.pdfpage.Document`).
 
     >>> doc = Document(); files = [doc.add(example_order(n)) for n in ("A", "B")]; doc.orders
     2

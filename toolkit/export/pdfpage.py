@@ -2,7 +2,7 @@
 one font, wrapping, the page-holding canvas and the combined document of a batch (reportlab underneath).
 
 Fonts: DejaVu Sans Condensed (regular, bold, oblique) for Latin, Greek, Cyrillic and the signs the orders
-use, and Droid Sans Fallback for Chinese, Japanese and Korean; both ship in ``toolkit/workorder/fonts`` with
+use, and Droid Sans Fallback for Chinese, Japanese and Korean; both ship in ``toolkit/export/fonts`` with
 their licences and are embedded as subsets (reportlab ``TTFont``). Each string is cut into runs of
 characters that one font has; a character neither font has prints as the visible replacement mark
 U+FFFD, never as a silent "?". The fallback font is read only when a text needs it.
@@ -20,7 +20,7 @@ from contextlib import contextmanager
 from io import BytesIO
 from pathlib import Path
 
-__all__ = ["PAPER", "MARGIN", "paper_size", "clean", "runs", "width", "wrap", "shorten", "draw", "Doc",
+__all__ = ["PAPER", "MARGIN", "paper_size", "clean", "runs", "width", "wrap", "shorten", "draw", "canvas", "Doc",
            "Document", "FONT_FILES", "REPLACEMENT"]
 
 #: Paper sizes in points (ISO 216 A4 is 210 mm x 297 mm; US Letter is 8.5 in x 11 in).
@@ -29,7 +29,7 @@ MARGIN = 42.0
 #: What a character neither font has is printed as.
 REPLACEMENT = "\ufffd"
 
-#: Style -> (registered font name, file in toolkit/workorder/fonts).
+#: Style -> (registered font name, file in toolkit/export/fonts).
 FONT_FILES = {
     "regular": ("CP-Sans", "DejaVuSansCondensed.ttf"),
     "bold": ("CP-Sans-Bold", "DejaVuSansCondensed-Bold.ttf"),
@@ -359,17 +359,24 @@ def binary_streams():
         rl_config.useA85 = previous
 
 
+def canvas(buffer, paper: str = "A4"):
+    """A reportlab canvas writing to ``buffer`` on ``paper``: deterministic (invariant mode), pages
+    compressed, and the embedded regular font as its initial font, so no standard font is in the file."""
+    from reportlab.pdfgen.canvas import Canvas
+
+    c = Canvas(buffer, pagesize=paper_size(paper), invariant=1, pageCompression=1,
+               initialFontName=_font("regular").fontName)
+    c.setCreator("Counterpoise")
+    return c
+
+
 class Doc:
     """A canvas whose pages are held back until their order is complete, so that each footer can say
     ``page N of M`` for its own order; then they are finished and only the PDF stream keeps them."""
 
     def __init__(self, buffer, paper: str = "A4"):
-        from reportlab.pdfgen.canvas import Canvas
-
         self.width, self.height = paper_size(paper)
-        self.c = Canvas(buffer, pagesize=(self.width, self.height), invariant=1, pageCompression=1,
-                        initialFontName=_font("regular").fontName)  # no standard font in the file
-        self.c.setCreator("Counterpoise")
+        self.c = canvas(buffer, paper)
         self.pending: list[dict] = []
         self.footer = ""
         self.colour = (0.45, 0.47, 0.50)
@@ -509,7 +516,7 @@ class Document:
         return number
 
     def add_pages(self, pages: Pages) -> None:
-        """Add the pages of one order (from :func:`toolkit.workorder.pdf.render_order`)."""
+        """Add the pages of one order (from :func:`toolkit.export.pdf.render_order`)."""
         objects = _objects(pages.data)
         copied: dict[int, int] = {}
 

@@ -1,13 +1,13 @@
 """Diagrams as SVG for the browser face: a work order's polar diagram per correction plane, a live polar
 diagram of readings and corrections before an order exists, and the rotor seen from the side, to scale.
 
-The polar diagrams draw the same :class:`toolkit.workorder.diagram.Layout` that the PDF draws, so the
+The polar diagrams draw the same :class:`toolkit.export.diagram.Layout` that the PDF draws, so the
 browser shows the same picture with the same guarantees (no text box overlaps another, an arc, a circle, a
 shape, an arrow or a leader; nothing leaves the picture). The side view is laid out here with the same kind
 of boxes (:func:`side_view_layout`), so that tests can check it geometrically too.
 
 Text widths are measured with the PDF's font metrics (DejaVu Sans Condensed, with Droid Sans Fallback for
-CJK; :func:`toolkit.workorder.pdfpage.width`). The SVG names that font (:data:`FONT_FAMILY`); the web app
+CJK; :func:`toolkit.export.pdfpage.width`). The SVG names that font (:data:`FONT_FAMILY`); the web app
 serves the files (:func:`font_files`, :func:`font_face_css`). Every text line also carries its measured
 width as ``textLength``, so that a browser falling back to another font still fits each line into the box
 the layout reserved for it. A character neither font has is shown as U+FFFD, as in the PDF.
@@ -29,8 +29,8 @@ from typing import Callable
 from xml.sax.saxutils import escape
 
 from toolkit.errors import BadInput
-from toolkit.workorder import diagram as dia
-from toolkit.workorder import pdfpage
+from toolkit.export import diagram as dia
+from toolkit.export import pdfpage
 
 __all__ = ["plane_svg", "vectors_svg", "side_view_svg", "side_view_layout", "layout_svg", "font_files",
            "font_face_css", "vectors_layout", "FONT_FAMILY", "FALLBACK_FAMILY", "ROLES", "VECTOR_ROLES",
@@ -227,7 +227,7 @@ def _draw(canvas: _Canvas, lay: dia.Layout) -> None:
 
 
 def layout_svg(lay: dia.Layout, title: str) -> str:
-    """A polar-diagram :class:`~toolkit.workorder.diagram.Layout` as a complete ``<svg>`` element whose
+    """A polar-diagram :class:`~toolkit.export.diagram.Layout` as a complete ``<svg>`` element whose
     viewBox holds the layout (plus a 4-point border for line widths); ``title`` is its ``<title>``."""
     canvas = _Canvas(lay.x0, lay.top)
     if isinstance(lay, SideView):
@@ -381,7 +381,7 @@ def vectors_svg(*, title: str, reference: str, angle_sense: str, vectors: list[d
 
 @dataclass
 class SideView(dia.Layout):
-    """The side view's geometry: the texts, lines and shapes of a :class:`~toolkit.workorder.diagram.Layout`
+    """The side view's geometry: the texts, lines and shapes of a :class:`~toolkit.export.diagram.Layout`
     plus filled rectangles (x0, y0, x1, y1, role), polygons (points, role) and centre-of-mass symbols
     (x, y, radius); :attr:`symbol_boxes` lists the boxes of bearings and centre-of-mass symbols."""
 
