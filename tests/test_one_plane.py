@@ -3,6 +3,7 @@ option shown beside it, doubts about the one-plane conditions worded in the user
 share that governs the plane allowances (or is refused)."""
 
 import json
+import re
 
 import pytest
 
@@ -131,6 +132,11 @@ def test_command_one_plane_options_need_one_plane(capsys):
 
 def job(planes, geometry_extra="", reading="I = \"290 g*mm@40\""):
     """An invented one- or two-plane job (numbers chosen for the checks)."""
+    return parse_job(job_text(planes, geometry_extra, reading))
+
+
+def job_text(planes, geometry_extra="", reading="I = \"290 g*mm@40\""):
+    """The text of :func:`job`."""
     text = ('[order]\nnumber = "OP-1"\nrotor = "impeller (invented)"\n'
             f'[rotor]\nmass = "{MASS}"\nservice_speed = "{SPEED}"\ngrade = "G 2.5"\n'
             f'[geometry]\nbearing_span = "400 mm"\ncentre_of_mass = "200 mm"\n{geometry_extra}\n')
@@ -139,7 +145,7 @@ def job(planes, geometry_extra="", reading="I = \"290 g*mm@40\""):
                  'methods = ["drill"]\nwall = "60 mm"\n')
     text += ('[angles]\nreference = "keyway"\nsense = "against rotation"\n'
              f'[measurement]\nkind = "machine"\n[measurement.readings]\n{reading}\n')
-    return parse_job(text)
+    return text
 
 
 def test_work_order_uses_the_whole_u_per_by_default():
@@ -161,12 +167,38 @@ def test_work_order_statics_option_changes_the_allowance_and_the_plan():
     assert {s.name: s for s in order.settings}["one-plane allowance rule"].given
 
 
+def _line(text: str, start: str) -> int:
+    """The 1-based number of the first line of ``text`` that starts with ``start``."""
+    return next(n for n, line in enumerate(text.splitlines(), start=1) if line.startswith(start))
+
+
 def test_work_order_words_doubts_as_job_keys():
-    order = build_order(job([("I", "330 mm")], 'rotor_length = "250 mm"'))
-    text = " ".join(order.warnings)
-    assert "check [geometry] rotor_length and [[plane]] radius" in text
-    assert "check [[plane]] position and [geometry] centre_of_mass" in text
-    assert "--" not in text.split("one correction plane", 1)[1]
+    source = job_text([("I", "330 mm")], 'rotor_length = "250 mm"')
+    text = " ".join(build_order(parse_job(source)).warnings)
+    length, radius = _line(source, "rotor_length"), _line(source, "radius")
+    assert f"check geometry.rotor_length (line {length}) and plane[1].radius (line {radius})" in text
+    assert "check plane[1].position (line " in text and "and geometry.centre_of_mass (line " in text
+    assert "(geometry.one_plane_rule = statics)" in text and "by the whole rule (geometry.one_plane_rule)" in text
+    assert "--" not in text.split("one correction plane", 1)[1] and "[[plane]]" not in text
+
+
+def test_warning_and_error_name_the_same_job_key_with_its_line():
+    """A doubt (warning) and a refusal (error) about a plane's position name the one job key, with its line,
+    through the one table of the tolerance report's parameters (job.TOLERANCE_KEYS)."""
+    from toolkit.workorder.job import parse_job
+
+    def text(position):
+        return job_text([("I", position)])
+
+    near = text("330 mm")  # 130 mm from the centre of mass on a 400 mm span: a doubt (more than 0.2 of it)
+    warned = " ".join(build_order(parse_job(near, origin="job.toml")).warnings)
+    position, com = _line(near, 'position = "330 mm"'), _line(near, "centre_of_mass")
+    assert f"check plane[1].position (line {position}) and geometry.centre_of_mass (line {com})" in warned
+
+    far = text("40000 mm")  # 100 bearing spans away: refused by the tolerance report's axial bound
+    with pytest.raises(BadInput) as caught:
+        build_order(parse_job(far, origin="job.toml"))
+    assert str(caught.value).startswith(f"job.toml: plane[1].position (line {_line(far, 'position = ')}): ")
 
 
 def test_job_static_share_refused_with_one_plane():
@@ -197,7 +229,7 @@ def test_job_static_share_sets_the_plane_allowances():
     # 140 g·mm in each plane passes without the static share and needs correcting with it
     assert all(p.method == "none" for p in plain.planes)
     assert all(p.method == "drill" for p in shared.planes)
-    assert any("[geometry] static_share 0.5" in w for w in shared.warnings)
+    assert any(re.search(r"\(geometry\.static_share \(line \d+\) = 0\.5\)", w) for w in shared.warnings)
 
 
 def test_command_static_share_governs_pass_fail(capsys):

@@ -29,7 +29,7 @@ import math
 import re
 from pathlib import Path
 
-from toolkit.errors import BadInput, Infeasible, quantity_words
+from toolkit.errors import BadInput, Infeasible, quantity_words, worded
 from toolkit.units import unit_system
 from toolkit.workorder.job import DEFAULTS, Job, job_key_names, load_job, parse_job
 from toolkit.workorder.model import (Coefficient, FieldRecord, FieldRun, Formatter, Identification, Operation,
@@ -70,6 +70,7 @@ def _tolerances(job: Job):
     from toolkit.tolerance import DEFAULT_MIN_SHARE, tolerance_report
 
     one = job.planes[0] if len(job.planes) == 1 else None
+    names = job_key_names(job, 0 if one is not None else None)
     try:
         report = tolerance_report(
             job.grade, job.mass, _q(job.service_speed_rpm, "rpm"), bearing_span=job.bearing_span,
@@ -79,34 +80,31 @@ def _tolerances(job: Job):
             one_plane_rule=job.one_plane_rule, rotor_length=job.rotor_length,
             correction_diameter=None if one is None else 2 * one.radius)
     except (BadInput, Infeasible) as exc:
-        words = exc.worded(job_key_names(job, 0 if one is not None else None), quantity_words(job.shop.units))
+        words = exc.worded(names, quantity_words(job.shop.units))
         raise type(exc)(f"{job.origin}: {words}") from None
     by_name = {p.name: p for p in report.planes}
     tolerances = {}
     for plane in job.planes:
         record = by_name[plane.name]
         tolerances[plane.name] = Tolerance(record.u_per.m_as("g*mm"), record.method, record.source)
-    notes = list(report.warnings)
+    notes = [worded(w, names) for w in report.warnings]
     fmt = Formatter(job.shop.units, job.angle_reference, job.angle_sense)
     if report.static_couple is not None:
         sc = report.static_couple
-        notes.append(f"static and couple tolerances ([geometry] static_share {sc.static_share:g}): static part "
+        notes.append(f"static and couple tolerances ({names('static_share')} = {sc.static_share:g}): static part "
                      f"{fmt.unbalance(sc.static.m_as('g*mm'))} at the centre-of-mass plane, couple part "
                      f"{fmt.unbalance(sc.couple_per_plane.m_as('g*mm'))} in each plane; they set each plane's "
                      f"allowance ({fmt.unbalance(report.planes[0].u_per.m_as('g*mm'))})")
     op = report.one_plane
     if op is not None:
         notes.append(f"one correction plane: allowance {fmt.unbalance(op.used.m_as('g*mm'))} by the {op.rule} rule "
-                     f"([geometry] one_plane_rule); the {op.other_rule} rule would give "
+                     f"({names('one_plane_rule')}); the {op.other_rule} rule would give "
                      f"{fmt.unbalance(op.other.m_as('g*mm'))}")
-        notes.extend(d.text(JOB_KEYS) for d in op.doubts)
+        # the doubts name the job keys as the report's errors do (job_key_names); "{one_plane_rule} statics"
+        # reads as the key set to that value
+        keys = {p: names(p) + (" =" if p == "one_plane_rule" else "") for d in op.doubts for p in d.parameters}
+        notes.extend(d.text(keys) for d in op.doubts)
     return report, tolerances, notes
-
-
-#: The tolerance library's parameter names as job keys, for warnings that name what to check.
-JOB_KEYS = {"rotor_length": "[geometry] rotor_length", "correction_diameter": "[[plane]] radius",
-            "bearing_span": "[geometry] bearing_span", "com_from_a": "[geometry] centre_of_mass",
-            "plane_position": "[[plane]] position", "one_plane_rule": "[geometry] one_plane_rule ="}
 
 
 def _initial(job: Job):

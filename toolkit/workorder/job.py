@@ -880,12 +880,17 @@ def _shop_convexity(ck: _Checker, shop_t: Mapping) -> float | None:
 _PLANE_KEYS = {"radius": "radius", "wall": "wall", "width": "width", "max_length": "max_length",
                "material": "material", "fixed_positions": "fixed_positions", "size": "washer_size",
                "surface": "surface", "shape": "plate_shape", "orientation": "hole_orientation"}
-#: The tolerance library's parameters (``toolkit.tolerance.tolerance_report``) as the job keys that set them.
-_TOLERANCE_KEYS = {"bearing_span": ("geometry", "bearing_span"), "com_from_a": ("geometry", "centre_of_mass"),
-                   "static_share": ("geometry", "static_share"), "min_share": ("geometry", "min_share"),
-                   "one_plane_rule": ("geometry", "one_plane_rule"), "rotor_length": ("geometry", "rotor_length"),
-                   "criteria": ("rotor", "criterion"), "grade": ("rotor", "grade"), "mass": ("rotor", "mass"),
-                   "speed": ("rotor", "service_speed"), "error_allowance": ("rotor", "error_allowance")}
+#: Stands for the index of the plane being corrected in a path of :data:`TOLERANCE_KEYS`.
+THIS_PLANE = object()
+#: The tolerance library's parameters (``toolkit.tolerance.tolerance_report``, its warnings and the one-plane
+#: doubts) as the job keys that set them: the one table for the tolerance report's errors and its warnings.
+TOLERANCE_KEYS = {"bearing_span": ("geometry", "bearing_span"), "com_from_a": ("geometry", "centre_of_mass"),
+                  "static_share": ("geometry", "static_share"), "min_share": ("geometry", "min_share"),
+                  "one_plane_rule": ("geometry", "one_plane_rule"), "rotor_length": ("geometry", "rotor_length"),
+                  "criteria": ("rotor", "criterion"), "grade": ("rotor", "grade"), "mass": ("rotor", "mass"),
+                  "speed": ("rotor", "service_speed"), "error_allowance": ("rotor", "error_allowance"),
+                  "correction_diameter": ("plane", THIS_PLANE, "radius"),
+                  "plane_position": ("plane", THIS_PLANE, "position")}
 _SHOP_KEYS = {"point_angle_deg": "point_angle", "drills": "drills", "thickness": "plate_stock",
               "step": "plate_step", "fillet": "fillet", "convexity": "weld_convexity", "units": "units"}
 
@@ -916,8 +921,13 @@ def job_key_names(job: Job, plane: int | None = None):
             return shown(("shop", "drilling", parameter), "shop.drilling")
         if parameter in _SHOP_KEYS:
             return shown(("shop", _SHOP_KEYS[parameter]), "shop")
-        if parameter in _TOLERANCE_KEYS:
-            return shown(_TOLERANCE_KEYS[parameter])
+        if parameter in TOLERANCE_KEYS:
+            path = TOLERANCE_KEYS[parameter]
+            if THIS_PLANE not in path:
+                return shown(path)
+            if plane is not None:
+                return shown(tuple(plane if part is THIS_PLANE else part for part in path))
+            return f"[[plane]] {path[-1]}"
         head, _, plane_name = parameter.partition(" ")
         if head == "planes":  # "planes NAME": that plane's position; "planes": every plane's
             index = next((i for i, p in enumerate(job.planes) if p.name == plane_name), None)
