@@ -149,3 +149,16 @@ def test_cli_index_errors_name_options(capsys):
     assert capsys.readouterr().err.startswith("counterpoise index: error: --reading 1: ")
     assert main(["index", "--reading", "0=300 g*mm@40", "--reading", "180 g*mm@200"]) == 2
     assert "--reading: give INDEX=AMOUNT@ANGLE for every reading" in capsys.readouterr().err
+
+
+def test_warnings_carry_their_parameters_and_the_cli_words_them_as_options(capsys):
+    # two readings 90 degrees apart: the library names its own parameters (index_angles, readings) as fields
+    # the faces word, not as prose a face has to parse
+    r = index_separation(["300 g*mm@40", "180 g*mm@200"], ["0", "90"])
+    assert [w.mentions for w in r.warnings] == [("index_angles",), ("readings",)]
+    assert str(r.warnings[0]).startswith("index_angles: two readings 90 degrees apart")
+    assert main(["index", "--reading", "0=300 g*mm@40", "--reading", "90=180 g*mm@200", "--json"]) == 0
+    said = json.loads(capsys.readouterr().out)["warnings"]
+    assert said[0].startswith("--reading: two readings 90 degrees apart, not 180")
+    assert said[1].startswith("--reading: two readings fix both shares exactly")
+    assert "index_angles" not in " ".join(said)

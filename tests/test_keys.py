@@ -287,3 +287,15 @@ def test_cli_warnings_name_options_not_parameters(capsys):
     assert "warning: --hub: no --hub-length, so no hub" in out
     assert "warning: --half-key-height: the shaft's half-key was 3 mm high" in out
     assert "hub_length" not in out and "half_key_height" not in out
+
+
+def test_warnings_name_their_parameters_for_every_face():
+    # the library's warning names the parameters it is about as fields (toolkit.errors.Worded): the command
+    # line words them as options (above), a job as its [key] table's keys
+    from toolkit.workorder.jobkey import _reword
+
+    no_hub = {k: v for k, v in EXAMPLE.items() if not k.startswith("hub_")}
+    r = key_unbalance(**no_hub, hub_convention="full-key")
+    ignored = next(w for w in r.warnings if "no hub" in w)
+    assert ignored.startswith("hub_convention: no hub_length, so no hub") and ignored.mentions[0] == "hub_length"
+    assert _reword(ignored, "shaft").startswith("[key] mate.convention: no [key] hub_length, so no hub")

@@ -26,7 +26,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from toolkit.errors import BadInput
+from toolkit.errors import BadInput, Worded
 from toolkit.units import Q_, magnitude
 from toolkit.vectors import parse_angle, polar, to_complex
 
@@ -157,8 +157,9 @@ def index_separation(readings, index_angles=None, *, radius=None, max_spread=Non
         raise BadInput.about("index_angles", "the index positions cannot separate the two shares; use positions spread "
                        "round the part (e.g. 0 and 180, or 0, 120 and 240 degrees)")
     if n == 2 and abs(abs(phi[1] - phi[0]) % 360.0 - 180.0) > 1e-9:
-        warnings.append(f"index_angles: two readings {abs(phi[1] - phi[0]) % 360:g} degrees apart, not 180: the "
-                        f"separation is exact but more sensitive to reading errors")
+        warnings.append(Worded(f"{{index_angles}}: two readings {abs(phi[1] - phi[0]) % 360:g} degrees apart, not "
+                               f"180: the separation is exact but more sensitive to reading errors",
+                               ("index_angles",)))
     spread = frac = consistent = None
     if n > 2:
         spread = float(math.sqrt(np.mean(np.abs(misfit) ** 2)))
@@ -166,12 +167,14 @@ def index_separation(readings, index_angles=None, *, radius=None, max_spread=Non
         frac = spread / mean_reading if mean_reading > 0 else 0.0
         consistent = frac <= limit
         if not consistent:
-            warnings.append(f"readings: the fit's spread is {frac:.1%} of the mean reading, above {limit:.0%} "
-                            f"({'given' if max_spread is not None else 'default, common practice'}): the readings "
-                            f"are not consistent; check the part's seating on the arbor and repeat them")
+            warnings.append(Worded(f"{{readings}}: the fit's spread is {frac:.1%} of the mean reading, above "
+                                   f"{limit:.0%} ({'given' if max_spread is not None else 'default, common practice'}"
+                                   f"): the readings are not consistent; check the part's seating on the arbor and "
+                                   f"repeat them", ("readings",)))
     else:
-        warnings.append("readings: two readings fix both shares exactly and cannot show their consistency; a third "
-                        "index position (e.g. 0, 120 and 240 degrees) or a repeat reading checks them")
+        warnings.append(Worded("{readings}: two readings fix both shares exactly and cannot show their consistency; "
+                               "a third index position (e.g. 0, 120 and 240 degrees) or a repeat reading checks "
+                               "them", ("readings",)))
     a_amt, a_ang = polar(complex(a_c))
     p_amt, p_ang = polar(complex(p_c))
     within = None if allow is None else p_amt <= allow

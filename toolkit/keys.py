@@ -36,7 +36,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-from toolkit.errors import BadInput, Infeasible
+from toolkit.errors import BadInput, Infeasible, Worded
 from toolkit.units import Q_, magnitude
 from toolkit.vectors import parse_angle
 
@@ -274,8 +274,8 @@ def key_convention(convention="half-key", fill=None, marking=None, component="sh
     warnings = []
     if got != expected:
         words = {"key": "a key", "half-key": "a half-key", "nothing": "an empty keyway"}
-        warnings.append(f"fill: {words[got]} does not follow the {conv} convention this {comp} is balanced to "
-                        f"({words[expected]} in its keyway)")
+        warnings.append(Worded(f"{{fill}}: {words[got]} does not follow the {conv} convention this {comp} is "
+                               f"balanced to ({words[expected]} in its keyway)", ("fill",)))
     given = marking is not None and str(marking).strip() != ""
     return KeyConvention(comp, conv, got, str(marking).strip() if given else MARKINGS[conv], given,
                          _CONVENTION_SOURCE + "; marking: " + MARKING_MARK, tuple(warnings))
@@ -361,8 +361,8 @@ def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, 
     if w >= D:
         raise BadInput.about("width", f"{w:g} mm is not less than the shaft diameter ({D:g} mm)")
     if h <= t1 and service == "key":
-        warnings.append(f"height: the key ({h:g} mm) is no taller than the shaft keyway is deep ({t1:g} mm); "
-                        f"it cannot drive a hub")
+        warnings.append(Worded(f"{{height}}: the key ({h:g} mm) is no taller than the shaft keyway is deep "
+                               f"({t1:g} mm); it cannot drive a hub", ("height",)))
     if Lk > Ls + 1e-9 or zk < zs - 1e-9 or zk + Lk > zs + Ls + 1e-9:
         raise BadInput.about("key_length/key_start", f"the key ({Lk:g} mm from {zk:g} mm) does not lie within the shaft "
                        f"keyway ({Ls:g} mm from {zs:g} mm); give a key that fits the keyway")
@@ -383,8 +383,8 @@ def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, 
         if hk_L > Ls + 1e-9:
             raise BadInput.about("half_key_length", f"{hk_L:g} mm is longer than the shaft keyway ({Ls:g} mm)")
         if abs(hk_h - h / 2.0) > 1e-9 * h:
-            warnings.append(f"half_key_height: the shaft's half-key was {hk_h:g} mm high, not half the key's "
-                            f"{h:g} mm ({h / 2:g} mm)")
+            warnings.append(Worded(f"{{half_key_height}}: the shaft's half-key was {hk_h:g} mm high, not half the "
+                                   f"key's {h:g} mm ({h / 2:g} mm)", ("half_key_height",)))
         body("shaft's half-key while the shaft was balanced", -1, r0, r0 + hk_h, zs, hk_L)
     elif s_fill == "key":
         body("key in the shaft while the shaft was balanced", -1, r0, r0 + h, zk, Lk)
@@ -399,8 +399,8 @@ def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, 
         zh = zk if hub_start is None else _len(hub_start, "hub_start", signed=True)
         t2 = (h - t1) if hub_depth is None else _len(hub_depth, "hub_depth")
         if hub_depth is None:
-            warnings.append(f"hub_depth: not given; taken as the key's height less the shaft keyway's depth "
-                            f"({t2:g} mm), the key filling both keyways")
+            warnings.append(Worded(f"{{hub_depth}}: not given; taken as the key's height less the shaft keyway's "
+                                   f"depth ({t2:g} mm), the key filling both keyways", ("hub_depth",)))
         if service == "key" and r0 + h > R + t2 + 1e-9:
             raise BadInput.about("height", f"the key ({h:g} mm) is taller than the two keyways together ({t1:g} + {t2:g} "
                            f"mm); the hub would not go on")
@@ -414,8 +414,8 @@ def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, 
             if hh_h > t2 + t1 + 1e-9 or hh_h > h + 1e-9:
                 raise BadInput.about("hub_half_key_height", f"{hh_h:g} mm is taller than the key ({h:g} mm)")
             if abs(hh_h - h / 2.0) > 1e-9 * h:
-                warnings.append(f"hub_half_key_height: the hub's half-key was {hh_h:g} mm high, not half the "
-                                f"key's {h:g} mm ({h / 2:g} mm)")
+                warnings.append(Worded(f"{{hub_half_key_height}}: the hub's half-key was {hh_h:g} mm high, not "
+                                       f"half the key's {h:g} mm ({h / 2:g} mm)", ("hub_half_key_height",)))
             body("hub's half-key while the hub was balanced", -1, R + t2 - hh_h, R + t2, zh, hh_L)
         elif h_fill == "key":
             body("key in the hub while the hub was balanced", -1, r0, r0 + h, zh, Lh)
@@ -426,20 +426,22 @@ def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, 
             warnings.append(f"conventions: the shaft was balanced to the {s_conv} convention and the hub to the "
                             f"{h_conv} convention; the assembly carries the difference")
         if service == "key" and (zh >= zk + Lk or zh + Lh <= zk):
-            warnings.append("hub_start: the hub does not lie over the key; check the axial positions")
+            warnings.append(Worded("{hub_start}: the hub does not lie over the key; check the axial positions",
+                                   ("hub_start",)))
     if not has_hub:
         ignored = [n for n, v in (("hub_depth", hub_depth), ("hub_start", hub_start), ("hub_convention", hub_convention),
                                   ("hub_fill", hub_fill), ("hub_half_key_height", hub_half_key_height),
                                   ("hub_half_key_length", hub_half_key_length), ("hub_marking", hub_marking))
                    if v is not None]
         if ignored:
-            warnings.append(f"{ignored[0]}: no hub_length, so no hub in this case; "
-                            f"{', '.join(ignored)} not used")
+            warnings.append(Worded(f"{{{ignored[0]}}}: no {{hub_length}}, so no hub in this case; "
+                                   f"{', '.join('{' + n + '}' for n in ignored)} not used",
+                                   ("hub_length", *ignored)))
     for comp, conv, fill in (("shaft", s_conv, s_fill), ("hub", h_conv, h_fill)):
         if conv is not None and fill != default_fill(conv, comp):
-            warnings.append(f"{comp}_fill: a {fill.replace('nothing', 'empty keyway')} while the {comp} was "
-                            f"balanced does not follow the {conv} convention it is marked with; computed with "
-                            f"what sat in the keyway")
+            warnings.append(Worded(f"{{{comp}_fill}}: a {fill.replace('nothing', 'empty keyway')} while the "
+                                   f"{comp} was balanced does not follow the {conv} convention it is marked with; "
+                                   f"computed with what sat in the keyway", (f"{comp}_fill",)))
 
     parts = _parts(bodies, g_mm3, w, (zk, zk + Lk) if service == "key" else None,
                    (zh, zh + Lh) if has_hub else None)
@@ -467,9 +469,9 @@ def key_unbalance(*, width, height, shaft_depth, shaft_diameter, keyway_length, 
         pieces = [(b.sign * b.unbalance_g_mm * rot, (b.z_start_mm + b.z_end_mm) / 2) for b in bodies]
         shares = _to_shares(_shares(pieces, plane_list), plane_list)
         if len(plane_list) == 1 and centre is not None and abs(centre - plane_list[0][1]) > 0.0:
-            warnings.append(f"planes: one plane takes the whole key error; its axial offset from the plane "
-                            f"({abs(centre - plane_list[0][1]):.4g} mm) makes a couple that one plane does "
-                            f"not correct")
+            warnings.append(Worded(f"{{planes}}: one plane takes the whole key error; its axial offset from the "
+                                   f"plane ({abs(centre - plane_list[0][1]):.4g} mm) makes a couple that one "
+                                   f"plane does not correct", ("planes",)))
     checks = _checks(allowance, amount, shares)
     correction = _correction(amount, signed, heavy, parts, g_mm3, w, r0, h, hk_h, Ls, zs, zk, Lk, service,
                              fix_method, fix_radius, fix_options, material, density, materials_table, units,

@@ -17,18 +17,14 @@ _NOTE = ("The rotor maker's instructions and balance specification take preceden
 # -- helpers ------------------------------------------------------------------------------------------
 
 def _say(warnings, args) -> list[str]:
-    """Library warnings in the command's terms: the leading parameter name and the snake_case names in the
-    text become this command's options, named as its errors are (:func:`toolkit.commands._common.option_names`)."""
+    """Library warnings in the command's terms: the parameters a warning names (its ``{name}`` fields, see
+    :class:`toolkit.errors.Worded`) become this command's options, named as its errors are
+    (:func:`toolkit.commands._common.option_names`)."""
     from toolkit.commands._common import option_names
+    from toolkit.errors import worded
 
     name = option_names(getattr(args, "command_parser", None))
-    out = []
-    for w in warnings:
-        head, sep, rest = w.partition(":")
-        if sep and re.fullmatch(r"[a-z][a-z_/ ]*", head):
-            w = name(head) + sep + rest
-        out.append(re.sub(r"(?<![-\w])([a-z]+(?:_[a-z]+)+)\b", lambda m: name(m.group(1)), w))
-    return out
+    return [worded(w, name) for w in warnings]
 
 
 def _named(text: str, option: str, example: str) -> tuple[str, str]:

@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Any, Mapping
 
-from toolkit.errors import BadInput
+from toolkit.errors import BadInput, Worded
 
 __all__ = ["KeySpec", "KEY_KEYS", "parse_key", "arbor_measurement"]
 
@@ -99,13 +99,18 @@ def _job_names(component: str) -> dict[str, str]:
 
 
 def _reword(text: str, component: str) -> str:
-    """A library message or warning whose leading names are key_unbalance's parameters, in [key] terms."""
+    """A library message or warning whose leading names are key_unbalance's parameters, in [key] terms: a
+    warning through the parameters it names (:class:`toolkit.errors.Worded`), an error's text by its head."""
     names = _job_names(component)
+
+    def name(p: str) -> str:
+        return "[[plane]] position" if p == "planes" else f"[key] {names.get(p, p)}"
+
+    if isinstance(text, Worded):
+        return text.worded(name)
     head, sep, rest = text.partition(":")
     if sep and re.fullmatch(r"[a-z_]+(?:/[a-z_]+)*", head.strip()):
-        head = "/".join("[[plane]] position" if p == "planes" else f"[key] {names.get(p, p)}"
-                        for p in head.strip().split("/"))
-        return head + sep + rest
+        return "/".join(name(p) for p in head.strip().split("/")) + sep + rest
     return text
 
 
