@@ -147,6 +147,34 @@ def test_stored_coefficients_for_other_planes_are_refused(tmp_path):
         build_order(parse_job(text, "job.toml", tmp_path))
 
 
+@pytest.mark.parametrize("original, needle", [
+    ('["4.20 um@285"]', "measurement.original[1] (line {line}): '4.20 um@285' is a displacement; the coefficients "
+                        "are for vibration velocity (mm/s)"),
+    ('["4.20 mm/s@285", "1 mm/s@3"]', "measurement.original (line {line}): give 1 reading(s), one per sensor"),
+])
+def test_stored_coefficients_refusals_name_the_job_key_and_its_line(tmp_path, capsys, original, needle):
+    # the library's error is about its parameter "original"; the job loader words it as the job's key
+    from toolkit.cli import main
+    from toolkit.coefficients import coefficients_from, save_coefficients
+    from toolkit.influence import solve_one_plane
+
+    save_coefficients(coefficients_from(solve_one_plane("4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49",
+                                                        radius="200 mm")), tmp_path / "c.json")
+    text = job_text(planes=(("plane", "250 mm", "200 mm", "drill", ""),), com="250 mm",
+                    measurement='[measurement]\nkind = "coefficients"\ncoefficients = "c.json"\n'
+                                f'original = {original}\n')
+    expected = f"job.toml: {needle.format(line=_line_of(text, 'original'))}"
+    with pytest.raises(BadInput) as caught:
+        build_order(parse_job(text, "job.toml", tmp_path))
+    assert str(caught.value).startswith(expected), str(caught.value)
+    job = tmp_path / "job.toml"
+    job.write_text(text, encoding="utf-8")
+    assert main(["order", str(job), "--out", str(tmp_path / "out")]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and needle.format(line=_line_of(text, "original")) in err
+    assert "--original" not in err
+
+
 def test_error_allowance_lowers_the_limit():
     text = job_text(extra_rotor='error_allowance = "100 g*mm"\n')
     order = build_order(parse_job(text))

@@ -136,6 +136,33 @@ def test_trim_update_refuses_what_cannot_update():
         trim_update(c, ["2.1 um@285"], {"plane": "6 g@255"}, ["0.4 mm/s@285"])
 
 
+def test_refusals_carry_their_parameter_and_the_cli_words_it_as_an_option(tmp_path, capsys):
+    # the library names its own parameters (original, installed, after); the command line words them as
+    # the options that set them (--original, --installed, --after), items after the option (--original 1)
+    from toolkit.cli import main
+
+    c = _one_plane()
+    with pytest.raises(BadInput) as caught:
+        trim_update(c, ["2.1 mm/s@285"], {"plane": "6 g@255"}, ["2.1 mm/s@285"])
+    assert caught.value.parameter == "after" and str(caught.value).startswith("after: identical to before;")
+    path = save_coefficients(c, tmp_path / "c.json")
+    solve = ["solve", "--coefficients", str(path)]
+    cases = [
+        (["--original", "2 mm/s@1", "--original", "3 mm/s@2"],
+         "--original: give 1 reading(s), one per sensor (sensor)"),
+        (["--original", "2.1 um@285"], "--original 1: '2.1 um@285' is a displacement; the coefficients are for"),
+        (["--original", "2.1 mm/s@285", "--installed", "rim=6 g@255", "--after", "0.4 mm/s@285"],
+         "--installed: unknown plane 'rim'; planes are plane"),
+        (["--original", "2.1 mm/s@285", "--installed", "plane=6 g@255", "--after", "2.1 mm/s@285"],
+         "--after: identical to --original; the installed correction changed nothing"),
+    ]
+    for argv, expected in cases:
+        assert main(solve + argv) == 2
+        err = capsys.readouterr().err
+        assert err.startswith(f"counterpoise solve: error: {expected}"), err
+        assert err.count("\n") == 1 and " original:" not in err and " installed:" not in err
+
+
 @pytest.mark.parametrize("change, message", [
     (lambda d: d.update(sensors=[]), "sensors"),
     (lambda d: d.update(planes=["a", "a"]), "differ"),

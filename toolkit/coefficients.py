@@ -184,14 +184,14 @@ def _readings(coefficients: Coefficients, readings, name: str) -> np.ndarray:
     if isinstance(readings, str):
         readings = [readings]
     if not isinstance(readings, (list, tuple)) or len(readings) != len(coefficients.sensors):
-        raise BadInput(f"{name}: give {len(coefficients.sensors)} reading(s), one per sensor "
-                       f"({', '.join(coefficients.sensors)})")
+        raise BadInput.about(name, f"give {len(coefficients.sensors)} reading(s), one per sensor "
+                                   f"({', '.join(coefficients.sensors)})")
     out = []
     for i, text in enumerate(readings):
-        z, kind, unit = parse_reading(text, f"{name}[{i + 1}]")
+        z, kind, unit = parse_reading(text, f"{name} {i + 1}")  # "original 2": the parameter, then the item
         if kind != coefficients.reading_kind:
-            raise BadInput(f"{name}[{i + 1}]: {text!r} is a {kind}; the coefficients are for "
-                           f"{coefficients.reading_kind} ({coefficients.reading_unit})")
+            raise BadInput.about(f"{name} {i + 1}", f"{text!r} is a {kind}; the coefficients are for "
+                                                  f"{coefficients.reading_kind} ({coefficients.reading_unit})")
         out.append(z)
     v = np.array(out, dtype=complex)
     return np.conj(v) if conjugate_needed(coefficients.weight_angles, coefficients.phase) else v
@@ -214,7 +214,7 @@ def solve_with_coefficients(coefficients: Coefficients, original, *, method: str
     a = coefficients.array()
     w = np.ones(len(o)) if weights is None else np.asarray(weights, dtype=float)
     if w.shape != o.shape or not np.all(np.isfinite(w)) or np.any(w <= 0):
-        raise BadInput(f"weights: need {len(o)} numbers greater than zero, one per sensor")
+        raise BadInput.about("weights", f"need {len(o)} numbers greater than zero, one per sensor")
     try:
         x, penalty = correct(o, a, w, method)
     except BadInput as exc:
@@ -250,18 +250,19 @@ def trim_update(coefficients: Coefficients, before, installed, after) -> Coeffic
     v0 = _readings(coefficients, before, "before")
     v1 = _readings(coefficients, after, "after")
     if not isinstance(installed, dict) or not installed:
-        raise BadInput("installed: give the masses installed by plane, e.g. {'near': '6 g@255'}")
+        raise BadInput.about("installed", "give the masses installed by plane, e.g. {'near': '6 g@255'}")
     du = np.zeros(len(coefficients.planes), dtype=complex)
     for plane, vec in installed.items():
         if plane not in coefficients.planes:
-            raise BadInput(f"installed: unknown plane {plane!r}; planes are {', '.join(coefficients.planes)}")
-        du[coefficients.planes.index(plane)] = to_complex(vec, "mass", f"installed.{plane}") * 1000.0
+            raise BadInput.about("installed", f"unknown plane {plane!r}; planes are {', '.join(coefficients.planes)}")
+        du[coefficients.planes.index(plane)] = to_complex(vec, "mass", f"installed {plane}") * 1000.0
     norm = float(np.vdot(du, du).real)
     if norm == 0:
-        raise BadInput("installed: all masses are zero; a trim run needs a correction installed")
+        raise BadInput.about("installed", "all masses are zero; a trim run needs a correction installed")
     dv = v1 - v0
     if np.abs(dv).max() == 0:
-        raise BadInput("after: identical to before; the installed correction changed nothing")
+        raise BadInput.about("after", "identical to {before}; the installed correction changed nothing",
+                             mentions=("before",))
     a = coefficients.array()
     a_new = a + np.outer(dv - a @ du, np.conj(du)) / norm
     return replace(coefficients, matrix=tuple(tuple(map(complex, row)) for row in a_new), saved=_now(),

@@ -101,6 +101,8 @@ OPTION_ALIASES = {
     "reading": "--reading", "index_angles": "--reading", "fix_method": "--fix", "shaft_convention": "--shaft",
     "hub_convention": "--hub", "shaft_marking": "--shaft-mark", "hub_marking": "--hub-mark",
     "items": "--part/--fit/--key",
+    # stored coefficients' trim run (toolkit.coefficients.trim_update): the readings before it are --original
+    "before": "--original",
 }
 
 def option_names(parser):

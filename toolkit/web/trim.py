@@ -144,7 +144,7 @@ def compute(detail: dict, values: dict) -> tuple[dict | None, dict]:
         text = str(exc)
         text = text.split(": ", 1)[-1] if text.startswith("job ") else text
         field = _field_of(text) or "after"
-        return None, {field: re.sub(r"^(before|after)\[(\d+)\]", r"line \2", text)}
+        return None, {field: re.sub(r"^(before|after) (\d+):", r"line \2:", text)}  # "after 2": its 2nd reading
 
 
 def _coefficient_trim(detail, b, before, installed_lines, after) -> dict:

@@ -137,7 +137,10 @@ def _initial(job: Job):
         if coefficients.weight_angles != job.angle_sense:
             raise BadInput(f"{job.origin}: measurement.coefficients: the stored coefficients count weight angles "
                            f"{coefficients.weight_angles}; the job counts them {job.angle_sense}")
-        solution = solve_with_coefficients(coefficients, list(m.original), origin=str(m.coefficients))
+        try:
+            solution = solve_with_coefficients(coefficients, list(m.original), origin=str(m.coefficients))
+        except BadInput as exc:  # about this rotor's readings: named as the job's keys, with their line
+            raise BadInput(f"{job.origin}: {exc.worded(job_key_names(job))}") from None
         what = f"original run with stored influence coefficients ({Path(str(m.coefficients)).name})"
     radius = {p.name: p.radius.m_as("mm") for p in job.planes}
     out = {}

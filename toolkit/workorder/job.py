@@ -891,6 +891,9 @@ TOLERANCE_KEYS = {"bearing_span": ("geometry", "bearing_span"), "com_from_a": ("
                   "speed": ("rotor", "service_speed"), "error_allowance": ("rotor", "error_allowance"),
                   "correction_diameter": ("plane", THIS_PLANE, "radius"),
                   "plane_position": ("plane", THIS_PLANE, "position")}
+#: Library parameters of the measurement's solvers (``toolkit.coefficients``) and the job key that sets each;
+#: ``"original 2"`` is that key's second item.
+_MEASUREMENT_KEYS = {"original": ("measurement", "original")}
 _SHOP_KEYS = {"point_angle_deg": "point_angle", "drills": "drills", "thickness": "plate_stock",
               "step": "plate_step", "fillet": "fillet", "convexity": "weld_convexity", "units": "units"}
 
@@ -910,6 +913,8 @@ def job_key_names(job: Job, plane: int | None = None):
             place = ck.where(path)
             return text if place == _dotted(path) else f"{text} ({place})"
         line = job.key_lines.get(path)  # only a key written in the file has a line of its own
+        if line is None and isinstance(path[-1], int):
+            line = job.key_lines.get(path[:-1])  # an item of a list: the list's line
         return f"{text} (line {line})" if line else text
 
     def name(parameter: str) -> str:
@@ -929,6 +934,9 @@ def job_key_names(job: Job, plane: int | None = None):
                 return shown(tuple(plane if part is THIS_PLANE else part for part in path))
             return f"[[plane]] {path[-1]}"
         head, _, plane_name = parameter.partition(" ")
+        if head in _MEASUREMENT_KEYS:  # "original 2": that key's second item
+            item = (int(plane_name) - 1,) if plane_name.isdigit() else ()
+            return shown(_MEASUREMENT_KEYS[head] + item)
         if head == "planes":  # "planes NAME": that plane's position; "planes": every plane's
             index = next((i for i, p in enumerate(job.planes) if p.name == plane_name), None)
             return shown(("plane", index, "position")) if index is not None else "[[plane]] position"
