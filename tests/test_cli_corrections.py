@@ -160,7 +160,10 @@ def test_bad_runs_file_one_line_exit_2(capsys, tmp_path, content, message):
     (["solve", "--original", "4.2 mm/s@285", "--with-trial", "6 mm/s@250"], "--trial: missing"),
     (["solve", "--original", "4.2 mm/s@285", "--trial", "10 g@0", "--with-trial", "6 mm/s@250", "--phase", "up"],
      "phase: 'up' is not a phase sense"),
-    (["split", "25 g@100", "--at", "90,300"], "does not lie between two positions"),
+    # the library's errors are about its parameters positions and at; the command words them as options
+    (["split", "25 g@100", "--at", "90,300"], "split: error: --at: 25 g@100 does not lie between two positions"),
+    (["split", "25 g@100", "--at", ","], "split: error: --at: no angles given"),
+    (["split", "25 g@100", "--positions", "2"], "split: error: --positions: 2 is not allowed"),
     (["solve", str(EXAMPLES / "runs-two-plane.toml"), "--radius", "100 mm"], "the runs file declares them"),
     (["split", "25@100", "--positions", "8"], "has no unit"),
     (["solve", "--bearing-mass", "200 kg", "--speed", "1480 rpm"], "needs all three"),

@@ -28,14 +28,14 @@ _PHASE_SENSES = {"lag": "lag", "phase lag": "lag", "lead": "lead", "phase lead":
 def weight_sense(value, name: str = "weight_angles") -> str:
     key = " ".join(str(value).strip().lower().split())
     if key not in _WEIGHT_SENSES:
-        raise BadInput(f"{name}: {value!r} is not an angle sense; use 'with rotation' or 'against rotation'")
+        raise BadInput.about(name, f"{value!r} is not an angle sense; use 'with rotation' or 'against rotation'")
     return _WEIGHT_SENSES[key]
 
 
 def phase_sense(value, name: str = "phase") -> str:
     key = " ".join(str(value).strip().lower().split())
     if key not in _PHASE_SENSES:
-        raise BadInput(f"{name}: {value!r} is not a phase sense; use 'lag' or 'lead'")
+        raise BadInput.about(name, f"{value!r} is not a phase sense; use 'lag' or 'lead'")
     return _PHASE_SENSES[key]
 
 

@@ -217,7 +217,7 @@ def add_vectors(*vectors, kind: str = "mass"):
     from toolkit.units import KINDS, Q_
 
     if not vectors:
-        raise BadInput("vectors: none given; give at least one AMOUNT@ANGLE")
+        raise BadInput.about("vectors", "none given; give at least one AMOUNT@ANGLE")
     total = sum((to_complex(v, kind, f"vector {i + 1}") for i, v in enumerate(vectors)), 0j)
     amount, angle = polar(total)
     return Q_(amount, KINDS[kind].kernel_unit).to(_display_unit(kind)), angle
@@ -237,7 +237,7 @@ def scale_vector(vector, factor: float, kind: str = "mass"):
     from toolkit.units import KINDS, Q_
 
     if isinstance(factor, bool) or not isinstance(factor, (int, float)) or not math.isfinite(factor):
-        raise BadInput(f"factor: {factor!r} is not a finite number")
+        raise BadInput.about("factor", f"{factor!r} is not a finite number")
     amount, angle = polar(to_complex(vector, kind) * factor)
     return Q_(amount, KINDS[kind].kernel_unit).to(_display_unit(kind)), angle
 
@@ -297,18 +297,19 @@ def split_vector(vector, positions: int | None = None, offset=0.0, at=None) -> S
     z = _grams(vector, "vector")
     mass, theta = polar(z)
     if (positions is None) == (at is None):
-        raise BadInput("positions: give either a number of equally spaced positions or a list of angles")
+        raise BadInput.about("positions", "give either a number of equally spaced positions or a list of angles "
+                                          "({at})", mentions=("at",))
     if positions is not None:
         if isinstance(positions, bool) or not isinstance(positions, int) or positions < 3 or positions > 360:
-            raise BadInput(f"positions: {positions!r} is not allowed; give a whole number from 3 to 360")
+            raise BadInput.about("positions", f"{positions!r} is not allowed; give a whole number from 3 to 360")
         start = parse_angle(offset, "offset")
         angles = sorted({parse_angle(start + k * 360.0 / positions) for k in range(positions)})
     else:
         if isinstance(at, str):
             at = [a for a in at.split(",") if a.strip()]
-        angles = sorted({parse_angle(a, "positions") for a in at})
+        angles = sorted({parse_angle(a, "at") for a in at})
         if not angles:
-            raise BadInput("positions: no angles given; give at least two, e.g. '90,135'")
+            raise BadInput.about("at", "no angles given; give at least two, e.g. '90,135'")
     if mass == 0.0:
         return Split(0.0, 0.0, tuple(angles), ())
     for a in angles:
@@ -317,9 +318,10 @@ def split_vector(vector, positions: int | None = None, offset=0.0, at=None) -> S
     below, above = neighbours(theta, angles)
     span = _ccw(below, above)
     if len(angles) < 2 or span >= 180.0 - 1e-9:
-        raise Infeasible(f"positions: {mass:.4g} g@{theta:.4g} does not lie between two positions less than "
-                         f"180 degrees apart (nearest {below:g} and {above:g}); add a position nearer "
-                         f"{theta:.4g} degrees")
+        raise Infeasible.about("positions" if at is None else "at",
+                               f"{mass:.4g} g@{theta:.4g} does not lie between two positions less than 180 "
+                               f"degrees apart (nearest {below:g} and {above:g}); add a position nearer "
+                               f"{theta:.4g} degrees")
     m_a, m_b = sine_split(mass, theta, below, above)
     return Split(mass, theta, tuple(angles), ((below, m_a), (above, m_b)))
 
@@ -383,7 +385,7 @@ def combine(*weights, radius=None):
         r = magnitude(r_given, "length", "mm", name=f"{name} radius" if name else "radius", positive=True)
         total += _grams(w, name) * r
     if not weights:
-        raise BadInput("weights: none given; give at least one AMOUNT@ANGLE")
+        raise BadInput.about("weights", "none given; give at least one AMOUNT@ANGLE")
     amount, angle = polar(total)
     return Q_(amount, "g*mm"), angle
 

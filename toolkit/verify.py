@@ -140,7 +140,7 @@ def verify_residual(test_unbalance, readings, angles=None, *, allowed=None,
     test = float(magnitude(test_unbalance, "unbalance", _G_MM, "test_unbalance", positive=True))
     if isinstance(min_consistency, bool) or not isinstance(min_consistency, (int, float)) \
             or not 0 <= min_consistency <= 1:
-        raise BadInput(f"min_consistency: {min_consistency!r} must be a number from 0 to 1")
+        raise BadInput.about("min_consistency", f"{min_consistency!r} must be a number from 0 to 1")
     r, theta_deg = _readings(readings, angles)
     theta = np.radians(theta_deg)
     design = np.column_stack([np.ones_like(theta), np.cos(theta), np.sin(theta)])
