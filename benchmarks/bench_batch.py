@@ -11,7 +11,9 @@
    both as one PDF per rotor and as the combined PDF. The baseline parses nothing, computes nothing and lays
    nothing out: it is the floor of writing these files. Target: ours at most 1.5x the baseline (issue 6),
    median of ``--runs``. CPU time (user + system, from each child's own rusage) is printed first: it hardly
-   moves when other work shares the machine; wall time follows.
+   moves when other work shares the machine; wall time follows, and then where wall time above CPU time
+   went: waiting for a CPU (the run queue, from /proc/self/schedstat: other work on the 2 cores) or blocked
+   (the rest: disk syncs, sleeps).
 2. Memory. ``counterpoise batch`` on a ``--memory-rows`` sheet in a child process that reports its own peak
    resident set (VmHWM). Target: under 500 MB (issue 6). The floor, a child that imports the same
    modules and does nothing, is printed beside it.
@@ -46,7 +48,12 @@ PEAK = ("def peak_kb():\n"
         "    except OSError:\n"
         "        pass\n"
         "    import resource\n"
-        "    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss\n")
+        "    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss\n"
+        "def queued_s():\n"  # time runnable but waiting for a CPU (Linux schedstat; nan elsewhere)
+        "    try:\n"
+        "        return int(open('/proc/self/schedstat').read().split()[1]) / 1e9\n"
+        "    except (OSError, IndexError, ValueError):\n"
+        "        return float('nan')\n")
 CHILD_BATCH = PEAK + (
     "import resource, sys, time\n"
     "start = time.perf_counter()\n"
@@ -54,7 +61,7 @@ CHILD_BATCH = PEAK + (
     "rc = main(['batch', sys.argv[1], '--out', sys.argv[2], '--force', '--json'])\n"
     "use = resource.getrusage(resource.RUSAGE_SELF)\n"
     "sys.stderr.write(f'elapsed {time.perf_counter() - start} cpu {use.ru_utime + use.ru_stime} '\n"
-    "                 f'peak-kB {peak_kb()}\\n')\n"
+    "                 f'queued {queued_s()} peak-kB {peak_kb()}\\n')\n"
     "sys.exit(0 if rc in (0, 1) else rc)\n"
 )
 CHILD_FLOOR = PEAK + (
@@ -73,7 +80,7 @@ CHILD_BASELINE = PEAK + (
     "write_baseline(plan, sys.argv[2])\n"
     "use = resource.getrusage(resource.RUSAGE_SELF)\n"
     "sys.stderr.write(f'elapsed {time.perf_counter() - start} cpu {use.ru_utime + use.ru_stime} '\n"
-    "                 f'peak-kB {peak_kb()}\\n')\n"
+    "                 f'queued {queued_s()} peak-kB {peak_kb()}\\n')\n"
 )
 
 
@@ -210,8 +217,9 @@ def write_baseline(plan: dict, out: str) -> None:
 
 # -- running and measuring -------------------------------------------------------------------------------------------
 
-def _child(code: str, *args: str) -> tuple[float, float, float]:
-    """Run a child; return its wall time [s], CPU time [s] (user + system) and peak resident set [MB]."""
+def _child(code: str, *args: str) -> tuple[float, float, float, float]:
+    """Run a child; return its wall time [s], CPU time [s] (user + system), peak resident set [MB] and the
+    time it was runnable but waiting for a CPU [s] (the run queue: other work on the machine)."""
     # -P: the child does not put the current folder first on its path, so run from the repository's root it
     # still times the installed package, not the source tree
     result = subprocess.run([sys.executable, "-P", "-c", code, *args], capture_output=True, text=True, timeout=3600)
@@ -220,7 +228,8 @@ def _child(code: str, *args: str) -> tuple[float, float, float]:
     line = [ln for ln in result.stderr.splitlines() if "peak-kB" in ln][-1].split()
     elapsed = float(line[line.index("elapsed") + 1]) if "elapsed" in line else math.nan
     cpu = float(line[line.index("cpu") + 1]) if "cpu" in line else math.nan
-    return elapsed, cpu, int(line[line.index("peak-kB") + 1]) / 1024
+    queued = float(line[line.index("queued") + 1]) if "queued" in line else math.nan
+    return elapsed, cpu, int(line[line.index("peak-kB") + 1]) / 1024, queued
 
 
 def _installed() -> str:
@@ -262,6 +271,12 @@ def time_batch(rotors: int, runs: int, fmt: str) -> bool:
         ok = ok and ratio <= 1.5
         print(f"  {what:<9} counterpoise batch {a:8.2f} s   plain openpyxl + reportlab {b:8.2f} s   "
               f"ratio {ratio:5.2f}  (target <= 1.5: {verdict})")
+    # where wall time above CPU time went: waiting for a CPU (other work on the machine), or blocked (disk
+    # syncs, sleeps): wall - CPU - queued
+    waits = [(statistics.median(r[3] for r in rs), statistics.median(r[0] - r[1] - r[3] for r in rs))
+             for rs in (ours, base)]
+    print(f"  waiting   counterpoise batch {waits[0][0]:8.2f} s for a CPU, {waits[0][1]:5.2f} s blocked   "
+          f"plain openpyxl + reportlab {waits[1][0]:8.2f} s for a CPU, {waits[1][1]:5.2f} s blocked")
     return ok
 
 
@@ -269,8 +284,8 @@ def memory_batch(rows: int, fmt: str) -> bool:
     with tempfile.TemporaryDirectory() as tmp:
         tmp = Path(tmp)
         sheet = planner(tmp / f"planner.{fmt}", rows)
-        elapsed, _cpu, peak = _child(CHILD_BATCH, str(sheet), str(tmp / "out"))
-        _none, _cpu, floor = _child(CHILD_FLOOR)
+        elapsed, _cpu, peak, _queued = _child(CHILD_BATCH, str(sheet), str(tmp / "out"))
+        _none, _cpu, floor, _queued = _child(CHILD_FLOOR)
     verdict = "meets" if peak < 500 else "MISSES"
     print(f"peak memory, batch of {rows:,} rows ({fmt}): {peak:7.1f} MB  (imports alone {floor:6.1f} MB; "
           f"{elapsed:.1f} s; target < 500 MB: {verdict})")

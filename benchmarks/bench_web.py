@@ -244,7 +244,7 @@ def time_upload(rotors: int, runs: int) -> None:
     try:
         _child(CHILD_BATCH, str(sheet), str(folder / "cli"))  # warm-up of the files' caches
         for k in range(runs):
-            elapsed, cpu, _peak = _child(CHILD_BATCH, str(sheet), str(folder / "cli"))
+            elapsed, cpu, _peak, _queued = _child(CHILD_BATCH, str(sheet), str(folder / "cli"))
             cli.append(elapsed)
             cli_cpu.append(cpu)
             before = _cpu_s(server.pid)
