@@ -297,7 +297,7 @@ def minmax_limited(o: np.ndarray, a: np.ndarray, w: np.ndarray, limits: np.ndarr
     res = linprog(cost, A_ub=np.vstack(rows) / scale, b_ub=np.concatenate(rhs) / scale, bounds=bounds,
                   method="highs")
     if res.status != 0:
-        raise BadInput(f"limits: the constrained min-max found no solution ({res.message})")
+        raise BadInput.about("limits", f"the constrained min-max found no solution ({res.message})")
     x_lp = res.x[:p] + 1j * res.x[p:2 * p]
     best, best_val = x_lp, _worst(o, a, w, x_lp)
     clipped = np.where(np.abs(free) > limits, free / np.where(free == 0, 1, np.abs(free)) * limits, free)
@@ -342,7 +342,7 @@ def correct(o: np.ndarray, a: np.ndarray, w: np.ndarray, method: str = "least sq
     (-12j, 0.0)
     """
     if method not in METHODS:
-        raise BadInput(f"method: {method!r} is not known; use {' or '.join(map(repr, METHODS))}")
+        raise BadInput.about("method", f"{method!r} is not known; use {' or '.join(map(repr, METHODS))}")
     sv = np.linalg.svd(a * w[:, None], compute_uv=False)
     if sv[-1] <= 1e-12 * sv[0] or a.shape[0] < a.shape[1]:
         raise BadInput("run: singular data: the planes' effects cannot be told apart at the sensors (two planes "
@@ -412,7 +412,7 @@ def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings 
     settings = settings or Settings()
     method = method or runset.method
     if method not in METHODS:
-        raise BadInput(f"method: {method!r} is not known; use {' or '.join(map(repr, METHODS))}")
+        raise BadInput.about("method", f"{method!r} is not known; use {' or '.join(map(repr, METHODS))}")
     u = runset.trial_matrix()
     v = runset.reading_matrix()
     origin = runset.origin
@@ -472,11 +472,11 @@ def solve_runs(runset: RunSet, *, method: str | None = None, settings: Settings 
     limit_map = dict(runset.limits_g)
     if limits is not None:
         if not isinstance(limits, dict):
-            raise BadInput(f"limits: {limits!r} must be a table by plane, e.g. {{'near': '60 g'}}")
+            raise BadInput.about("limits", f"{limits!r} must be a table by plane, e.g. {{'near': '60 g'}}")
         for p, value in limits.items():
             if p not in runset.planes:
-                raise BadInput(f"limits: unknown plane {p!r}; planes are {', '.join(runset.planes)}")
-            limit_map[p] = magnitude(value, "mass", "g", name=f"limits.{p}", positive=True)
+                raise BadInput.about("limits", f"unknown plane {p!r}; planes are {', '.join(runset.planes)}")
+            limit_map[p] = magnitude(value, "mass", "g", name=f"limits {p}", positive=True)
     lim = None
     if limit_map:
         lim = np.array([limit_map.get(p, np.inf) for p in runset.planes], dtype=float)
@@ -642,7 +642,8 @@ def four_run(original, trial_mass, runs, *, consistency_band: tuple[float, float
             if "has no unit" in str(exc) or "cannot read" in str(exc) or "empty" in str(exc):
                 raise
     if kind is None:
-        raise BadInput(f"original: {original!r} is not a vibration amplitude; give e.g. '6.0 mm/s' or '12 um'")
+        raise BadInput.about("original", f"{original!r} is not a vibration amplitude; give e.g. '6.0 mm/s' or "
+                                         "'12 um'")
     a0 = magnitude(original, kind, name="original", positive=True)
     mt = magnitude(trial_mass, "mass", "g", name="trial_mass", positive=True)
     if not isinstance(runs, (list, tuple)) or len(runs) < 3:

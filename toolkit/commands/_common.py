@@ -103,6 +103,7 @@ OPTION_ALIASES = {
     "items": "--part/--fit/--key",
     # stored coefficients' trim run (toolkit.coefficients.trim_update): the readings before it are --original
     "before": "--original",
+    "limits": "--limit",
 }
 
 def option_names(parser):
