@@ -160,3 +160,14 @@ def test_an_inch_shop_drills_with_inch_drills_by_default(capsys):
     code, d = _json(capsys, ["drill", "--unbalance", "2 oz*in", "--radius", "6 in", "--axial", "--material",
                              "steel", "--units", "imperial", "--drills", "metric"])
     assert code == 0 and d["drill"].endswith(" mm")  # the shop's own choice wins
+
+
+def test_drill_list_errors_name_the_option_and_the_item(capsys):
+    # the library's error is about its parameter (drills) and the item (the second is 2): the command line
+    # words it as --drills, a job as its key with the line (tests/test_build.py)
+    base = ["drill", "--unbalance", "500 g*mm", "--radius", "100 mm", "--axial", "--drills"]
+    assert main(base + ["6 mm,6 mm"]) == 2
+    assert capsys.readouterr().err == ("counterpoise drill: error: --drills 2: '6 mm' repeats a diameter "
+                                       "already in the list\n")
+    assert main(base + ["6 mm,zz"]) == 2
+    assert capsys.readouterr().err.startswith("counterpoise drill: error: --drills 2: 'zz' is neither a size")

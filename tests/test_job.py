@@ -237,7 +237,8 @@ def test_a_bad_drill_list_names_its_line_and_item():
     bad = text.replace('"8 mm", "10 mm"', '"8 mm", "ten"')
     with pytest.raises(JobError) as info:
         parse_job(bad, "fan.toml", FAN.parent)
-    assert f"line {line}, shop.drilling.drills: [2]: 'ten' is neither a size of the drill tables" in str(info.value)
+    # the library's error is about "drills 3" (the parameter, then the item): the key's third item, its line
+    assert f"line {line}, shop.drilling.drills[3]: 'ten' is neither a size of the drill tables" in str(info.value)
     twice = text.replace('[shop]\n', '[shop]\ndrills = "metric"\n', 1)
     with pytest.raises(JobError, match="the drills are given twice"):
         parse_job(twice, "fan.toml", FAN.parent)

@@ -100,9 +100,10 @@ def test_a_shop_names_its_drills():
     assert [d.size for d in got] == ["No. 7", "6.0 mm", "1/4 in", "letter F", "1.1 in"]
     assert got[-1].source == "the shop's own drill list"  # no table row of 1.1 in
     assert stock.drills(list(got)) == got
-    with pytest.raises(BadInput, match=r"drills\[1\]: '0.25 in' repeats a diameter"):
+    with pytest.raises(BadInput, match=r"drills 2: '0.25 in' repeats a diameter") as caught:
         stock.drill_list(["1/4 in", "0.25 in"])
-    with pytest.raises(BadInput, match=r"drills\[0\]: 'No. 99' is neither a size"):
+    assert caught.value.parameter == "drills 2"  # the parameter, then the item: each face words it
+    with pytest.raises(BadInput, match=r"drills 1: 'No. 99' is neither a size"):
         stock.drill_list(["No. 99"])
     with pytest.raises(BadInput, match="the list is empty"):
         stock.drill_list([])

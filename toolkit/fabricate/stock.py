@@ -150,28 +150,28 @@ def drill_list(sizes, name: str = "drills") -> tuple[Drill, ...]:
     from toolkit.units import magnitude
 
     if isinstance(sizes, (str, bytes)) or not hasattr(sizes, "__iter__"):
-        raise BadInput(f"{name}: give a list of drill sizes, e.g. [\"6 mm\", \"8 mm\", \"No. 7\", \"1/4 in\"]")
+        raise BadInput.about(name, "give a list of drill sizes, e.g. [\"6 mm\", \"8 mm\", \"No. 7\", \"1/4 in\"]")
     known = drills("metric") + drills("inch")
     by_label = {_label_key(d.size): d for d in known}
     out: list[Drill] = []
     for i, item in enumerate(sizes):
-        where = f"{name}[{i}]"
+        where = f"{name} {i + 1}"  # the parameter, then the item (the first is 1)
         if not isinstance(item, str) or not item.strip():
-            raise BadInput(f"{where}: {item!r} is not a drill size; give a size such as \"6 mm\" or \"No. 7\"")
+            raise BadInput.about(where, f"{item!r} is not a drill size; give a size such as \"6 mm\" or \"No. 7\"")
         drill = by_label.get(_label_key(item))
         if drill is None:
             try:
                 mm = magnitude(item, "length", "mm", where, positive=True)
             except BadInput:
-                raise BadInput(f"{where}: {item!r} is neither a size of the drill tables (\"No. 7\", \"letter F\", "
-                               f"\"17/64 in\") nor a diameter with a unit (\"6 mm\", \"0.25 in\")") from None
+                raise BadInput.about(where, f"{item!r} is neither a size of the drill tables (\"No. 7\", \"letter F\", "
+                                            f"\"17/64 in\") nor a diameter with a unit (\"6 mm\", \"0.25 in\")") from None
             drill = next((d for d in known if abs(d.diameter_mm - mm) < 1e-6),
                          Drill(item.strip(), float(mm), "the shop's own drill list"))
         if any(abs(d.diameter_mm - drill.diameter_mm) < 1e-6 for d in out):
-            raise BadInput(f"{where}: {item!r} repeats a diameter already in the list")
+            raise BadInput.about(where, f"{item!r} repeats a diameter already in the list")
         out.append(drill)
     if not out:
-        raise BadInput(f"{name}: the list is empty; give the shop's drills, e.g. [\"6 mm\", \"8 mm\", \"10 mm\"]")
+        raise BadInput.about(name, "the list is empty; give the shop's drills, e.g. [\"6 mm\", \"8 mm\", \"10 mm\"]")
     return tuple(sorted(out, key=lambda d: d.diameter_mm))
 
 

@@ -999,8 +999,9 @@ def _drill_set(ck: _Checker, shop_t: Mapping, base: Path, units: str | None):
 
     try:
         return drill_list(value, "drills")
-    except BadInput as exc:
-        ck.add(path, str(exc).removeprefix("drills").lstrip(": "))
+    except BadInput as exc:  # about "drills" or one of them, "drills 2": the list's key or that item
+        item = (exc.parameter or "").partition(" ")[2]
+        ck.add(path + ((int(item) - 1,) if item.isdigit() else ()), exc.text())
         return default
 
 
