@@ -222,18 +222,18 @@ def _geometry(orientation: str, d: float, L: float, radius: float, rho: float, a
 
 def _check_geometry(orientation: str, d: float, L: float, radius: float, angle: float) -> None:
     if L < 0:
-        raise BadInput(f"depth: {L} mm must not be negative")
+        raise BadInput.about("depth", f"{L} mm must not be negative")
     if orientation == "radial":
         if d >= 2 * radius:
-            raise BadInput(f"diameter: {d} mm is not smaller than the cylinder's diameter {2 * radius} mm")
+            raise BadInput.about("diameter", f"{d} mm is not smaller than the cylinder's diameter {2 * radius} mm")
         lmin = _radial_min_depth(radius, d / 2)
         if L < lmin - 1e-9:
-            raise BadInput(f"depth: {L:.3f} mm is shallower than {lmin:.3f} mm, where the full diameter of a "
-                           f"{d} mm hole first lies below a {radius} mm radius surface; the formula needs at "
-                           "least that")
+            raise BadInput.about("depth", f"{L:.3f} mm is shallower than {lmin:.3f} mm, where the full diameter "
+                                          f"of a {d} mm hole first lies below a {radius} mm radius surface; the "
+                                          "formula needs at least that")
         if radius - L - _h(d, angle) < 0:
-            raise BadInput(f"depth: the tip at {L + _h(d, angle):.2f} mm passes the rotor axis "
-                           f"(radius {radius} mm)")
+            raise BadInput.about("depth", f"the tip at {L + _h(d, angle):.2f} mm passes the rotor axis "
+                                          f"(radius {radius} mm)")
 
 
 def axial_hole(diameter, depth, pitch_radius, density, point_angle_deg: float = 118.0) -> HoleGeometry:
@@ -524,9 +524,9 @@ def drill_correction(correction, *, radius, orientation: str = "axial", angle_de
     (1, 24.9, 2395.4)
     """
     if orientation not in ORIENTATIONS:
-        raise BadInput(f"orientation: {orientation!r} is not allowed; use 'axial' or 'radial'")
+        raise BadInput.about("orientation", f"{orientation!r} is not allowed; use 'axial' or 'radial'")
     if action not in ("add", "remove"):
-        raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
+        raise BadInput.about("action", f"{action!r} is not allowed; use 'add' or 'remove'")
     limits = limits or Limits()
     R = float(magnitude(radius, "length", "mm", "radius", positive=True))
     U = correction_g_mm(correction, radius)

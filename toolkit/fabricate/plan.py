@@ -217,9 +217,9 @@ def plan_correction(unbalance, angle_deg, method: str, *, radius, material=None,
     ('hole', 'remove', 311.0, True)
     """
     if method not in METHODS:
-        raise BadInput(f"method: {method!r} is not allowed; use one of {', '.join(METHODS)}")
+        raise BadInput.about("method", f"{method!r} is not allowed; use one of {', '.join(METHODS)}")
     if action not in ("add", "remove"):
-        raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
+        raise BadInput.about("action", f"{action!r} is not allowed; use 'add' or 'remove'")
     U = correction_g_mm(unbalance, radius)
     angle = parse_angle(angle_deg, "angle")
     allow = None if allowance is None else magnitude(allowance, "unbalance", "g*mm", "allowance",

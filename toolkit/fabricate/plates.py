@@ -242,7 +242,7 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     if weld_run not in WELD_RUNS:
         raise BadInput.about("weld_run", f"{weld_run!r} is not allowed; use one of {', '.join(WELD_RUNS)}")
     if action not in ("add", "remove"):
-        raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
+        raise BadInput.about("action", f"{action!r} is not allowed; use 'add' or 'remove'")
     R = float(magnitude(radius, "length", "mm", "radius", positive=True))
     U = correction_g_mm(correction, radius)
     w0 = float(magnitude(width, "length", "mm", "width", positive=True))
@@ -255,7 +255,7 @@ def weld_plate(correction, *, radius, width, thickness=None, shape: str = "flat"
     add_angle = norm_angle(given + 180.0) if action == "remove" else given
     conv, conv_src = _convexity(convexity)
     if not (isinstance(aspect, (int, float)) and aspect > 0):
-        raise BadInput(f"aspect: {aspect!r} must be a number greater than zero")
+        raise BadInput.about("aspect", f"{aspect!r} must be a number greater than zero")
     warnings = []
     if dens.material is not None and dens.material.notes:
         warnings.append(f"{dens.material.name}: {dens.material.notes}")

@@ -133,11 +133,11 @@ def washer_stack(correction, *, radius, orientation: str = "axial", surface: str
     (2, 142.9)
     """
     if orientation not in ("axial", "radial"):
-        raise BadInput(f"orientation: {orientation!r} is not allowed; use 'axial' or 'radial'")
+        raise BadInput.about("orientation", f"{orientation!r} is not allowed; use 'axial' or 'radial'")
     if surface not in ("outer", "inner"):
         raise BadInput.about("surface", f"{surface!r} is not allowed; use 'outer' or 'inner'")
     if action not in ("add", "remove"):
-        raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
+        raise BadInput.about("action", f"{action!r} is not allowed; use 'add' or 'remove'")
     if isinstance(max_count, bool) or not isinstance(max_count, int) or not 1 <= max_count <= 50:
         raise BadInput.about("max_count", f"{max_count!r} must be a whole number from 1 to 50")
     R = float(magnitude(radius, "length", "mm", "radius", positive=True))

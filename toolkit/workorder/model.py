@@ -54,7 +54,7 @@ def effect(action: str, amount_g_mm: float, angle_deg: float) -> complex:
         return vector(amount_g_mm, angle_deg)
     if action == "remove":
         return -vector(amount_g_mm, angle_deg)
-    raise BadInput(f"action: {action!r} is not allowed; use 'add' or 'remove'")
+    raise BadInput.about("action", f"{action!r} is not allowed; use 'add' or 'remove'")
 
 
 def _q(value: float, unit: str):
