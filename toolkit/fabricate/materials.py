@@ -162,7 +162,7 @@ def carbon_equivalent(C: float, Mn: float = 0.0, Cr: float = 0.0, Mo: float = 0.
     values = {"C": C, "Mn": Mn, "Cr": Cr, "Mo": Mo, "V": V, "Ni": Ni, "Cu": Cu}
     for name, v in values.items():
         if isinstance(v, bool) or not isinstance(v, (int, float)) or not 0 <= v <= 30:
-            raise BadInput(f"{name}: {v!r} is not a content in per cent (0 to 30)")
+            raise BadInput.about(name, f"{v!r} is not a content in per cent (0 to 30)")
     return C + Mn / 6 + (Cr + Mo + V) / 5 + (Ni + Cu) / 15
 
 

@@ -103,7 +103,7 @@ def drills(table="metric") -> tuple[Drill, ...]:
     """
     if isinstance(table, (tuple, list)):
         if not table or not all(isinstance(d, Drill) for d in table):
-            raise BadInput("drills: give a set name, a CSV path or a non-empty list of drills")
+            raise BadInput.about("drills", "give a set name, a CSV path or a non-empty list of drills")
         return tuple(sorted(table, key=lambda d: d.diameter_mm))
     if str(table) in BASIC_DRILLS:
         return _basic_set(str(table))
