@@ -276,7 +276,7 @@ def test_remembered_conversions_are_pints_to_the_bit():
     import pint
     from pint.facets.plain.quantity import PlainQuantity
 
-    from toolkit.units import Q_
+    from toolkit.units import Q_, registry
 
     cases = [(412.0, "kg", "g"), (3, "oz*in", "g*mm"), (1480.0, "rpm", "rad/s"), (2.5, "in", "mm"),
              (7, "mm", "mm"), (0.1, "lbf", "N"), (np.array([1.0, 2.5, 1e-9]), "g*in", "g*mm"), (20.0, "degC", "K")]
@@ -290,3 +290,6 @@ def test_remembered_conversions_are_pints_to_the_bit():
             assert np.array_equal(moved.magnitude, reference) and str(moved.units) == str(q.to(target).units)
         with pytest.raises(pint.DimensionalityError):
             Q_(1.0, "kg").m_as("mm")
+        # a quantity as the target: its units count, and 1 m equals 1000 mm as a value (never one key)
+        assert Q_(2.0, "m").m_as(Q_(1, "m")) == 2.0 and Q_(2.0, "m").m_as(Q_(1000, "mm")) == 2000.0
+        assert Q_(2.0, "m").m_as(registry().Unit("mm")) == 2000.0

@@ -144,7 +144,8 @@ def _remember_conversions(ureg):
     factor (pint's own ``convert`` of 1.0: ``1.0 * factor`` is the factor exactly), the target's container and whether the two
     units are the same are kept per (source units, target), so the result is pint's to the bit. Anything
     else goes to pint as before: an offset unit (degC), an active context, a magnitude that is not a float,
-    an int or a numpy array, a target that cannot be a key, or a conversion pint refuses (its error).
+    an int or a numpy array, a target other than a unit text, unit or units container (a quantity as the
+    target compares by value), or a conversion pint refuses (its error).
     """
     Quantity = getattr(ureg, "Quantity", None)
     original_m_as = getattr(Quantity, "m_as", None)
@@ -156,11 +157,16 @@ def _remember_conversions(ureg):
         plain = (float, int, numpy.ndarray, numpy.floating, numpy.integer)
     except ImportError:  # pragma: no cover - numpy is a dependency
         plain = (float, int)
+    from pint.util import UnitsContainer
+
+    targets = (str, ureg.Unit, UnitsContainer)  # keys that are equal only when they name the same units
     known: dict = {}
 
     def conversion(q, units):
         """(target container, factor, same units) for ``q``'s units to ``units``, or None: ask pint."""
         if ureg._active_ctx or not isinstance(q._magnitude, plain) or isinstance(q._magnitude, bool):
+            return None
+        if not isinstance(units, targets):  # a quantity as the target compares by value: 1 m == 1000 mm
             return None
         key = (q._units, type(units), units)
         try:
