@@ -267,3 +267,29 @@ def test_threads_asking_for_the_registry_at_once_get_one_registry(monkeypatch):
     for t in threads:
         t.join()
     assert len(built) == 1 and all(g is built[0] for g in got)
+
+
+def test_remembered_conversions_are_pints_to_the_bit():
+    """``m_as`` and ``to`` reuse a kept factor; each result is the one pint's own method gives (the
+    reference: pint's unpatched ``PlainQuantity.m_as``), offset units and refused conversions included."""
+    import numpy as np
+    import pint
+    from pint.facets.plain.quantity import PlainQuantity
+
+    from toolkit.units import Q_, registry
+
+    cases = [(412.0, "kg", "g"), (3, "oz*in", "g*mm"), (1480.0, "rpm", "rad/s"), (2.5, "in", "mm"),
+             (7, "mm", "mm"), (0.1, "lbf", "N"), (np.array([1.0, 2.5, 1e-9]), "g*in", "g*mm"), (20.0, "degC", "K")]
+    for _repeat in range(2):  # the second time from the kept factors
+        for value, unit, target in cases:
+            q = Q_(value, unit)
+            got, reference = q.m_as(target), PlainQuantity.m_as(q, target)
+            assert type(got) is type(reference)
+            assert np.array_equal(got, reference)
+            moved = q.to(target)
+            assert np.array_equal(moved.magnitude, reference) and str(moved.units) == str(q.to(target).units)
+        with pytest.raises(pint.DimensionalityError):
+            Q_(1.0, "kg").m_as("mm")
+        # a quantity as the target: its units count, and 1 m equals 1000 mm as a value (never one key)
+        assert Q_(2.0, "m").m_as(Q_(1, "m")) == 2.0 and Q_(2.0, "m").m_as(Q_(1000, "mm")) == 2000.0
+        assert Q_(2.0, "m").m_as(registry().Unit("mm")) == 2000.0

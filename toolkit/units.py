@@ -112,6 +112,7 @@ def _remember_unit_parses(ureg):
     given string never changes (the package defines no units after the registry is built), so it is kept;
     anything unusual (an argument that cannot be a key) goes straight to pint.
     """
+    _remember_conversions(ureg)
     parse = getattr(ureg, "parse_units_as_container", None)
     if parse is None:  # a pint without this hook: keep its own behaviour (slower, same results)
         return ureg
@@ -131,6 +132,79 @@ def _remember_unit_parses(ureg):
         return result
 
     ureg.parse_units_as_container = parse_units_as_container
+    return ureg
+
+
+def _remember_conversions(ureg):
+    """Make the registry's ``Quantity.m_as`` and ``Quantity.to`` reuse their conversion factor.
+
+    pint converts a multiplicative unit as ``magnitude * factor``, the factor a pure function of the two
+    units; but each call first turns the target into a units container, builds an intermediate quantity and
+    walks its registry's layers, some 45 us a call, and a page's tolerance report makes about sixty. Here the
+    factor (pint's own ``convert`` of 1.0: ``1.0 * factor`` is the factor exactly), the target's container and whether the two
+    units are the same are kept per (source units, target), so the result is pint's to the bit. Anything
+    else goes to pint as before: an offset unit (degC), an active context, a magnitude that is not a float,
+    an int or a numpy array, a target other than a unit text, unit or units container (a quantity as the
+    target compares by value), or a conversion pint refuses (its error).
+    """
+    Quantity = getattr(ureg, "Quantity", None)
+    original_m_as = getattr(Quantity, "m_as", None)
+    original_to = getattr(Quantity, "to", None)
+    if original_m_as is None or original_to is None:
+        return ureg
+    try:
+        import numpy
+        plain = (float, int, numpy.ndarray, numpy.floating, numpy.integer)
+    except ImportError:  # pragma: no cover - numpy is a dependency
+        plain = (float, int)
+    from pint.util import UnitsContainer
+
+    targets = (str, ureg.Unit, UnitsContainer)  # keys that are equal only when they name the same units
+    known: dict = {}
+
+    def conversion(q, units):
+        """(target container, factor, same units) for ``q``'s units to ``units``, or None: ask pint."""
+        if ureg._active_ctx or not isinstance(q._magnitude, plain) or isinstance(q._magnitude, bool):
+            return None
+        if not isinstance(units, targets):  # a quantity as the target compares by value: 1 m == 1000 mm
+            return None
+        key = (q._units, type(units), units)
+        try:
+            found = known.get(key)
+        except TypeError:  # an unhashable target
+            return None
+        if found is None:
+            from pint.util import to_units_container
+
+            try:
+                dst = to_units_container(units, ureg)
+                factor = ureg.convert(1.0, q._units, dst)  # what pint's m_as multiplies by (not through
+                offset = ureg.convert(0.0, q._units, dst)  # the methods replaced here)
+            except Exception:  # pint's own error, raised again by pint's own path
+                return None
+            # an offset unit (degC) is not a plain multiple: False, kept, sends it to pint each time
+            found = (dst, factor, q._units == dst) if offset == 0.0 and isinstance(factor, float) else False
+            if len(known) < 4096:
+                known[key] = found
+        return found or None
+
+    def m_as(self, units):
+        found = conversion(self, units)
+        if found is None:
+            return original_m_as(self, units)
+        _dst, factor, same = found
+        return self._magnitude if same else self._magnitude * factor
+
+    def to(self, other=None, *contexts, **ctx_kwargs):
+        found = None if (contexts or ctx_kwargs) else conversion(self, other)
+        if found is None:
+            return original_to(self, other, *contexts, **ctx_kwargs)
+        dst, factor, same = found
+        return self.__class__(self._magnitude if same else self._magnitude * factor, dst)
+
+    m_as.__doc__, to.__doc__ = original_m_as.__doc__, original_to.__doc__
+    Quantity.m_as = m_as
+    Quantity.to = to
     return ureg
 
 

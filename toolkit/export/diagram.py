@@ -359,12 +359,13 @@ def layout(*, title: str, reference: str, angles_ccw_rotation: bool, callouts: l
         out.lines.append(Line((start, end), "muted", 0.4, "leader"))
         lowest = min(lowest, text.box.y0)
     # a degree number under a shape, an arrow or a leader is left out (the tick stays)
+    segments = [(p, q) for line in out.lines if line.kind in ("arrow", "leader")
+                for p, q in zip(line.points, line.points[1:])]  # gathered once for all the labels
     for label in degrees:
         box = label.box.inflate(0.5)
         if any(overlaps(box, m.box) for m in out.markers):
             continue
-        if any(segment_hits_box(p, q, box) for line in out.lines if line.kind in ("arrow", "leader")
-               for p, q in zip(line.points, line.points[1:])):
+        if any(segment_hits_box(p, q, box) for p, q in segments):
             continue
         if any(circle_meets_box(c.x, c.y, c.r, box) for c in out.circles):  # the allowance circle
             continue

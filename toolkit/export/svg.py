@@ -88,7 +88,10 @@ def font_face_css(url: Callable[[str], str]) -> str:
 
 def _n(v: float) -> str:
     """A coordinate as SVG text (two decimals, no trailing zeros)."""
-    text = f"{v:.2f}".rstrip("0").rstrip(".")
+    text = f"{v:.2f}"
+    if text[-1] != "0":  # the common case (a last digit other than zero): nothing to strip
+        return text
+    text = text.rstrip("0").rstrip(".")
     return "0" if text in ("-0", "") else text
 
 

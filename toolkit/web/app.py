@@ -101,6 +101,9 @@ def create_app(reg, *, loopback: bool = True, tls_proxy: bool = False, failures:
     from toolkit.web.groups import form_groups
 
     env.globals["form_groups"] = form_groups
+    from toolkit.web.forms import field_html
+
+    env.globals["field_html"] = field_html
     from toolkit.web.diagrams import style_hash
 
     headers = dict(_SECURITY_HEADERS)  # the diagrams' own style element is allowed by its hash, no other

@@ -118,7 +118,9 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
                 user = need_user(request, "record")
                 number = await run_in_threadpool(_record, values, text, order, version_id, user)
                 return RedirectResponse(f"/jobs/{_quote(number)}", status_code=303)
-        return render(request, "run.html", 422 if errors else 200, **_context(values, target, errors, order, text))
+        # the diagrams and the stored types' names in the worker thread too, as the page's computation
+        context = await run_in_threadpool(_context, values, target, errors, order, text)
+        return render(request, "run.html", 422 if errors else 200, **context)
 
     def _record(values, text, order, version_id, user) -> str:
         from toolkit.export.files import write_order
