@@ -92,21 +92,31 @@ def _vary(reading: str, rng: random.Random) -> str:
     return f"{float(number) * rng.uniform(0.8, 1.2):.4g} {unit}@{(float(angle) + rng.uniform(-40, 40)) % 360:.1f}"
 
 
-def planner(path: Path, rotors: int, seed: int = 7) -> Path:
-    """A planner sheet (.csv or .xlsx by suffix) of ``rotors`` invented rotors, with the example job files
-    its rows refer to copied beside it."""
+def planner_rows(rotors: int, seed: int, prefix: str, own_columns_only: bool = False):
+    """(header, rows): ``rotors`` invented rotors made from the rows of examples/planner.csv in turn (only
+    those holding the rotor in their own columns when ``own_columns_only``), each with its own order number
+    ``PREFIX-00001``... and its readings varied."""
     rng = random.Random(seed)
     with (EXAMPLES / "planner.csv").open(encoding="utf-8", newline="") as handle:
         header, *examples = list(csv.reader(handle))
+    if own_columns_only:
+        examples = [row for row in examples if not row[header.index("job")].strip()]
     rows = []
     for i in range(rotors):
         row = list(examples[i % len(examples)])
-        row[header.index("order")] = f"BENCH-{i + 1:05d}"
+        row[header.index("order")] = f"{prefix}-{i + 1:05d}"
         for column in ("plane1_reading", "plane2_reading"):
             j = header.index(column)
             if row[j]:
                 row[j] = _vary(row[j], rng)
         rows.append(row)
+    return header, rows
+
+
+def planner(path: Path, rotors: int, seed: int = 7) -> Path:
+    """A planner sheet (.csv or .xlsx by suffix) of ``rotors`` invented rotors, with the example job files
+    its rows refer to copied beside it."""
+    header, rows = planner_rows(rotors, seed, "BENCH")
     for job in EXAMPLES.glob("job-*.toml"):
         shutil.copy(job, path.parent / job.name)
     if path.suffix == ".csv":

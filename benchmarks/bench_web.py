@@ -34,7 +34,6 @@ import http.client
 import json
 import math
 import os
-import random
 import secrets
 import re
 import shutil
@@ -167,21 +166,9 @@ def upload_sheet(path: Path, rotors: int, seed: int = 11) -> Path:
     """A planner sheet (.csv) of ``rotors`` invented rotors: the rows of examples/planner.csv that hold the
     rotor in their own columns (an upload refuses a row naming a job file), with their own order numbers and
     readings varied."""
-    from bench_batch import EXAMPLES, _vary
+    from bench_batch import planner_rows
 
-    rng = random.Random(seed)
-    with (EXAMPLES / "planner.csv").open(encoding="utf-8", newline="") as handle:
-        header, *examples = list(csv.reader(handle))
-    examples = [row for row in examples if not row[header.index("job")].strip()]
-    rows = []
-    for i in range(rotors):
-        row = list(examples[i % len(examples)])
-        row[header.index("order")] = f"WEB-{i + 1:05d}"
-        for column in ("plane1_reading", "plane2_reading"):
-            j = header.index(column)
-            if row[j]:
-                row[j] = _vary(row[j], rng)
-        rows.append(row)
+    header, rows = planner_rows(rotors, seed, "WEB", own_columns_only=True)
     with path.open("w", encoding="utf-8", newline="") as handle:
         csv.writer(handle).writerows([header, *rows])
     return path
