@@ -159,7 +159,13 @@ def test_bad_runs_file_one_line_exit_2(capsys, tmp_path, content, message):
     (["solve", "--original", "4.2 mm/s@285", "--trial", "10@0", "--with-trial", "6 mm/s@250"], "--trial: '10' has no unit"),
     (["solve", "--original", "4.2 mm/s@285", "--with-trial", "6 mm/s@250"], "--trial: missing"),
     (["solve", "--original", "4.2 mm/s@285", "--trial", "10 g@0", "--with-trial", "6 mm/s@250", "--phase", "up"],
-     "phase: 'up' is not a phase sense"),
+     "solve: error: --phase: 'up' is not a phase sense; use 'lag' or 'lead'"),  # common practice, no source
+    (["solve", "--original", "4.2 mm/s@285", "--trial", "10 g@0", "--with-trial", "6 mm/s@250", "--weight-angles",
+      "up"], "solve: error: --weight-angles: 'up' is not an angle sense"),
+    (["solve", "--original", "4.2 mm/s@285", "--trial", "10 g@0", "--with-trial", "6 mm/s@250", "--radius", "5 kg"],
+     "solve: error: --radius: '5 kg' is not a length"),
+    (["solve", "--original", "4.2 mm/s@285", "--trial", "1000 g*mm@0", "--with-trial", "6 mm/s@250"],
+     "solve: error: --trial: '1000 g*mm@0' is an unbalance; give --radius to turn it into a mass"),
     # the library's errors are about its parameters positions and at; the command words them as options
     (["split", "25 g@100", "--at", "90,300"], "split: error: --at: 25 g@100 does not lie between two positions"),
     (["split", "25 g@100", "--at", ","], "split: error: --at: no angles given"),

@@ -391,6 +391,51 @@ def test_refusals_are_one_line(capsys, tmp_path, argv, words):
     assert words in err
 
 
+@pytest.mark.parametrize("argv, words", [
+    # the register's errors carry their parameter; the command words it as the subcommand's option
+    # (common practice, no source: the wording is this program's own)
+    (["jobs", "--since", "yesterday"], "error: --since: 'yesterday' is not a date"),
+    (["stats", "--until", "1.12.2026"], "error: --until: '1.12.2026' is not a date"),
+    (["jobs", "--status", "lost"], "error: --status: 'lost' is not one of"),
+    (["init", "--pattern", "WO-{serial}"], "error: --pattern: 'WO-{serial}' uses {serial}; allowed are {year}"),
+    (["init", "--pattern", "WO-{year}"], "error: --pattern: 'WO-{year}' has no {seq}"),
+    (["balance", "fan", "--serial", " ", "--original", "1 mm/s@0"], "error: --serial: give the rotor's serial"),
+])
+def test_register_refusals_name_the_option(capsys, tmp_path, argv, words):
+    err = cli(capsys, "register", *argv, "--register", tmp_path / "x.sqlite3", rc=2)
+    assert words in err, err
+
+
+def test_register_location_refusal_names_the_option(capsys):
+    err = cli(capsys, "register", "jobs", "--register", "mysql://shop@host/db", rc=2)
+    assert "error: --register: 'mysql' databases are not supported" in err, err
+
+
+def test_check_run_and_signoff_refusals_name_their_options(capsys, tmp_path):
+    where = str(tmp_path / "r.sqlite3")
+    number, _data = _order(capsys, where, tmp_path)
+    err = cli(capsys, "register", "record", number, "--residual", "rim=3 g", "--register", where, rc=2)
+    assert f"error: --residual: plane 'rim' is not in order {number}; planes: hub, back plate" in err, err
+    err = cli(capsys, "register", "record", number, "--residual", "hub=lots", "--register", where, rc=2)
+    assert "error: --residual hub: 'lots' is not a residual" in err, err
+    err = cli(capsys, "register", "record", number, "--sign", "boss=A. Person", "--register", where, rc=2)
+    assert "error: --sign: 'boss' is not one of operator, machinist, inspector" in err, err
+    err = cli(capsys, "register", "record", number, "--status", "balanced", "--by", "x" * 300, "--register", where,
+              rc=2)
+    assert "error: --by: 'xxxx" in err and "is longer than 200 characters" in err, err
+    assert cli(capsys, "register", "show", number, "--register", where, "--json")["status"] == "planned"
+
+
+def test_register_errors_carry_their_parameter_in_the_library():
+    from toolkit.errors import BadInput
+    from toolkit.register.store import check_pattern
+
+    with pytest.raises(BadInput) as caught:
+        check_pattern("WO-{month}")
+    # the library's own words, the parameter in front (common practice, no source)
+    assert caught.value.parameter == "pattern" and str(caught.value).startswith("pattern: 'WO-{month}' has no {seq}")
+
+
 def test_a_file_that_is_no_register_is_refused(capsys, tmp_path):
     junk = tmp_path / "junk.sqlite3"
     junk.write_bytes(b"this is not a database" * 100)

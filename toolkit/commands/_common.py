@@ -104,6 +104,8 @@ OPTION_ALIASES = {
     # stored coefficients' trim run (toolkit.coefficients.trim_update): the readings before it are --original
     "before": "--original",
     "limits": "--limit",
+    # the register (toolkit.register.records): a template change, a sign-off's role
+    "changes": "--set", "drop_planes": "--drop-plane", "role": "--sign",
 }
 
 def option_names(parser):

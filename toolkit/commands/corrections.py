@@ -129,10 +129,23 @@ def run_solve(args) -> int:
         from toolkit.influence import runs_from_dict, solve_runs
         from toolkit.vectors import parse_reading, to_complex
 
+        from toolkit.runs import phase_sense, weight_sense
+        from toolkit.units import magnitude
+
         parse_reading(args.original[0], "--original")
         parse_reading(args.with_trial, "--with-trial")
         if "*" not in args.trial.split("@")[0]:
             to_complex(args.trial, "mass", "--trial")
+        elif not args.radius:
+            raise BadInput.about("trial", f"{args.trial!r} is an unbalance; give {{radius}} to turn it into a mass",
+                                 mentions=("radius",))
+        # checked here, under their own names: the runs table built below is not the user's file
+        if args.phase is not None:
+            phase_sense(args.phase, "phase")
+        if args.weight_angles is not None:
+            weight_sense(args.weight_angles, "weight_angles")
+        if args.radius:
+            magnitude(args.radius, "length", "mm", name="radius", positive=True)
         data = {"sensors": ["sensor"], "planes": ["plane"],
                 "weight_angles": args.weight_angles or "against rotation", "phase": args.phase or "lag",
                 "trials_left_on": args.keep_trial,

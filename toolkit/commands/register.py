@@ -26,7 +26,7 @@ def _sub(sub, name: str, help_text: str, run):
     parser = sub.add_parser(name, help=help_text, description=help_text[:1].upper() + help_text[1:] + ".")
     _where(parser)
     add_json(parser)
-    parser.set_defaults(run=run)
+    parser.set_defaults(run=run, command_parser=parser)  # its options word the register's errors
     return parser
 
 

@@ -27,11 +27,11 @@ def balance_from_type(reg: Register, type_name: str, *, serial: str, original, c
     from toolkit.workorder.job import job_from_data
 
     if not serial or not str(serial).strip():
-        raise BadInput("serial: give the rotor's serial number")
+        raise BadInput.about("serial", "give the rotor's serial number")
     original = [str(r) for r in (original or [])]
     set_id, coefficients, created = R.latest_coefficients(reg, type_name)
     if len(original) != len(coefficients.sensors):
-        raise BadInput(f"original: give {len(coefficients.sensors)} reading(s), one per sensor "
+        raise BadInput.about("original", f"give {len(coefficients.sensors)} reading(s), one per sensor "
                        f"({', '.join(coefficients.sensors)}), in that order")
     over = {"order": {"serial": str(serial).strip()},
             "measurement": {"kind": "coefficients", "coefficients": f"register coefficient set {set_id}",

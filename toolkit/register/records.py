@@ -59,17 +59,19 @@ def sha256_text(text: str) -> str:
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
-def _by(name) -> str:
+def _by(name, what: str = "by") -> str:
     text = " ".join(str(name or "").split())
     if len(text) > 200:
-        raise BadInput(f"name: {text[:40]!r}... is longer than 200 characters")
+        raise BadInput.about(what, f"{text[:40]!r}... is longer than 200 characters")
     return text
 
 
 def _text(value, what: str, limit: int = 2000) -> str:
     text = "" if value is None else str(value)
     if len(text) > limit:
-        raise BadInput(f"{what}: longer than {limit} characters")
+        if " " in what:  # a stored text ("job text"), not a parameter
+            raise BadInput(f"{what}: longer than {limit} characters")
+        raise BadInput.about(what, f"longer than {limit} characters")
     return text
 
 
@@ -105,7 +107,7 @@ def _toml_value(value) -> str:
         return "[" + ", ".join(_toml_value(v) for v in value) + "]"
     if isinstance(value, dict):
         return "{" + ", ".join(f"{_toml_key(k)} = {_toml_value(v)}" for k, v in value.items()) + "}"
-    raise BadInput(f"job: a value of type {type(value).__name__} cannot be written as TOML")
+    raise BadInput.about("job", f"a value of type {type(value).__name__} cannot be written as TOML")
 
 
 def toml_text(data: dict, header: str = "") -> str:
@@ -158,7 +160,7 @@ def _loads(text: str, origin: str) -> dict:
 def _type_name(name) -> str:
     text = " ".join(str(name or "").split())
     if not text or len(text) > 120:
-        raise BadInput(f"rotor type: {name!r} is not a name; give 1 to 120 characters")
+        raise BadInput(f"rotor type: {name!r} is not a name; give 1 to 120 characters")  # a positional TYPE, no option
     return text
 
 
@@ -202,13 +204,13 @@ def change_template(data: dict, changes=(), planes=(), drop_planes=()) -> dict:
     for path, value in changes:
         path = tuple(str(k) for k in path)
         if len(path) < 2 or path[0] not in CHANGE_TABLES or not all(path):
-            raise BadInput(f"template change: {'.'.join(path)!r} is not a key of a table; give TABLE.KEY with "
+            raise BadInput.about("changes", f"{'.'.join(path)!r} is not a key of a table; give TABLE.KEY with "
                            f"TABLE one of {', '.join(CHANGE_TABLES)} (planes are changed by name)")
         table = out
         for depth, key in enumerate(path[:-1]):
             inner = table.setdefault(key, {})
             if not isinstance(inner, dict):
-                raise BadInput(f"template change: {'.'.join(path[:depth + 1])!r} is a value, not a table")
+                raise BadInput.about("changes", f"{'.'.join(path[:depth + 1])!r} is a value, not a table")
             table = inner
         if value is None:
             table.pop(path[-1], None)
@@ -218,14 +220,14 @@ def change_template(data: dict, changes=(), planes=(), drop_planes=()) -> dict:
     names = [str(p.get("name", "")) for p in plane_list]
     for name in drop_planes:
         if name not in names:
-            raise BadInput(f"template change: plane {name!r} to remove is not in the template; planes: "
+            raise BadInput.about("drop_planes", f"plane {name!r} to remove is not in the template; planes: "
                            f"{', '.join(names) or 'none'}")
         del plane_list[names.index(name)]
         names.remove(name)
     for name, keys in planes:
         name = " ".join(str(name).split())
         if not name:
-            raise BadInput("template change: a plane needs a name")
+            raise BadInput.about("planes", "a plane needs a name")
         if name in names:
             plane = plane_list[names.index(name)]
         else:
@@ -234,7 +236,7 @@ def change_template(data: dict, changes=(), planes=(), drop_planes=()) -> dict:
             names.append(name)
         for key, value in dict(keys).items():
             if key == "name":
-                raise BadInput(f"template change: plane {name!r}: a plane is renamed by removing it and adding "
+                raise BadInput.about(f"planes {name}", "a plane is renamed by removing it and adding "
                                "the new one")
             if value is None:
                 plane.pop(key, None)
@@ -534,7 +536,7 @@ def _date_bound(text, name: str, end: bool = False) -> str | None:
     try:
         day = dt.date.fromisoformat(str(text).strip())
     except ValueError:
-        raise BadInput(f"{name}: {text!r} is not a date; write YYYY-MM-DD, e.g. 2026-12-01") from None
+        raise BadInput.about(name, f"{text!r} is not a date; write YYYY-MM-DD, e.g. 2026-12-01") from None
     if end:
         day = day + dt.timedelta(days=1)
     return day.isoformat()
@@ -552,7 +554,7 @@ def job_filter(conn, *, type_name=None, status=None, since=None, until=None):
         where.append(jobs.c.type_version_id.in_(select(type_versions.c.id).where(type_versions.c.type_id == type_id)))
     if status:
         if status not in STATUSES:
-            raise BadInput(f"status: {status!r} is not one of {', '.join(STATUSES)}")
+            raise BadInput.about("status", f"{status!r} is not one of {', '.join(STATUSES)}")
         where.append(jobs.c.status == status)
     low, high = _date_bound(since, "since"), _date_bound(until, "until", end=True)
     if low:
@@ -642,7 +644,7 @@ def _set_status(conn, job, status: str, by: str, source: str, note: str = "") ->
 
     current = job["status"]
     if status not in STATUSES:
-        raise BadInput(f"status: {status!r} is not one of {', '.join(STATUSES)}")
+        raise BadInput.about("status", f"{status!r} is not one of {', '.join(STATUSES)}")
     if status == current:
         return
     if status not in TRANSITIONS[current]:
@@ -695,7 +697,7 @@ def _residual(text, plane: dict, name: str) -> tuple[float, float | None]:
         try:
             grams = quantity(amount_text, "mass", name, nonnegative=True).m_as("g")
         except BadInput:
-            raise BadInput(f"{name}: {text!r} is not a residual; give an unbalance or a mass at the correction "
+            raise BadInput.about(name, f"{text!r} is not a residual; give an unbalance or a mass at the correction "
                            "radius, optionally with its angle, e.g. '850 g*mm@120' or '2.8 g'") from None
         amount = grams * float(plane["radius_mm"])
     return amount, angle
@@ -710,7 +712,8 @@ def record_check(reg: Register, number: str, *, residuals=None, vibrations=None,
 
     residuals, vibrations = dict(residuals or {}), dict(vibrations or {})
     if not residuals and not vibrations:
-        raise BadInput("check run: give at least one measured residual (per plane) or vibration (per sensor)")
+        raise BadInput.about("residual/vibration", "give at least one measured residual (per plane) or vibration "
+                             "(per sensor)")
 
     def run(c):
         job = _job_row(c, number)
@@ -718,16 +721,16 @@ def record_check(reg: Register, number: str, *, residuals=None, vibrations=None,
         rows, when = [], now()
         for plane, text in residuals.items():
             if plane not in planes:
-                raise BadInput(f"residual: plane {plane!r} is not in order {number}; planes: {', '.join(planes)}")
+                raise BadInput.about("residual", f"plane {plane!r} is not in order {number}; planes: {', '.join(planes)}")
             amount, angle = (text if isinstance(text, tuple) else _residual(text, planes[plane], f"residual {plane}"))
             limit = float(planes[plane]["limit_g_mm"] if planes[plane].get("limit_g_mm") is not None
                           else planes[plane]["u_per_g_mm"])
             rows.append({"kind": "residual", "target": plane, "amount": float(amount), "unit": "g*mm",
                          "angle_deg": angle, "limit_amount": limit, "passed": int(amount <= limit * (1 + 1e-9))})
         for sensor, text in vibrations.items():
-            sensor = _text(sensor, "sensor", 120).strip()
+            sensor = _text(sensor, "vibration", 120).strip()
             if not sensor:
-                raise BadInput("vibration: the sensor needs a name")
+                raise BadInput.about("vibration", "the sensor needs a name")
             has_angle = "@" in str(text)
             z, _kind, unit = parse_reading(str(text) if has_angle else f"{text}@0", f"vibration {sensor}")
             from toolkit.vectors import polar
@@ -751,10 +754,10 @@ def record_signoff(reg: Register, number: str, role: str, name: str, *, signed: 
 
     role = str(role).strip().lower()
     if role not in ROLES:
-        raise BadInput(f"sign-off: role {role!r} is not one of {', '.join(ROLES)}")
-    name = _by(name)
+        raise BadInput.about("role", f"{role!r} is not one of {', '.join(ROLES)}")
+    name = _by(name, f"role {role}")
     if not name:
-        raise BadInput(f"sign-off {role}: give the name of who signs")
+        raise BadInput.about(f"role {role}", "give the name of who signs")
 
     def run(c):
         job = _job_row(c, number)
@@ -776,7 +779,7 @@ def record_trim(reg: Register, number: str, kind: str, data: dict, *, by: str = 
     from toolkit.register.schema import trim_runs
 
     if kind not in ("coefficients", "machine"):
-        raise BadInput(f"trim: kind {kind!r} is not coefficients or machine")
+        raise BadInput.about("kind", f"{kind!r} is not coefficients or machine")
     text = _text(json.dumps(data, ensure_ascii=False, separators=(",", ":")), "trim data", MAX_TEXT)
     with reg.write() as conn:
         job = _job_row(conn, number)

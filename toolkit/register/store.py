@@ -68,21 +68,21 @@ def resolve(where: str | os.PathLike | None = None):
         where = os.environ.get(ENV) or default_path()
     text = str(where).strip()
     if "\x00" in text or len(text) > 4096:
-        raise BadInput("register: not a file path or URL (a NUL character, or longer than 4096 characters)")
+        raise BadInput.about("register", "not a file path or URL (a NUL character, or longer than 4096 characters)")
     if "://" not in text:
         return make_url("sqlite://").set(database=str(Path(text).expanduser()))
     try:
         url = make_url(text)
     except ArgumentError:
-        raise BadInput(f"register: {_mask(text)!r} is not a database URL or a file path") from None
+        raise BadInput.about("register", f"{_mask(text)!r} is not a database URL or a file path") from None
     if url.drivername in ("postgresql", "postgres", "postgresql+psycopg"):
         return url.set(drivername="postgresql+psycopg")
     if url.drivername in ("sqlite", "sqlite+pysqlite"):
         if not url.database:
-            raise BadInput("register: an SQLite URL needs a file (sqlite:///path/register.sqlite3)")
+            raise BadInput.about("register", "an SQLite URL needs a file (sqlite:///path/register.sqlite3)")
         return url.set(drivername="sqlite")
-    raise BadInput(f"register: {url.drivername!r} databases are not supported; give a file path, "
-                   "sqlite:///PATH or postgresql://USER@HOST/DB")
+    raise BadInput.about("register", f"{url.drivername!r} databases are not supported; give a file path, "
+                                     "sqlite:///PATH or postgresql://USER@HOST/DB")
 
 
 def _mask(text: str) -> str:
@@ -107,25 +107,25 @@ def check_pattern(pattern: str) -> str:
     >>> check_pattern("WO-{serial}")
     Traceback (most recent call last):
     ...
-    toolkit.errors.BadInput: order pattern: 'WO-{serial}' uses {serial}; allowed are {year}, {month}, {seq} ...
+    toolkit.errors.BadInput: pattern: 'WO-{serial}' uses {serial}; allowed are {year}, {month}, {seq} ...
     """
     if not isinstance(pattern, str) or not pattern.strip() or len(pattern) > 80:
-        raise BadInput(f"order pattern: {pattern!r} is not allowed; give text up to 80 characters with {{seq}}")
+        raise BadInput.about("pattern", f"{pattern!r} is not allowed; give text up to 80 characters with {{seq}}")
     try:
         names = [f for _lit, f, _spec, _conv in string.Formatter().parse(pattern) if f is not None]
     except ValueError as exc:
-        raise BadInput(f"order pattern: {pattern!r} is not a valid pattern ({exc})") from None
+        raise BadInput.about("pattern", f"{pattern!r} is not a valid pattern ({exc})") from None
     bad = [n for n in names if n not in _PATTERN_FIELDS]
     if bad:
-        raise BadInput(f"order pattern: {pattern!r} uses {{{bad[0]}}}; allowed are {{year}}, {{month}}, {{seq}} "
-                       "(e.g. 'WO-{year}-{seq:05d}')")
+        raise BadInput.about("pattern", f"{pattern!r} uses {{{bad[0]}}}; allowed are {{year}}, {{month}}, {{seq}} "
+                                            "(e.g. 'WO-{year}-{seq:05d}')")
     if "seq" not in names:
-        raise BadInput(f"order pattern: {pattern!r} has no {{seq}}; the running number is required "
-                       "(e.g. 'WO-{year}-{seq:05d}')")
+        raise BadInput.about("pattern", f"{pattern!r} has no {{seq}}; the running number is required "
+                                            "(e.g. 'WO-{year}-{seq:05d}')")
     try:
         format_order_number(pattern, 1, _dt.datetime(2026, 1, 1))
     except (ValueError, TypeError, KeyError, IndexError) as exc:
-        raise BadInput(f"order pattern: {pattern!r} cannot be filled in ({exc})") from None
+        raise BadInput.about("pattern", f"{pattern!r} cannot be filled in ({exc})") from None
     return pattern
 
 
@@ -516,7 +516,7 @@ def _sqlite_engine(url):
 
             raise OutputError(f"register {path}: cannot be created: {_reason(exc)}") from None
     elif path.is_dir():
-        raise BadInput(f"register {path}: is a folder; give a file path")
+        raise BadInput.about("register", f"{path} is a folder; give a file path")
     query = dict(url.query)
     engine = create_engine(url.set(query=query), pool_size=2, max_overflow=4,
                            connect_args={"timeout": BUSY_TIMEOUT_S, "check_same_thread": False})
