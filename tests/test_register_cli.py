@@ -156,7 +156,7 @@ def test_workbook_of_another_job_text_is_refused(capsys, where, tmp_path):
     assert "input hash" in err and "does not match" in err
     other = cli(capsys, "register", "record", "WO-0000-00000", "--workbook", _fill(xlsx, tmp_path / "ok.xlsx"),
                 "--register", where, rc=2)
-    assert "is for order" in other
+    assert f"error: --workbook: {tmp_path / 'ok.xlsx'} is for order {number!r}, not 'WO-0000-00000'" in other, other
     # the workbook's order number changed to another recorded job's, or to one the register does not have
     second, _data = _order(capsys, where, tmp_path, "--force", "--serial", "SN-other")  # another job text
     for target, words in ((second, "does not match"), ("WO-1999-99999", "not in the register")):
@@ -448,7 +448,11 @@ def test_workbook_that_is_not_a_work_order(capsys, tmp_path):
     plain = tmp_path / "plain.xlsx"
     Workbook().save(plain)
     err = cli(capsys, "register", "record", "--workbook", plain, "--register", tmp_path / "r.sqlite3", rc=2)
-    assert "not a Counterpoise work-order workbook" in err
+    # the workbook's errors are about the library's path, worded as --workbook (common practice, no source)
+    assert f"error: --workbook: {plain} is not a Counterpoise work-order workbook" in err, err
+    err = cli(capsys, "register", "record", "--workbook", tmp_path / "none.xlsx", "--register",
+              tmp_path / "r.sqlite3", rc=2)
+    assert f"error: --workbook: {tmp_path / 'none.xlsx'} cannot be read" in err, err
     text = tmp_path / "text.xlsx"
     text.write_bytes(io.BytesIO(b"plain text").getvalue())
     assert "not an .xlsx" in cli(capsys, "register", "record", "--workbook", text, "--register",

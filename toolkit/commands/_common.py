@@ -105,7 +105,7 @@ OPTION_ALIASES = {
     "before": "--original",
     "limits": "--limit",
     # the register (toolkit.register.records): a template change, a sign-off's role
-    "changes": "--set", "drop_planes": "--drop-plane", "role": "--sign",
+    "changes": "--set", "drop_planes": "--drop-plane", "role": "--sign", "path": "--workbook",
 }
 
 def option_names(parser):

@@ -40,17 +40,19 @@ def _cell(wb, name: str):
     return None
 
 
-def _number(value, name: str) -> float | None:
+def _number(value, cell: str) -> float | None:
+    """The number of a ``cell`` ("wb.xlsx, measured residual of plane 1"); its errors are about ``path``, the
+    workbook given."""
     if value is None or (isinstance(value, str) and not value.strip()):
         return None
     if isinstance(value, bool):
-        raise BadInput(f"{name}: {value!r} is not a number")
+        raise BadInput.about("path", f"{cell}: {value!r} is not a number")
     try:
         x = float(str(value).replace(",", ".").strip()) if isinstance(value, str) else float(value)
     except (TypeError, ValueError):
-        raise BadInput(f"{name}: {value!r} is not a number") from None
+        raise BadInput.about("path", f"{cell}: {value!r} is not a number") from None
     if not math.isfinite(x) or x < 0:
-        raise BadInput(f"{name}: {value!r} is not a measured amount (a number 0 or more)")
+        raise BadInput.about("path", f"{cell}: {value!r} is not a measured amount (a number 0 or more)")
     return x
 
 
@@ -74,23 +76,25 @@ def read_workbook(path) -> dict:
     try:
         size = p.stat().st_size
     except OSError as exc:
-        raise BadInput(f"{p}: cannot be read ({exc.strerror})") from None
+        raise BadInput.about("path", f"{p} cannot be read ({exc.strerror})") from None
     if size > MAX_BYTES:
-        raise BadInput(f"{p}: larger than {MAX_BYTES // 1_000_000} MB; not a returned work order")
+        raise BadInput.about("path", f"{p} is larger than {MAX_BYTES // 1_000_000} MB; not a returned work "
+                                     "order")
     try:
         wb = load_workbook(p, data_only=True)
     except (BadZipFile, KeyError, ValueError, OSError) as exc:
-        raise BadInput(f"{p}: not an .xlsx workbook ({' '.join(str(exc).split())[:120]})") from None
+        raise BadInput.about("path", f"{p} is not an .xlsx workbook "
+                                     f"({' '.join(str(exc).split())[:120]})") from None
     number = _cell(wb, "cp_order_number")
     if number is None or not _text(number):
-        raise BadInput(f"{p}: not a Counterpoise work-order workbook (it names no order number cell "
-                       "cp_order_number)")
+        raise BadInput.about("path", f"{p} is not a Counterpoise work-order workbook (it names no order number "
+                                     "cell cp_order_number)")
     out = {"order_number": _text(number), "input_sha256": _text(_cell(wb, "cp_input_sha256")),
            "measured": {}, "operations": {}, "signoffs": {}}
     n = 1
     while wb.defined_names.get(f"measured_{n}") is not None:
-        out["measured"][n] = (_number(_cell(wb, f"measured_{n}"), f"{p}: measured residual of plane {n}"),
-                              _number(_cell(wb, f"cp_measured_angle_{n}"), f"{p}: angle of plane {n}"))
+        out["measured"][n] = (_number(_cell(wb, f"measured_{n}"), f"{p}, measured residual of plane {n}"),
+                              _number(_cell(wb, f"cp_measured_angle_{n}"), f"{p}, angle of plane {n}"))
         n += 1
     for name in list(wb.defined_names):
         if name.startswith("cp_status_"):
@@ -116,18 +120,18 @@ def record_workbook(reg: Register, path, *, number: str | None = None, by: str =
     source = f"workbook {Path(path).name}"
     with reg.write() as conn:
         if number is not None and str(number) != found["order_number"]:
-            raise BadInput(f"{path}: the workbook is for order {found['order_number']!r}, not {number!r}; "
-                           "nothing was recorded")
+            raise BadInput.about("path", f"{path} is for order {found['order_number']!r}, not {number!r}; "
+                                         "nothing was recorded")
         try:
             job = R._job_row(conn, found["order_number"])
         except BadInput:
-            raise BadInput(f"{path}: order {found['order_number']!r} is not in the register; nothing was "
-                           "recorded") from None
+            raise BadInput.about("path", f"{path} is of order {found['order_number']!r}, which is not in the "
+                                         "register; nothing was recorded") from None
         if found["input_sha256"] != job["job_sha256"]:
             shown = found["input_sha256"][:12] or "none"
-            raise BadInput(f"{path}: the workbook's input hash ({shown}...) does not match order "
-                           f"{job['order_number']} ({job['job_sha256'][:12]}...): it was made from another job "
-                           "text; nothing was recorded")
+            raise BadInput.about("path", f"{path}: the workbook's input hash ({shown}...) does not match order "
+                                         f"{job['order_number']} ({job['job_sha256'][:12]}...): it was made from "
+                                         "another job text; nothing was recorded")
         workorder = json.loads(job["workorder"])
         factor = unit_labels(workorder.get("units", "metric"))["unbalance"][1]
         planes = workorder["planes"]
@@ -151,7 +155,8 @@ def record_workbook(reg: Register, path, *, number: str | None = None, by: str =
         marks = {}
         for k, (status, remark) in found["operations"].items():
             if status and status not in STATUS_CHOICES:
-                raise BadInput(f"{path}: operation {k}: status {status!r} is not one of {', '.join(STATUS_CHOICES)}")
+                raise BadInput.about("path", f"{path}, operation {k}: status {status!r} is not one of "
+                                             f"{', '.join(STATUS_CHOICES)}")
             status = status or "open"
             if marks_now.get(k, ("open", "")) != (status, remark):
                 marks[k] = (status, remark)
