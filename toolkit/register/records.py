@@ -205,7 +205,7 @@ def change_template(data: dict, changes=(), planes=(), drop_planes=()) -> dict:
         path = tuple(str(k) for k in path)
         if len(path) < 2 or path[0] not in CHANGE_TABLES or not all(path):
             raise BadInput.about("changes", f"{'.'.join(path)!r} is not a key of a table; give TABLE.KEY with "
-                           f"TABLE one of {', '.join(CHANGE_TABLES)} (planes are changed by name)")
+                                            f"TABLE one of {', '.join(CHANGE_TABLES)} (planes are changed by name)")
         table = out
         for depth, key in enumerate(path[:-1]):
             inner = table.setdefault(key, {})
@@ -221,7 +221,7 @@ def change_template(data: dict, changes=(), planes=(), drop_planes=()) -> dict:
     for name in drop_planes:
         if name not in names:
             raise BadInput.about("drop_planes", f"plane {name!r} to remove is not in the template; planes: "
-                           f"{', '.join(names) or 'none'}")
+                                                f"{', '.join(names) or 'none'}")
         del plane_list[names.index(name)]
         names.remove(name)
     for name, keys in planes:
@@ -236,8 +236,7 @@ def change_template(data: dict, changes=(), planes=(), drop_planes=()) -> dict:
             names.append(name)
         for key, value in dict(keys).items():
             if key == "name":
-                raise BadInput.about(f"planes {name}", "a plane is renamed by removing it and adding "
-                               "the new one")
+                raise BadInput.about(f"planes {name}", "a plane is renamed by removing it and adding the new one")
             if value is None:
                 plane.pop(key, None)
             else:
@@ -697,8 +696,9 @@ def _residual(text, plane: dict, name: str) -> tuple[float, float | None]:
         try:
             grams = quantity(amount_text, "mass", name, nonnegative=True).m_as("g")
         except BadInput:
-            raise BadInput.about(name, f"{text!r} is not a residual; give an unbalance or a mass at the correction "
-                           "radius, optionally with its angle, e.g. '850 g*mm@120' or '2.8 g'") from None
+            raise BadInput.about(name, f"{text!r} is not a residual; give an unbalance or a mass at the "
+                                       "correction radius, optionally with its angle, e.g. '850 g*mm@120' or "
+                                       "'2.8 g'") from None
         amount = grams * float(plane["radius_mm"])
     return amount, angle
 
@@ -721,7 +721,8 @@ def record_check(reg: Register, number: str, *, residuals=None, vibrations=None,
         rows, when = [], now()
         for plane, text in residuals.items():
             if plane not in planes:
-                raise BadInput.about("residual", f"plane {plane!r} is not in order {number}; planes: {', '.join(planes)}")
+                raise BadInput.about("residual", f"plane {plane!r} is not in order {number}; planes: "
+                                                 f"{', '.join(planes)}")
             amount, angle = (text if isinstance(text, tuple) else _residual(text, planes[plane], f"residual {plane}"))
             limit = float(planes[plane]["limit_g_mm"] if planes[plane].get("limit_g_mm") is not None
                           else planes[plane]["u_per_g_mm"])

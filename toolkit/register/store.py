@@ -118,10 +118,10 @@ def check_pattern(pattern: str) -> str:
     bad = [n for n in names if n not in _PATTERN_FIELDS]
     if bad:
         raise BadInput.about("pattern", f"{pattern!r} uses {{{bad[0]}}}; allowed are {{year}}, {{month}}, {{seq}} "
-                                            "(e.g. 'WO-{year}-{seq:05d}')")
+                                        "(e.g. 'WO-{year}-{seq:05d}')")
     if "seq" not in names:
         raise BadInput.about("pattern", f"{pattern!r} has no {{seq}}; the running number is required "
-                                            "(e.g. 'WO-{year}-{seq:05d}')")
+                                        "(e.g. 'WO-{year}-{seq:05d}')")
     try:
         format_order_number(pattern, 1, _dt.datetime(2026, 1, 1))
     except (ValueError, TypeError, KeyError, IndexError) as exc:
