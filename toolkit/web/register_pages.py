@@ -315,9 +315,8 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
             stats = series_statistics(reg, type_name=chosen["type"] or None, status=chosen["status"] or None,
                                       since=chosen["since"] or None, until=chosen["until"] or None)
         except CounterpoiseError as exc:
-            text = str(exc)
-            field = next((k for k in ("since", "until", "status") if text.startswith(k + ":")), "type")
-            return chosen, None, {field: text}
+            field = exc.parameter if exc.parameter in ("since", "until", "status") else "type"
+            return chosen, None, {field: str(exc)}
         return chosen, stats, {}
 
     def _stats_page(query) -> dict:
