@@ -236,7 +236,10 @@ def test_file_size_limit_is_one_line_and_leaves_nothing(tmp_path, command):
     assert "file size limit" in line, line
     assert temporary_names(out) == [] and list(scratch.iterdir()) == []
     for path in out.rglob("*") if out.exists() else []:  # whatever is there is whole (a batch's early rows)
-        assert path.suffix == ".pdf" and path.read_bytes().rstrip().endswith(b"%%EOF"), path
+        if path.name == "planner-batch.json":  # the record of a batch stopped before it finished
+            assert json.loads(path.read_text(encoding="utf-8"))["complete"] is False
+        else:
+            assert path.suffix == ".pdf" and path.read_bytes().rstrip().endswith(b"%%EOF"), path
 
 
 def test_full_temporary_folder_in_a_batch(tmp_path, monkeypatch):
@@ -409,6 +412,45 @@ def test_next_run_removes_what_a_killed_writer_left(tmp_path):
     assert rc in (0, 1), err
     names = {p.name for p in out.iterdir()}
     assert not names & set(leftovers) and set(keep) <= names
+
+
+KILLED_AT_THE_RECORD = r"""
+import os, signal, sys
+from toolkit.export import files
+from toolkit.cli import console
+save = files._Batch.save_record
+def save_record(self, final=None):
+    if final is not None:
+        os.kill(os.getpid(), signal.SIGKILL)  # the batch's own files are written, its finished record is not
+    save(self, final)
+files._Batch.save_record = save_record
+sys.argv[0] = "counterpoise"
+console()
+"""
+
+
+@pytest.mark.parametrize("earlier", ["none", "complete"])
+def test_a_batch_killed_between_its_summary_and_its_record_is_continued(tmp_path, earlier):
+    # the window of a run stopped after it replaced the summary and the combined PDF but before its finished
+    # record: the next --carry-on run must replace them, whether or not an earlier run had finished
+    scratch, out = scratch_folders(tmp_path)
+    sheet = planner(tmp_path, rows=3)
+    argv = ["batch", str(sheet), "--out", str(out), "--carry-on"]
+    if earlier == "complete":
+        rc, _, err = run_cli(argv)
+        assert rc in (0, 1), err
+        assert json.loads((out / "planner-batch.json").read_text(encoding="utf-8"))["complete"]
+    child = subprocess.run([sys.executable, "-c", KILLED_AT_THE_RECORD, *argv], capture_output=True,
+                           env=child_env(scratch), timeout=120)
+    assert child.returncode == -signal.SIGKILL, child.stderr
+    assert (out / "planner-summary.xlsx").exists()
+    assert not json.loads((out / "planner-batch.json").read_text(encoding="utf-8"))["complete"]
+    result = subprocess.run([sys.executable, "-m", "toolkit", *argv, "--json"], capture_output=True, text=True,
+                            env=child_env(scratch), timeout=120)
+    assert result.returncode in (0, 1), result.stderr
+    data = json.loads(result.stdout)
+    assert data["failures"] == [] and data["done"] == 3
+    assert json.loads((out / "planner-batch.json").read_text(encoding="utf-8"))["complete"]
 
 
 KILL_POINTS = [("SIGKILL", 0.4), ("SIGTERM", 1.1), ("SIGHUP", 1.6), ("SIGKILL", 1.9), ("SIGTERM", 2.3),

@@ -375,6 +375,10 @@ class _Batch:
         from toolkit.fileio import write_atomic
 
         final = {"complete": True, "combined": None, "summary": None}
+        # the record on disk says "not finished" before the batch's own files are replaced: a run stopped
+        # between them (even by SIGKILL) leaves files that the next run may replace, never a record that
+        # vouches for files it did not make
+        self.save_record()
         if self.combined.orders:
             self.files.append(str(write_atomic(self.combined_path, self.combined.write_to, force=self.batch_force)))
             final["combined"] = _file_digest(self.combined_path)
