@@ -107,20 +107,28 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
             target = "record"
         else:
             target = RUN.STEPS[min(len(RUN.STEPS) - 1, at + 1)]
-        text = order = None
+        # the work order, the diagrams and the stored types' names in one call of a worker thread
+        text, order, errors, version_id, context = await run_in_threadpool(_step, values, target, go)
+        if context is None:  # recording a complete run
+            user = need_user(request, "record")
+            number = await run_in_threadpool(_record, values, text, order, version_id, user)
+            return RedirectResponse(f"/jobs/{_quote(number)}", status_code=303)
+        return render(request, "run.html", 422 if errors else 200, **context)
+
+    def _step(values, target, go):
+        """The step ``target`` of the run: ``(job text, order, errors, type version, page context)``; the
+        context is None when a complete run is to be recorded. A problem sends the run back to the first
+        step with a problem, the message beside its field."""
+        text = order = version_id = None
         errors: dict = {}
         if RUN.STEPS.index(target) >= RUN.STEPS.index("corrections"):
-            text, order, errors, version_id = await run_in_threadpool(RUN.preview, values, reg)
-            if errors:  # back to the first step with a problem, with the message beside its field
+            text, order, errors, version_id = RUN.preview(values, reg)
+            if errors:
                 steps = [RUN.BY_NAME[k].step for k in errors if k in RUN.BY_NAME]
                 target = min(steps, key=RUN.STEPS.index) if steps else "runs"
             elif go == "record":
-                user = need_user(request, "record")
-                number = await run_in_threadpool(_record, values, text, order, version_id, user)
-                return RedirectResponse(f"/jobs/{_quote(number)}", status_code=303)
-        # the diagrams and the stored types' names in the worker thread too, as the page's computation
-        context = await run_in_threadpool(_context, values, target, errors, order, text)
-        return render(request, "run.html", 422 if errors else 200, **context)
+                return text, order, errors, version_id, None
+        return text, order, errors, version_id, _context(values, target, errors, order, text)
 
     def _record(values, text, order, version_id, user) -> str:
         from toolkit.export.files import write_order

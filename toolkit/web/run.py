@@ -12,7 +12,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 
-__all__ = ["STEPS", "RunField", "FIELDS", "compose", "preview", "plane_names"]
+__all__ = ["STEPS", "RunField", "FIELDS", "compose", "preview", "plane_names", "fields_html"]
 
 STEPS = ("rotor", "angles", "runs", "corrections", "record")
 STEP_TITLES = {"rotor": "1 Rotor", "angles": "2 Angle reference and senses", "runs": "3 Readings",
@@ -236,3 +236,53 @@ def preview(values: dict, reg=None):
         return None, None, place(problems, where), version_id
     text = R.toml_text(data, "job entered in the browser face (guided balancing run)")
     return text, order, {}, version_id
+
+
+#: The fields a stored rotor type supplies: not asked for when a type is chosen.
+FROM_TYPE = frozenset(("rotor", "mass", "service_speed", "balancing_speed", "grade", "material", "bearing_span",
+                       "centre_of_mass", "p1_name", "p1_position", "p1_radius", "p1_surface", "p2_name",
+                       "p2_position", "p2_radius", "p2_surface"))
+
+
+def fields_html(values: dict, step: str, errors: dict, planes: list[str], types: list[str], template=None):
+    """Every field of the run as HTML: this step's as controls (each with its error beside it and its help),
+    the others' as hidden inputs, so that every step posts every field; with a stored type's ``template``
+    the fields it supplies are not asked for. Built here rather than in the template: forty fields a page
+    cost a template loop more than the rest of the page."""
+    from markupsafe import Markup, escape
+
+    first = "plane " + (planes[0] if len(planes) > 0 else "1")
+    second = "plane " + (planes[1] if len(planes) > 1 else "2")
+    out = []
+    for f in FIELDS:
+        value = values.get(f.name, "")
+        if f.step != step or (template and f.name in FROM_TYPE):
+            out.append(f'<textarea name="{f.name}" hidden>{escape(value)}</textarea>\n')
+            continue
+        err = errors.get(f.name)
+        out.append(f'<div class="field{" bad" if err else ""}">\n')
+        if f.kind == "check":
+            out.append(f'<label><input type="checkbox" name="{f.name}" value="on"{" checked" if value else ""}> '
+                       f'{escape(f.label)}</label>\n')
+        else:
+            label = f.label.replace("plane 1", first).replace("plane 2", second)
+            out.append(f'<label for="r-{f.name}">{escape(label)}</label>\n')
+            if f.name == "type":
+                options = "".join(f'<option value="{escape(t)}"{" selected" if value == t else ""}>{escape(t)}</option>'
+                                  for t in types)
+                out.append(f'<select id="r-type" name="type"><option value="">(a new rotor, described below)</option>'
+                           f'{options}</select>\n')
+            elif f.kind == "choice":
+                options = "".join(f'<option value="{escape(c)}"{" selected" if value == c else ""}>'
+                                  f'{escape(c or "(as the rotor type says)")}</option>' for c in f.choices)
+                out.append(f'<select id="r-{f.name}" name="{f.name}">{options}</select>\n')
+            elif f.kind == "lines":
+                out.append(f'<textarea id="r-{f.name}" name="{f.name}" rows="3">{escape(value)}</textarea>\n')
+            else:
+                out.append(f'<input id="r-{f.name}" name="{f.name}" value="{escape(value)}">\n')
+        if err:
+            out.append(f'<p class="error" id="err-{f.name}" role="alert">{escape(err)}</p>\n')
+        if f.help:
+            out.append(f'<p class="help">{escape(f.help)}</p>\n')
+        out.append("</div>\n")
+    return Markup("".join(out))
