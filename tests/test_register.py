@@ -351,6 +351,40 @@ def test_coefficients_per_type_trim_history_and_one_run_solution(reg):
     assert history[1]["coefficients"][0][0]["amount"] == pytest.approx(0.2833, abs=1e-4)  # derived here (D)
 
 
+def test_a_trim_stores_its_coefficients_as_a_new_set_in_the_same_transaction(reg):
+    from toolkit.coefficients import coefficients_from, trim_update
+    from toolkit.influence import solve_one_plane
+
+    R.save_type(reg, "F-400", support.TEMPLATE)
+    R.save_type(reg, "other", support.TEMPLATE)
+    # derived here (D): the one-plane vector triangle of the test above
+    c = coefficients_from(solve_one_plane("4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49"))
+    first = R.store_coefficients(reg, "F-400", c)["set"]
+    foreign = R.store_coefficients(reg, "other", c)["set"]
+    number = _record(reg)[1]["order_number"]
+    updated = trim_update(c, ["2.1 mm/s@285"], {"plane": "6 g@255"}, ["0.4 mm/s@285"])
+    data = {"before": ["2.1 mm/s@285"], "installed": ["plane=6 g@255"], "after": ["0.4 mm/s@285"]}
+    for kwargs, words in [({"kind": "machine"}, "machine trim"),
+                          ({"kind": "coefficients", "parent_id": foreign}, "not a coefficient set of rotor type")]:
+        kind = kwargs.pop("kind")
+        with pytest.raises(BadInput, match=words):
+            R.record_trim(reg, number, kind, data, coefficients=updated, **kwargs)
+    assert R.job_detail(reg, number)["trims"] == [] and len(R.coefficient_history(reg, "F-400")) == 1
+    done = R.record_trim(reg, number, "coefficients", data, coefficients=updated, parent_id=first, by="test")
+    assert done["coefficient_set"] == {"set": foreign + 1, "type": "F-400", "parent": first}
+    newest = R.coefficient_history(reg, "F-400")[-1]
+    assert (newest["reason"], newest["parent"], newest["by"]) == ("trim", first, "test")
+    assert newest["provenance"]["trim"] == {**data, "job": number, "step": 1, "source": "command"}
+    assert newest["coefficients"][0][0]["amount"] == pytest.approx(0.2833, abs=1e-4)  # derived here (D), as above
+    assert R.job_detail(reg, number)["trims"][0]["data"]["coefficient_set"] == done["coefficient_set"]
+    # a job without a rotor type has no type to store them for: refused, nothing recorded
+    _order, loose = R.record_job(reg, R.compose_job(reg, "F-400", support.readings("21000 g*mm@40",
+                                                                                   "16500 g*mm@200"))[1])
+    with pytest.raises(BadInput, match="has no rotor type"):
+        R.record_trim(reg, loose["order_number"], "coefficients", data, coefficients=updated)
+    assert R.job_detail(reg, loose["order_number"])["trims"] == [] and len(R.coefficient_history(reg, "F-400")) == 2
+
+
 def test_stale_coefficients_are_flagged():
     assert R.stale_warnings("2026-11-30T00:00:00.000000Z", 1480.0, 1480.0, 180, "2026-12-01") == []
     old = R.stale_warnings("2025-01-01T00:00:00.000000Z", 1480.0, 1480.0, 180, "2026-12-01")

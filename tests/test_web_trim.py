@@ -11,6 +11,7 @@ from __future__ import annotations
 import json
 import re
 from html import unescape
+from pathlib import Path
 
 import pytest
 
@@ -238,3 +239,278 @@ def test_the_trim_page_draws_the_readings_after_and_the_trim_with_units_and_sens
     assert "trim, plane drive-end hub: correction remove 60.00 g at 300°" in words  # in the unit typed, at 160 mm
     assert "allowance circle" in words and "counted against rotation" in words and "0° = keyway" in words
     assert "trim, plane fan-end rim" not in words  # within its limit: no trim there
+
+
+# -- each error beside its field, by the error's parameter ---------------------------------------------------
+
+def _errors(text: str) -> dict:
+    """The error shown beside each field (and above the form, ``""``)."""
+    found = {k: unescape(v) for k, v in re.findall(r'<p class="error" id="err-(\w+)"[^>]*>([^<]*)</p>', text)}
+    top = re.search(r'<p class="error" role="alert">([^<]*)</p>', text)
+    return found | ({"": unescape(top.group(1))} if top else {})
+
+
+#: (field, [(typed, the error beside it)]): a reading's place among the readings is worded as its line in
+#: the field, blank lines counted; a problem with the whole field has no line.
+COEFFICIENT_ERRORS = [
+    ("before", [("4.2 mm/s@285\n\n3.1@40", r"line 3: '3\.1' has no unit"),
+                ("4.2 mm/s@285\n3.1 mm/s@north", r"line 2: 'north' is not an angle"),
+                ("4.2 mm/s@285", r"give 2 reading\(s\), one per sensor \(near, far\)")]),
+    ("installed", [("drive-end hub=3 g@10\nfan-end rim=3 mm@10", r"line 2: .*3 mm.* is not a mass"),   # the library's
+                   ("drive-end hub=3 g@10\nfan-end rim=3 g@west", r"line 2: 'west' is not an angle"),  # "installed PLANE"
+                   ("drive-end hub=0 g@10", r"all masses are zero")]),
+    ("installed", [("drive-end hub 3 g@10", r"line 1: 'drive-end hub 3 g@10' is not PLANE=MASS@ANGLE"),
+                   ("drive-end hub=3 g@10\n\nno such plane=3 g@10", r"line 3: unknown plane 'no such plane'"),
+                   ("drive-end hub=3 g@10\ndrive-end hub=4 g@10", r"line 2: plane drive-end hub is given on line 1")]),
+    ("after", [("0.9 mm/s@100\n2 um@200", r"line 2: '2 um@200' is a displacement; the coefficients are for vibration"),
+               ("0.9 mm/s@100", r"give 2 reading\(s\)"),
+               ("4.2 mm/s@285\n3.1 mm/s@40", r"identical to readings before the installed correction")]),
+]
+
+
+@pytest.mark.parametrize("field, typed, expected", [(f, t, e) for f, rows in COEFFICIENT_ERRORS for t, e in rows])
+def test_a_coefficient_trim_puts_each_error_beside_its_field_with_the_line(shop, field, typed, expected):
+    _reg, app, _out = shop
+    number = _record(app, **RUNS)
+    client, token = _client(app, "operator")
+    start = _fields(client.get(f"/jobs/{number}/trim").text)
+    given = {**start, "after": "0.9 mm/s@100\n0.7 mm/s@200", field: typed}
+    page = client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "compute", **given})
+    assert page.status_code == 422
+    errors = _errors(page.text)
+    assert list(errors) == [field], errors  # beside that field only
+    assert re.match(expected, errors[field]), errors[field]
+    assert _fields(page.text) == given  # what was typed comes back
+
+
+#: (what is wrong, [(typed, the error beside the readings after)])
+MACHINE_ERRORS = [
+    ("a reading", [("drive-end hub=60 g@300\nfan-end rim=3 g", r"line 2: '3 g' is not a vector"),
+                   ("drive-end hub=60 g@300\n\nfan-end rim=3 mm@20",
+                    r"line 3: '3 mm' is not a unbalance .*a mass at the plane"),
+                   ("drive-end hub=60 g@300\nfan-end rim=3 g@east", r"line 2: 'east' is not an angle")]),
+    ("the planes", [("middle=60 g@300\nfan-end rim=3 g@20", r"line 1: 'middle=60 g@300': give PLANE=AMOUNT@ANGLE"),
+                    ("drive-end hub=60 g@300\ndrive-end hub=3 g@20", r"line 2: plane drive-end hub is given on line 1"),
+                    ("drive-end hub=60 g@300", r"no reading for plane\(s\) fan-end rim")]),
+]
+
+
+@pytest.mark.parametrize("typed, expected", [(t, e) for _what, rows in MACHINE_ERRORS for t, e in rows])
+def test_a_machine_trim_puts_each_error_beside_the_readings_with_the_line(shop, typed, expected):
+    reg, app, _out = shop
+    number = _record(app)
+    client, token = _client(app, "operator")
+    page = client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "record", "after": typed})
+    assert page.status_code == 422
+    errors = _errors(page.text)
+    assert list(errors) == ["after"], errors
+    assert re.match(expected, errors["after"]), errors["after"]
+    assert R.job_detail(reg, number)["trims"] == []
+
+
+def test_the_library_names_the_parameter_the_trim_page_places():
+    # the parameters the library gives (the field, then the item: "after 2", "installed near angle") are
+    # what the page places; nothing is read from the message text
+    from toolkit.coefficients import coefficients_from, trim_update
+    from toolkit.influence import solve_one_plane
+    from toolkit.web.trim import _placed
+
+    c = coefficients_from(solve_one_plane("4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49"))
+    items = {"before": {"1": 1}, "after": {"1": 4}, "installed": {"plane": 2}}
+    cases = [((["4.2@285"], {"plane": "6 g@255"}, ["0.4 mm/s@285"]), "before 1", {"before": "line 1: "}),
+             ((["2.1 mm/s@285"], {"plane": "6 g@up"}, ["0.4 mm/s@285"]), "installed plane angle",
+              {"installed": "line 2: "}),
+             ((["2.1 mm/s@285"], {"plane": "6 g@255"}, ["0.4 um@285"]), "after 1", {"after": "line 4: "}),
+             ((["2.1 mm/s@285"], {"plane": "6 g@255"}, ["2.1 mm/s@285"]), "after", {"after": "identical to "})]
+    for args, parameter, placed in cases:
+        with pytest.raises(BadInput) as caught:
+            trim_update(c, *args)
+        assert caught.value.parameter == parameter
+        (field, words), = _placed(caught.value, items).items()
+        assert {field: words[:len(placed[field])]} == placed
+    assert _placed(BadInput("run: singular data"), items) == {"": "run: singular data"}  # about no field
+
+
+# -- storing a trim's updated coefficients as a new set of the job's rotor type -------------------------------
+
+EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
+FAN_ORIGINAL = ["17.50 um@253.7", "15.28 um@52.2", "32.89 um@290.3", "24.74 um@93.3"]  # invented readings
+FAN_AFTER = "18.50 um@250.0\n15.00 um@50.0\n34.00 um@288.0\n24.00 um@92.0"              # invented readings
+
+
+def _fan_type(reg, with_set: bool = True) -> int | None:
+    """The invented exhaust-fan type of the examples, with its coefficients from the invented runs stored."""
+    R.save_type(reg, "exhaust fan", (EXAMPLES / "job-fan-runs.toml").read_text(encoding="utf-8"))
+    if not with_set:
+        return None
+    return R.store_coefficients(reg, "exhaust fan", _runs_set(), provenance={"jobs": ["invented"]})["set"]
+
+
+def _one_run_job(reg) -> str:
+    from toolkit.register.oneshot import balance_from_type
+
+    _order, record = balance_from_type(reg, "exhaust fan", serial="SN-invented-2", original=FAN_ORIGINAL)
+    return record["order_number"]
+
+
+def _fan_job(reg, app):
+    """A one-run job of the exhaust-fan type with its set stored, an operator's client and its trim form."""
+    _fan_type(reg)
+    number = _one_run_job(reg)
+    client, token = _client(app, "operator")
+    return number, client, token, _fields(client.get(f"/jobs/{number}/trim").text)
+
+
+def _box(text: str) -> bool | None:
+    """None: the page offers no box; else whether the box is ticked."""
+    box = re.search(r'<input type="checkbox" name="store_coefficients"[^>]*>', text)
+    return None if box is None else " checked" in box.group(0)
+
+
+def _computed(client, token, number, after, **extra) -> str:
+    """The trim page worked out from the prefilled fields and the readings ``after`` (offered with a result)."""
+    fields = _fields(client.get(f"/jobs/{number}/trim").text)
+    page = client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "compute", **fields, "after": after,
+                                                     **extra})
+    assert page.status_code == 200, page.text[-3000:]
+    return page.text
+
+
+def test_a_one_run_job_trims_from_its_register_set_and_stores_the_update_when_asked(shop, capsys):
+    reg, app, _out = shop
+    first = _fan_type(reg)
+    number = _one_run_job(reg)
+    client, token = _client(app, "operator")
+    start = client.get(f"/jobs/{number}/trim")
+    assert start.status_code == 200 and f"from coefficient set {first} of the register" in start.text
+    assert _box(start.text) is None  # offered with the worked-out trim, beside its record button
+    fields = _fields(start.text)
+    assert fields["before"].splitlines() == FAN_ORIGINAL
+    assert _box(_computed(client, token, number, FAN_AFTER)) is False  # off unless ticked
+    # computing with the box ticked stores nothing, and the tick comes back with the page
+    assert _box(_computed(client, token, number, FAN_AFTER, store_coefficients="on")) is True
+    assert len(R.coefficient_history(reg, "exhaust fan")) == 1
+    # the command line's register trim of the same readings first: it updates the newest set, which is the
+    # one this job started from
+    argv = ["register", "trim", "exhaust fan", "--register", str(reg.url.database), "--job", number, "--json"]
+    for line in fields["installed"].splitlines():
+        argv += ["--installed", line]
+    for b, a in zip(FAN_ORIGINAL, FAN_AFTER.splitlines()):
+        argv += ["--before", b, "--after", a]
+    assert main(argv) == 0
+    by_cli = json.loads(capsys.readouterr().out)
+    assert (by_cli["set"], by_cli["parent"]) == (first + 1, first)
+    done = client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "record", **fields, "after": FAN_AFTER,
+                                                     "store_coefficients": "on"})
+    assert done.status_code == 303
+    history = R.coefficient_history(reg, "exhaust fan")
+    # a new set, its parent the set the trim started from (not merely the newest); nothing earlier changed
+    assert [(h["set"], h["reason"], h["parent"]) for h in history] == [
+        (first, "measured", None), (first + 1, "trim", first), (first + 2, "trim", first)]
+    kept = R.coefficient_set(reg, first)["coefficients"].array()
+    assert abs(kept - _runs_set().array()).max() <= 1e-9 * abs(kept).max()  # the set started from: unchanged
+    trim = R.job_detail(reg, number)["trims"][0]
+    assert trim["data"]["coefficient_set"] == {"set": first + 2, "type": "exhaust fan", "parent": first}
+    provenance = history[2]["provenance"]["trim"]
+    assert (provenance["job"], provenance["step"], provenance["source"]) == (number, 1, "browser")
+    assert provenance["after"] == FAN_AFTER.splitlines() and provenance["before"] == FAN_ORIGINAL
+    # the stored set is the trim's updated coefficients shown on the page, and the command line's update
+    stored = R.coefficient_set(reg, first + 2)["coefficients"]
+    cli = R.coefficient_set(reg, first + 1)["coefficients"]
+    shown_rows = trim["data"]["updated_coefficients"]["matrix"]
+    for row, mine, theirs in zip(stored.matrix, shown_rows, cli.matrix):
+        for z, (real, imag), w in zip(row, mine, theirs):
+            assert z == pytest.approx(complex(real, imag), rel=1e-9) and z == pytest.approx(w, rel=1e-6)
+    assert (stored.sensors, stored.planes) == (cli.sensors, cli.planes)
+    job_page = client.get(f"/jobs/{number}?done=trim").text
+    assert f"Coefficient set {first + 2} stored for type exhaust fan" in job_page
+    # the next trim starts from the stored set and would store its update under it
+    second = _computed(client, token, number, "18 um@250\n15 um@50\n33 um@288\n24 um@92")
+    assert f"coefficient set {first + 2})" in second and f"whose parent is set {first + 2}" in second
+
+
+def test_without_the_box_a_trim_stores_no_set(shop):
+    reg, app, _out = shop
+    number, client, token, fields = _fan_job(reg, app)
+    done = client.post(f"/jobs/{number}/trim", data={"csrf": token, "go": "record", **fields, "after": FAN_AFTER})
+    assert done.status_code == 303 and len(R.coefficient_history(reg, "exhaust fan")) == 1
+    trim = R.job_detail(reg, number)["trims"][0]
+    assert "coefficient_set" not in trim["data"]
+    assert "stored for type" not in client.get(f"/jobs/{number}?done=trim").text
+
+
+def test_storing_is_refused_without_the_token_without_a_session_and_for_a_role_that_may_not(shop):
+    from toolkit.web import accounts as A
+
+    reg, app, _out = shop
+    number, client, token, fields = _fan_job(reg, app)
+    data = {"go": "record", **fields, "after": FAN_AFTER, "store_coefficients": "on"}
+    assert client.post(f"/jobs/{number}/trim", data=data).status_code == 403                    # no token
+    assert client.post(f"/jobs/{number}/trim", data={**data, "csrf": token[::-1]}).status_code == 403
+    anonymous, atoken = _client(app)
+    assert anonymous.post(f"/jobs/{number}/trim", data={**data, "csrf": atoken}).status_code == 401  # no session
+    refused = [role for role in ("operator", "machinist", "planner", "inspector", "administrator")
+               if not A.may(role, "check")]
+    assert refused == ["planner"]
+    for role in refused:
+        person, ptoken = _client(app, role)
+        page = person.post(f"/jobs/{number}/trim", data={**data, "csrf": ptoken})
+        assert page.status_code == 403 and "may not" in page.text
+    assert len(R.coefficient_history(reg, "exhaust fan")) == 1 and R.job_detail(reg, number)["trims"] == []
+
+
+def test_the_box_is_offered_only_for_a_job_of_a_type_with_a_stored_set(shop):
+    reg, app, _out = shop
+    client, token = _client(app, "operator")
+    # no rotor type: no box
+    plain = _record(app, **RUNS)
+    page = _computed(client, token, plain, "0.9 mm/s@100\n0.7 mm/s@200")
+    assert _box(page) is None and "cannot be stored" not in page
+    start = _fields(page)
+    crafted = client.post(f"/jobs/{plain}/trim", data={"csrf": token, "go": "record", **start,
+                                                       "after": "0.9 mm/s@100\n0.7 mm/s@200",
+                                                       "store_coefficients": "on"})
+    assert crafted.status_code == 422 and "no rotor type" in crafted.text
+    assert R.job_detail(reg, plain)["trims"] == []
+    # a type without a stored set: no box, and a crafted tick records nothing
+    _fan_type(reg, with_set=False)
+    t, text = R.compose_job(reg, "exhaust fan", "")
+    _order, rec = R.record_job(reg, text, type_version_id=t["version_id"])
+    typed = rec["order_number"]
+    page = _computed(client, token, typed, FAN_AFTER)
+    assert _box(page) is None and "has no stored coefficient set" in page
+    crafted = client.post(f"/jobs/{typed}/trim", data={"csrf": token, "go": "record", **_fields(page),
+                                                       "after": FAN_AFTER, "store_coefficients": "on"})
+    assert crafted.status_code == 422 and R.job_detail(reg, typed)["trims"] == []
+    # a newest set of other sensors: no box, the page says why (one-run balancing reads the newest set's sensors)
+    from toolkit.coefficients import coefficients_from
+    from toolkit.influence import solve_one_plane
+
+    other = R.store_coefficients(reg, "exhaust fan", coefficients_from(solve_one_plane(
+        "4.20 mm/s@285", "10 g@0", "6.1237 mm/s@251.49")))["set"]
+    page = unescape(_computed(client, token, typed, FAN_AFTER))
+    assert _box(page) is None and f"sensors (drive end 990 rpm, free end 990 rpm, drive end 1480 rpm, free end " \
+        f"1480 rpm) differ from those of set {other} of type exhaust fan (sensor)" in page
+    # the same type once its newest set fits: a trial-run job's trim may store its update, a set with no parent
+    # (it started from the job's own trial runs, not from a stored set)
+    first = R.store_coefficients(reg, "exhaust fan", _runs_set(), provenance={"jobs": ["invented"]})["set"]
+    page = _computed(client, token, typed, FAN_AFTER)
+    assert _box(page) is False and "from the job's trial-mass runs" in unescape(page)
+    assert "whose parent is set" not in page
+    done = client.post(f"/jobs/{typed}/trim", data={"csrf": token, "go": "record", **_fields(page),
+                                                    "after": FAN_AFTER, "store_coefficients": "on"})
+    assert done.status_code == 303
+    newest = R.coefficient_history(reg, "exhaust fan")[-1]
+    assert newest["set"] == first + 1 and newest["parent"] is None and newest["reason"] == "trim"
+    assert newest["provenance"]["trim"]["job"] == typed
+    # a machine trim has no coefficients: no box
+    assert _box(_computed(client, token, _record(app), "drive-end hub=60 g@300\nfan-end rim=3 g@20")) is None
+
+
+def _runs_set():
+    """The coefficients of the invented two-plane runs of the examples."""
+    from toolkit.coefficients import coefficients_from
+    from toolkit.influence import solve_runs
+    from toolkit.runs import load_runs
+
+    return coefficients_from(solve_runs(load_runs(EXAMPLES / "runs-two-plane.toml")))

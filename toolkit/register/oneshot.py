@@ -17,7 +17,26 @@ from toolkit.errors import BadInput
 from toolkit.register import records as R
 from toolkit.register.store import DEFAULT_STALE_DAYS, Register
 
-__all__ = ["balance_from_type"]
+__all__ = ["balance_from_type", "set_reference", "referenced_set"]
+
+_REFERENCE = "register coefficient set "
+
+
+def set_reference(set_id: int) -> str:
+    """How a recorded job names the register's coefficient set it was solved from (its
+    ``measurement.coefficients``).
+
+    >>> set_reference(3), referenced_set(set_reference(3)), referenced_set("coefficients.json")
+    ('register coefficient set 3', 3, None)
+    """
+    return f"{_REFERENCE}{int(set_id)}"
+
+
+def referenced_set(text) -> int | None:
+    """The set number a job's ``measurement.coefficients`` names (:func:`set_reference`), or None for a file."""
+    if isinstance(text, str) and text.startswith(_REFERENCE) and text[len(_REFERENCE):].isdigit():
+        return int(text[len(_REFERENCE):])
+    return None
 
 
 def balance_from_type(reg: Register, type_name: str, *, serial: str, original, customer: str | None = None,
@@ -34,7 +53,7 @@ def balance_from_type(reg: Register, type_name: str, *, serial: str, original, c
         raise BadInput.about("original", f"give {len(coefficients.sensors)} reading(s), one per sensor "
                        f"({', '.join(coefficients.sensors)}), in that order")
     over = {"order": {"serial": str(serial).strip()},
-            "measurement": {"kind": "coefficients", "coefficients": f"register coefficient set {set_id}",
+            "measurement": {"kind": "coefficients", "coefficients": set_reference(set_id),
                             "original": original}}
     if customer is not None:
         over["order"]["customer"] = customer

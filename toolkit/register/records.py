@@ -22,6 +22,7 @@ __all__ = ["STATUSES", "TRANSITIONS", "ROLES", "save_type", "change_template", "
            "compose_job", "record_job", "store_order", "reserve_number", "recorded_in_folder", "add_files", "list_jobs",
            "job_detail", "set_status", "record_check",
            "record_signoff", "record_marks", "store_coefficients", "coefficient_history", "latest_coefficients",
+           "coefficient_set",
            "trim_coefficients", "record_trim", "stale_warnings", "sha256_text", "toml_text"]
 
 STATUSES = ("planned", "balanced", "checked", "released", "rework")
@@ -772,16 +773,24 @@ def record_signoff(reg: Register, number: str, role: str, name: str, *, signed: 
         return run(c)
 
 
-def record_trim(reg: Register, number: str, kind: str, data: dict, *, by: str = "", source: str = "command") -> dict:
+def record_trim(reg: Register, number: str, kind: str, data: dict, *, by: str = "", source: str = "command",
+                coefficients=None, parent_id: int | None = None) -> dict:
     """Record a trim run against job ``number`` as a new row (its step is one more than the job's last):
-    ``kind`` coefficients or machine, ``data`` what was measured and worked out (JSON-able)."""
+    ``kind`` coefficients or machine, ``data`` what was measured and worked out (JSON-able).
+
+    With ``coefficients`` (the trim's updated :class:`~toolkit.coefficients.Coefficients`) the job's rotor
+    type also gets them as a new coefficient set, in the same transaction: reason ``trim``, parent
+    ``parent_id`` (the set the trim started from, a set of the same type, or None), provenance naming the
+    job, the trim step and the readings. The trim row then keeps ``coefficient_set`` ({set, type, parent})
+    in its data and the result has it too."""
     from sqlalchemy import func, select
 
-    from toolkit.register.schema import trim_runs
+    from toolkit.register.schema import coefficient_sets, rotor_types, trim_runs, type_versions
 
     if kind not in ("coefficients", "machine"):
         raise BadInput.about("kind", f"{kind!r} is not coefficients or machine")
-    text = _text(json.dumps(data, ensure_ascii=False, separators=(",", ":")), "trim data", MAX_TEXT)
+    if coefficients is not None and kind != "coefficients":
+        raise BadInput.about("coefficients", "a machine trim has no influence coefficients to store")
     with reg.write() as conn:
         job = _job_row(conn, number)
         if job["status"] == "released":
@@ -789,9 +798,28 @@ def record_trim(reg: Register, number: str, kind: str, data: dict, *, by: str = 
         last = conn.execute(select(func.max(trim_runs.c.step)).where(trim_runs.c.job_id == job["id"])).scalar()
         step = int(last or 0) + 1
         when = now()
+        stored = None
+        if coefficients is not None:
+            type_row = None if job["type_version_id"] is None else conn.execute(
+                select(rotor_types.c.id, rotor_types.c.name).join(type_versions, type_versions.c.type_id
+                                                                  == rotor_types.c.id)
+                .where(type_versions.c.id == job["type_version_id"])).first()
+            if type_row is None:
+                raise BadInput.about("coefficients", f"order {number} has no rotor type to store them for")
+            if parent_id is not None and conn.execute(select(coefficient_sets.c.type_id).where(
+                    coefficient_sets.c.id == int(parent_id))).scalar() != type_row[0]:
+                raise BadInput.about("parent_id", f"{parent_id!r} is not a coefficient set of rotor type "
+                                                  f"{type_row[1]!r}")
+            provenance = {"trim": {"job": number, "step": step, "source": source,
+                                   **{k: list(data.get(k, [])) for k in ("before", "installed", "after")}}}
+            set_id = _insert_set(conn, type_row[0], coefficients, provenance, "trim", parent_id, by, when)
+            stored = {"set": set_id, "type": type_row[1], "parent": parent_id}
+            data = {**data, "coefficient_set": stored}
+        text = _text(json.dumps(data, ensure_ascii=False, separators=(",", ":")), "trim data", MAX_TEXT)
         conn.execute(trim_runs.insert().values(job_id=job["id"], step=step, kind=kind, data=text, at=when,
                                                by=_by(by), source=source))
-    return {"order_number": number, "step": step, "kind": kind, "at": when}
+    result = {"order_number": number, "step": step, "kind": kind, "at": when}
+    return {**result, "coefficient_set": stored} if stored else result
 
 
 def record_marks(conn, job, marks: dict[int, tuple[str, str]], source: str) -> list[dict]:
@@ -808,26 +836,36 @@ def record_marks(conn, job, marks: dict[int, tuple[str, str]], source: str) -> l
 
 # -- influence coefficients -------------------------------------------------------------------------------
 
+def _provenance(coefficients, provenance: dict | None) -> dict:
+    return {"sensors": list(coefficients.sensors), "planes": list(coefficients.planes),
+            "weight_angles": coefficients.weight_angles, "phase": coefficients.phase,
+            "speed_rpm": coefficients.speed_rpm, "radius_mm": dict(coefficients.radius_mm),
+            "measured": coefficients.saved, **(provenance or {})}
+
+
+def _insert_set(conn, type_id: int, coefficients, provenance: dict | None, reason: str, parent_id, by: str,
+                when: str) -> int:
+    """A new coefficient set row inside a write transaction; its id."""
+    from toolkit.register.schema import coefficient_sets
+
+    prov = _provenance(coefficients, provenance)
+    return int(conn.execute(coefficient_sets.insert().values(
+        type_id=type_id, parent_id=parent_id, reason=reason,
+        data=json.dumps(coefficients.to_dict(), ensure_ascii=False), speed_rpm=coefficients.speed_rpm,
+        provenance=json.dumps(prov, ensure_ascii=False, default=str), created=when, created_by=_by(by))
+        .returning(coefficient_sets.c.id)).scalar_one())
+
+
 def store_coefficients(reg: Register, type_name: str, coefficients, *, provenance: dict | None = None,
                        reason: str = "measured", parent_id: int | None = None, by: str = "") -> dict:
     """Store a :class:`~toolkit.coefficients.Coefficients` set for a rotor type (a new row; the history
     keeps every earlier set)."""
-    from toolkit.register.schema import coefficient_sets
-
-    data = coefficients.to_dict()
-    prov = {"sensors": list(coefficients.sensors), "planes": list(coefficients.planes),
-            "weight_angles": coefficients.weight_angles, "phase": coefficients.phase,
-            "speed_rpm": coefficients.speed_rpm, "radius_mm": dict(coefficients.radius_mm),
-            "measured": coefficients.saved, **(provenance or {})}
     when = now()
     with reg.write() as conn:
-        type_id = _type_id(conn, type_name)
-        set_id = conn.execute(coefficient_sets.insert().values(
-            type_id=type_id, parent_id=parent_id, reason=reason, data=json.dumps(data, ensure_ascii=False),
-            speed_rpm=coefficients.speed_rpm, provenance=json.dumps(prov, ensure_ascii=False, default=str),
-            created=when, created_by=_by(by)).returning(coefficient_sets.c.id)).scalar_one()
-    return {"set": int(set_id), "type": _type_name(type_name), "reason": reason, "parent": parent_id,
-            "created": when, "provenance": prov}
+        set_id = _insert_set(conn, _type_id(conn, type_name), coefficients, provenance, reason, parent_id, by,
+                             when)
+    return {"set": set_id, "type": _type_name(type_name), "reason": reason, "parent": parent_id,
+            "created": when, "provenance": _provenance(coefficients, provenance)}
 
 
 def coefficient_history(reg: Register, type_name: str) -> list[dict]:
@@ -844,13 +882,23 @@ def coefficient_history(reg: Register, type_name: str) -> list[dict]:
              "coefficients": json.loads(r["data"])["coefficients"]} for r in rows]
 
 
-def latest_coefficients(reg: Register, type_name: str):
-    """The newest coefficient set of a rotor type: ``(set id, Coefficients, created)``."""
+def _set_of_row(row):
+    """The :class:`~toolkit.coefficients.Coefficients` of a coefficient set row, read by the one reader of
+    the format (which checks every field)."""
     import tempfile
 
+    from toolkit.coefficients import load_coefficients
+
+    with tempfile.TemporaryDirectory() as folder:
+        path = Path(folder) / "set.json"
+        path.write_text(row["data"], encoding="utf-8")
+        return load_coefficients(path)
+
+
+def latest_coefficients(reg: Register, type_name: str):
+    """The newest coefficient set of a rotor type: ``(set id, Coefficients, created)``."""
     from sqlalchemy import select
 
-    from toolkit.coefficients import load_coefficients
     from toolkit.register.schema import coefficient_sets
 
     with reg.read() as conn:
@@ -859,11 +907,24 @@ def latest_coefficients(reg: Register, type_name: str):
                            .order_by(coefficient_sets.c.id.desc()).limit(1)).mappings().first()
     if row is None:
         raise BadInput(f"rotor type {type_name!r} has no stored influence coefficients yet")
-    with tempfile.TemporaryDirectory() as folder:  # the one reader of the format checks every field
-        path = Path(folder) / "set.json"
-        path.write_text(row["data"], encoding="utf-8")
-        coefficients = load_coefficients(path)
-    return int(row["id"]), coefficients, row["created"]
+    return int(row["id"]), _set_of_row(row), row["created"]
+
+
+def coefficient_set(reg: Register, set_id: int) -> dict:
+    """One stored coefficient set by its number: ``{set, type, coefficients (Coefficients), parent,
+    reason, created}``."""
+    from sqlalchemy import select
+
+    from toolkit.register.schema import coefficient_sets, rotor_types
+
+    with reg.read() as conn:
+        row = conn.execute(select(coefficient_sets, rotor_types.c.name.label("type_name"))
+                           .join(rotor_types, rotor_types.c.id == coefficient_sets.c.type_id)
+                           .where(coefficient_sets.c.id == int(set_id))).mappings().first()
+    if row is None:
+        raise BadInput.about("set_id", f"no coefficient set {set_id!r} in the register")
+    return {"set": int(row["id"]), "type": row["type_name"], "coefficients": _set_of_row(row),
+            "parent": row["parent_id"], "reason": row["reason"], "created": row["created"]}
 
 
 def trim_coefficients(reg: Register, type_name: str, before, installed, after, *, by: str = "",

@@ -235,11 +235,11 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
 
     # -- trim runs (the guided run's last step, against a recorded job) --------------------------------
 
-    def _trim_context(d, values, result=None, errors=None):
+    def _trim_context(d, values, result=None, errors=None, store=False):
         from toolkit.web import trim as TRIM
 
         try:
-            b = TRIM.basis(d)
+            b = TRIM.basis(d, reg)
         except CounterpoiseError as exc:
             raise refused(409, f"job {d['order_number']}: no trim run can start from it here: {exc}") from None
         from toolkit.web.diagrams import trim_svg
@@ -247,11 +247,13 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
         values = values if values is not None else b["values"]
         return {"job": d, "basis": b, "values": values, "result": result, "svg": trim_svg(d, b, values, result),
                 "errors": errors or {}, "trim_fields": TRIM.TRIM_FIELDS, "titles": RUN.STEP_TITLES,
-                "steps": RUN.STEPS}
+                "steps": RUN.STEPS, "offer": TRIM.store_offer(d, b, reg), "store": store}
 
     async def trim_page(request):
         """A trim run of a recorded job: compute (anyone who may compute), record (who may enter a check run);
-        every field comes back with the page, so nothing typed is lost."""
+        every field comes back with the page, so nothing typed is lost. Recording a coefficient trim of a job
+        whose rotor type has stored coefficients may also store the trim's updated coefficients as the type's
+        next set (the box ``store_coefficients``, off unless ticked; the same role as recording)."""
         from toolkit.web import trim as TRIM
 
         number = request.path_params["number"]
@@ -264,23 +266,39 @@ def routes(*, reg, render, form_of, need_user, out: Path, refused, headers=None)
             return render(request, "trim.html", **await run_in_threadpool(_trim_context, d, kept))
         form = await form_of(request)
         go = str(form.get("go", "compute"))
+        store = str(form.get("store_coefficients", "")) == "on"
         user = need_user(request, "check" if go == "record" else None)
         d = await run_in_threadpool(_detail, number)
         values = {name: str(form.get(name, ""))[:4000] for name, _l, _h in TRIM.TRIM_FIELDS}
         if sum(map(len, values.values())) <= 1500:  # a session cookie stays small; a longer draft is not kept
             request.session[key] = {"step": len(d["trims"]) + 1, "values": values}
-        result, errors = await run_in_threadpool(TRIM.compute, d, values)
+        result, errors = await run_in_threadpool(TRIM.compute, d, values, reg)
         if errors or go != "record":
             return render(request, "trim.html", 422 if errors else 200,
-                          **await run_in_threadpool(_trim_context, d, values, result, errors))
+                          **await run_in_threadpool(_trim_context, d, values, result, errors, store))
         try:
-            await run_in_threadpool(R.record_trim, reg, number, result["kind"], result, by=user["name"],
-                                    source="browser")
+            await run_in_threadpool(_record_trim, d, result, store, user)
         except CounterpoiseError as exc:
             return render(request, "trim.html", 422, **await run_in_threadpool(
-                _trim_context, d, values, result, {"": str(exc)}))
+                _trim_context, d, values, result, {"": str(exc)}, store))
         request.session.pop(key, None)
         return RedirectResponse(f"/jobs/{_quote(number)}?done=trim", status_code=303)
+
+    def _record_trim(d, result, store, user):
+        """The trim as a new row; with ``store``, its updated coefficients as a new set of the job's type in
+        the same transaction, when that is offered (refused in words when it is not)."""
+        from toolkit.errors import BadInput
+        from toolkit.web import trim as TRIM
+
+        coefficients = parent = None
+        if store:
+            offer = TRIM.store_offer(d, TRIM.basis(d, reg), reg)
+            if not (offer and offer["offered"]):
+                raise BadInput("the trim's coefficients cannot be stored as a rotor type's set: "
+                               + (offer["why"] if offer else "a machine trim has no influence coefficients"))
+            coefficients, parent = TRIM.updated_coefficients(result), offer["parent"]
+        return R.record_trim(reg, d["order_number"], result["kind"], result, by=user["name"], source="browser",
+                             coefficients=coefficients, parent_id=parent)
 
     async def job_file(request):
         need_user(request)

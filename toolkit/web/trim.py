@@ -8,6 +8,14 @@ updated from what the installed correction did (:func:`toolkit.coefficients.trim
 the readings after it. A later trim starts from the previous trim's updated coefficients, its readings and
 its correction. A job of balancing-machine readings has no coefficients (the machine measures per plane):
 its trim is the job worked again by the same chain with the readings after the correction.
+
+A job solved from a stored coefficient set of the register (one-run balancing) trims from that set. When
+the job's rotor type has stored coefficients, a recorded coefficient trim may also store its updated
+coefficients as a new set of the type (:func:`store_offer`, :func:`toolkit.register.records.record_trim`).
+
+An error goes beside the field its parameter names (``before``, ``installed``, ``after``); an item of a
+field (the library's ``after 2``, the second reading, or ``installed near``, that plane's mass; this
+module's own ``after[3]``, the field's third line) is worded as its line in the field.
 """
 
 from __future__ import annotations
@@ -15,7 +23,7 @@ from __future__ import annotations
 import re
 import tomllib
 
-__all__ = ["TRIM_FIELDS", "basis", "compute"]
+__all__ = ["TRIM_FIELDS", "basis", "compute", "store_offer", "updated_coefficients"]
 
 #: (name, label, help) of the trim form's fields; each is one entry per line.
 TRIM_FIELDS = (
@@ -28,8 +36,13 @@ TRIM_FIELDS = (
      "one per sensor, as the instrument shows them, e.g. 0.8 mm/s@120"),)
 
 
+def _numbered(text) -> list[tuple[int, str]]:
+    """The field's lines that are not blank, each with its line number in the field (1-based)."""
+    return [(n, line.strip()) for n, line in enumerate(str(text or "").splitlines(), 1) if line.strip()]
+
+
 def _lines(text) -> list[str]:
-    return [line.strip() for line in str(text or "").splitlines() if line.strip()]
+    return [line for _n, line in _numbered(text)]
 
 
 def _coefficients_data(c) -> dict:
@@ -50,6 +63,12 @@ def _coefficients(d: dict):
                         note=d["note"])
 
 
+def updated_coefficients(result: dict):
+    """The :class:`~toolkit.coefficients.Coefficients` a coefficient trim's ``result`` (:func:`compute`)
+    updated, to store as a set."""
+    return _coefficients(result["updated_coefficients"])
+
+
 def _vec(amount: float, angle: float, unit: str) -> str:
     from toolkit.units import format_number
 
@@ -62,12 +81,25 @@ def _job(detail: dict):
     return parse_job(detail["job_text"], f"job {detail['order_number']}")
 
 
-def basis(detail: dict) -> dict:
+def _job_set(detail: dict) -> int | None:
+    """The register's coefficient set a job was solved from (one-run balancing), or None."""
+    from toolkit.register.oneshot import referenced_set
+
+    measurement = tomllib.loads(detail["job_text"]).get("measurement") or {}
+    return referenced_set(measurement.get("coefficients")) if measurement.get("kind") == "coefficients" else None
+
+
+def basis(detail: dict, reg=None) -> dict:
     """What a new trim of the job ``detail`` (:func:`toolkit.register.records.job_detail`) starts from:
     ``kind`` (coefficients or machine), the sensor or plane names, the prefilled fields, the coefficients
-    (their data) for a trial-run job, and the step number. A job whose inputs can no longer be read (a
-    coefficients file that is gone) raises :class:`~toolkit.errors.BadInput`."""
+    (their data) for a trial-run job, the step number, ``parent_set`` (the newest register coefficient set
+    among the coefficients' ancestors: a set stored by an earlier trim of the job, or the set the job was
+    solved from; None when there is none) and ``started_from`` (those coefficients in words). A job solved
+    from a register set needs ``reg``. A job whose inputs can no longer be read (a coefficients file that is
+    gone) raises :class:`~toolkit.errors.BadInput`."""
     import cmath
+
+    from toolkit.errors import BadInput
 
     wo = detail["workorder"]
     trims = detail.get("trims") or []
@@ -79,11 +111,31 @@ def basis(detail: dict) -> dict:
         before = last["after"] if last else [f"{p['name']}={_vec(p['initial_g_mm'], p['initial_deg'], 'g·mm')}"
                                              for p in wo["planes"]]
         return {"kind": kind, "step": step, "names": planes, "values": {"before": "\n".join(before),
-                "installed": "", "after": ""}, "coefficients": None}
+                "installed": "", "after": ""}, "coefficients": None, "parent_set": None, "started_from": ""}
+    job_set = _job_set(detail)
+    stored = [t["data"]["coefficient_set"]["set"] for t in trims if t["data"].get("coefficient_set")]
+    parent = stored[-1] if stored else job_set
     if trims:
         last = trims[-1]["data"]
         coefficients = last["updated_coefficients"]
         before, installed = last["after"], last["trim_installed"]
+        started_from = f"trim {trims[-1]['step']}'s updated coefficients"
+        if last.get("coefficient_set"):
+            started_from += f" (coefficient set {last['coefficient_set']['set']})"
+        return {"kind": kind, "step": step, "names": list(coefficients["sensors"]),
+                "values": {"before": "\n".join(before), "installed": "\n".join(installed), "after": ""},
+                "coefficients": coefficients, "parent_set": parent, "started_from": started_from}
+    left_on: dict = {}
+    if job_set is not None:  # one-run balancing: the register's set, and the job's original run
+        if reg is None:
+            raise BadInput(f"job {detail['order_number']} was solved from coefficient set {job_set} of the "
+                           "register; give the register")
+        from toolkit.register.records import coefficient_set
+
+        coefficients = _coefficients_data(coefficient_set(reg, job_set)["coefficients"])
+        measurement = tomllib.loads(detail["job_text"])["measurement"]
+        before = [str(r) for r in measurement.get("original", [])]
+        started_from = f"coefficient set {job_set} of the register"
     else:
         from toolkit.coefficients import coefficients_from
         from toolkit.influence import Settings, solve_runs
@@ -91,73 +143,133 @@ def basis(detail: dict) -> dict:
 
         job = _job(detail)
         m = job.measurement
-        left_on: dict = {}
         if m.kind == "coefficients":  # a job solved from a stored coefficients file: those, and its original run
             from toolkit.coefficients import load_coefficients
 
             coefficients = _coefficients_data(load_coefficients(m.coefficients))
             before = list(m.original)
+            started_from = "the job's stored coefficients file"
         else:
             runset = runs_from_dict(dict(m.runs), f"job {detail['order_number']} [measurement]")
             solution = solve_runs(runset, settings=Settings(**m.thresholds))
             coefficients = _coefficients_data(coefficients_from(solution, note=f"job {detail['order_number']}"))
             before = list(m.raw["run"][0]["readings"])
+            started_from = "the job's trial-mass runs"
             if runset.trials_left_on and runset.runs:  # the last run's trial masses stay on: installed too
                 left_on = dict(runset.runs[-1].trials)
-        installed = []
-        for p in wo["planes"]:  # the planned operations' effect, as a mass at the plane's correction radius
-            z = sum((cmath.rect(op["unbalance_g_mm"] * (1 if op["action"] == "add" else -1),
-                                cmath.pi * op["angle_deg"] / 180.0) for op in p["operations"]), 0j)
-            z += left_on.get(p["name"], 0j) * float(p["radius_mm"])
-            if abs(z) > 0:
-                grams, angle = abs(z) / float(p["radius_mm"]), cmath.phase(z) * 180.0 / cmath.pi
-                installed.append(f"{p['name']}={_vec(grams, angle, 'g')}")
+    installed = []
+    for p in wo["planes"]:  # the planned operations' effect, as a mass at the plane's correction radius
+        z = sum((cmath.rect(op["unbalance_g_mm"] * (1 if op["action"] == "add" else -1),
+                            cmath.pi * op["angle_deg"] / 180.0) for op in p["operations"]), 0j)
+        z += left_on.get(p["name"], 0j) * float(p["radius_mm"])
+        if abs(z) > 0:
+            grams, angle = abs(z) / float(p["radius_mm"]), cmath.phase(z) * 180.0 / cmath.pi
+            installed.append(f"{p['name']}={_vec(grams, angle, 'g')}")
     return {"kind": kind, "step": step, "names": list(coefficients["sensors"]),
             "values": {"before": "\n".join(before), "installed": "\n".join(installed), "after": ""},
-            "coefficients": coefficients}
+            "coefficients": coefficients, "parent_set": parent, "started_from": started_from}
 
 
-def _field_of(message: str) -> str:
-    head = message.split(":", 1)[0]
-    for name in ("installed", "after", "before"):
-        if head.startswith(name) or f" {name}" in head:
-            return name
-    return ""
+#: What must agree between a trim's coefficients and the rotor type's newest set before they may be stored
+#: as the type's next set (one-run balancing reads a rotor's readings in these).
+_SAME = (("sensors", "sensors"), ("planes", "planes"), ("reading_unit", "reading unit"),
+         ("weight_angles", "weight-angle sense"), ("phase", "instrument phase"))
 
 
-def compute(detail: dict, values: dict) -> tuple[dict | None, dict]:
+def store_offer(detail: dict, b: dict, reg) -> dict | None:
+    """Whether a coefficient trim of job ``detail`` (its :func:`basis` ``b``) may store its updated
+    coefficients as a new set of the job's rotor type: ``{offered, type, parent, latest, why}`` (``why`` says
+    why not), or None for a machine trim."""
+    from toolkit.errors import CounterpoiseError
+    from toolkit.register.records import latest_coefficients
+
+    if b["kind"] != "coefficients":
+        return None
+    offer = {"offered": False, "type": detail.get("type"), "parent": b["parent_set"], "latest": None, "why": ""}
+    if not offer["type"]:
+        return {**offer, "why": "the job has no rotor type in the register"}
+    try:
+        latest, newest, _created = latest_coefficients(reg, offer["type"])
+    except CounterpoiseError:
+        return {**offer, "why": f"rotor type {offer['type']} has no stored coefficient set"}
+    mine = b["coefficients"]
+    for key, words in _SAME:
+        theirs = list(getattr(newest, key)) if key in ("sensors", "planes") else getattr(newest, key)
+        if mine[key] != theirs:
+            return {**offer, "latest": latest, "why": f"the job's {words} ({_listed(mine[key])}) differ from "
+                                                      f"those of set {latest} of type {offer['type']} "
+                                                      f"({_listed(theirs)})"}
+    return {**offer, "offered": True, "latest": latest}
+
+
+def _listed(value) -> str:
+    return ", ".join(value) if isinstance(value, list) else str(value)
+
+
+_LINE = re.compile(r"(before|installed|after)\[(\d+)\]")
+
+
+def _placed(exc, items: dict) -> dict:
+    """``{field: words}``: the error beside the field its parameter names, an item as its line in the field
+    (``items``: field -> item -> line); an error about none of the fields goes above the form (``""``)."""
+    labels = {name: label for name, label, _h in TRIM_FIELDS}
+    parameter = exc.parameter or ""
+    text = exc.text(lambda p: labels.get(p, p))
+    line = _LINE.fullmatch(parameter)
+    if line:  # this module's own: the field's line
+        return {line[1]: f"line {line[2]}: {text}"}
+    field, _, item = parameter.partition(" ")
+    if field not in labels:
+        return {"": str(exc)}
+    if not item:
+        return {field: text}
+    lines = items.get(field, {})
+    at = lines.get(item) or lines.get(item.removesuffix(" angle"))  # "after 2 angle": the 2nd reading's angle
+    return {field: f"line {at}: {text}" if at else f"{item}: {text}"}
+
+
+def compute(detail: dict, values: dict, reg=None) -> tuple[dict | None, dict]:
     """The trim of job ``detail`` from the form ``values`` (before, installed, after): ``(result,
     errors by field)``. The result is JSON-able and is what :func:`toolkit.register.records.record_trim`
-    keeps."""
+    keeps. ``reg`` is needed for a job solved from a register coefficient set."""
     from toolkit.errors import CounterpoiseError
 
-    b = basis(detail)
-    after = _lines(values.get("after"))
-    if not after:
+    b = basis(detail, reg)
+    numbered = {name: _numbered(values.get(name)) for name, _l, _h in TRIM_FIELDS}
+    if not numbered["after"]:
         return None, {"after": "give the readings after the correction, one per line"}
+    # a reading's item (its place among the readings given, "2") to its line in the field
+    items = {name: {str(i): n for i, (n, _t) in enumerate(numbered[name], 1)} for name in ("before", "after")}
     try:
         if b["kind"] == "machine":
-            return _machine(detail, b, after), {}
-        return _coefficient_trim(detail, b, _lines(values.get("before")), _lines(values.get("installed")),
-                                 after), {}
+            return _machine(detail, b, numbered["after"]), {}
+        items["installed"] = {}
+        return _coefficient_trim(detail, b, [t for _n, t in numbered["before"]], numbered["installed"],
+                                 [t for _n, t in numbered["after"]], items["installed"]), {}
     except CounterpoiseError as exc:
-        text = str(exc)
-        text = text.split(": ", 1)[-1] if text.startswith("job ") else text
-        field = _field_of(text) or "after"
-        return None, {field: re.sub(r"^(before|after) (\d+):", r"line \2:", text)}  # "after 2": its 2nd reading
+        return None, _placed(exc, items)
 
 
-def _coefficient_trim(detail, b, before, installed_lines, after) -> dict:
+def _coefficient_trim(detail, b, before, installed_lines, after, planes_at: dict) -> dict:
+    """``installed_lines``: (line, text) pairs; ``planes_at`` gets each plane's line (for the errors)."""
     from toolkit.coefficients import trim_correction
     from toolkit.errors import BadInput
 
+    planes = b["coefficients"]["planes"]
+    if not installed_lines:
+        raise BadInput.about("installed", f"give the correction installed, PLANE=MASS@ANGLE one per line, e.g. "
+                                          f"{planes[0]}=6 g@255")
     installed = {}
-    for line in installed_lines:
-        plane, eq, mass = line.partition("=")
-        if not eq or not plane.strip() or not mass.strip():
-            raise BadInput(f"installed: {line!r} is not PLANE=MASS@ANGLE, e.g. "
-                           f"{b['coefficients']['planes'][0]}=6 g@255")
-        installed[plane.strip()] = mass.strip()
+    for n, line in installed_lines:
+        plane, eq, mass = (part.strip() for part in line.partition("="))
+        if not eq or not plane or not mass:
+            raise BadInput.about(f"installed[{n}]", f"{line!r} is not PLANE=MASS@ANGLE, e.g. {planes[0]}=6 g@255")
+        if plane not in planes:
+            raise BadInput.about(f"installed[{n}]", f"unknown plane {plane!r}; planes are {', '.join(planes)}")
+        if plane in planes_at:
+            raise BadInput.about(f"installed[{n}]", f"plane {plane} is given on line {planes_at[plane]} already")
+        installed[plane], planes_at[plane] = mass, n
+    installed_lines = [line for _n, line in installed_lines]
     coefficients = _coefficients(b["coefficients"])
     trim = trim_correction(coefficients, before, installed, after, origin=f"job {detail['order_number']}")
     s = trim.solution
@@ -183,31 +295,52 @@ def _angle(z: complex) -> float:
     return (cmath.phase(z) * 180.0 / cmath.pi) % 360.0
 
 
-def _machine(detail, b, after) -> dict:
-    """The job worked again with the readings after the correction (a balancing machine measures per plane)."""
+def _machine_reading(text: str, name: str) -> None:
+    """Refuse a machine reading the job could not read (an unbalance, or a mass at the plane's radius), as an
+    error about ``name``; the job's own reader reads it again when the trim is built."""
     from toolkit.errors import BadInput
+    from toolkit.vectors import parse_vector
+
+    try:
+        parse_vector(text, "unbalance", name)
+    except BadInput as exc:
+        try:
+            parse_vector(text, "mass", name)
+        except BadInput:
+            raise BadInput.about(name, f"{exc.text()}; a mass at the plane's correction radius is read too, "
+                                       "e.g. 4.1 g@300") from None
+
+
+def _machine(detail, b, after) -> dict:
+    """The job worked again with the readings after the correction (a balancing machine measures per plane).
+    ``after``: (line, text) pairs."""
+    from toolkit.errors import BadInput, CounterpoiseError
     from toolkit.workorder.build import build_order
-    from toolkit.workorder.job import job_from_data
+    from toolkit.workorder.job import job_from_data, job_key_names
 
     planes = b["names"]
-    readings = {}
-    for line in after:
-        plane, eq, reading = line.partition("=")
+    readings, lines = {}, {}
+    for n, line in after:
+        plane, eq, reading = (part.strip() for part in line.partition("="))
         if not eq and len(after) == len(planes):
             plane, reading = planes[len(readings)], line
-        if plane.strip() not in planes:
-            raise BadInput(f"after: {line!r}: give PLANE=AMOUNT@ANGLE with a plane of the job "
-                           f"({', '.join(planes)}), e.g. {planes[0]}=4.1 g@300")
-        readings[plane.strip()] = reading.strip()
+        if plane not in planes:
+            raise BadInput.about(f"after[{n}]", f"{line!r}: give PLANE=AMOUNT@ANGLE with a plane of the job "
+                                                f"({', '.join(planes)}), e.g. {planes[0]}=4.1 g@300")
+        if plane in readings:
+            raise BadInput.about(f"after[{n}]", f"plane {plane} is given on line {lines[plane]} already")
+        _machine_reading(reading, f"after[{n}]")
+        readings[plane], lines[plane] = reading, n
     missing = [p for p in planes if p not in readings]
     if missing:
-        raise BadInput(f"after: no reading for plane(s) {', '.join(missing)}")
+        raise BadInput.about("after", f"no reading for plane(s) {', '.join(missing)}")
     data = tomllib.loads(detail["job_text"])
     data["measurement"] = {"kind": "machine", "shows": "heavy spot", "readings": readings}
+    job = job_from_data(data, f"trim of job {detail['order_number']}", what="the trim")
     try:
-        order = build_order(job_from_data(data, f"trim of job {detail['order_number']}", what="the trim"))
-    except BadInput as exc:
-        raise BadInput(f"after: {str(exc).split(': ', 1)[-1]}") from None
+        order = build_order(job)
+    except CounterpoiseError as exc:  # about the job's own keys (a wall, a drill set): in the job's words
+        raise BadInput(f"the trim correction cannot be made: {exc.worded(job_key_names(job))}") from None
     return {"kind": "machine", "step": b["step"], "before": _lines(b["values"]["before"]),
             "installed": [], "after": [f"{k}={v}" for k, v in readings.items()],
             "planes": [{"plane": p.name, "after_g_mm": p.initial_g_mm, "after_deg": p.initial_deg,
